@@ -1,0 +1,1 @@
+"""The ``geo-corrosion`` command line (thin: parses options, calls the library)."""

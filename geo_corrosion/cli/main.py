@@ -1,0 +1,189 @@
+"""``geo-corrosion``: the command group and its commands."""
+
+from __future__ import annotations
+
+import functools
+import json
+import sys
+import traceback
+from collections.abc import Callable
+from pathlib import Path
+from typing import Any, TypeVar
+
+import click
+
+from geo_corrosion.cli.options import out_opt, overwrite_opt, quiet_opt, run_dir_arg, site_arg
+from geo_corrosion.errors import GeoCorrosionError
+
+F = TypeVar("F", bound=Callable[..., Any])
+
+
+def errors_handler(f: F) -> F:
+    """Turn our errors into one clear message and a non-zero exit, never a traceback."""
+
+    @functools.wraps(f)
+    def wrapper(*args: Any, **kwargs: Any) -> Any:
+        try:
+            return f(*args, **kwargs)
+        except GeoCorrosionError as err:
+            raise click.ClickException(str(err)) from err
+        except KeyboardInterrupt:
+            raise click.ClickException("interrupted; nothing was written") from None
+        except Exception as err:  # noqa: BLE001 - last line of defence for users
+            if click.get_current_context().find_root().params.get("debug"):
+                raise
+            raise click.ClickException(
+                f"internal error: {type(err).__name__}: {err}\n"
+                "Nothing was written. Re-run with --debug for the details and report it."
+            ) from err
+
+    return wrapper  # type: ignore[return-value]
+
+
+def _progress(quiet: bool) -> Callable[[str], None] | None:
+    if quiet:
+        return None
+    return lambda msg: click.echo(f"  {msg}", err=True)
+
+
+@click.group(context_settings={"help_option_names": ["-h", "--help"]})
+@click.option("--debug", is_flag=True, help="Show tracebacks of internal errors.")
+@click.option("--show-versions", is_flag=True, is_eager=True, expose_value=False,
+              callback=lambda ctx, _p, v: _show_versions(ctx) if v else None,
+              help="Print versions of geo_corrosion and its libraries, then exit.")
+@click.version_option(package_name="geo_corrosion")
+def cli(debug: bool) -> None:
+    """Corrosion condition survey of a reinforced-concrete deck -> repair documents.
+
+    Start with `geo-corrosion init DIR`, fill in the site file, then
+    `geo-corrosion check DIR` and `geo-corrosion run DIR`.
+    """
+
+
+def _show_versions(ctx: click.Context) -> None:
+    from geo_corrosion.pipeline import _versions
+
+    for k, v in _versions().items():
+        click.echo(f"{k:>14}: {v}")
+    ctx.exit(0)
+
+
+@cli.command()
+@click.argument("directory", type=click.Path(path_type=Path))
+@errors_handler
+def init(directory: Path) -> None:
+    """Write a commented site-file template into DIRECTORY."""
+    from importlib.resources import files
+
+    directory.mkdir(parents=True, exist_ok=True)
+    target = directory / "site.toml"
+    if target.exists():
+        raise click.ClickException(f"{target} already exists; not overwritten")
+    text = files("geo_corrosion").joinpath("templates/site.toml").read_text(encoding="utf-8")
+    tmp = target.with_suffix(".toml.tmp")
+    tmp.write_text(text, encoding="utf-8")
+    tmp.replace(target)
+    for sub in ("plans", "sounding", "readings"):
+        (directory / sub).mkdir(exist_ok=True)
+    click.echo(f"wrote {target}; put plans, sounding sketches and readings beside it, then run "
+               f"`geo-corrosion check {directory}`")
+
+
+@cli.command()
+@site_arg
+@quiet_opt
+@errors_handler
+def check(site: Path, quiet: bool) -> None:
+    """Check a site: read every file, apply corrections, print the QA findings.
+
+    Exits 0 when the site can be run, 1 when it cannot.
+    """
+    from geo_corrosion import qa
+    from geo_corrosion.pipeline import check_site
+    from geo_corrosion.site import open_site
+
+    s = open_site(site, progress=_progress(quiet))
+    flags = check_site(s)
+    for lv in s.levels.values():
+        g = lv.grid
+        click.echo(f"level {lv.id}: grid tie rotation {g.rotation_deg:.4f} deg, scale {g.scale:.6f}, "
+                   f"RMS control-point residual {g.rms_residual:.4f} {g.crs_unit}")
+    for sv in s.surveys:
+        click.echo(f"survey {sv.id}: {len(sv.frame)} {sv.kind.name} readings "
+                   f"({sv.kind.canonical_unit})")
+    if len(flags):
+        click.echo(f"\nQA findings ({len(flags)}):")
+        order = {"error": 0, "warning": 1, "info": 2}
+        for r in sorted(flags.itertuples(), key=lambda r: (order.get(r.severity, 3), r.where)):
+            click.echo(f"  {r.severity:<7} {r.rule:<18} {r.where}: {r.message}")
+        click.echo("")
+        click.echo(qa.summarize(flags).to_string(index=False))
+    ok = not len(flags) or qa.runnable(flags)
+    click.echo("\nthe site can be run" if ok else "\nthe site CANNOT be run: fix the errors above")
+    sys.exit(0 if ok else 1)
+
+
+@cli.command()
+@site_arg
+@out_opt
+@overwrite_opt
+@quiet_opt
+@errors_handler
+def run(site: Path, out: Path | None, overwrite: bool, quiet: bool) -> None:
+    """Run the whole job on SITE and write the output folder."""
+    from geo_corrosion.config import read_site
+    from geo_corrosion.pipeline import run as run_site
+
+    cfg = read_site(site)
+    out = out or (cfg.root / "out")
+    result = run_site(cfg, out, overwrite=overwrite, progress=_progress(quiet))
+    click.echo(f"wrote {out}")
+    for f in sorted(result.files) + ["run.json"]:
+        click.echo(f"  {f}")
+    if len(result.schedule):
+        click.echo("")
+        click.echo(result.schedule.to_string(index=False))
+
+
+@cli.command()
+@run_dir_arg
+@errors_handler
+def quantities(run_dir: Path) -> None:
+    """Reprint the bid schedule of an existing run (no recomputation)."""
+    man = run_dir / "run.json"
+    if not man.is_file():
+        raise click.ClickException(f"{run_dir} holds no run.json; is it the output of `geo-corrosion run`?")
+    data = json.loads(man.read_text(encoding="utf-8"))
+    rows = data.get("schedule", [])
+    if not rows:
+        click.echo("no quantities in this run")
+        return
+    import pandas as pd
+
+    click.echo(pd.DataFrame(rows).to_string(index=False))
+    click.echo("\n" + data["cautions"][3])
+
+
+@cli.command()
+@errors_handler
+def plugins() -> None:
+    """List measurement kinds, zoning rules and exporters, with broken plugins."""
+    from geo_corrosion.plugins import REGISTRIES, BrokenPlugin
+
+    for group, reg in REGISTRIES.items():
+        click.echo(f"{group}:")
+        for name, p in sorted(reg.load().items()):
+            if isinstance(p, BrokenPlugin):
+                click.echo(f"  {name:<18} BROKEN ({p.value})\n{p.error}")
+            else:
+                desc = getattr(p, "description", "") or (getattr(p, "label", "") or
+                                                         (p.__doc__ or "").strip().split("\n")[0])
+                click.echo(f"  {name:<18} {desc}")
+
+
+def main() -> None:  # pragma: no cover
+    cli()
+
+
+if __name__ == "__main__":  # pragma: no cover
+    main()

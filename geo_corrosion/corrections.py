@@ -1,0 +1,151 @@
+"""Corrections applied once, at ingest, and recorded per reading.
+
+* Reference electrode conversion to CSE from the electrodes' potentials vs SHE
+  (REFERENCE.md §1.4, sourced): ``E_vs_B = E_vs_A + (E_A/SHE - E_B/SHE)``.
+* CSE temperature correction after ASTM C876-22a §5.1.1.2 (sourced): the CSE
+  reads about 0.5 mV/°F = 0.9 mV/°C more negative per degree of warming, valid
+  0 to 49 °C; corrected to the reference temperature 22.2 °C (72 °F):
+  ``E(T_ref) = E + k (T - T_ref)``.
+* Arrhenius correction of resistivity to a reference temperature (REFERENCE.md
+  §2.3): ``rho(T_ref) = rho(T) exp[(Ea/R)(1/T_ref - 1/T)]``.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+from geo_corrosion.errors import UnitError
+
+__all__ = [
+    "Electrode",
+    "ELECTRODES",
+    "electrode",
+    "electrode_offset_mv",
+    "convert_potential",
+    "CSE_K_MV_PER_C",
+    "CSE_T_REF_C",
+    "CSE_BAND_C",
+    "cse_temperature_correction_mv",
+    "arrhenius_factor",
+    "GAS_CONSTANT",
+]
+
+
+@dataclass(frozen=True)
+class Electrode:
+    """A reference electrode with its potential vs SHE at 25 °C."""
+
+    code: str
+    name: str
+    e_vs_she_mv: float
+    source: str
+
+
+#: Reference electrodes accepted in a site file (codes are ours, case-insensitive).
+ELECTRODES: dict[str, Electrode] = {
+    e.code: e
+    for e in (
+        Electrode("cse", "Cu/CuSO4, saturated (CSE)", 316.0,
+                  "Hindawi Int. J. Corrosion 2010, Table 2 (REFERENCE.md §1.4)"),
+        Electrode("ag_agcl_sat_kcl", "Ag/AgCl in saturated KCl", 197.0,
+                  "consultrsr.net; Hindawi 2010 (REFERENCE.md §1.4)"),
+        Electrode("ag_agcl_3m_kcl", "Ag/AgCl in 3 M KCl", 210.0,
+                  "consultrsr.net (REFERENCE.md §1.4)"),
+        Electrode("sce", "Saturated calomel (SCE)", 241.0,
+                  "consultrsr.net; Hindawi 2010 (REFERENCE.md §1.4)"),
+        Electrode("she", "Standard hydrogen electrode (SHE)", 0.0, "definition"),
+    )
+}
+
+CSE_K_MV_PER_C = 0.9  # ASTM C876-22a §5.1.1.2: 0.0005 V/°F = 0.9 mV/°C (sourced)
+CSE_T_REF_C = 22.2  # ASTM C876-22a §4.7: 72 °F
+CSE_BAND_C = 5.5  # ASTM C876-22a §4.7: ±10 °F within which temperature may be neglected
+CSE_VALID_C = (0.0, 49.0)  # ASTM C876-22a §5.1.1.2: 32 °F to 120 °F
+GAS_CONSTANT = 8.314  # J/(mol K)
+
+
+def electrode(code: str, *, where: str = "") -> Electrode:
+    """Return the electrode for a code; unknown codes raise (never a silent default).
+
+    Raises
+    ------
+    UnitError
+        If the code is unknown (REFERENCE.md REF-05).
+    """
+    key = str(code).strip().lower().replace("-", "_").replace("/", "_")
+    if key not in ELECTRODES:
+        raise UnitError(
+            f"{where}unknown reference electrode {code!r}; expected one of: "
+            f"{', '.join(ELECTRODES)}"
+        )
+    return ELECTRODES[key]
+
+
+def electrode_offset_mv(from_code: str, to_code: str = "cse") -> float:
+    """Return the offset (mV) to add to a potential vs ``from_code`` to express it vs ``to_code``.
+
+    Examples
+    --------
+    >>> electrode_offset_mv("ag_agcl_sat_kcl")  # REFERENCE.md §1.4: -119 mV
+    -119.0
+    """
+    return electrode(from_code).e_vs_she_mv - electrode(to_code).e_vs_she_mv
+
+
+def convert_potential(values_mv: ArrayLike, from_code: str, to_code: str = "cse") -> NDArray[np.float64]:
+    """Convert potentials (mV) from one reference electrode to another."""
+    return np.asarray(values_mv, dtype=float) + electrode_offset_mv(from_code, to_code)
+
+
+def cse_temperature_correction_mv(
+    temperature_c: float,
+    *,
+    k_mv_per_c: float = CSE_K_MV_PER_C,
+    t_ref_c: float = CSE_T_REF_C,
+    only_outside_band: bool = False,
+    band_c: float = CSE_BAND_C,
+) -> float:
+    """Return the correction (mV) to add to a CSE reading taken at an electrode temperature.
+
+    Parameters
+    ----------
+    temperature_c : float, °C
+        Electrode temperature during the readings.
+    k_mv_per_c : float, mV/°C
+        Temperature coefficient of the CSE (ASTM C876: 0.9).
+    t_ref_c : float, °C
+        Reference temperature (ASTM C876: 22.2).
+    only_outside_band : bool
+        If true, no correction within ``t_ref_c ± band_c`` (C876 §4.7 allows neglecting it).
+
+    Examples
+    --------
+    >>> round(-350 + cse_temperature_correction_mv(32.2), 6)  # REFERENCE.md HCP-03
+    -341.0
+    """
+    dt = float(temperature_c) - t_ref_c
+    if only_outside_band and abs(dt) <= band_c:
+        return 0.0
+    return k_mv_per_c * dt
+
+
+def arrhenius_factor(
+    temperature_c: ArrayLike, *, t_ref_c: float = 20.0, ea_kj_mol: float = 25.0
+) -> NDArray[np.float64]:
+    """Return the factor that brings a resistivity at ``temperature_c`` to ``t_ref_c``.
+
+    ``rho(T_ref) = rho(T) * arrhenius_factor(T)``.
+
+    Examples
+    --------
+    >>> round(10.0 * float(arrhenius_factor(10.0)), 3)  # REFERENCE.md RES-07
+    6.961
+    """
+    t = np.asarray(temperature_c, dtype=float) + 273.15
+    t_ref = t_ref_c + 273.15
+    return np.exp(ea_kj_mol * 1000.0 / GAS_CONSTANT * (1.0 / t_ref - 1.0 / t))
+
+

@@ -1,0 +1,40 @@
+"""The exporter plugin interface.
+
+An exporter writes part of a :class:`~geo_corrosion.results.RunResult` into the
+run's output folder (a temporary folder that becomes the output only when the
+whole run succeeds).  Register third-party exporters under the entry-point
+group ``geo_corrosion.exporters``.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import TYPE_CHECKING, ClassVar
+
+if TYPE_CHECKING:
+    from geo_corrosion.results import RunResult
+
+__all__ = ["Exporter"]
+
+
+class Exporter:
+    """Base class of exporters.
+
+    Class attributes
+    ----------------
+    name : str
+        Registry name.
+    description : str
+    default : bool
+        Whether ``geo-corrosion run`` uses it without being asked.
+    api_version : int
+    """
+
+    name: ClassVar[str] = ""
+    description: ClassVar[str] = ""
+    default: ClassVar[bool] = True
+    api_version: ClassVar[int] = 1
+
+    def export(self, result: RunResult, out_dir: Path) -> list[Path]:
+        """Write files into ``out_dir``; return the paths written."""
+        raise NotImplementedError

@@ -1,0 +1,86 @@
+"""Exporters of the tender documents: the quantities (CSV, XLSX) and the drawings (DXF)."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import TYPE_CHECKING, ClassVar
+
+import pandas as pd
+
+from geo_corrosion.cautions import CAUTIONS
+from geo_corrosion.exporters.base import Exporter
+from geo_corrosion.units import report_units
+
+if TYPE_CHECKING:
+    from geo_corrosion.results import RunResult
+
+__all__ = ["QuantitiesExporter", "DrawingsExporter", "QUANTITIES_CSV", "QUANTITIES_XLSX"]
+
+QUANTITIES_CSV = "quantities.csv"
+QUANTITIES_XLSX = "quantities.xlsx"
+
+
+def repair_table(result: RunResult, level_id: str) -> pd.DataFrame:
+    """Every repair of a level with its quantities in the reporting units."""
+    lr = result.levels[level_id]
+    u = report_units(result.site.config.units)
+    if lr.repairs is None or not len(lr.repairs):
+        return pd.DataFrame()
+    r = pd.DataFrame(lr.repairs.drop(columns="geometry"))
+    out = pd.DataFrame({"repair_id": r["repair_id"]})
+    if "depth_class" in r:
+        out["depth_class"] = r["depth_class"]
+    out[f"area_{u.area}"] = u.area_from_m2(r["area_m2"]).round(2)
+    if "perimeter_m" in r:
+        out[f"saw_cut_{u.length}"] = u.length_from_m(r["perimeter_m"]).round(2)
+    if "volume_m3" in r:
+        out[f"volume_{u.volume}"] = u.volume_from_m3(r["volume_m3"]).round(3)
+    if "source_ids" in r:
+        out["from"] = r["source_ids"]
+    return out
+
+
+class QuantitiesExporter(Exporter):
+    """Write ``quantities.csv`` (the bid schedule) and ``quantities.xlsx`` (schedule + repairs)."""
+
+    name: ClassVar[str] = "quantities"
+    description: ClassVar[str] = "bid schedule as CSV and XLSX workbook"
+
+    def export(self, result: RunResult, out_dir: Path) -> list[Path]:
+        """Write the schedule files."""
+        from geo_corrosion.exporters.xlsx import write_schedule_xlsx
+        from geo_corrosion.quantities import write_quantities_csv
+
+        units = report_units(result.site.config.units)
+        paths = [write_quantities_csv(result.schedule, out_dir / QUANTITIES_CSV)]
+        paths.append(write_schedule_xlsx(
+            out_dir / QUANTITIES_XLSX, result.schedule,
+            {lid: repair_table(result, lid) for lid in result.levels},
+            units=units, cautions=list(CAUTIONS),
+            title=f"{result.site.config.name}: schedule of repair quantities"))
+        return paths
+
+
+class DrawingsExporter(Exporter):
+    """Write one DXF drawing per level with the repair layout."""
+
+    name: ClassVar[str] = "drawings"
+    description: ClassVar[str] = "repair layout drawings as DXF, one per level"
+
+    def export(self, result: RunResult, out_dir: Path) -> list[Path]:
+        """Write the DXF files."""
+        from geo_corrosion.exporters.dxf import write_level_dxf
+
+        ddir = out_dir / "drawings"
+        ddir.mkdir(exist_ok=True)
+        paths = []
+        for lid, lr in result.levels.items():
+            lv = lr.level
+            paths.append(write_level_dxf(
+                ddir / f"{lid}_repairs.dxf", slab=lv.slab, exclusions=lv.exclusion_polygons(),
+                joints=[j.geometry for j in lv.joints], repairs=lr.repairs, zones=None,
+                delaminations=[f.geometry for k in ("delamination", "spall")
+                               for f in lv.overlays.get(k, ())],
+                unit=lv.unit, title=f"{result.site.config.name} - {lv.config.name}",
+                cautions=list(CAUTIONS)))
+        return paths

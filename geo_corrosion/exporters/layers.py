@@ -1,0 +1,114 @@
+"""Vector layers of a run in the site CRS, shared by the GeoPackage and the web map.
+
+Layer names are ``<level>_<what>`` (e.g. ``L2_repairs``), plus ``qa_flags`` for
+the whole site.  Every layer is a GeoDataFrame in the site CRS whose area and
+length columns carry their unit in the name.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+from typing import Any
+
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+from shapely.geometry.base import BaseGeometry
+
+from geo_corrosion.results import LevelResult, RunResult
+from geo_corrosion.units import LENGTH_TO_M
+
+__all__ = ["level_layers", "site_layers", "to_site_frame"]
+
+
+def to_site_frame(
+    rows: Iterable[dict[str, Any]], lr: LevelResult, crs: Any
+) -> gpd.GeoDataFrame:
+    """Build a site-CRS GeoDataFrame from rows whose ``geometry`` is in local grid coordinates."""
+    rows = list(rows)
+    if not rows:
+        return gpd.GeoDataFrame({"level_id": []}, geometry=[], crs=crs)
+    df = pd.DataFrame(rows)
+    geoms = [lr.level.grid.geom_to_site(g) for g in df.pop("geometry")]
+    df.insert(0, "level_id", lr.level.id)
+    return gpd.GeoDataFrame(df, geometry=geoms, crs=crs)
+
+
+def _feature_rows(feats: Iterable[Any], **extra: Any) -> list[dict[str, Any]]:
+    return [{"source": f.where, "label": f.label, **extra, "geometry": f.geometry} for f in feats]
+
+
+def level_layers(lr: LevelResult, crs: Any) -> dict[str, gpd.GeoDataFrame]:
+    """Every vector layer of one level, in the site CRS."""
+    lv = lr.level
+    a2 = LENGTH_TO_M[lv.unit] ** 2
+    out: dict[str, gpd.GeoDataFrame] = {}
+    out["slab"] = to_site_frame(
+        [{"name": lv.config.name, "area_m2": lv.slab.area * a2, "geometry": lv.slab}], lr, crs)
+    if lv.exclusions:
+        out["exclusions"] = to_site_frame(_feature_rows(lv.exclusions), lr, crs)
+    if lv.joints:
+        out["joints"] = to_site_frame(_feature_rows(lv.joints), lr, crs)
+    for kind, feats in lv.overlays.items():
+        rows = _feature_rows(feats, kind=kind)
+        for r in rows:
+            r["area_m2"] = r["geometry"].area * a2
+        out[{"delamination": "delaminations", "spall": "spalls", "patch": "patches",
+             "crack": "cracks"}[kind]] = to_site_frame(rows, lr, crs)
+    for name, s in lr.surfaces.items():
+        unit = s.kind.canonical_unit
+        out[f"contours_{name}"] = to_site_frame(
+            [{"value": v, "unit": unit, "geometry": g} for v, g in s.lines if not g.is_empty],
+            lr, crs)
+        out[f"bands_{name}"] = to_site_frame(
+            [{"value_from": lo, "value_to": hi, "unit": unit, "area_m2": g.area * a2, "geometry": g}
+             for lo, hi, g in s.bands if not g.is_empty], lr, crs)
+        if s.classes is not None and len(s.classes):
+            c = s.classes.copy()
+            c["area_m2"] = c.pop("area_local") * a2
+            out[f"classes_{name}"] = to_site_frame(c.to_dict("records"), lr, crs)
+        res = s.residuals
+        from shapely import points
+
+        out[f"cv_residuals_{name}"] = to_site_frame(
+            [{"reading_id": r, "residual": v, "unit": unit if s.kind.krige_transform is None
+              else "log", "geometry": g}
+             for r, v, g in zip(res["reading_id"], res["residual"],
+                                points(np.column_stack([res["x_local"], res["y_local"]])),
+                                strict=True)], lr, crs)
+    if lr.repairs is not None and len(lr.repairs):
+        rep = pd.DataFrame(lr.repairs.drop(columns="geometry"))
+        rep["geometry"] = list(lr.repairs.geometry)
+        if "level_id" in rep:
+            rep = rep.drop(columns="level_id")
+        out["repairs"] = to_site_frame(rep.to_dict("records"), lr, crs)
+    return out
+
+
+def site_layers(result: RunResult) -> dict[str, gpd.GeoDataFrame]:
+    """Every vector layer of a run: per-level layers, readings and QA flags."""
+    crs = result.site.crs
+    layers: dict[str, gpd.GeoDataFrame] = {}
+    for lid, lr in result.levels.items():
+        for name, gdf in level_layers(lr, crs).items():
+            layers[f"{lid}_{name}"] = gdf
+    kinds: dict[str, list[gpd.GeoDataFrame]] = {}
+    for s in result.site.surveys:
+        kinds.setdefault(s.kind.name, []).append(s.frame)
+    flags = result.flags
+    for kind, frames in kinds.items():
+        df = gpd.GeoDataFrame(pd.concat(frames, ignore_index=True), crs=crs)
+        if not flags.empty:
+            f = (flags[flags["reading_id"] != ""].groupby("reading_id")["rule"]
+                 .agg(lambda r: ",".join(sorted(set(r)))))
+            df["qa_flags"] = df["reading_id"].map(f).fillna("")
+        else:
+            df["qa_flags"] = ""
+        layers[f"readings_{kind}"] = df
+    if not flags.empty:
+        pts = {}
+        for s in result.site.surveys:
+            pts.update(zip(s.frame["reading_id"], s.frame.geometry, strict=True))
+        geoms: list[BaseGeometry | None] = [pts.get(r) for r in flags["reading_id"]]
+        layers["qa_flags"] = gpd.GeoDataFrame(flags.copy(), geometry=geoms, crs=crs)
+    return layers

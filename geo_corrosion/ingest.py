@@ -1,0 +1,202 @@
+"""Ingest: survey readings from CSV, GeoJSON and GeoPackage into one frame per survey.
+
+Our CSV layout (``docs/file-formats.md``): a header row, then one reading a row,
+with columns ``point_id, x, y, value`` and optionally ``temperature_c`` and
+``note``; x and y in the level's local grid (``coords = "local"``, the default)
+or in the site CRS (``coords = "site"``).  Files laid out differently are read
+through a column mapping in the site file; semicolon separators and decimal
+commas are handled.  Units are converted once, here, to the kind's canonical
+unit; the raw value and unit are kept beside it.
+
+Every reading frame follows one contract (see DEVELOPERS.md): ``reading_id``,
+``survey_id``, ``level_id``, ``row``, ``where``, ``point_id``, ``x_local``,
+``y_local``, ``geometry`` (site CRS), the kind's value column, ``raw_value``,
+``raw_unit``.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+from pathlib import Path
+
+import geopandas as gpd
+import numpy as np
+import pandas as pd
+import pyproj
+
+from geo_corrosion.config import SurveyConfig
+from geo_corrosion.crs import LocalGrid
+from geo_corrosion.errors import IngestError, SchemaError
+from geo_corrosion.measurements import MeasurementKind
+
+__all__ = ["read_readings", "OUR_COLUMNS", "READING_COLUMNS"]
+
+#: Our column names and whether each is required.
+OUR_COLUMNS = {"point_id": False, "x": True, "y": True, "value": True, "temperature_c": False,
+               "note": False}
+READING_COLUMNS = ["reading_id", "survey_id", "level_id", "row", "where", "point_id",
+                   "x_local", "y_local", "raw_value", "raw_unit"]
+
+
+def _rel(path: Path, root: Path | None) -> str:
+    try:
+        return str(path.relative_to(root)) if root else path.name
+    except ValueError:
+        return str(path)
+
+
+def _read_csv(cfg: SurveyConfig, name: str) -> tuple[pd.DataFrame, list[int]]:
+    text = cfg.path.read_text(encoding="utf-8-sig", errors="replace")
+    if not text.strip():
+        raise IngestError(f"{name}: the file is empty; expected a header row and readings")
+    try:
+        df = pd.read_csv(io.StringIO(text), sep=cfg.separator, dtype=str, keep_default_na=False,
+                         skipinitialspace=True, quoting=csv.QUOTE_MINIMAL, skip_blank_lines=True)
+    except pd.errors.ParserError as err:
+        raise IngestError(f"{name}: cannot read as CSV with separator {cfg.separator!r}: {err}") from err
+    if df.empty:
+        raise IngestError(f"{name}: the file has a header but no readings")
+    df.columns = [str(c).strip() for c in df.columns]
+    # line numbers in the file (header is line 1), counting skipped blank lines
+    lines = [i + 1 for i, ln in enumerate(text.splitlines()) if ln.strip()][1:]
+    return df, lines[: len(df)]
+
+
+def _read_vector(cfg: SurveyConfig, name: str, site_crs: pyproj.CRS) -> tuple[pd.DataFrame, list[int]]:
+    import pyogrio
+
+    if cfg.path.stat().st_size == 0:
+        raise IngestError(f"{name}: the file is empty")
+    try:
+        gdf = pyogrio.read_dataframe(cfg.path, layer=cfg.layer)
+    except Exception as err:
+        raise IngestError(f"{name}: cannot read point layer: {err}") from err
+    if gdf.empty:
+        raise IngestError(f"{name}: the layer holds no features")
+    bad = [i + 1 for i, g in enumerate(gdf.geometry) if g is None or g.geom_type != "Point"]
+    if bad:
+        raise SchemaError(f"{name}: feature(s) {bad[:5]} are not points; readings must be points")
+    if cfg.coords == "site":
+        if gdf.crs is None:
+            raise IngestError(f"{name}: the layer has no CRS; coords = \"site\" needs one")
+        if not gdf.crs.equals(site_crs):
+            gdf = gdf.to_crs(site_crs)
+    df = pd.DataFrame(gdf.drop(columns="geometry")).astype(str)
+    df["__x"] = gdf.geometry.x.astype(str)
+    df["__y"] = gdf.geometry.y.astype(str)
+    return df, list(range(1, len(df) + 1))
+
+
+def _numbers(series: pd.Series, col: str, decimal: str, name: str, rows: list[int], unit_row: str,
+             required: bool) -> np.ndarray:
+    s = series.astype(str).str.strip()
+    if decimal == ",":
+        s = s.str.replace(".", "", regex=False).str.replace(",", ".", regex=False)
+    blank = s.eq("") | s.str.lower().isin(["nan", "na", "none"])
+    vals = pd.to_numeric(s.where(~blank), errors="coerce")
+    bad = vals.isna() & ~blank
+    if bad.any():
+        i = int(np.flatnonzero(bad.to_numpy())[0])
+        raise SchemaError(
+            f"{name} {unit_row} {rows[i]}: column {col!r} holds {series.iloc[i]!r} where a number "
+            f"belongs{' (decimal separator is ' + repr(decimal) + ')' if decimal else ''}; "
+            f"{int(bad.sum())} such row(s) in all. Fix the file or its decimal/separator settings"
+        )
+    if required and blank.any():
+        i = int(np.flatnonzero(blank.to_numpy())[0])
+        raise SchemaError(f"{name} {unit_row} {rows[i]}: column {col!r} is empty; a value is required")
+    return vals.to_numpy(float)
+
+
+def read_readings(
+    cfg: SurveyConfig,
+    kind: MeasurementKind,
+    grid: LocalGrid,
+    site_crs: pyproj.CRS,
+    *,
+    root: Path | None = None,
+) -> gpd.GeoDataFrame:
+    """Read one survey file into the reading frame contract.
+
+    Parameters
+    ----------
+    cfg : SurveyConfig
+        The survey's entry in the site file.
+    kind : MeasurementKind
+        Its measurement kind (unit conversion).
+    grid : LocalGrid
+        The level's local grid tie (local <-> site coordinates).
+    site_crs : pyproj.CRS
+    root : Path, optional
+        Site folder, to name files relative to it in messages.
+
+    Raises
+    ------
+    IngestError, SchemaError, UnitError
+        Missing or empty file, missing column, text where numbers belong, wrong unit.
+    """
+    name = _rel(cfg.path, root)
+    if not cfg.path.is_file():
+        raise IngestError(f"{cfg.where}: survey file not found: {name}")
+    suffix = cfg.path.suffix.lower()
+    if suffix in (".csv", ".txt"):
+        df, rows = _read_csv(cfg, name)
+        row_word = "line"
+        xy_default = ("x", "y")
+    elif suffix in (".geojson", ".json", ".gpkg", ".shp"):
+        df, rows = _read_vector(cfg, name, site_crs)
+        row_word = "feature"
+        xy_default = ("__x", "__y")
+    else:
+        raise IngestError(f"{name}: unknown file type {suffix!r}; use .csv, .geojson or .gpkg")
+    unknown = set(cfg.columns) - set(OUR_COLUMNS)
+    if unknown:
+        raise IngestError(
+            f"{cfg.where}.columns: unknown column key(s) {sorted(unknown)}; our columns are "
+            f"{', '.join(OUR_COLUMNS)}"
+        )
+    mapping = {k: cfg.columns.get(k, k) for k in OUR_COLUMNS}
+    if row_word == "feature":
+        mapping["x"] = cfg.columns.get("x", xy_default[0])
+        mapping["y"] = cfg.columns.get("y", xy_default[1])
+    for ours, theirs in mapping.items():
+        if OUR_COLUMNS[ours] and theirs not in df.columns:
+            raise SchemaError(
+                f"{name}: column {theirs!r} (for {ours}) is missing; the file has columns "
+                f"{', '.join(c for c in df.columns if not c.startswith('__'))}. Add "
+                f"`{ours} = \"<column>\"` under [surveys.columns] for survey {cfg.id!r}"
+            )
+    dec = cfg.decimal if row_word == "line" else "."
+    x = _numbers(df[mapping["x"]], mapping["x"], dec, name, rows, row_word, True)
+    y = _numbers(df[mapping["y"]], mapping["y"], dec, name, rows, row_word, True)
+    raw = _numbers(df[mapping["value"]], mapping["value"], dec, name, rows, row_word, False)
+    where_u = f"{name}: "
+    value = kind.to_canonical(raw, cfg.unit, where=where_u)
+    if cfg.coords == "local":
+        xl, yl = x, y
+        X, Y = grid.to_site(x, y)
+    else:
+        X, Y = x, y
+        xl, yl = grid.to_local(x, y)
+    pid = (df[mapping["point_id"]].astype(str).str.strip() if mapping["point_id"] in df.columns
+           else pd.Series([""] * len(df)))
+    out = pd.DataFrame({
+        "reading_id": [f"{cfg.id}:{r}" for r in rows],
+        "survey_id": cfg.id,
+        "level_id": cfg.level,
+        "row": rows,
+        "where": [f"{name} {row_word} {r}" for r in rows],
+        "point_id": pid.to_numpy(),
+        "x_local": xl,
+        "y_local": yl,
+        kind.value_column: value,
+        "raw_value": raw,
+        "raw_unit": cfg.unit,
+    })
+    if mapping["temperature_c"] in df.columns:
+        out["temperature_c"] = _numbers(df[mapping["temperature_c"]], mapping["temperature_c"], dec,
+                                        name, rows, row_word, False)
+    if mapping["note"] in df.columns:
+        out["note"] = df[mapping["note"]].astype(str).to_numpy()
+    return gpd.GeoDataFrame(out, geometry=gpd.points_from_xy(X, Y), crs=site_crs)

@@ -1,0 +1,181 @@
+"""The surfaces stage of the pipeline: kriged surfaces, contours and class areas per level.
+
+For each level and measurement kind: the readings fit for mapping (QA errors,
+implausible values and readings outside the deck left out, never deleted), a
+fitted variogram chosen by cross-validation, local ordinary kriging onto a grid
+aligned with the level's survey grid, clipped to the slab minus exclusions and
+masked beyond ``max_distance`` of any reading, contour lines and bands, and the
+class areas of the kind's class set.  Geometry is produced in local grid
+coordinates; exporters transform it to the site CRS.
+"""
+
+from __future__ import annotations
+
+import logging
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import pandas as pd
+import rasterio.features
+import shapely
+from numpy.typing import NDArray
+from shapely.geometry import shape
+from shapely.geometry.base import BaseGeometry
+
+from geo_corrosion.config import RunParams
+from geo_corrosion.errors import KrigingError
+from geo_corrosion.measurements import MeasurementKind
+from geo_corrosion.model import Level, Survey
+from geo_corrosion.surfaces import (
+    GridSpec,
+    VariogramFit,
+    check_contour_interval,
+    contour_bands,
+    contour_lines,
+    cross_validate,
+    fit_variogram,
+    grid_for_polygon,
+    krige_grid,
+    surface_mask,
+)
+from geo_corrosion.units import LENGTH_TO_M
+
+__all__ = ["KindSurface", "mappable_readings", "build_surface", "EXCLUDING_RULES"]
+
+log = logging.getLogger(__name__)
+
+#: QA severities whose readings are left out of surfaces.
+EXCLUDING_SEVERITIES = ("error",)
+#: QA rules whose readings are left out of surfaces even at warning level.
+EXCLUDING_RULES = ("QA-RANGE-LOW", "QA-RANGE-HIGH", "QA-OUTSIDE-SLAB", "QA-IN-EXCLUSION",
+                   "QA-NAN-VALUE", "QA-NAN-XY")
+
+
+@dataclass(frozen=True)
+class KindSurface:
+    """The kriged surface of one kind on one level (local grid coordinates).
+
+    Attributes
+    ----------
+    kind : MeasurementKind
+    grid : GridSpec
+        Prediction grid (local grid units).
+    mean, variance : ndarray
+        ``(ny, nx)``, NaN outside the mask; mean in the kind's canonical unit,
+        variance of the kriged variable (log space for lognormal kinds).
+    fit : VariogramFit
+    cv : dict
+        Cross-validation statistics.
+    residuals : DataFrame
+        Per-reading cross-validation residuals (reading_id, x_local, y_local, residual).
+    n_readings : int
+    lines, bands : list
+        Contour lines ``(level, geometry)`` and bands ``(lo, hi, geometry)``.
+    classes : DataFrame
+        Class polygons with ``class``, ``color``, ``area_local`` (local units squared).
+    """
+
+    kind: MeasurementKind
+    grid: GridSpec
+    mean: NDArray[np.float64]
+    variance: NDArray[np.float64]
+    fit: VariogramFit
+    cv: dict[str, Any]
+    residuals: pd.DataFrame
+    n_readings: int
+    interval: float
+    lines: list[tuple[float, BaseGeometry]] = field(default_factory=list)
+    bands: list[tuple[float, float, BaseGeometry]] = field(default_factory=list)
+    classes: pd.DataFrame | None = None
+
+
+def mappable_readings(surveys: list[Survey], flags: pd.DataFrame) -> pd.DataFrame:
+    """Readings of these surveys fit for a surface, with the reason others were left out."""
+    frames = [s.frame for s in surveys]
+    if not frames:
+        return pd.DataFrame()
+    df = pd.concat(frames, ignore_index=True)
+    col = surveys[0].kind.value_column
+    bad = set()
+    if flags is not None and not flags.empty:
+        sel = flags["severity"].isin(EXCLUDING_SEVERITIES) | flags["rule"].isin(EXCLUDING_RULES)
+        bad = set(flags.loc[sel & (flags["reading_id"] != ""), "reading_id"])
+    keep = ~df["reading_id"].isin(bad) & np.isfinite(df[col].to_numpy(float))
+    return df.loc[keep].reset_index(drop=True)
+
+
+def _class_polygons(
+    kind: MeasurementKind, mean: NDArray[np.float64], grid: GridSpec, deck: BaseGeometry
+) -> pd.DataFrame | None:
+    from geo_corrosion.condition.classes import get_class_set
+
+    if kind.class_set is None:
+        return None
+    cs = get_class_set(kind.class_set)
+    codes = cs.codes(mean).astype(np.int16)
+    valid = codes >= 0
+    rows = []
+    for code, label in enumerate(cs.labels):
+        m = valid & (codes == code)
+        if not m.any():
+            continue
+        polys = [shape(g) for g, v in rasterio.features.shapes(
+            m.astype(np.uint8), mask=m, transform=grid.affine()) if v == 1]
+        geom = shapely.intersection(shapely.union_all(polys), deck)
+        if geom.is_empty:
+            continue
+        rows.append({"class": label, "class_code": code, "color": cs.colors[code],
+                     "class_set": cs.name, "source": cs.source, "area_local": geom.area,
+                     "geometry": geom})
+    return pd.DataFrame(rows)
+
+
+def build_surface(
+    level: Level,
+    kind: MeasurementKind,
+    readings: pd.DataFrame,
+    params: RunParams,
+    *,
+    progress: Callable[[int, int], None] | None = None,
+) -> KindSurface:
+    """Fit, krige, contour and classify one kind on one level.
+
+    Raises
+    ------
+    KrigingError
+        Too few readings, or a grid too large to compute.
+    """
+    u = LENGTH_TO_M[level.unit]
+    cell = params.cell_size_m / u
+    max_d = params.max_distance_m / u
+    col = kind.value_column
+    x = readings["x_local"].to_numpy(float)
+    y = readings["y_local"].to_numpy(float)
+    z = readings[col].to_numpy(float)
+    if len(z) < 3:
+        raise KrigingError(
+            f"level {level.id}: only {len(z)} usable {kind.name} reading(s); a surface needs more"
+        )
+    models = (("spherical", "exponential", "gaussian", "matern") if params.variogram_model == "auto"
+              else (params.variogram_model,))
+    fit = fit_variogram(x, y, z, models=models, transform=kind.krige_transform,
+                        n_neighbors=params.n_neighbors)
+    deck = level.deck
+    grid = grid_for_polygon(deck, cell)
+    mask = surface_mask(grid, deck, x, y, max_distance=max_d)
+    mean, var = krige_grid(x, y, z, grid, fit.model, mask=mask, n_neighbors=params.n_neighbors,
+                           transform=kind.krige_transform, progress=progress)
+    cv = cross_validate(x, y, z, fit.model, n_neighbors=params.n_neighbors,
+                        transform=kind.krige_transform)
+    res = pd.DataFrame({"reading_id": readings["reading_id"], "x_local": x, "y_local": y,
+                        "residual": np.asarray(cv.residuals, float)})
+    interval = params.contour_interval_mv if kind.name == "potential" else kind.contour_interval
+    if kind.name == "potential":
+        check_contour_interval(interval, kind.name)
+    lines = contour_lines(mean, grid, interval=interval)
+    bands = contour_bands(mean, grid, interval=interval)
+    classes = _class_polygons(kind, mean, grid, deck)
+    return KindSurface(kind, grid, mean, var, fit, cv.to_dict(), res, len(z), interval, lines,
+                       bands, classes)

@@ -1,0 +1,31 @@
+"""Measurement kinds (plugins): half-cell potential, resistivity, corrosion rate, cover."""
+
+from geo_corrosion.measurements.base import MeasurementKind
+from geo_corrosion.measurements.builtin import (
+    CorrosionRate,
+    CoverDepth,
+    HalfCellPotential,
+    Resistivity,
+)
+
+BUILTIN_KINDS: dict[str, type[MeasurementKind]] = {
+    k.name: k for k in (HalfCellPotential, Resistivity, CorrosionRate, CoverDepth)
+}
+
+__all__ = [
+    "MeasurementKind",
+    "HalfCellPotential",
+    "Resistivity",
+    "CorrosionRate",
+    "CoverDepth",
+    "BUILTIN_KINDS",
+    "get_kind",
+]
+
+
+def get_kind(name_or_kind: "str | type[MeasurementKind] | MeasurementKind", *, where: str = "") -> MeasurementKind:
+    """Return an instance of a measurement kind by registry name or class."""
+    from geo_corrosion.plugins import MEASUREMENTS
+
+    k = MEASUREMENTS.get(name_or_kind, where=where) if isinstance(name_or_kind, str) else name_or_kind
+    return k() if isinstance(k, type) else k

@@ -1,0 +1,117 @@
+"""The data model: sites, levels and surveys, explicit about CRS and units.
+
+Plan geometry of a level is held in its **local survey grid** (orthogonal axes
+along the deck, unit ``level.grid.unit``); :class:`~geo_corrosion.crs.LocalGrid`
+maps it to the projected site CRS.  Readings are GeoDataFrames in the site CRS
+that also carry their local coordinates (``x_local``, ``y_local``).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import geopandas as gpd
+import pyproj
+import shapely
+from shapely.geometry import MultiPolygon, Polygon
+from shapely.geometry.base import BaseGeometry
+
+from geo_corrosion.config import LevelConfig, SiteConfig, SurveyConfig
+from geo_corrosion.crs import LocalGrid
+from geo_corrosion.measurements import MeasurementKind
+from geo_corrosion.vector_io import Feature
+
+__all__ = ["Level", "Survey", "Site"]
+
+
+@dataclass(frozen=True)
+class Level:
+    """A level with its geometry in local grid coordinates.
+
+    Attributes
+    ----------
+    config : LevelConfig
+    grid : LocalGrid
+        Tie of the local grid to the site CRS.
+    slab : Polygon or MultiPolygon
+        Slab outline (local grid units).
+    exclusions : tuple of Feature
+        Columns, cores, ramps and openings.
+    joints : tuple of Feature
+        Joint lines.
+    overlays : dict of str to tuple of Feature
+        Delaminations, spalls, patches and cracks by kind.
+    """
+
+    config: LevelConfig
+    grid: LocalGrid
+    slab: Polygon | MultiPolygon
+    exclusions: tuple[Feature, ...] = ()
+    joints: tuple[Feature, ...] = ()
+    overlays: dict[str, tuple[Feature, ...]] = field(default_factory=dict)
+
+    @property
+    def id(self) -> str:
+        """Level id."""
+        return self.config.id
+
+    @property
+    def unit(self) -> str:
+        """Unit of local grid coordinates."""
+        return self.grid.unit
+
+    @property
+    def deck(self) -> BaseGeometry:
+        """Slab minus exclusions: the surveyed concrete (local grid)."""
+        if not self.exclusions:
+            return self.slab
+        return shapely.difference(self.slab, shapely.union_all([e.geometry for e in self.exclusions]))
+
+    def exclusion_polygons(self) -> list[BaseGeometry]:
+        """Exclusion geometries."""
+        return [e.geometry for e in self.exclusions]
+
+
+@dataclass(frozen=True)
+class Survey:
+    """One survey file's readings, converted and corrected.
+
+    Attributes
+    ----------
+    config : SurveyConfig
+    kind : MeasurementKind
+    frame : GeoDataFrame
+        Reading frame (contract in DEVELOPERS.md), site CRS.
+    corrections : tuple of dict
+        Records of the corrections applied (for run.json).
+    """
+
+    config: SurveyConfig
+    kind: MeasurementKind
+    frame: gpd.GeoDataFrame
+    corrections: tuple[dict[str, Any], ...] = ()
+
+    @property
+    def id(self) -> str:
+        """Survey id."""
+        return self.config.id
+
+
+@dataclass(frozen=True)
+class Site:
+    """An ingested site: its configuration, levels and surveys."""
+
+    config: SiteConfig
+    levels: dict[str, Level]
+    surveys: tuple[Survey, ...]
+
+    @property
+    def crs(self) -> pyproj.CRS:
+        """Site CRS."""
+        return self.config.crs
+
+    def surveys_of(self, level_id: str, kind: str | None = None) -> list[Survey]:
+        """Surveys of a level, optionally of one kind."""
+        return [s for s in self.surveys
+                if s.config.level == level_id and (kind is None or s.kind.name == kind)]

@@ -1,0 +1,354 @@
+"""The whole run: ingest, corrections, QA, surfaces, classes, repairs, quantities, exports.
+
+:func:`run` chains the stages and writes the output folder atomically: every
+file is written into a temporary folder beside the target, which replaces the
+target only when everything succeeded.  A previous output folder is never
+overwritten unless ``overwrite=True``.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import logging
+import os
+import platform
+import shutil
+import tempfile
+import time
+import warnings
+from collections.abc import Callable
+from dataclasses import asdict
+from datetime import datetime, timezone
+from importlib.metadata import PackageNotFoundError, version
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from geo_corrosion import qa
+from geo_corrosion.cautions import CAUTIONS
+from geo_corrosion.config import SiteConfig, read_site
+from geo_corrosion.errors import ExportError, KrigingError, QAError
+from geo_corrosion.mapping import build_surface, mappable_readings
+from geo_corrosion.model import Site
+from geo_corrosion.results import LevelResult, RunResult
+from geo_corrosion.site import open_site
+from geo_corrosion.units import LENGTH_TO_M, report_units
+
+__all__ = ["check_site", "run", "process", "write_outputs", "file_sha256", "MANIFEST_NAME"]
+
+log = logging.getLogger(__name__)
+Progress = Callable[[str], None]
+MANIFEST_NAME = "run.json"
+MIN_READINGS_FOR_SURFACE = 30
+DEFAULT_EXPORTERS = ("geopackage", "geotiff", "quantities", "drawings", "plots", "webmap")
+
+
+def check_site(site: Site) -> pd.DataFrame:
+    """QA of every survey and, across surveys, of every level and kind.
+
+    Returns
+    -------
+    DataFrame
+        One row per finding (:data:`geo_corrosion.qa.FLAG_COLUMNS`).
+    """
+    parts = []
+    for s in site.surveys:
+        lv = site.levels[s.config.level]
+        parts.append(qa.check_survey(
+            s.frame, kind=s.kind.name, value_column=s.kind.value_column,
+            plausible_range=s.kind.plausible_range, slab_local=lv.slab,
+            exclusions_local=lv.exclusion_polygons(),
+            exclusion_names=[e.where for e in lv.exclusions],
+            spacing=lv.config.grid.spacing if s.kind.name == "potential" else None,
+        ))
+    for lid in site.levels:
+        kinds = {s.kind.name: s.kind for s in site.surveys_of(lid)}
+        for name, kind in kinds.items():
+            frames = [s.frame for s in site.surveys_of(lid, name)]
+            if len(frames) > 1:
+                parts.append(qa.check_level(
+                    frames, kind=name, value_column=kind.value_column,
+                    spacing=site.levels[lid].config.grid.spacing if name == "potential" else None))
+    parts = [p for p in parts if len(p)]
+    if not parts:
+        return pd.DataFrame(columns=qa.FLAG_COLUMNS)
+    return pd.concat(parts, ignore_index=True)
+
+
+def _stats(values: np.ndarray) -> dict[str, float]:
+    v = values[np.isfinite(values)]
+    if not v.size:
+        return {"n": 0}
+    p = np.percentile(v, [5, 10, 50, 90, 95])
+    return {"n": int(v.size), "mean": float(v.mean()), "std": float(v.std(ddof=1)) if v.size > 1
+            else 0.0, "min": float(v.min()), "p5": float(p[0]), "p10": float(p[1]),
+            "median": float(p[2]), "p90": float(p[3]), "p95": float(p[4]), "max": float(v.max())}
+
+
+def _simple_repairs(lr: LevelResult, params: Any) -> Any:
+    import geopandas as gpd
+
+    try:
+        from geo_corrosion.repair import LayoutParams, layout_repairs
+    except ImportError:  # TEMP until repair lands
+        return None
+
+    lv = lr.level
+    rows = [{"source_id": f.where, "kind": k, "geometry": f.geometry}
+            for k in ("delamination", "spall") for f in lv.overlays.get(k, ())]
+    if not rows:
+        return None
+    src = gpd.GeoDataFrame(rows, geometry="geometry")
+    lp = LayoutParams(margin_mm=params.repair_margin_m * 1000, merge_gap_mm=params.merge_gap_m * 1000,
+                      min_size_mm=params.min_repair_size_m * 1000)
+    return layout_repairs(src, slab=lv.slab, exclusions=lv.exclusion_polygons(),
+                          joints=[j.geometry for j in lv.joints], unit=lv.unit, params=lp,
+                          level_id=lv.id)
+
+
+def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None) -> RunResult:
+    """Compute surfaces, classes, repairs and the schedule of an ingested, checked site."""
+    say = progress or (lambda _m: None)
+    params = site.config.run
+    units = report_units(site.config.units)
+    levels: dict[str, LevelResult] = {}
+    for lid, lv in site.levels.items():
+        lr = LevelResult(lv)
+        a2 = LENGTH_TO_M[lv.unit] ** 2
+        kinds = {s.kind.name: s.kind for s in site.surveys_of(lid)}
+        for name, kind in kinds.items():
+            surveys = site.surveys_of(lid, name)
+            readings = mappable_readings(surveys, flags)
+            n_all = sum(len(s.frame) for s in surveys)
+            entry: dict[str, Any] = {"readings": n_all, "readings_mapped": len(readings),
+                                     "unit": kind.canonical_unit,
+                                     "statistics": _stats(readings[kind.value_column].to_numpy(float)
+                                                          if len(readings) else np.array([]))}
+            labels = kind.classify(readings[kind.value_column].to_numpy(float)) if len(readings) else []
+            if kind.class_set and len(readings):
+                vc = pd.Series(labels).value_counts()
+                entry["class_share_of_readings"] = {str(k): float(v / len(readings))
+                                                    for k, v in vc.items()}
+            if len(readings) < MIN_READINGS_FOR_SURFACE:
+                lr.skipped[name] = (f"{len(readings)} usable readings; a kriged surface needs at "
+                                    f"least {MIN_READINGS_FOR_SURFACE}")
+                entry["surface"] = None
+                entry["surface_skipped"] = lr.skipped[name]
+                say(f"level {lid}: {name}: no surface ({lr.skipped[name]})")
+                lr.stats[name] = entry
+                continue
+            say(f"level {lid}: kriging {len(readings)} {name} readings")
+            try:
+                s = build_surface(lv, kind, readings, params)
+            except KrigingError as err:
+                lr.skipped[name] = str(err)
+                entry["surface_skipped"] = str(err)
+                say(f"level {lid}: {name}: no surface: {err}")
+                lr.stats[name] = entry
+                continue
+            lr.surfaces[name] = s
+            cell_area_m2 = (s.grid.cell**2) * a2
+            mapped_area = float(np.isfinite(s.mean).sum()) * cell_area_m2
+            entry["surface"] = {
+                "cell_size": s.grid.cell, "cell_unit": lv.unit, "shape": list(s.grid.shape),
+                "mapped_area_m2": mapped_area,
+                "mapped_area_" + units.area: float(units.area_from_m2(mapped_area)),
+                "variogram": s.fit.to_dict(), "cross_validation": s.cv,
+                "contour_interval": s.interval, "kriged_in": s.kind.krige_transform or "linear",
+            }
+            if s.classes is not None and len(s.classes):
+                deck_area = lv.deck.area * a2
+                entry["class_areas"] = [
+                    {"class": r["class"], "area_m2": r["area_local"] * a2,
+                     "area_" + units.area: float(units.area_from_m2(r["area_local"] * a2)),
+                     "share_of_mapped_area": r["area_local"] * a2 / mapped_area if mapped_area else 0,
+                     "share_of_deck": r["area_local"] * a2 / deck_area}
+                    for r in s.classes.to_dict("records")]
+            lr.stats[name] = entry
+        say(f"level {lid}: laying out repairs")
+        lr.repairs = _simple_repairs(lr, params)
+        levels[lid] = lr
+    import geopandas as gpd
+
+    try:
+        from geo_corrosion.quantities import bid_schedule
+    except ImportError:  # TEMP until quantities lands
+        return RunResult(site, flags, levels, pd.DataFrame())
+
+    reps = [lr.repairs for lr in levels.values() if lr.repairs is not None and len(lr.repairs)]
+    allrep = (gpd.GeoDataFrame(pd.concat(reps, ignore_index=True), geometry="geometry")
+              if reps else None)
+    schedule = bid_schedule(allrep, None, units=units, contingency=params.contingency) \
+        if allrep is not None else pd.DataFrame()
+    return RunResult(site, flags, levels, schedule)
+
+
+def file_sha256(path: Path) -> str:
+    """SHA-256 of a file, hex."""
+    h = hashlib.sha256()
+    with open(path, "rb") as f:
+        for chunk in iter(lambda: f.read(1 << 20), b""):
+            h.update(chunk)
+    return h.hexdigest()
+
+
+def _inputs(cfg: SiteConfig) -> list[dict[str, Any]]:
+    paths = {cfg.path}
+    for lv in cfg.levels:
+        refs = [lv.slab, *lv.exclusions, *([lv.joints] if lv.joints else []),
+                *[o.ref for o in lv.overlays]]
+        paths.update(r.path for r in refs)
+    paths.update(s.path for s in cfg.surveys)
+    out = []
+    for p in sorted(paths):
+        try:
+            rel = str(p.relative_to(cfg.root))
+        except ValueError:
+            rel = str(p)
+        out.append({"path": rel, "sha256": file_sha256(p), "bytes": p.stat().st_size})
+    return out
+
+
+def _versions() -> dict[str, str]:
+    out = {"python": platform.python_version()}
+    for pkg in ("geo_corrosion", "numpy", "scipy", "pandas", "geopandas", "shapely", "pyproj",
+                "pyogrio", "rasterio", "pykrige", "folium", "ezdxf", "openpyxl", "matplotlib"):
+        try:
+            out[pkg] = version(pkg)
+        except PackageNotFoundError:
+            out[pkg] = "not installed"
+    try:
+        import rasterio
+
+        out["gdal"] = rasterio.__gdal_version__
+    except ImportError:  # pragma: no cover
+        pass
+    return out
+
+
+def _json_default(o: Any) -> Any:
+    if isinstance(o, np.integer):
+        return int(o)
+    if isinstance(o, np.floating):
+        return None if not np.isfinite(o) else float(o)
+    if isinstance(o, np.ndarray):
+        return o.tolist()
+    if isinstance(o, Path):
+        return str(o)
+    return str(o)
+
+
+def manifest(result: RunResult, started: float) -> dict[str, Any]:
+    """The run manifest (run.json)."""
+    cfg = result.site.config
+    flags = result.flags
+    summary = (qa.summarize(flags).to_dict("records") if len(flags) else [])
+    sched = result.schedule.to_dict("records") if len(result.schedule) else []
+    return {
+        "geo_corrosion_run": 1,
+        "site": {"name": cfg.name, "owner": cfg.owner, "crs": cfg.crs.to_string(),
+                 "crs_unit": cfg.crs_unit, "report_units": cfg.units, "site_file": cfg.path.name},
+        "created_utc": datetime.now(timezone.utc).isoformat(timespec="seconds"),
+        "elapsed_s": round(time.perf_counter() - started, 2),
+        "inputs": _inputs(cfg),
+        "parameters": asdict(cfg.run),
+        "versions": _versions(),
+        "surveys": [{"id": s.id, "level": s.config.level, "kind": s.kind.name,
+                     "file": s.config.path.name, "readings": len(s.frame),
+                     "unit_in": s.config.unit, "unit": s.kind.canonical_unit,
+                     "corrections": list(s.corrections)} for s in result.site.surveys],
+        "qa": {"findings": len(flags), "summary": summary,
+               "runnable": bool(qa.runnable(flags)) if len(flags) else True},
+        "levels": {lid: {"name": lr.level.config.name,
+                         "georeference": lr.level.grid.to_dict(),
+                         "deck_area_m2": lr.level.deck.area * LENGTH_TO_M[lr.level.unit] ** 2,
+                         "kinds": lr.stats,
+                         "repairs": 0 if lr.repairs is None else len(lr.repairs)}
+                   for lid, lr in result.levels.items()},
+        "schedule": sched,
+        "files": sorted(result.files),
+        "cautions": list(CAUTIONS),
+    }
+
+
+def write_outputs(result: RunResult, out_dir: Path, *, exporters: tuple[str, ...] = DEFAULT_EXPORTERS,
+                  progress: Progress | None = None, started: float | None = None) -> None:
+    """Run the exporters into ``out_dir`` (an empty folder) and write run.json last."""
+    from geo_corrosion.plugins import EXPORTERS
+
+    say = progress or (lambda _m: None)
+    t0 = started or time.perf_counter()
+    for name in exporters:
+        exp = EXPORTERS.get(name)
+        say(f"writing {name}")
+        inst = exp() if isinstance(exp, type) else exp
+        for p in inst.export(result, out_dir):
+            result.files.append(str(Path(p).relative_to(out_dir)))
+    result.manifest = manifest(result, t0)
+    tmp = out_dir / (MANIFEST_NAME + ".tmp")
+    tmp.write_text(json.dumps(result.manifest, indent=2, default=_json_default), encoding="utf-8")
+    os.replace(tmp, out_dir / MANIFEST_NAME)
+
+
+def run(
+    site: str | Path | SiteConfig,
+    out_dir: str | Path,
+    *,
+    overwrite: bool = False,
+    exporters: tuple[str, ...] = DEFAULT_EXPORTERS,
+    progress: Progress | None = None,
+) -> RunResult:
+    """Run the whole job on a site and write the output folder.
+
+    Parameters
+    ----------
+    site : str, Path or SiteConfig
+        Site file or folder.
+    out_dir : str or Path
+        Output folder; must not exist unless ``overwrite``.
+    overwrite : bool
+        Replace an existing output folder (only once the new one is complete).
+    exporters : tuple of str
+        Exporter names from the registry.
+    progress : callable, optional
+        Receives a line of text at each step.
+
+    Raises
+    ------
+    GeoCorrosionError
+        Any bad input; nothing is written then.
+    """
+    started = time.perf_counter()
+    out = Path(out_dir).resolve()
+    if out.exists() and not overwrite:
+        raise ExportError(f"{out} already exists; choose another --out or pass --overwrite")
+    cfg = site if isinstance(site, SiteConfig) else read_site(site)
+    if out == cfg.root or cfg.root.is_relative_to(out):
+        raise ExportError(f"{out}: the output folder cannot be the site folder or hold it")
+    s = open_site(cfg, progress=progress)
+    flags = check_site(s)
+    if len(flags) and not qa.runnable(flags):
+        errs = flags[flags["severity"] == "error"]
+        lines = "\n".join(f"  - {r.where or r.survey_id}: {r.message}" for r in errs.itertuples())
+        raise QAError(f"the site cannot be run; QA found {len(errs)} error(s):\n{lines}")
+    with warnings.catch_warnings():
+        warnings.simplefilter("default")
+        result = process(s, flags, progress=progress)
+    out.parent.mkdir(parents=True, exist_ok=True)
+    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=out.parent))
+    try:
+        write_outputs(result, tmp, exporters=exporters, progress=progress, started=started)
+        if out.exists():
+            old = out.with_name(f".{out.name}.old-{os.getpid()}")
+            os.replace(out, old)
+            os.replace(tmp, out)
+            shutil.rmtree(old, ignore_errors=True)
+        else:
+            os.replace(tmp, out)
+    except BaseException:
+        shutil.rmtree(tmp, ignore_errors=True)
+        raise
+    return result

@@ -1,0 +1,48 @@
+"""Results of a run, held in memory and handed to the exporters."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import geopandas as gpd
+import pandas as pd
+
+from geo_corrosion.mapping import KindSurface
+from geo_corrosion.model import Level, Site
+
+__all__ = ["LevelResult", "RunResult"]
+
+
+@dataclass
+class LevelResult:
+    """Everything computed for one level.
+
+    Attributes
+    ----------
+    level : Level
+    surfaces : dict of str to KindSurface
+        By measurement kind name.
+    repairs : GeoDataFrame
+        Repair areas in local grid coordinates (``unit`` of the level grid).
+    stats : dict
+        Counts, statistics, class areas and quantities for run.json.
+    """
+
+    level: Level
+    surfaces: dict[str, KindSurface] = field(default_factory=dict)
+    repairs: gpd.GeoDataFrame | None = None
+    stats: dict[str, Any] = field(default_factory=dict)
+    skipped: dict[str, str] = field(default_factory=dict)
+
+
+@dataclass
+class RunResult:
+    """A whole run: the ingested site, QA flags, per-level results and the schedule."""
+
+    site: Site
+    flags: pd.DataFrame
+    levels: dict[str, LevelResult]
+    schedule: pd.DataFrame
+    manifest: dict[str, Any] = field(default_factory=dict)
+    files: list[str] = field(default_factory=list)

@@ -1,0 +1,101 @@
+"""Opening a site: read the site file, the plans and every survey, then correct.
+
+:func:`open_site` is the ingest and corrections stage in one call; each part is
+also usable alone (:func:`read_level`, :func:`read_survey`, :func:`correct`).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from pathlib import Path
+
+import shapely
+from shapely.geometry import MultiPolygon, Polygon
+
+from geo_corrosion.config import LevelConfig, RunParams, SiteConfig, SurveyConfig, read_site
+from geo_corrosion.crs import LocalGrid
+from geo_corrosion.errors import IngestError, SiteFileError
+from geo_corrosion.ingest import read_readings
+from geo_corrosion.measurements import get_kind
+from geo_corrosion.model import Level, Site, Survey
+from geo_corrosion.vector_io import read_lines, read_polygons
+
+__all__ = ["open_site", "read_level", "read_survey", "correct"]
+
+Progress = Callable[[str], None]
+
+
+def read_level(cfg: LevelConfig, site: SiteConfig) -> Level:
+    """Read a level's grid tie, slab, exclusions, joints and overlays.
+
+    Raises
+    ------
+    IngestError
+        Missing files or layers, an invalid slab outline, a DXF with no closed shapes.
+    GeoreferenceError
+        Fewer control points than needed, or inconsistent ones.
+    """
+    where = f"level {cfg.id!r}"
+    grid = LocalGrid.from_config(cfg.grid, site.crs_unit, where=f"{site.path.name}: {where} grid")
+    slab_feats = read_polygons(cfg.slab, grid, site_crs=site.crs, what="slab outline")
+    for f in slab_feats:
+        if "repaired" in f.where:
+            raise IngestError(
+                f"{f.where}: the slab outline is not a valid polygon; redraw it as one simple "
+                "closed polyline"
+            )
+    slab = shapely.union_all([f.geometry for f in slab_feats])
+    if not isinstance(slab, Polygon | MultiPolygon) or slab.area <= 0 or not slab.is_valid:
+        raise IngestError(f"{cfg.slab.where}: the slab outline is not a valid polygon")
+    exclusions = tuple(
+        f for ref in cfg.exclusions for f in read_polygons(ref, grid, site_crs=site.crs,
+                                                           what="exclusions")
+    )
+    joints = tuple(read_lines(cfg.joints, grid, site_crs=site.crs)) if cfg.joints else ()
+    overlays: dict[str, list] = {}
+    for ov in cfg.overlays:
+        if ov.kind == "crack":
+            feats = read_lines(ov.ref, grid, site_crs=site.crs)
+        else:
+            feats = read_polygons(ov.ref, grid, site_crs=site.crs, what=f"{ov.kind} outlines")
+        overlays.setdefault(ov.kind, []).extend(feats)
+    return Level(cfg, grid, slab, exclusions, joints, {k: tuple(v) for k, v in overlays.items()})
+
+
+def read_survey(cfg: SurveyConfig, level: Level, site: SiteConfig) -> Survey:
+    """Read one survey file into canonical units (no corrections yet)."""
+    kind = get_kind(cfg.kind, where=f"{cfg.where}.kind: ")
+    kind.check_survey(cfg)
+    frame = read_readings(cfg, kind, level.grid, site.crs, root=site.root)
+    return Survey(cfg, kind, frame)
+
+
+def correct(survey: Survey, params: RunParams) -> Survey:
+    """Apply the kind's corrections, recording each per reading."""
+    frame, records = survey.kind.correct(survey.frame.copy(), survey.config, params)
+    return Survey(survey.config, survey.kind, frame, tuple(records))
+
+
+def open_site(path: str | Path | SiteConfig, *, progress: Progress | None = None) -> Site:
+    """Read a site file and everything it names; convert units and apply corrections.
+
+    Parameters
+    ----------
+    path : str, Path or SiteConfig
+        Site file or folder.
+    progress : callable, optional
+        Called with a line of text as each file is read.
+    """
+    cfg = path if isinstance(path, SiteConfig) else read_site(path)
+    say = progress or (lambda _msg: None)
+    levels = {}
+    for lv in cfg.levels:
+        say(f"level {lv.id}: reading plans")
+        levels[lv.id] = read_level(lv, cfg)
+    surveys = []
+    for s in cfg.surveys:
+        say(f"survey {s.id}: reading {s.path.name}")
+        surveys.append(correct(read_survey(s, levels[s.level], cfg), cfg.run))
+    if not surveys:
+        raise SiteFileError(f"{cfg.path}: no [[surveys]] declared; nothing to map")
+    return Site(cfg, levels, tuple(surveys))

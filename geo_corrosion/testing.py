@@ -1,0 +1,137 @@
+"""Helpers for tests and plugin authors: a small synthetic site written to a folder.
+
+The data are invented (a smooth synthetic field), for fixtures only.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+__all__ = ["make_synthetic_site", "SYNTHETIC_TIE"]
+
+#: Grid tie of the synthetic site: local feet, UTM 18N metres, 17 degrees, origin.
+SYNTHETIC_TIE = {"rotation_deg": 17.0, "origin": (583100.0, 4507200.0), "crs": "EPSG:26918"}
+
+
+def _site_xy(x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    a = math.radians(SYNTHETIC_TIE["rotation_deg"])
+    k = 0.3048
+    ox, oy = SYNTHETIC_TIE["origin"]
+    return ox + k * (math.cos(a) * x - math.sin(a) * y), oy + k * (math.sin(a) * x + math.cos(a) * y)
+
+
+def _field(x: np.ndarray, y: np.ndarray) -> np.ndarray:
+    """Synthetic corrosion activity 0..1: a hot spot near (15, 10) ft and a gentle trend."""
+    return np.clip(np.exp(-((x - 15) ** 2 + (y - 10) ** 2) / 60.0) + 0.15 * np.sin(x / 9.0), 0, 1)
+
+
+def make_synthetic_site(
+    root: str | Path,
+    *,
+    width_ft: float = 60.0,
+    depth_ft: float = 40.0,
+    spacing_ft: float = 2.0,
+    seed: int = 1,
+    extra_site: str = "",
+    electrode: str = "cse",
+    temperature_c: float = 22.2,
+) -> Path:
+    """Write a one-level synthetic site (GeoJSON plans, DXF sounding, CSV readings).
+
+    Returns
+    -------
+    Path
+        The site file.
+    """
+    import ezdxf
+
+    rng = np.random.default_rng(seed)
+    root = Path(root)
+    for d in ("plans", "sounding", "readings"):
+        (root / d).mkdir(parents=True, exist_ok=True)
+    slab = {"type": "FeatureCollection", "features": [{"type": "Feature", "properties": {"name": "slab"},
+            "geometry": {"type": "Polygon", "coordinates": [[[0, 0], [width_ft, 0],
+                         [width_ft, depth_ft], [0, depth_ft], [0, 0]]]}}]}
+    (root / "plans" / "slab.geojson").write_text(json.dumps(slab))
+    col = {"type": "FeatureCollection", "features": [{"type": "Feature", "properties": {"name": "C1"},
+           "geometry": {"type": "Polygon", "coordinates": [[[39, 19], [41, 19], [41, 21], [39, 21],
+                                                            [39, 19]]]}}]}
+    (root / "plans" / "columns.geojson").write_text(json.dumps(col))
+    doc = ezdxf.new("R2010")
+    doc.header["$INSUNITS"] = 2
+    doc.layers.add("DELAM")
+    doc.layers.add("SPALL")
+    msp = doc.modelspace()
+    msp.add_lwpolyline([(12, 8), (18, 8), (18, 12), (12, 12)], close=True, dxfattribs={"layer": "DELAM"})
+    msp.add_circle((15, 10), 0.8, dxfattribs={"layer": "SPALL"})
+    doc.saveas(root / "sounding" / "sounding.dxf")
+    xs = np.arange(1.0, width_ft, spacing_ft)
+    ys = np.arange(1.0, depth_ft, spacing_ft)
+    X, Y = np.meshgrid(xs, ys)
+    x, y = X.ravel(), Y.ravel()
+    act = _field(x, y)
+    e_cse = -150 - 380 * act + rng.normal(0, 8, x.size)
+    from geo_corrosion.corrections import cse_temperature_correction_mv, electrode_offset_mv
+
+    e_file = e_cse - electrode_offset_mv(electrode) - (
+        cse_temperature_correction_mv(temperature_c) if electrode == "cse" else 0.0)
+    lines = ["point_id,x,y,value"] + [f"P{i},{a:.2f},{b:.2f},{v:.1f}"
+                                      for i, (a, b, v) in enumerate(zip(x, y, e_file, strict=True))]
+    (root / "readings" / "potential.csv").write_text("\n".join(lines) + "\n")
+    sel = slice(None, None, 3)
+    rho = np.exp(np.log(40) - 1.5 * act[sel] + rng.normal(0, 0.1, act[sel].size))
+    lines = ["point_id,x,y,value"] + [f"R{i},{a:.2f},{b:.2f},{v:.2f}" for i, (a, b, v) in
+                                      enumerate(zip(x[sel], y[sel], rho, strict=True))]
+    (root / "readings" / "resistivity.csv").write_text("\n".join(lines) + "\n")
+    cps = [(0.0, 0.0), (width_ft, 0.0), (0.0, depth_ft)]
+    cp_text = ", ".join(
+        f'{{ id = "CP{i + 1}", local = [{a}, {b}], site = [{float(_site_xy(np.array(a), np.array(b))[0]):.4f}, '
+        f'{float(_site_xy(np.array(a), np.array(b))[1]):.4f}] }}' for i, (a, b) in enumerate(cps))
+    text = f'''[site]
+name = "Synthetic test deck"
+crs = "{SYNTHETIC_TIE["crs"]}"
+units = "us"
+{extra_site}
+[run]
+cell_size = "1 ft"
+max_distance = "6 ft"
+
+[[levels]]
+id = "D1"
+name = "Test deck"
+slab = {{ path = "plans/slab.geojson" }}
+exclusions = [ {{ path = "plans/columns.geojson" }} ]
+overlays = [ {{ kind = "delamination", path = "sounding/sounding.dxf", layer = "DELAM" }},
+             {{ kind = "spall", path = "sounding/sounding.dxf", layer = "SPALL" }} ]
+[levels.grid]
+unit = "ft"
+spacing = {spacing_ft}
+control_points = [ {cp_text} ]
+
+[[surveys]]
+id = "D1-hcp"
+level = "D1"
+kind = "potential"
+path = "readings/potential.csv"
+unit = "mV"
+electrode = "{electrode}"
+temperature_c = {temperature_c}
+
+[[surveys]]
+id = "D1-res"
+level = "D1"
+kind = "resistivity"
+path = "readings/resistivity.csv"
+unit = "kohm.cm"
+temperature_c = 20.0
+'''
+    p = root / "site.toml"
+    p.write_text(text)
+    return p
+
+

@@ -1,0 +1,214 @@
+"""Units: parsing unit strings and converting to the canonical ones.
+
+Canonical units inside geo_corrosion (common practice, no source; see
+``../shared/REFERENCE.md`` section 0): potential in mV vs CSE, resistivity in
+kOhm.cm, corrosion current density in uA/cm2, cover and other small lengths in
+mm.  Plan geometry is held in the site CRS's linear unit (metre or foot);
+areas and lengths are converted to the reporting system here and nowhere else.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+from typing import Literal
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+from geo_corrosion.errors import UnitError
+
+__all__ = [
+    "MM_PER_INCH",
+    "M_PER_FT",
+    "M_PER_US_SURVEY_FT",
+    "LENGTH_TO_M",
+    "UnitSystem",
+    "ReportUnits",
+    "report_units",
+    "normalize_unit",
+    "convert",
+    "length_to_m",
+    "m_to_length",
+]
+
+MM_PER_INCH = 25.4  # exact, by definition (1959 international inch)
+M_PER_FT = 0.3048  # exact, international foot
+M_PER_US_SURVEY_FT = 1200.0 / 3937.0  # US survey foot, as used by some State Plane CRSs
+
+#: Metres per unit of each length unit accepted for plan coordinates.
+LENGTH_TO_M: dict[str, float] = {
+    "m": 1.0,
+    "mm": 0.001,
+    "cm": 0.01,
+    "ft": M_PER_FT,
+    "us-ft": M_PER_US_SURVEY_FT,
+    "in": MM_PER_INCH / 1000.0,
+}
+
+_ALIASES: dict[str, str] = {
+    # potentials
+    "mv": "mV", "millivolt": "mV", "millivolts": "mV",
+    "v": "V", "volt": "V", "volts": "V",
+    # resistivity
+    "kohm.cm": "kohm.cm", "kohm*cm": "kohm.cm", "kohm-cm": "kohm.cm", "kohmcm": "kohm.cm",
+    "kω.cm": "kohm.cm", "kω·cm": "kohm.cm", "kohm·cm": "kohm.cm",
+    "ohm.m": "ohm.m", "ohm*m": "ohm.m", "ohm-m": "ohm.m", "ω.m": "ohm.m", "ω·m": "ohm.m",
+    "ohm·m": "ohm.m",
+    "ohm.cm": "ohm.cm", "ohm*cm": "ohm.cm", "ohm-cm": "ohm.cm", "ω.cm": "ohm.cm",
+    "ω·cm": "ohm.cm", "ohm·cm": "ohm.cm",
+    # current density
+    "ua/cm2": "uA/cm2", "µa/cm2": "uA/cm2", "ua/cm^2": "uA/cm2", "µa/cm²": "uA/cm2",
+    "ua/cm²": "uA/cm2",
+    "ma/m2": "mA/m2", "ma/m^2": "mA/m2", "ma/m²": "mA/m2",
+    "a/m2": "A/m2", "a/m^2": "A/m2", "a/m²": "A/m2",
+    "na/cm2": "nA/cm2", "na/cm^2": "nA/cm2",
+    # lengths
+    "mm": "mm", "cm": "cm", "m": "m", "in": "in", "inch": "in", "inches": "in",
+    "ft": "ft", "foot": "ft", "feet": "ft", "us-ft": "us-ft", "us_ft": "us-ft",
+    "ftus": "us-ft",
+    # temperature
+    "c": "degC", "degc": "degC", "°c": "degC", "f": "degF", "degf": "degF", "°f": "degF",
+}
+
+# factor to multiply a value in the key unit by to get the canonical unit of its dimension
+_TO_CANONICAL: dict[str, tuple[str, float]] = {
+    "mV": ("mV", 1.0),
+    "V": ("mV", 1000.0),
+    "kohm.cm": ("kohm.cm", 1.0),
+    "ohm.m": ("kohm.cm", 0.1),  # 1 ohm.m = 100 ohm.cm = 0.1 kohm.cm (REFERENCE RES-02)
+    "ohm.cm": ("kohm.cm", 0.001),
+    "uA/cm2": ("uA/cm2", 1.0),
+    "mA/m2": ("uA/cm2", 0.1),  # 1 mA/m2 = 1000 uA / 10000 cm2
+    "A/m2": ("uA/cm2", 100.0),
+    "nA/cm2": ("uA/cm2", 0.001),
+    "mm": ("mm", 1.0),
+    "cm": ("mm", 10.0),
+    "m": ("mm", 1000.0),
+    "in": ("mm", MM_PER_INCH),
+    "ft": ("mm", 304.8),
+    "us-ft": ("mm", M_PER_US_SURVEY_FT * 1000.0),
+}
+
+
+def normalize_unit(unit: str, *, accepted: tuple[str, ...] | None = None, where: str = "") -> str:
+    """Return the canonical spelling of a unit string.
+
+    Parameters
+    ----------
+    unit : str
+        A unit as written by a user or an instrument, e.g. ``"kOhm.cm"``, ``"µA/cm²"``.
+    accepted : tuple of str, optional
+        Canonical spellings allowed here; anything else raises.
+    where : str
+        Where the unit came from, for the error message (file and key).
+
+    Raises
+    ------
+    UnitError
+        If the unit is unknown or not accepted here.
+    """
+    key = re.sub(r"\s+", "", str(unit)).lower()
+    canon = _ALIASES.get(key)
+    if canon is None:
+        known = ", ".join(accepted) if accepted else ", ".join(sorted(set(_ALIASES.values())))
+        raise UnitError(f"{where}unknown unit {unit!r}; expected one of: {known}")
+    if accepted is not None and canon not in accepted:
+        raise UnitError(
+            f"{where}unit {unit!r} is not accepted here; expected one of: {', '.join(accepted)}"
+        )
+    return canon
+
+
+def convert(values: ArrayLike, unit: str, to: str) -> NDArray[np.float64]:
+    """Convert values from ``unit`` to ``to`` (both of the same dimension).
+
+    Examples
+    --------
+    >>> float(convert(800.0, "ohm.m", "kohm.cm"))
+    80.0
+    >>> float(convert(6.0, "in", "mm"))
+    152.4
+    """
+    src = normalize_unit(unit)
+    dst = normalize_unit(to)
+    a = np.asarray(values, dtype=float)
+    if src == dst:
+        return a.copy()
+    try:
+        dim_s, f_s = _TO_CANONICAL[src]
+        dim_d, f_d = _TO_CANONICAL[dst]
+    except KeyError as err:
+        raise UnitError(f"cannot convert {unit!r} to {to!r}") from err
+    if dim_s != dim_d:
+        raise UnitError(f"cannot convert {unit!r} to {to!r}: different dimensions")
+    return a * (f_s / f_d)
+
+
+def length_to_m(value: ArrayLike, unit: str) -> NDArray[np.float64]:
+    """Convert a plan length to metres."""
+    return np.asarray(value, dtype=float) * LENGTH_TO_M[normalize_unit(unit)]
+
+
+def m_to_length(value: ArrayLike, unit: str) -> NDArray[np.float64]:
+    """Convert metres to a plan length unit."""
+    return np.asarray(value, dtype=float) / LENGTH_TO_M[normalize_unit(unit)]
+
+
+UnitSystem = Literal["metric", "us"]
+
+
+@dataclass(frozen=True)
+class ReportUnits:
+    """Units of the reporting system, with factors from metres.
+
+    Attributes
+    ----------
+    system : {"metric", "us"}
+    area, length, volume, small : str
+        Unit labels for areas, lengths, volumes and small lengths (depths).
+    """
+
+    system: UnitSystem
+    area: str
+    length: str
+    volume: str
+    small: str
+    per_m: float  # reporting length units per metre
+    small_per_mm: float
+
+    def area_from_m2(self, a_m2: ArrayLike) -> NDArray[np.float64]:
+        """Convert areas in m2 to the reporting area unit."""
+        return np.asarray(a_m2, dtype=float) * self.per_m**2
+
+    def length_from_m(self, l_m: ArrayLike) -> NDArray[np.float64]:
+        """Convert lengths in m to the reporting length unit."""
+        return np.asarray(l_m, dtype=float) * self.per_m
+
+    def volume_from_m3(self, v_m3: ArrayLike) -> NDArray[np.float64]:
+        """Convert volumes in m3 to the reporting volume unit."""
+        return np.asarray(v_m3, dtype=float) * self.per_m**3
+
+    def small_from_mm(self, d_mm: ArrayLike) -> NDArray[np.float64]:
+        """Convert small lengths in mm to the reporting small unit (mm or in)."""
+        return np.asarray(d_mm, dtype=float) * self.small_per_mm
+
+
+_REPORT = {
+    "metric": ReportUnits("metric", "m2", "m", "m3", "mm", 1.0, 1.0),
+    "us": ReportUnits("us", "ft2", "LF", "ft3", "in", 1.0 / M_PER_FT, 1.0 / MM_PER_INCH),
+}
+
+
+def report_units(system: str) -> ReportUnits:
+    """Return the :class:`ReportUnits` of ``"metric"`` or ``"us"``.
+
+    Examples
+    --------
+    >>> round(float(report_units("us").area_from_m2(0.5574)), 2)  # REFERENCE BID-01
+    6.0
+    """
+    try:
+        return _REPORT[system]
+    except KeyError as err:
+        raise UnitError(f"unknown unit system {system!r}; expected 'metric' or 'us'") from err

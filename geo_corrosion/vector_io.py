@@ -1,0 +1,227 @@
+"""Reading plan geometry: GeoJSON, GeoPackage, Shapefile and DXF layers.
+
+Everything is returned in the level's **local grid** coordinates, the frame in
+which layouts are drawn.  DXF: closed LWPOLYLINE/POLYLINE, CIRCLE and HATCH
+boundary paths become polygons; open polylines and LINEs become lines.  The DXF
+drawing unit comes from its ``$INSUNITS`` header, or from ``unit`` in the site
+file when the header does not say; a DXF in unknown units is refused.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import shapely
+from shapely.geometry import LineString, MultiPolygon, Point, Polygon
+from shapely.geometry.base import BaseGeometry
+
+from geo_corrosion.config import LayerRef
+from geo_corrosion.crs import LocalGrid
+from geo_corrosion.errors import IngestError
+from geo_corrosion.units import LENGTH_TO_M
+
+__all__ = ["Feature", "read_layer", "read_polygons", "read_lines", "DXF_UNITS"]
+
+#: $INSUNITS codes of the DXF reference that name plan length units.
+DXF_UNITS = {1: "in", 2: "ft", 4: "mm", 5: "cm", 6: "m", 21: "us-ft"}
+CIRCLE_SEGMENTS = 64
+
+
+@dataclass(frozen=True)
+class Feature:
+    """One shape read from a layer, in local grid coordinates."""
+
+    geometry: BaseGeometry
+    where: str  # "plans/L2.dxf layer DELAM entity #3 (handle 2A)"
+    label: str = ""
+
+
+def _check_file(ref: LayerRef) -> None:
+    if not ref.path.is_file():
+        raise IngestError(f"{ref.where}: file not found: {ref.path}")
+    if ref.path.stat().st_size == 0:
+        raise IngestError(f"{ref.where}: file is empty: {ref.path}")
+
+
+def _dxf_features(ref: LayerRef) -> tuple[list[tuple[BaseGeometry, str, str]], str]:
+    import ezdxf
+    from ezdxf import recover
+
+    try:
+        doc, _auditor = recover.readfile(str(ref.path))
+    except (OSError, ezdxf.DXFStructureError) as err:
+        raise IngestError(f"{ref.where}: cannot read DXF {ref.path.name}: {err}") from err
+    code = int(doc.header.get("$INSUNITS", 0))
+    unit = DXF_UNITS.get(code) or ref.unit
+    if unit is None:
+        raise IngestError(
+            f"{ref.where}: {ref.path.name} does not say its drawing unit ($INSUNITS = {code}); "
+            "add unit = \"ft\" (or m, mm, in) to this layer in the site file"
+        )
+    layers = {layer.dxf.name.upper(): layer.dxf.name for layer in doc.layers}
+    if ref.layer is None:
+        raise IngestError(f"{ref.where}: a DXF layer must be named with layer = \"...\"")
+    if ref.layer.upper() not in layers:
+        raise IngestError(
+            f"{ref.where}: {ref.path.name} has no layer {ref.layer!r}; its layers are: "
+            f"{', '.join(sorted(layers.values()))}"
+        )
+    out: list[tuple[BaseGeometry, str, str]] = []
+    msp = doc.modelspace()
+    for i, e in enumerate(msp.query(f'*[layer=="{layers[ref.layer.upper()]}"]i')):
+        w = f"{ref.path.name} layer {ref.layer} entity #{i + 1} ({e.dxftype()}, handle {e.dxf.handle})"
+        t = e.dxftype()
+        try:
+            if t == "LWPOLYLINE":
+                pts = [(p[0], p[1]) for p in e.get_points("xy")]
+                closed = e.closed or (len(pts) > 3 and pts[0] == pts[-1])
+                out.append((Polygon(pts) if closed and len(pts) >= 3 else LineString(pts), w, ""))
+            elif t == "POLYLINE":
+                pts = [(v.dxf.location.x, v.dxf.location.y) for v in e.vertices]
+                closed = e.is_closed or (len(pts) > 3 and pts[0] == pts[-1])
+                out.append((Polygon(pts) if closed and len(pts) >= 3 else LineString(pts), w, ""))
+            elif t == "CIRCLE":
+                c = e.dxf.center
+                out.append((Point(c.x, c.y).buffer(e.dxf.radius, quad_segs=CIRCLE_SEGMENTS // 4), w, ""))
+            elif t == "LINE":
+                s, f = e.dxf.start, e.dxf.end
+                out.append((LineString([(s.x, s.y), (f.x, f.y)]), w, ""))
+            elif t == "HATCH":
+                for path in e.paths:
+                    verts = _hatch_path_vertices(path)
+                    if len(verts) >= 3:
+                        out.append((Polygon(verts), w, ""))
+            elif t in ("TEXT", "MTEXT"):
+                continue
+        except (ValueError, TypeError) as err:
+            raise IngestError(f"{ref.where}: cannot read {w}: {err}") from err
+    return out, unit
+
+
+def _hatch_path_vertices(path: object) -> list[tuple[float, float]]:
+    if hasattr(path, "vertices"):  # polyline path
+        return [(v[0], v[1]) for v in path.vertices]
+    verts: list[tuple[float, float]] = []
+    for edge in getattr(path, "edges", []):
+        if edge.EDGE_TYPE == "LineEdge":
+            verts.append((edge.start[0], edge.start[1]))
+        elif edge.EDGE_TYPE == "ArcEdge":
+            a0, a1 = math.radians(edge.start_angle), math.radians(edge.end_angle)
+            if a1 < a0:
+                a1 += 2 * math.pi
+            for a in np.linspace(a0, a1, 16, endpoint=False):
+                verts.append((edge.center[0] + edge.radius * math.cos(a),
+                              edge.center[1] + edge.radius * math.sin(a)))
+        else:  # ellipse/spline edges: use their end points
+            verts.append((edge.start_point[0], edge.start_point[1]))
+    return verts
+
+
+def _gis_features(ref: LayerRef, site_crs: object) -> tuple[list[tuple[BaseGeometry, str, str]], object]:
+    import pyogrio
+
+    try:
+        gdf = pyogrio.read_dataframe(ref.path, layer=ref.layer)
+    except Exception as err:  # pyogrio raises several DataSource errors
+        raise IngestError(f"{ref.where}: cannot read {ref.path.name}"
+                          f"{' layer ' + repr(ref.layer) if ref.layer else ''}: {err}") from err
+    if ref.coords == "site" and gdf.crs is not None and site_crs is not None:
+        if not gdf.crs.equals(site_crs):
+            gdf = gdf.to_crs(site_crs)
+    label_col = next((c for c in ("label", "name", "id") if c in gdf.columns), None)
+    feats = []
+    for i, geom in enumerate(gdf.geometry):
+        if geom is None or geom.is_empty:
+            continue
+        label = str(gdf[label_col].iloc[i]) if label_col else ""
+        feats.append((geom, f"{ref.path.name} feature #{i + 1}", label))
+    return feats, gdf.crs
+
+
+def read_layer(ref: LayerRef, grid: LocalGrid, *, site_crs: object = None) -> list[Feature]:
+    """Read every shape of a layer, converted to local grid coordinates.
+
+    Raises
+    ------
+    IngestError
+        Missing or unreadable file, unknown layer, DXF in unknown units.
+    """
+    _check_file(ref)
+    if ref.path.suffix.lower() == ".dxf":
+        raw, unit = _dxf_features(ref)
+        target = grid.unit if ref.coords == "local" else grid.crs_unit
+        f = LENGTH_TO_M[unit] / LENGTH_TO_M[target]
+        if f != 1.0:
+            raw = [(shapely.affinity.scale(g, f, f, origin=(0, 0)), w, lab) for g, w, lab in raw]
+    else:
+        raw, _ = _gis_features(ref, site_crs)
+    feats = []
+    for g, w, lab in raw:
+        if ref.coords == "site":
+            g = grid.geom_to_local(g)
+        feats.append(Feature(g, f"{ref.where}: {w}", lab))
+    return feats
+
+
+def _explode_polygons(geom: BaseGeometry) -> list[Polygon]:
+    if isinstance(geom, Polygon):
+        return [geom]
+    if isinstance(geom, MultiPolygon):
+        return list(geom.geoms)
+    return []
+
+
+def read_polygons(
+    ref: LayerRef, grid: LocalGrid, *, site_crs: object = None, what: str = "shapes"
+) -> list[Feature]:
+    """Read the closed shapes of a layer as valid polygons (local grid coordinates).
+
+    Self-intersecting outlines are repaired with :func:`shapely.make_valid` when the
+    repair keeps the area; the caller decides what to do with open shapes (here they
+    are ignored, and a layer with none raises).
+
+    Raises
+    ------
+    IngestError
+        If the layer holds no closed shape.
+    """
+    feats = read_layer(ref, grid, site_crs=site_crs)
+    out = []
+    for f in feats:
+        for poly in _explode_polygons(f.geometry):
+            if not poly.is_valid:
+                fixed = shapely.make_valid(poly)
+                parts = [p for p in _explode_polygons(fixed)] if not isinstance(
+                    fixed, Polygon | MultiPolygon) else _explode_polygons(fixed)
+                if not parts and hasattr(fixed, "geoms"):
+                    parts = [g for g in fixed.geoms if isinstance(g, Polygon)]
+                if not parts or sum(p.area for p in parts) <= 0:
+                    raise IngestError(
+                        f"{f.where}: the outline is not a valid polygon ({shapely.is_valid_reason(poly)}) "
+                        "and cannot be repaired; redraw it as a simple closed polyline"
+                    )
+                out.extend(Feature(p, f.where + " (self-intersection repaired)", f.label) for p in parts)
+            elif poly.area > 0:
+                out.append(Feature(poly, f.where, f.label))
+    if not out:
+        raise IngestError(
+            f"{ref.where}: no closed {what} found in {ref.path.name}"
+            f"{' on layer ' + repr(ref.layer) if ref.layer else ''}; draw them as closed "
+            "polylines, circles or hatches"
+        )
+    return out
+
+
+def read_lines(ref: LayerRef, grid: LocalGrid, *, site_crs: object = None) -> list[Feature]:
+    """Read the lines of a layer (joints, cracks); polygon outlines count as their boundary."""
+    out = []
+    for f in read_layer(ref, grid, site_crs=site_crs):
+        g = f.geometry
+        if g.geom_type in ("Polygon", "MultiPolygon"):
+            g = g.boundary
+        if g.geom_type in ("LineString", "MultiLineString", "LinearRing"):
+            out.append(Feature(g, f.where, f.label))
+    return out
