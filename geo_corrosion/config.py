@@ -193,6 +193,7 @@ class SurveyConfig:
     coords: str
     electrode: str | None
     temperature_c: float | None
+    temperature_f: float | None
     temperature_coefficient_mv_per_c: float | None
     date: str | None
     separator: str
@@ -443,10 +444,11 @@ def _survey(data: object, where: str, root: Path, level_ids: set[str]) -> Survey
             f"{', '.join(sorted(level_ids))}"
         )
     temp = t.opt_num("temperature_c")
-    if t.has("temperature_f"):
+    temp_f = t.opt_num("temperature_f")
+    if temp_f is not None:
         if temp is not None:
             raise SiteFileError(f"{where}: give temperature_c or temperature_f, not both")
-        temp = (t.num("temperature_f") - 32.0) / 1.8
+        temp = (temp_f - 32.0) / 1.8
     columns = t.data.get("columns", {})
     if not isinstance(columns, dict) or not all(isinstance(v, str) for v in columns.values()):
         raise SiteFileError(
@@ -465,6 +467,7 @@ def _survey(data: object, where: str, root: Path, level_ids: set[str]) -> Survey
         coords=t.str("coords", "local", choices=COORDS),
         electrode=t.opt_str("electrode"),
         temperature_c=temp,
+        temperature_f=temp_f,
         temperature_coefficient_mv_per_c=t.opt_num("temperature_coefficient_mv_per_c"),
         date=t.opt_str("date") if not hasattr(t.data.get("date"), "isoformat")
         else t.data["date"].isoformat(),

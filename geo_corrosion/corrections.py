@@ -17,6 +17,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from geo_corrosion.condition.resistivity import arrhenius_factor
 from geo_corrosion.errors import UnitError
 
 __all__ = [
@@ -30,7 +31,6 @@ __all__ = [
     "CSE_BAND_C",
     "cse_temperature_correction_mv",
     "arrhenius_factor",
-    "GAS_CONSTANT",
 ]
 
 
@@ -64,7 +64,6 @@ CSE_K_MV_PER_C = 0.9  # ASTM C876-22a §5.1.1.2: 0.0005 V/°F = 0.9 mV/°C (sour
 CSE_T_REF_C = 22.2  # ASTM C876-22a §4.7: 72 °F
 CSE_BAND_C = 5.5  # ASTM C876-22a §4.7: ±10 °F within which temperature may be neglected
 CSE_VALID_C = (0.0, 49.0)  # ASTM C876-22a §5.1.1.2: 32 °F to 120 °F
-GAS_CONSTANT = 8.314  # J/(mol K)
 
 
 def electrode(code: str, *, where: str = "") -> Electrode:
@@ -107,6 +106,7 @@ def cse_temperature_correction_mv(
     t_ref_c: float = CSE_T_REF_C,
     only_outside_band: bool = False,
     band_c: float = CSE_BAND_C,
+    unit: str = "C",
 ) -> float:
     """Return the correction (mV) to add to a CSE reading taken at an electrode temperature.
 
@@ -120,32 +120,23 @@ def cse_temperature_correction_mv(
         Reference temperature (ASTM C876: 22.2).
     only_outside_band : bool
         If true, no correction within ``t_ref_c ± band_c`` (C876 §4.7 allows neglecting it).
+    unit : {"C", "F"}
+        Unit of ``temperature_c``.  With ``"F"`` the temperature is in °F and the
+        correction uses C876's own figures, 0.5 mV/°F about 72 °F (± 10 °F), so that
+        the °F path reproduces the standard exactly (REFERENCE.md HCP-06).
 
     Examples
     --------
     >>> round(-350 + cse_temperature_correction_mv(32.2), 6)  # REFERENCE.md HCP-03
     -341.0
     """
+    if unit == "F":
+        k_mv_per_c, t_ref_c, band_c = k_mv_per_c / 1.8, t_ref_c * 1.8 + 32.0, band_c * 1.8
+        if abs(t_ref_c - 71.96) < 1e-9:  # the default 22.2 degC is C876's 72 degF
+            t_ref_c = 72.0
+    elif unit != "C":
+        raise UnitError(f"temperature unit must be 'C' or 'F', got {unit!r}")
     dt = float(temperature_c) - t_ref_c
     if only_outside_band and abs(dt) <= band_c:
         return 0.0
     return k_mv_per_c * dt
-
-
-def arrhenius_factor(
-    temperature_c: ArrayLike, *, t_ref_c: float = 20.0, ea_kj_mol: float = 25.0
-) -> NDArray[np.float64]:
-    """Return the factor that brings a resistivity at ``temperature_c`` to ``t_ref_c``.
-
-    ``rho(T_ref) = rho(T) * arrhenius_factor(T)``.
-
-    Examples
-    --------
-    >>> round(10.0 * float(arrhenius_factor(10.0)), 3)  # REFERENCE.md RES-07
-    6.961
-    """
-    t = np.asarray(temperature_c, dtype=float) + 273.15
-    t_ref = t_ref_c + 273.15
-    return np.exp(ea_kj_mol * 1000.0 / GAS_CONSTANT * (1.0 / t_ref - 1.0 / t))
-
-

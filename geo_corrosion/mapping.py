@@ -106,6 +106,22 @@ def mappable_readings(surveys: list[Survey], flags: pd.DataFrame) -> pd.DataFram
     return df.loc[keep].reset_index(drop=True)
 
 
+def merge_repeats(readings: pd.DataFrame, value_column: str) -> pd.DataFrame:
+    """Average readings taken at one location (repeats, duplicates) into one.
+
+    QA has already reported them; kriging needs one value per location.  The
+    merged row keeps every reading id, comma-joined.
+    """
+    key = [readings["x_local"].round(6), readings["y_local"].round(6)]
+    if not readings.duplicated(subset=["x_local", "y_local"]).any():
+        return readings
+    g = readings.groupby(key, sort=False)
+    out = g.first()
+    out[value_column] = g[value_column].mean()
+    out["reading_id"] = g["reading_id"].agg(",".join)
+    return out.reset_index(drop=True)
+
+
 def _class_polygons(
     kind: MeasurementKind, mean: NDArray[np.float64], grid: GridSpec, deck: BaseGeometry
 ) -> pd.DataFrame | None:
@@ -151,6 +167,7 @@ def build_surface(
     cell = params.cell_size_m / u
     max_d = params.max_distance_m / u
     col = kind.value_column
+    readings = merge_repeats(readings, col)
     x = readings["x_local"].to_numpy(float)
     y = readings["y_local"].to_numpy(float)
     z = readings[col].to_numpy(float)

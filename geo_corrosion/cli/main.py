@@ -92,8 +92,9 @@ def init(directory: Path) -> None:
 @cli.command()
 @site_arg
 @quiet_opt
+@click.option("--max-rows", default=50, show_default=True, help="Findings listed at most.")
 @errors_handler
-def check(site: Path, quiet: bool) -> None:
+def check(site: Path, quiet: bool, max_rows: int) -> None:
     """Check a site: read every file, apply corrections, print the QA findings.
 
     Exits 0 when the site can be run, 1 when it cannot.
@@ -112,14 +113,12 @@ def check(site: Path, quiet: bool) -> None:
         click.echo(f"survey {sv.id}: {len(sv.frame)} {sv.kind.name} readings "
                    f"({sv.kind.canonical_unit})")
     if len(flags):
-        click.echo(f"\nQA findings ({len(flags)}):")
-        order = {"error": 0, "warning": 1, "info": 2}
-        for r in sorted(flags.itertuples(), key=lambda r: (order.get(r.severity, 3), r.where)):
-            click.echo(f"  {r.severity:<7} {r.rule:<18} {r.where}: {r.message}")
+        click.echo(f"\nQA findings ({len(flags)}; all of them are in the qa_flags layer of a run):")
+        click.echo(qa.format_flags(flags, max_rows=max_rows))
         click.echo("")
         click.echo(qa.summarize(flags).to_string(index=False))
     ok = not len(flags) or qa.runnable(flags)
-    click.echo("\nthe site can be run" if ok else "\nthe site CANNOT be run: fix the errors above")
+    click.echo("\nthe site can be run" if ok else "\nthe site cannot be run: fix the errors above")
     sys.exit(0 if ok else 1)
 
 

@@ -5,7 +5,8 @@ Submodules (import them directly; this package imports only the light class tabl
 * :mod:`geo_corrosion.condition.classes` -- published class sets as data.
 * :mod:`geo_corrosion.condition.potential` -- cumulative frequency, mixture threshold, gradients.
 * :mod:`geo_corrosion.condition.resistivity` -- Wenner, thickness factor, geometry, Arrhenius.
-* :mod:`geo_corrosion.condition.corrosion_rate` -- Stern-Geary, Faraday, section loss, cracking.
+* :mod:`geo_corrosion.condition.corrosion_rate` -- Stern-Geary, ohmic drop, Faraday, sweeps.
+* :mod:`geo_corrosion.condition.life` -- section loss, pit area, time to cover cracking.
 * :mod:`geo_corrosion.condition.transient` -- galvanostatic pulse transient fits.
 * :mod:`geo_corrosion.condition.probability` -- exceedance probability maps and class areas.
 * :mod:`geo_corrosion.condition.combined` -- combined condition class rule table.

@@ -131,7 +131,9 @@ class ClassSet:
         n = len(self.labels)
         where = f"class set {self.name!r}: "
         if self.scope not in ("field", "laboratory"):
-            raise ConditionError(f"{where}scope must be 'field' or 'laboratory', got {self.scope!r}")
+            raise ConditionError(
+                f"{where}scope must be 'field' or 'laboratory', got {self.scope!r}"
+            )
         if n < 2:
             raise ConditionError(f"{where}needs at least two classes")
         if len(self.edges) != n - 1:
@@ -140,12 +142,15 @@ class ClassSet:
             )
         e = np.asarray(self.edges, dtype=float)
         if not np.all(np.isfinite(e)) or np.any(np.diff(e) <= 0):
-            raise ConditionError(f"{where}edges must be finite and strictly ascending: {self.edges}")
+            raise ConditionError(
+                f"{where}edges must be finite and strictly ascending: {self.edges}"
+            )
         if len(self.colors) != n:
             raise ConditionError(f"{where}{n} labels need {n} colours, got {len(self.colors)}")
         if len(self.on_edge) != n - 1 or any(s not in ("above", "below") for s in self.on_edge):
             raise ConditionError(
-                f"{where}on_edge needs one of 'above'/'below' per edge ({n - 1}), got {self.on_edge}"
+                f"{where}on_edge needs one of 'above'/'below' per edge ({n - 1}), "
+                f"got {self.on_edge}"
             )
         if not self.keys:
             object.__setattr__(self, "keys", tuple(_key(lab) for lab in self.labels))
@@ -184,11 +189,11 @@ class ClassSet:
             ) from err
         e = np.asarray(self.edges, dtype=float)
         above = np.asarray([s == "above" for s in self.on_edge])
-        vv = v[..., None]
+        vv = np.atleast_1d(v)[..., None]
         code = np.sum(vv > e, axis=-1) + np.sum((vv == e) & above, axis=-1)
-        code = code.astype(np.int64)
-        code[np.isnan(v)] = -1
-        return code
+        code = np.asarray(code, dtype=np.int64)
+        code[np.isnan(np.atleast_1d(v))] = -1
+        return code.reshape(v.shape)
 
     def classify(self, values: ArrayLike) -> NDArray[np.object_]:
         """Return class labels (object array of str); NaN gives ``""``.
@@ -218,7 +223,7 @@ class ClassSet:
     @staticmethod
     def _lookup(codes: NDArray[np.int64], table: tuple[str, ...]) -> NDArray[np.object_]:
         arr = np.asarray(("",) + tuple(table), dtype=object)
-        return arr[codes + 1]
+        return np.asarray(arr[codes + 1], dtype=object)
 
     def describe(self) -> dict[str, Any]:
         """JSON-ready description (for run.json and reports)."""
@@ -271,7 +276,9 @@ POTENTIAL_C876_SEVERE = ClassSet(
     "(common practice, not an ASTM class [P])",
     scope="field",
     edges=(-500.0, -350.0, -200.0),
-    labels=("severe (< -500 mV)", "high (>90 % corrosion)", "uncertain", "low (>90 % no corrosion)"),
+    labels=(
+        "severe (< -500 mV)", "high (>90 % corrosion)", "uncertain", "low (>90 % no corrosion)"
+    ),
     keys=("severe", "high", "uncertain", "low"),
     colors=(_PURPLE, _VERMILLION, _YELLOW, _GREEN),
     inclusive="-500 is 'high'; -350 and -200 are 'uncertain' (common practice)",

@@ -31,10 +31,9 @@ class GeoPackageExporter(Exporter):
         for name, gdf in site_layers(result).items():
             if gdf.empty:
                 continue
-            obj = gdf.select_dtypes(include="object").columns
             gdf = gdf.copy()
-            for c in obj:
-                if c != "geometry":
+            for c in gdf.columns:
+                if c != "geometry" and gdf[c].dtype == object:
                     gdf[c] = gdf[c].astype(str)
             try:
                 pyogrio.write_dataframe(gdf, path, layer=name, driver="GPKG",

@@ -52,7 +52,8 @@ def _surface_png(level: Level, s: KindSurface, crs_src: Any) -> tuple[str, list[
     nx, ny = s.grid.nx, s.grid.ny
     cols = np.array([0, nx, nx, 0], float)
     rows = np.array([0, 0, ny, ny], float)
-    X, Y = src_t * (cols, rows)
+    X = src_t.c + src_t.a * cols + src_t.b * rows
+    Y = src_t.f + src_t.d * cols + src_t.e * rows
     lon, lat = pyproj.Transformer.from_crs(crs_src, WGS84, always_xy=True).transform(X, Y)
     w = h = max(nx, ny)
     dst_t = rasterio.transform.from_bounds(lon.min(), lat.min(), lon.max(), lat.max(), w, h)
@@ -68,8 +69,8 @@ def _surface_png(level: Level, s: KindSurface, crs_src: Any) -> tuple[str, list[
     rgba[..., 3] = np.where(np.isfinite(dst), 0.75, 0.0)
     buf = io.BytesIO()
     Image.fromarray((rgba * 255).astype(np.uint8)).save(buf, format="PNG")
-    west, north = dst_t * (0, 0)
-    east, south = dst_t * (w, h)
+    west, north = dst_t.c, dst_t.f
+    east, south = dst_t.c + dst_t.a * w, dst_t.f + dst_t.e * h
     url = "data:image/png;base64," + base64.b64encode(buf.getvalue()).decode()
     return url, [[south, west], [north, east]]
 

@@ -73,10 +73,13 @@ class HalfCellPotential(MeasurementKind):
             # corrected unless the site file gives their coefficient (REFERENCE.md §1.4)
             k = CSE_K_MV_PER_C if el.code == "cse" else 0.0
         temps = frame["temperature_c"].to_numpy(float)
+        # a survey temperature given in degF is corrected on C876's own degF figures
+        in_f = survey.temperature_f is not None and "temperature_c" not in survey.columns
         corr = np.array([
             0.0 if np.isnan(tc) else cse_temperature_correction_mv(
-                tc, k_mv_per_c=k, t_ref_c=params.cse_reference_c,
-                only_outside_band=params.correct_only_outside_band,
+                tc * 1.8 + 32.0 if in_f else tc,
+                k_mv_per_c=k, t_ref_c=params.cse_reference_c,
+                only_outside_band=params.correct_only_outside_band, unit="F" if in_f else "C",
             )
             for tc in temps
         ])

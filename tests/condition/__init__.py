@@ -1,0 +1,1 @@
+"""Tests of geo_corrosion.condition."""

@@ -1,0 +1,381 @@
+"""Report figures: histogram, cumulative frequency, class map, potential vs resistivity.
+
+All figures are made with :class:`matplotlib.figure.Figure` and the Agg canvas
+directly (no ``pyplot``, so no global figure state), carry units on every axis
+and a caution footer, and are written atomically: to a temporary file in the
+target folder, then moved into place with :func:`os.replace`.  Each function
+returns the path written.
+
+The cumulative-frequency plot uses the plotting position r/(n+1) on a
+normal-probability axis (ASTM C876-91 §6.3, from memory; REFERENCE.md §1.8),
+with the C876 limits at -200 and -350 mV CSE and, when given, the site-specific
+mixture threshold (:mod:`geo_corrosion.condition.potential`).
+"""
+
+from __future__ import annotations
+
+import os
+import tempfile
+from collections.abc import Sequence
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+from matplotlib.backends.backend_agg import FigureCanvasAgg
+from matplotlib.colors import BoundaryNorm, ListedColormap
+from matplotlib.figure import Figure
+from matplotlib.patches import Patch
+from numpy.typing import ArrayLike
+from scipy import stats
+
+from geo_corrosion.condition.classes import POTENTIAL_C876, RESISTIVITY_RILEM, ClassSet
+from geo_corrosion.condition.potential import MixtureThreshold, cumulative_frequency
+from geo_corrosion.errors import ConditionError, ExportError
+
+__all__ = [
+    "CAUTION",
+    "plot_histogram",
+    "plot_cumulative_frequency",
+    "plot_class_map",
+    "plot_potential_vs_resistivity",
+]
+
+#: Footer printed on every figure (REFERENCE.md §7 item 1, wording ours).
+CAUTION = "Survey data, not a structural assessment; a licensed engineer decides."
+
+_UNIT_LABEL = {"mV vs CSE": "mV vs CSE", "kohm.cm": "kΩ·cm", "uA/cm2": "µA/cm²"}
+
+
+def _figure(width_in: float = 7.0, height_in: float = 5.0) -> Figure:
+    fig = Figure(figsize=(width_in, height_in), dpi=100)
+    FigureCanvasAgg(fig)
+    return fig
+
+
+def _finish(fig: Figure, path: str | os.PathLike[str], dpi: int) -> Path:
+    fig.text(0.01, 0.005, CAUTION, fontsize=7, color="#444444", ha="left", va="bottom")
+    fig.tight_layout(rect=(0.0, 0.03, 1.0, 1.0))
+    out = Path(path)
+    if out.suffix.lower() != ".png":
+        raise ExportError(f"{out}: figures are written as PNG; give a path ending in .png")
+    if not out.parent.is_dir():
+        raise ExportError(f"{out}: folder {out.parent} does not exist; create it first")
+    fd, tmp = tempfile.mkstemp(prefix=f".{out.stem}.", suffix=".png.tmp", dir=out.parent)
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            fig.savefig(fh, format="png", dpi=dpi)
+        os.chmod(tmp, 0o644)  # mkstemp creates 0600; a report figure is world-readable
+        os.replace(tmp, out)
+    except OSError as err:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+        raise ExportError(f"{out}: cannot write figure ({err})") from err
+    except BaseException:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+        raise
+    return out
+
+
+def _finite(values: ArrayLike, what: str) -> np.ndarray:
+    try:
+        v = np.asarray(values, dtype=float).ravel()
+    except (TypeError, ValueError) as err:
+        raise ConditionError(f"{what} must be numeric ({err})") from err
+    f = v[np.isfinite(v)]
+    if f.size == 0:
+        raise ConditionError(f"no finite {what} to plot")
+    out: np.ndarray = f
+    return out
+
+
+def _axis_label(quantity: str, unit: str) -> str:
+    return f"{quantity} ({_UNIT_LABEL.get(unit, unit)})"
+
+
+def plot_histogram(
+    values: ArrayLike,
+    path: str | os.PathLike[str],
+    *,
+    class_set: ClassSet | None = None,
+    quantity: str = "Half-cell potential",
+    unit: str | None = None,
+    bins: int | str = "auto",
+    log_x: bool = False,
+    title: str | None = None,
+    dpi: int = 150,
+) -> Path:
+    """Write a histogram of readings with the class bands shaded; return the path.
+
+    Parameters
+    ----------
+    values : array_like
+        Readings in ``unit`` (NaN ignored).
+    path : path-like
+        Target PNG.
+    class_set : ClassSet, optional
+        Shade its classes and draw its edges.
+    quantity : str
+        Axis quantity name.
+    unit : str, optional
+        Unit label; default the class set's unit (required without one).
+    bins : int or str
+        As :func:`numpy.histogram_bin_edges`.
+    log_x : bool
+        Logarithmic value axis (resistivity, corrosion rate); bins log-spaced.
+    """
+    v = _finite(values, "values")
+    u = unit if unit is not None else (class_set.unit if class_set else None)
+    if u is None:
+        raise ConditionError("plot_histogram needs a unit (or a class set that has one)")
+    if log_x:
+        if np.any(v <= 0):
+            raise ConditionError("a logarithmic histogram needs positive values")
+        edges = 10 ** np.histogram_bin_edges(np.log10(v), bins=bins)
+    else:
+        edges = np.histogram_bin_edges(v, bins=bins)
+    fig = _figure()
+    ax = fig.add_subplot(1, 1, 1)
+    lo, hi = float(edges[0]), float(edges[-1])
+    if class_set is not None:
+        bounds = [lo] + [e for e in class_set.edges if lo < e < hi] + [hi]
+        codes = class_set.codes([(a + b) / 2 for a, b in zip(bounds[:-1], bounds[1:], strict=True)])
+        for (a, b), c in zip(zip(bounds[:-1], bounds[1:], strict=True), codes, strict=True):
+            ax.axvspan(a, b, color=class_set.colors[c], alpha=0.18, lw=0)
+        for e in class_set.edges:
+            if lo < e < hi:
+                ax.axvline(e, color="#333333", lw=1.0, ls="--")
+        handles = [Patch(color=col, alpha=0.4, label=lab)
+                   for col, lab in zip(class_set.colors, class_set.labels, strict=True)]
+        ax.legend(handles=handles, fontsize=8, loc="upper right", title=class_set.name)
+    ax.hist(v, bins=list(edges), color="#0072B2", edgecolor="white")
+    if log_x:
+        ax.set_xscale("log")
+    ax.set_xlabel(_axis_label(quantity, u))
+    ax.set_ylabel("Number of readings (count)")
+    ax.set_title(title or f"{quantity}: {v.size} readings")
+    return _finish(fig, path, dpi)
+
+
+_PROB_TICKS = (0.1, 1, 5, 10, 20, 30, 50, 70, 80, 90, 95, 99, 99.9)
+
+
+def plot_cumulative_frequency(
+    potential_mv: ArrayLike,
+    path: str | os.PathLike[str],
+    *,
+    mixture: MixtureThreshold | None = None,
+    c876_lines: bool = True,
+    title: str | None = None,
+    dpi: int = 150,
+) -> Path:
+    """Write the cumulative frequency of potentials on a normal-probability axis.
+
+    Parameters
+    ----------
+    potential_mv : array_like
+        Readings, mV vs CSE.
+    path : path-like
+        Target PNG.
+    mixture : MixtureThreshold, optional
+        Adds the site-specific threshold and the fitted mixture CDF.
+    c876_lines : bool
+        Draw the ASTM C876 limits at -350 and -200 mV.
+    """
+    cfd = cumulative_frequency(potential_mv)
+    fig = _figure()
+    ax = fig.add_subplot(1, 1, 1)
+    ax.plot(cfd.potential_mv, cfd.z, "o", ms=3, color="#0072B2", label="readings, r/(n+1)")
+    zmin = min(float(cfd.z.min()), stats.norm.ppf(0.01)) - 0.1
+    zmax = max(float(cfd.z.max()), stats.norm.ppf(0.99)) + 0.1
+    ticks = [p for p in _PROB_TICKS if zmin <= stats.norm.ppf(p / 100) <= zmax]
+    ax.set_yticks([stats.norm.ppf(p / 100) for p in ticks])
+    ax.set_yticklabels([f"{p:g}" for p in ticks])
+    ax.set_ylim(zmin, zmax)
+    if c876_lines:
+        for e, lab in zip(POTENTIAL_C876.edges, ("C876 -350 mV", "C876 -200 mV"), strict=True):
+            ax.axvline(e, color="#D55E00" if e < -300 else "#E69F00", lw=1.2, ls="--", label=lab)
+    if mixture is not None:
+        x = np.linspace(float(cfd.potential_mv.min()), float(cfd.potential_mv.max()), 300)
+        cdf = (mixture.active_weight * stats.norm.cdf(x, mixture.active_mean_mv,
+                                                      mixture.active_std_mv)
+               + mixture.passive_weight * stats.norm.cdf(x, mixture.passive_mean_mv,
+                                                         mixture.passive_std_mv))
+        cdf = np.clip(cdf, 1e-6, 1 - 1e-6)
+        ax.plot(x, stats.norm.ppf(cdf), "-", color="#333333", lw=1.0, label="mixture fit")
+        ax.axvline(mixture.threshold_mv, color="#CC79A7", lw=1.6,
+                   label=f"site threshold {mixture.threshold_mv:.0f} mV")
+    ax.grid(True, color="#DDDDDD", lw=0.6)
+    ax.set_xlabel(_axis_label("Half-cell potential", "mV vs CSE"))
+    ax.set_ylabel("Cumulative frequency (%, normal-probability scale)")
+    ax.set_title(title or f"Cumulative frequency of potentials, n = {cfd.potential_mv.size}")
+    ax.legend(fontsize=8, loc="lower right")
+    return _finish(fig, path, dpi)
+
+
+def _polygon_rings(poly: Any) -> list[np.ndarray]:
+    if hasattr(poly, "geoms"):
+        out: list[np.ndarray] = []
+        for g in poly.geoms:
+            out.extend(_polygon_rings(g))
+        return out
+    if hasattr(poly, "exterior"):
+        rings = [np.asarray(poly.exterior.coords)]
+        rings += [np.asarray(r.coords) for r in poly.interiors]
+        return rings
+    if hasattr(poly, "coords"):
+        return [np.asarray(poly.coords)]
+    a = np.asarray(poly, dtype=float)
+    if a.ndim != 2 or a.shape[1] != 2:
+        raise ConditionError("a polygon must be a shapely geometry or an (n, 2) array of x, y")
+    return [a]
+
+
+def plot_class_map(
+    grid: ArrayLike,
+    extent: tuple[float, float, float, float],
+    path: str | os.PathLike[str],
+    *,
+    class_set: ClassSet,
+    quantity: str = "Half-cell potential",
+    plan_unit: str = "m",
+    contour_interval: float | None = None,
+    polygons: Sequence[Any] | None = None,
+    polygon_label: str = "delamination",
+    origin: str = "lower",
+    title: str | None = None,
+    dpi: int = 150,
+) -> Path:
+    """Write a plan map of classes with value contours and optional polygons.
+
+    Parameters
+    ----------
+    grid : array_like, 2-D
+        Surface values in the class set's unit; NaN outside the element.
+    extent : (xmin, xmax, ymin, ymax)
+        Outer edges of the grid, plan units.
+    path : path-like
+        Target PNG.
+    class_set : ClassSet
+    quantity : str
+        Name for the title and colour key.
+    plan_unit : str
+        Plan length unit for the axes (m, ft).
+    contour_interval : float, optional
+        Contour interval in the class set's unit (e.g. 50 mV); None: no contours.
+    polygons : sequence, optional
+        Shapely polygons or (n, 2) coordinate arrays drawn as outlines.
+    origin : {"lower", "upper"}
+        Row 0 of ``grid`` at ``ymin`` ("lower") or at ``ymax`` ("upper").
+    """
+    try:
+        g = np.asarray(grid, dtype=float)
+    except (TypeError, ValueError) as err:
+        raise ConditionError(f"grid must be numeric ({err})") from err
+    if g.ndim != 2:
+        raise ConditionError(f"grid must be 2-D, got shape {g.shape}")
+    if origin not in ("lower", "upper"):
+        raise ConditionError("origin must be 'lower' or 'upper'")
+    xmin, xmax, ymin, ymax = (float(e) for e in extent)
+    if not (xmax > xmin and ymax > ymin):
+        raise ConditionError(f"extent must be (xmin, xmax, ymin, ymax) with max > min: {extent}")
+    if not np.any(np.isfinite(g)):
+        raise ConditionError("grid has no finite value to map")
+    codes = class_set.codes(g).astype(float)
+    codes[codes < 0] = np.nan
+    cmap = ListedColormap(list(class_set.colors)).with_extremes(bad=(1.0, 1.0, 1.0, 0.0))
+    norm = BoundaryNorm(np.arange(-0.5, class_set.n_classes + 0.5), class_set.n_classes)
+    fig = _figure(7.5, 6.0)
+    ax = fig.add_subplot(1, 1, 1)
+    ax.imshow(np.ma.masked_invalid(codes), cmap=cmap, norm=norm, extent=(xmin, xmax, ymin, ymax),
+              origin="lower" if origin == "lower" else "upper", interpolation="nearest",
+              aspect="equal")
+    if contour_interval is not None:
+        if not contour_interval > 0:
+            raise ConditionError("contour interval must be positive")
+        ny, nx = g.shape
+        xs = xmin + (np.arange(nx) + 0.5) * (xmax - xmin) / nx
+        ys = ymin + (np.arange(ny) + 0.5) * (ymax - ymin) / ny
+        gg = g if origin == "lower" else g[::-1]
+        fmin, fmax = float(np.nanmin(g)), float(np.nanmax(g))
+        levels = np.arange(np.ceil(fmin / contour_interval) * contour_interval, fmax + 1e-9,
+                           contour_interval)
+        if levels.size:
+            cs = ax.contour(xs, ys, np.ma.masked_invalid(gg), levels=levels, colors="#333333",
+                            linestyles="solid", linewidths=0.6)
+            ax.clabel(cs, fontsize=6, fmt="%g")
+    if polygons:
+        for k, poly in enumerate(polygons):
+            for ring in _polygon_rings(poly):
+                ax.plot(ring[:, 0], ring[:, 1], color="black", lw=1.2,
+                        label=polygon_label if k == 0 else None)
+    handles = [Patch(color=c, label=lab)
+               for c, lab in zip(class_set.colors, class_set.labels, strict=True)]
+    if polygons:
+        handles.append(Patch(facecolor="none", edgecolor="black", label=polygon_label))
+    ax.legend(handles=handles, fontsize=7, loc="upper left", bbox_to_anchor=(1.01, 1.0),
+              title=f"{quantity} ({_UNIT_LABEL.get(class_set.unit, class_set.unit)})",
+              title_fontsize=7)
+    ax.set_xlabel(f"x ({plan_unit})")
+    ax.set_ylabel(f"y ({plan_unit})")
+    ttl = title or f"{quantity} classes ({class_set.name})"
+    if contour_interval is not None:
+        ttl += f", contours every {contour_interval:g} {_UNIT_LABEL.get(class_set.unit, '')}"
+    ax.set_title(ttl, fontsize=10)
+    return _finish(fig, path, dpi)
+
+
+def plot_potential_vs_resistivity(
+    potential_mv: ArrayLike,
+    resistivity_kohm_cm: ArrayLike,
+    path: str | os.PathLike[str],
+    *,
+    log_resistivity: bool = True,
+    resistivity_class_set: ClassSet = RESISTIVITY_RILEM,
+    title: str | None = None,
+    dpi: int = 150,
+) -> Path:
+    """Write a scatter of potential against resistivity at co-located readings.
+
+    Parameters
+    ----------
+    potential_mv, resistivity_kohm_cm : array_like
+        Paired readings (same length); pairs with a NaN are dropped.
+    path : path-like
+        Target PNG.
+    log_resistivity : bool
+        Logarithmic resistivity axis.
+    resistivity_class_set : ClassSet
+        Its edges are drawn as horizontal lines.
+    """
+    e = np.asarray(potential_mv, dtype=float).ravel()
+    r = np.asarray(resistivity_kohm_cm, dtype=float).ravel()
+    if e.shape != r.shape:
+        raise ConditionError(
+            f"potential ({e.size}) and resistivity ({r.size}) readings must pair up"
+        )
+    ok = np.isfinite(e) & np.isfinite(r)
+    if log_resistivity:
+        ok &= r > 0
+    if not np.any(ok):
+        raise ConditionError("no co-located potential and resistivity readings to plot")
+    e, r = e[ok], r[ok]
+    fig = _figure()
+    ax = fig.add_subplot(1, 1, 1)
+    ax.scatter(e, r, s=12, color="#0072B2", alpha=0.8, label=f"readings (n = {e.size})")
+    for edge in POTENTIAL_C876.edges:
+        ax.axvline(edge, color="#D55E00", lw=1.0, ls="--")
+    for edge in resistivity_class_set.edges:
+        ax.axhline(edge, color="#009E73", lw=1.0, ls=":")
+    if log_resistivity:
+        ax.set_yscale("log")
+    if e.size > 2 and np.ptp(e) > 0 and np.ptp(r) > 0:
+        rho = stats.spearmanr(e, r).statistic
+        ax.text(0.02, 0.97, f"Spearman rank correlation {rho:.2f}", transform=ax.transAxes,
+                fontsize=8, va="top")
+    ax.set_xlabel(_axis_label("Half-cell potential", "mV vs CSE"))
+    ax.set_ylabel(_axis_label("Resistivity", "kohm.cm"))
+    ax.set_title(title or "Potential vs resistivity (dashed: C876 limits; dotted: "
+                 f"{resistivity_class_set.name} limits)", fontsize=9)
+    ax.legend(fontsize=8, loc="lower right")
+    return _finish(fig, path, dpi)

@@ -1,0 +1,347 @@
+"""Bid items and the schedule of quantities, per level and in total.
+
+Quantities follow ``../shared/REFERENCE.md`` §6.4 [P unless noted]: repair areas by
+depth class, saw-cut length, an estimated removal volume, galvanic anodes counted
+along repair perimeters, and zone treatments by area.  Areas are measured on the
+union of each item's polygons, so no area is counted twice where shapes overlap.
+The contingency is carried as its own line beside the base quantity.
+
+The schedule is a long table, one row per (level, item, line) with
+``line`` in ``("base", "contingency")``; level ``"ALL"`` holds the totals.
+:func:`schedule_table` pivots it to one row per item with base, contingency and
+total side by side.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import tempfile
+from collections.abc import Mapping
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Literal, get_args
+
+import geopandas as gpd
+import pandas as pd
+import shapely
+
+from geo_corrosion.errors import ExportError, RepairError
+from geo_corrosion.units import ReportUnits
+
+__all__ = [
+    "ALL_LEVELS",
+    "DEFAULT_BID_ITEMS",
+    "DEPTH_CLASS_ITEMS",
+    "SCHEDULE_COLUMNS",
+    "BidItem",
+    "bid_schedule",
+    "roll_up",
+    "schedule_table",
+    "write_quantities_csv",
+]
+
+UnitKind = Literal["area", "length", "volume", "count", "lump_sum"]
+
+#: Level id of the total lines.
+ALL_LEVELS = "ALL"
+
+#: Columns of the schedule returned by :func:`bid_schedule`.
+SCHEDULE_COLUMNS: tuple[str, ...] = ("level_id", "item", "description", "unit_kind", "unit",
+                                     "line", "quantity")
+
+
+@dataclass(frozen=True)
+class BidItem:
+    """One item of the bid schedule.
+
+    Attributes
+    ----------
+    code : str
+        Item code, as in the schedule.
+    description : str
+    unit_kind : {"area", "length", "volume", "count", "lump_sum"}
+        What is measured; the unit label follows the reporting system
+        (m2/m/m3 or ft2/LF/ft3; EA for counts, LS for lump sums).
+    contingency : bool
+        Whether the contingency allowance applies (never to lump sums).
+    """
+
+    code: str
+    description: str
+    unit_kind: UnitKind
+    contingency: bool = True
+
+    def __post_init__(self) -> None:
+        if self.unit_kind not in get_args(UnitKind):
+            raise RepairError(f"bid item {self.code!r}: unit kind {self.unit_kind!r} is unknown; "
+                              f"use one of {list(get_args(UnitKind))}")
+        if not self.code:
+            raise RepairError("a bid item needs a code")
+
+    def unit(self, units: ReportUnits) -> str:
+        """Unit label of this item in the reporting system."""
+        return {"area": units.area, "length": units.length, "volume": units.volume,
+                "count": "EA", "lump_sum": "LS"}[self.unit_kind]
+
+
+#: Built-in items (REFERENCE §6.4 [P]).
+DEFAULT_BID_ITEMS: dict[str, BidItem] = {b.code: b for b in (
+    BidItem("REP-PD-SURF", "Partial-depth repair, above the bars", "area"),
+    BidItem("REP-PD-BARS", "Partial-depth repair, to below the top mat (bars undercut)", "area"),
+    BidItem("REP-FD", "Full-depth slab repair", "area"),
+    BidItem("REP-VOL", "Concrete removal and replacement volume (estimate)", "volume"),
+    BidItem("SAWCUT", "Perimeter saw cut", "length"),
+    BidItem("ANODE", "Embedded galvanic anodes along repair perimeters", "count"),
+    BidItem("TREAT-ACTIVE", "Treatment of actively corroding sound concrete", "area"),
+    BidItem("PROTECT-LOWCOVER", "Protection of low-cover areas (membrane or sealer)", "area"),
+)}
+
+#: Bid item of each depth class of :mod:`geo_corrosion.repair`.
+DEPTH_CLASS_ITEMS: dict[str, str] = {
+    "partial_above_bars": "REP-PD-SURF",
+    "partial_below_bars": "REP-PD-BARS",
+    "full_depth": "REP-FD",
+}
+
+
+def _union_ratio(geoms: gpd.GeoSeries) -> float:
+    """Area of the union over the sum of areas (1.0 when nothing overlaps)."""
+    total = float(geoms.area.sum())
+    if total <= 0:
+        return 1.0
+    return min(1.0, float(shapely.union_all(geoms.to_numpy()).area) / total)
+
+
+def _repair_lines(repairs: gpd.GeoDataFrame, anode_spacing_mm: float | None) -> list[dict]:
+    need = [c for c in ("level_id", "area_m2") if c not in repairs.columns]
+    if "depth_class" not in repairs.columns and "bid_item" not in repairs.columns:
+        need.append("depth_class or bid_item")
+    if need:
+        raise RepairError(f"repairs lack column(s) {need}; pass the frame from layout_repairs")
+    lines: list[dict] = []
+    r = repairs.copy()
+    if "bid_item" not in r.columns or r["bid_item"].isna().all():
+        unknown = sorted(set(map(str, r["depth_class"])) - set(DEPTH_CLASS_ITEMS))
+        if unknown:
+            raise RepairError(f"no bid item for depth class(es) {unknown}; add a 'bid_item' "
+                              "column to the repairs")
+        r["bid_item"] = [DEPTH_CLASS_ITEMS[str(c)] for c in r["depth_class"]]
+    for (lid, item), g in r.groupby(["level_id", "bid_item"], sort=False):
+        ratio = _union_ratio(g.geometry) if "geometry" in g and g.geometry.notna().all() else 1.0
+        lines.append({"level_id": lid, "item": item, "unit_kind": "area",
+                      "q": ratio * float(g["area_m2"].sum())})
+        if "volume_m3" in g:
+            lines.append({"level_id": lid, "item": "REP-VOL", "unit_kind": "volume",
+                          "q": ratio * float(g["volume_m3"].sum())})
+    for lid, g in r.groupby("level_id", sort=False):
+        if "perimeter_m" in g:
+            lines.append({"level_id": lid, "item": "SAWCUT", "unit_kind": "length",
+                          "q": float(g["perimeter_m"].sum())})
+            if anode_spacing_mm is not None:
+                n = sum(math.ceil(float(p) * 1000.0 / anode_spacing_mm - 1e-9)
+                        for p in g["perimeter_m"])
+                lines.append({"level_id": lid, "item": "ANODE", "unit_kind": "count", "q": n})
+    return lines
+
+
+def _zone_lines(zones: gpd.GeoDataFrame) -> tuple[list[dict], dict[str, str]]:
+    need = [c for c in ("level_id", "bid_item", "area_m2") if c not in zones.columns]
+    if need:
+        raise RepairError(f"zones lack column(s) {need}; pass the frame from zoning.zone")
+    z = zones[zones["bid_item"].notna() & (zones["bid_item"].astype(str) != "")]
+    lines, descr = [], {}
+    for (lid, item), g in z.groupby(["level_id", "bid_item"], sort=False):
+        ratio = _union_ratio(g.geometry) if "geometry" in g and g.geometry.notna().all() else 1.0
+        kind = str(g["unit_kind"].iloc[0]) if "unit_kind" in g else "area"
+        lines.append({"level_id": lid, "item": str(item), "unit_kind": kind,
+                      "q": ratio * float(g["area_m2"].sum())})
+        if "treatment" in g:
+            descr[str(item)] = str(g["treatment"].iloc[0])
+    return lines, descr
+
+
+def roll_up(lines: pd.DataFrame, *, units: ReportUnits, items: Mapping[str, BidItem],
+            contingency: float = 0.20, levels: list[str] | None = None) -> pd.DataFrame:
+    """Roll quantities up by level and item, with contingency lines and totals.
+
+    Parameters
+    ----------
+    lines : DataFrame
+        Columns ``level_id``, ``item``, ``unit_kind`` and ``q`` (m2, m, m3 or a count).
+    units : ReportUnits
+        Reporting system.
+    items : mapping of str to BidItem
+        Every item code in ``lines``.
+    contingency : float
+        Allowance as a fraction of the base quantity (REFERENCE §6.4 [P], default 0.20).
+    levels : list of str, optional
+        Order of the levels in the schedule (default: as met).
+
+    Returns
+    -------
+    DataFrame
+        Columns :data:`SCHEDULE_COLUMNS`, quantities in the reporting units.
+
+    Raises
+    ------
+    RepairError
+        If one item gets quantities of two unit kinds (REFERENCE BID-03), or an
+        item code is unknown.
+
+    Examples
+    --------
+    >>> from geo_corrosion.units import report_units
+    >>> li = pd.DataFrame({"level_id": ["P1"], "item": ["REP-FD"], "unit_kind": ["area"],
+    ...                    "q": [500 * 0.09290304]})
+    >>> s = roll_up(li, units=report_units("us"), items=DEFAULT_BID_ITEMS)
+    >>> [round(q, 6) for q in s.loc[s.level_id == "ALL", "quantity"]]  # REFERENCE BID-01
+    [500.0, 100.0]
+    """
+    if not (0.0 <= contingency <= 1.0) or not math.isfinite(contingency):
+        raise RepairError(f"contingency = {contingency!r}; give a fraction from 0 to 1 "
+                          "(0.20 for 20 %)")
+    if lines.empty:
+        return pd.DataFrame({c: pd.Series(dtype=object) for c in SCHEDULE_COLUMNS})
+    for code, kinds in lines.groupby("item", sort=False)["unit_kind"]:
+        if code not in items:
+            raise RepairError(f"bid item {code!r} is not declared; add it to the items")
+        found = sorted(set(kinds) | {items[code].unit_kind})
+        if len(found) > 1:
+            raise RepairError(f"bid item {code!r} mixes units ({', '.join(found)}); give each "
+                              "unit its own item")
+    conv = {"area": units.area_from_m2, "length": units.length_from_m,
+            "volume": units.volume_from_m3}
+    order = levels or list(dict.fromkeys(lines["level_id"]))
+    item_order = [c for c in items if c in set(lines["item"])]
+    rows = []
+    sums: dict[tuple[str, str], float] = {}
+    for lid in order:
+        sub = lines[lines["level_id"] == lid]
+        for code in item_order:
+            q = sub.loc[sub["item"] == code, "q"]
+            if q.empty:
+                continue
+            it = items[code]
+            base = float(q.sum())
+            base = float(conv[it.unit_kind](base)) if it.unit_kind in conv else float(base)
+            c = 0.0
+            if it.contingency and it.unit_kind != "lump_sum":
+                c = base * contingency
+                c = float(math.ceil(c - 1e-9)) if it.unit_kind == "count" else c
+            for line, v in (("base", base), ("contingency", c)):
+                rows.append((lid, code, it.description, it.unit_kind, it.unit(units), line, v))
+                sums[(code, line)] = sums.get((code, line), 0.0) + v
+    for code in item_order:
+        it = items[code]
+        for line in ("base", "contingency"):
+            rows.append((ALL_LEVELS, code, it.description, it.unit_kind, it.unit(units), line,
+                         sums[(code, line)]))
+    return pd.DataFrame(rows, columns=list(SCHEDULE_COLUMNS))
+
+
+def bid_schedule(repairs: gpd.GeoDataFrame | None, zones: gpd.GeoDataFrame | None, *,
+                 units: ReportUnits, contingency: float = 0.20,
+                 anode_spacing_mm: float | None = None,
+                 items: Mapping[str, BidItem] | None = None) -> pd.DataFrame:
+    """The schedule of quantities of repairs and zones, per level and in total.
+
+    Parameters
+    ----------
+    repairs : GeoDataFrame or None
+        Frame(s) of :func:`geo_corrosion.repair.layout_repairs`, levels concatenated
+        (needs ``level_id``, ``area_m2``, ``depth_class`` or ``bid_item``; uses
+        ``perimeter_m`` and ``volume_m3`` when present).
+    zones : GeoDataFrame or None
+        Frame(s) of :func:`geo_corrosion.zoning.zone` (``level_id``, ``bid_item``,
+        ``area_m2``); zones without a bid item are not priced.
+    units : ReportUnits
+        Reporting system.
+    contingency : float
+        Allowance as a fraction of base quantities (default 0.20 [P]).
+    anode_spacing_mm : float, optional
+        Spacing of galvanic anodes along repair perimeters, mm; count per repair =
+        ceil(perimeter / spacing) (REFERENCE §6.4 [P]).  None: no anode item.
+    items : mapping of str to BidItem, optional
+        Items added to or replacing :data:`DEFAULT_BID_ITEMS`.
+
+    Returns
+    -------
+    DataFrame
+        See :func:`roll_up`.
+
+    Raises
+    ------
+    RepairError
+        For missing columns, a bad contingency or spacing, or mixed units in one item.
+    """
+    if anode_spacing_mm is not None and not (0 < anode_spacing_mm < 1e5):
+        raise RepairError(f"anode_spacing_mm = {anode_spacing_mm!r} mm; give a spacing > 0 mm")
+    all_items: dict[str, BidItem] = dict(DEFAULT_BID_ITEMS)
+    all_items.update(items or {})
+    lines: list[dict] = []
+    levels: list[str] = []
+    if repairs is not None and len(repairs):
+        lines += _repair_lines(repairs, anode_spacing_mm)
+        levels += list(dict.fromkeys(map(str, repairs["level_id"])))
+    if zones is not None and len(zones):
+        zl, descr = _zone_lines(zones)
+        for code, d in descr.items():
+            all_items.setdefault(code, BidItem(code, d, "area"))
+        lines += zl
+        levels += [lv for lv in dict.fromkeys(map(str, zones["level_id"])) if lv not in levels]
+    frame = pd.DataFrame(lines, columns=["level_id", "item", "unit_kind", "q"])
+    frame["level_id"] = frame["level_id"].astype(str)
+    return roll_up(frame, units=units, items=all_items, contingency=contingency, levels=levels)
+
+
+def schedule_table(schedule: pd.DataFrame) -> pd.DataFrame:
+    """One row per (level, item): base, contingency and total side by side."""
+    cols = ["level_id", "item", "description", "unit", "base", "contingency", "total"]
+    if schedule.empty:
+        return pd.DataFrame({c: pd.Series(dtype=object) for c in cols})
+    w = schedule.pivot_table(index=["level_id", "item", "description", "unit"], columns="line",
+                             values="quantity", aggfunc="sum", sort=False).reset_index()
+    for c in ("base", "contingency"):
+        if c not in w:
+            w[c] = 0.0
+    w["total"] = w["base"] + w["contingency"]
+    w.columns.name = None
+    return w[cols]
+
+
+def write_quantities_csv(schedule: pd.DataFrame, path: str | os.PathLike[str]) -> Path:
+    """Write the schedule as CSV, atomically (temporary file, then rename).
+
+    Quantities are written to 2 decimals (counts and lump sums as whole numbers).
+
+    Raises
+    ------
+    ExportError
+        If the file cannot be written; nothing is left half-written.
+    """
+    path = Path(path)
+    out = schedule.copy()
+    if "quantity" in out and len(out):
+        whole = (out["unit"].isin(["EA", "LS"]) if "unit" in out
+                 else pd.Series(False, index=out.index))
+        out["quantity"] = [f"{q:.0f}" if w else f"{q:.2f}"
+                           for q, w in zip(out["quantity"], whole, strict=True)]
+    return _atomic_write(path, lambda tmp: out.to_csv(tmp, index=False))
+
+
+def _atomic_write(path: Path, write: object) -> Path:
+    """Call ``write(tmp_path)`` then move the temporary file onto ``path``."""
+    try:
+        path.parent.mkdir(parents=True, exist_ok=True)
+        fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.stem}.", suffix=f".tmp{path.suffix}")
+        os.close(fd)
+    except OSError as err:
+        raise ExportError(f"cannot write {path}: {err}") from err
+    try:
+        write(tmp)  # type: ignore[operator]
+        os.replace(tmp, path)
+    except Exception as err:
+        Path(tmp).unlink(missing_ok=True)
+        raise ExportError(f"cannot write {path}: {err}") from err
+    return path

@@ -1,0 +1,120 @@
+"""The built-in zoning rules (issue 5; REFERENCE.md §5.3 and §6.4 [P]).
+
+Order them from the most to the least urgent treatment: repair of delaminated and
+spalled concrete; treatment of actively corroding but sound concrete (embedded
+galvanic anodes or a corrosion inhibitor); protection of low-cover areas
+(membrane or sealer); no action for the rest.
+"""
+
+from __future__ import annotations
+
+import shapely
+from shapely.geometry import Polygon
+from shapely.geometry.base import BaseGeometry
+
+from geo_corrosion.errors import ZoningError
+from geo_corrosion.zoning.base import ZoningLayers, ZoningRule
+
+__all__ = ["ActiveCorrosionRule", "BUILTIN_ZONING_RULES", "LowCoverRule", "NoActionRule",
+           "RepairRule", "default_rules"]
+
+
+def _union(geoms: list[BaseGeometry]) -> BaseGeometry:
+    geoms = [g for g in geoms if g is not None and not g.is_empty]
+    return shapely.union_all(geoms) if geoms else Polygon()
+
+
+class RepairRule(ZoningRule):
+    """Repair of delaminated and spalled concrete.
+
+    Parameters
+    ----------
+    include_repairs : bool
+        Also claim the laid-out repair outlines (they reach past the sounded
+        limits by the margin).
+    name, treatment, bid_item
+        See :class:`ZoningRule`.  The zone is priced through the repair layout's
+        own items, so its default bid item is None.
+    """
+
+    name = "repair"
+    treatment = "concrete repair: saw-cut, remove, clean and undercut bars, patch"
+    bid_item = None
+    description = "delaminated and spalled concrete (and the laid-out repairs)"
+
+    def __init__(self, *, include_repairs: bool = True, name: str | None = None,
+                 treatment: str | None = None, bid_item: str | None = "") -> None:
+        super().__init__(name=name, treatment=treatment, bid_item=bid_item)
+        self.include_repairs = include_repairs
+
+    def apply(self, layers: ZoningLayers) -> BaseGeometry:
+        """Delaminated, spalled and (optionally) repaired areas."""
+        extra = [layers.repairs] if self.include_repairs else []
+        return _union([layers.delaminated, layers.spalled, *extra])
+
+
+class ActiveCorrosionRule(ZoningRule):
+    """Treatment of actively corroding but sound concrete.
+
+    Parameters
+    ----------
+    classes : tuple of str
+        Condition classes (keys of :attr:`ZoningLayers.classes`) taken as active,
+        besides :attr:`ZoningLayers.active`.
+    """
+
+    name = "active_corrosion"
+    treatment = "embedded galvanic anodes or corrosion inhibitor"
+    bid_item = "TREAT-ACTIVE"
+    description = "active corrosion (probability of corrosion or condition class) in sound concrete"
+
+    def __init__(self, *, classes: tuple[str, ...] = ("high",), name: str | None = None,
+                 treatment: str | None = None, bid_item: str | None = "") -> None:
+        super().__init__(name=name, treatment=treatment, bid_item=bid_item)
+        if isinstance(classes, str):
+            raise ZoningError("active_corrosion: 'classes' is a list of class names, "
+                              f"not the string {classes!r}")
+        self.classes = tuple(classes)
+
+    def apply(self, layers: ZoningLayers) -> BaseGeometry:
+        """The active layer and the chosen condition classes."""
+        return _union([layers.active, *[layers.classes[c] for c in self.classes
+                                        if c in layers.classes]])
+
+
+class LowCoverRule(ZoningRule):
+    """Protection of low-cover areas with a membrane or sealer (REFERENCE §5.3 item 5 [S])."""
+
+    name = "low_cover"
+    treatment = "traffic-bearing membrane or penetrating sealer"
+    bid_item = "PROTECT-LOWCOVER"
+    description = "cover below the low-cover threshold"
+
+    def apply(self, layers: ZoningLayers) -> BaseGeometry:
+        """The low-cover layer."""
+        return layers.low_cover
+
+
+class NoActionRule(ZoningRule):
+    """No action: everything no earlier rule claimed."""
+
+    name = "no_action"
+    treatment = "no action"
+    bid_item = None
+    description = "the rest of the slab"
+    catch_all = True
+
+    def apply(self, layers: ZoningLayers) -> BaseGeometry:
+        """Nothing of its own; :func:`~geo_corrosion.zoning.zone` gives it the rest."""
+        return Polygon()
+
+
+#: Built-in rules by name; the plugin loader adds entry points.
+BUILTIN_ZONING_RULES: dict[str, type[ZoningRule]] = {
+    r.name: r for r in (RepairRule, ActiveCorrosionRule, LowCoverRule, NoActionRule)
+}
+
+
+def default_rules() -> list[ZoningRule]:
+    """The built-in rules in their usual order, with default parameters."""
+    return [RepairRule(), ActiveCorrosionRule(), LowCoverRule(), NoActionRule()]

@@ -1,0 +1,103 @@
+"""The whole run on the synthetic site, and its outputs read back with reference libraries."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import numpy as np
+import pyogrio
+import pytest
+import rasterio
+from click.testing import CliRunner
+
+from geo_corrosion.cli.main import cli
+from geo_corrosion.testing import SYNTHETIC_TIE
+
+
+@pytest.fixture(scope="module")
+def run_out(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, Path]:
+    from geo_corrosion.testing import make_synthetic_site
+
+    root = tmp_path_factory.mktemp("runsite")
+    site = root / "site"
+    make_synthetic_site(site, electrode="ag_agcl_sat_kcl", temperature_c=30.0)
+    out = root / "out"
+    res = CliRunner().invoke(cli, ["run", str(site), "--out", str(out), "-q"])
+    assert res.exit_code == 0, res.output
+    return site, out
+
+
+def test_outputs_exist(run_out: tuple[Path, Path]) -> None:
+    _site, out = run_out
+    for name in ("survey.gpkg", "run.json", "webmap.html", "quantities.csv", "quantities.xlsx",
+                 "rasters/D1_potential.tif", "rasters/D1_potential_variance.tif"):
+        assert (out / name).is_file(), name
+    assert not list(out.parent.glob(".out.partial-*"))
+
+
+def test_manifest(run_out: tuple[Path, Path]) -> None:
+    site, out = run_out
+    man = json.loads((out / "run.json").read_text())
+    import hashlib
+
+    inputs = {i["path"]: i["sha256"] for i in man["inputs"]}
+    assert inputs["readings/potential.csv"] == hashlib.sha256(
+        (site / "readings/potential.csv").read_bytes()).hexdigest()
+    assert man["parameters"]["contour_interval_mv"] == 50.0
+    assert man["versions"]["numpy"] == np.__version__
+    lv = man["levels"]["D1"]
+    assert lv["georeference"]["rotation_deg"] == pytest.approx(SYNTHETIC_TIE["rotation_deg"], abs=1e-3)
+    pot = lv["kinds"]["potential"]
+    assert pot["readings"] == 600
+    # class areas add up to the mapped area
+    total = sum(c["area_m2"] for c in pot["class_areas"])
+    assert total == pytest.approx(pot["surface"]["mapped_area_m2"], rel=0.02)
+    assert man["cautions"] and "licensed" in man["cautions"][0]
+
+
+def test_corrections_recorded_and_recover_field(run_out: tuple[Path, Path]) -> None:
+    _site, out = run_out
+    df = pyogrio.read_dataframe(out / "survey.gpkg", layer="readings_potential")
+    # Ag/AgCl(sat KCl) to CSE is -119 mV (REFERENCE.md §1.4); no temperature coefficient is
+    # applied to a non-CSE electrode by default
+    assert set(df["electrode_offset_mv"].round(6)) == {-119.0}
+    np.testing.assert_allclose(df["potential_mv"], df["raw_value"] - 119.0)
+
+
+def test_raster_georeferenced_and_matches_readings(run_out: tuple[Path, Path]) -> None:
+    _site, out = run_out
+    df = pyogrio.read_dataframe(out / "survey.gpkg", layer="readings_potential")
+    with rasterio.open(out / "rasters/D1_potential.tif") as src:
+        assert src.crs.to_epsg() == 26918
+        assert src.descriptions[0] == "potential_mv"
+        vals = np.array([v[0] for v in src.sample(zip(df.geometry.x, df.geometry.y, strict=True))])
+        ok = vals != src.nodata
+        assert ok.mean() > 0.9
+        # kriged surface at the readings is close to the readings (nugget-smoothed)
+        assert np.median(np.abs(vals[ok] - df["potential_mv"].to_numpy()[ok])) < 15.0
+
+
+def test_gpkg_layers_in_site_crs(run_out: tuple[Path, Path]) -> None:
+    _site, out = run_out
+    layers = {name for name, _ in pyogrio.list_layers(out / "survey.gpkg")}
+    for name in ("D1_slab", "D1_delaminations", "D1_classes_potential", "D1_contours_potential",
+                 "D1_repairs", "readings_potential"):
+        assert name in layers, layers
+    slab = pyogrio.read_dataframe(out / "survey.gpkg", layer="D1_slab")
+    assert slab.crs.to_epsg() == 26918
+    # 60 ft x 40 ft slab -> 2400 ft2 = 222.967 m2 (1 ft = 0.3048 m)
+    assert slab.geometry.area.iloc[0] == pytest.approx(2400 * 0.3048**2, rel=1e-5)
+
+
+def test_quantities_command_reprints(run_out: tuple[Path, Path]) -> None:
+    _site, out = run_out
+    res = CliRunner().invoke(cli, ["quantities", str(out)])
+    assert res.exit_code == 0, res.output
+    assert "ft2" in res.output
+
+
+def test_overwrite_replaces_only_when_asked(run_out: tuple[Path, Path]) -> None:
+    site, out = run_out
+    res = CliRunner().invoke(cli, ["run", str(site), "--out", str(out), "-q"])
+    assert res.exit_code != 0 and "already exists" in res.output

@@ -1,0 +1,134 @@
+"""Properties of the repair layout that always hold (issue 5 "Shown by"; REFERENCE REP-05)."""
+
+from __future__ import annotations
+
+import geopandas as gpd
+import pandas as pd
+import shapely
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+from shapely import affinity
+from shapely.geometry import LineString, Point, Polygon, box
+
+from geo_corrosion.quantities import ALL_LEVELS, bid_schedule
+from geo_corrosion.repair import LayoutParams, layout_repairs
+from geo_corrosion.units import LENGTH_TO_M, report_units
+from repair.helpers import interior_angles_deg, sources
+
+SETTINGS = settings(max_examples=50, deadline=None,
+                    suppress_health_check=[HealthCheck.too_slow])
+W, H = 20.0, 12.0
+SLAB = box(0, 0, W, H)
+
+coord = st.floats(-1.0, 21.0, allow_nan=False)
+size = st.floats(0.01, 3.0, allow_nan=False)
+
+
+@st.composite
+def delamination(draw: st.DrawFn) -> Polygon:
+    x, y = draw(coord), draw(st.floats(-1.0, 13.0))
+    kind = draw(st.sampled_from(["box", "circle", "triangle", "rotated"]))
+    w, h = draw(size), draw(size)
+    if kind == "box":
+        return box(x, y, x + w, y + h)
+    if kind == "circle":
+        return Point(x, y).buffer(w / 2)
+    if kind == "triangle":
+        return Polygon([(x, y), (x + w, y), (x + w / 3, y + h)])
+    return affinity.rotate(box(x, y, x + w, y + h), draw(st.floats(0, 90)), origin="centroid")
+
+
+@st.composite
+def case(draw: st.DrawFn):
+    delams = draw(st.lists(delamination(), min_size=1, max_size=7))
+    excl = [box(x, y, x + 0.6, y + 0.6) for x, y in
+            draw(st.lists(st.tuples(st.floats(0, W - 0.6), st.floats(0, H - 0.6)), max_size=2))]
+    joints = [LineString([(x, -1), (x, H + 1)]) for x in
+              draw(st.lists(st.floats(1, W - 1), max_size=2))]
+    params = LayoutParams(margin_mm=draw(st.floats(0, 300)), merge_gap_mm=draw(st.floats(0, 600)),
+                          merge_max_extra=draw(st.floats(0, 1)),
+                          min_size_mm=draw(st.floats(0, 500)),
+                          min_reentrant_mm=draw(st.floats(0, 500)),
+                          extend_to_edge=draw(st.booleans()))
+    return delams, excl, joints, params
+
+
+def layout(delams, excl, joints, params, unit="m"):
+    inside = [d for d in delams if d.intersects(SLAB)]
+    src = sources(inside)
+    return inside, layout_repairs(src, slab=SLAB, exclusions=excl, joints=joints, unit=unit,
+                                  params=params, level_id="L1")
+
+
+@SETTINGS
+@given(case())
+def test_outlines_have_only_right_angles(c) -> None:
+    # REFERENCE.md REP-05 / §6.2 (S: Everett spec; UFGS "no perimeter angles < 90 degrees")
+    _, rep = layout(*c)
+    for g in rep.geometry:
+        ang = interior_angles_deg(g)
+        assert ((abs(ang - 90) < 1e-6) | (abs(ang - 270) < 1e-6)).all(), (g.wkt, ang)
+
+
+@SETTINGS
+@given(case())
+def test_every_delamination_inside_a_repair(c) -> None:
+    # issue 5: every delamination lies inside a repair, unless clipped by slab edge or exclusion
+    delams, rep = layout(*c)
+    excl = c[1]
+    covered = shapely.union_all([*rep.geometry, *excl, box(-5, -5, W + 5, H + 5).difference(SLAB)])
+    for d in delams:
+        assert d.difference(covered).area <= 1e-9 * max(d.area, 1.0), d.wkt
+
+
+@SETTINGS
+@given(case())
+def test_repairs_disjoint_inside_slab_and_clear_of_exclusions(c) -> None:
+    # common practice, no source: no area counted twice, nothing outside the slab or in a column
+    _, rep = layout(*c)
+    geoms = list(rep.geometry)
+    for i, a in enumerate(geoms):
+        assert a.difference(SLAB).area < 1e-9
+        for e in c[1]:
+            assert a.intersection(e).area < 1e-9
+        for b in geoms[i + 1:]:
+            assert a.intersection(b).area < 1e-9
+    assert (rep.perimeter_m <= rep.outline_m + 1e-9).all()
+    assert list(rep.repair_id) == [f"L1-R{n:03d}" for n in range(1, len(rep) + 1)]
+
+
+@SETTINGS
+@given(case(), st.sampled_from(["m", "ft"]), st.sampled_from(["metric", "us"]))
+def test_quantities_never_below_polygon_area(c, unit, system) -> None:
+    # STYLE.md §8 example property: repair quantities never below the area of their polygons
+    _, rep = layout(*c, unit=unit)
+    if rep.empty:
+        return
+    u = report_units(system)
+    s = bid_schedule(rep, None, units=u, contingency=0.15)
+    area_items = s[(s.unit_kind == "area") & (s.level_id == ALL_LEVELS)]
+    base = area_items.loc[area_items.line == "base", "quantity"].sum()
+    poly_area = float(u.area_from_m2(shapely.union_all(list(rep.geometry)).area
+                                     * LENGTH_TO_M[unit] ** 2))
+    assert base >= poly_area * (1 - 1e-9)
+    assert base <= poly_area * (1 + 1e-9) + 1e-12  # and not counted twice
+    cont = area_items.loc[area_items.line == "contingency", "quantity"].sum()
+    assert cont >= 0.15 * poly_area * (1 - 1e-9)
+
+
+@SETTINGS
+@given(st.lists(case(), min_size=1, max_size=3), st.sampled_from(["metric", "us"]),
+       st.one_of(st.none(), st.floats(300, 900)))
+def test_totals_equal_sum_of_levels(cases, system, spacing) -> None:
+    # issue 5 "Shown by": totals equal the sum of the parts
+    frames = []
+    for k, c in enumerate(cases):
+        inside = [d for d in c[0] if d.intersects(SLAB)]
+        frames.append(layout_repairs(sources(inside), slab=SLAB, exclusions=c[1], joints=c[2],
+                                     unit="m", params=c[3], level_id=f"L{k}"))
+    rep = gpd.GeoDataFrame(pd.concat(frames, ignore_index=True), geometry="geometry")
+    s = bid_schedule(rep, None, units=report_units(system), anode_spacing_mm=spacing)
+    parts = s[s.level_id != ALL_LEVELS].groupby(["item", "line"]).quantity.sum()
+    total = s[s.level_id == ALL_LEVELS].set_index(["item", "line"]).quantity
+    pd.testing.assert_series_equal(parts.sort_index(), total.sort_index(), check_names=False,
+                                   rtol=1e-12)

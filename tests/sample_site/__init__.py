@@ -1,0 +1,1 @@
+"""Tests of the sample-site generator and of the committed sample site."""
