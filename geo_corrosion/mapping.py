@@ -194,5 +194,5 @@ def build_surface(
     lines = contour_lines(mean, grid, interval=interval)
     bands = contour_bands(mean, grid, interval=interval)
     classes = _class_polygons(kind, mean, grid, deck)
-    return KindSurface(kind, grid, mean, var, fit, cv.to_dict(), res, len(z), interval, lines,
+    return KindSurface(kind, grid, mean, var, fit, cv.to_dict(value_unit=kind.canonical_unit), res, len(z), interval, lines,
                        bands, classes)

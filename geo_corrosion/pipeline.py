@@ -28,6 +28,7 @@ import numpy as np
 import pandas as pd
 
 from geo_corrosion import qa
+from geo_corrosion.assessment import assess_level
 from geo_corrosion.cautions import CAUTIONS
 from geo_corrosion.config import SiteConfig, read_site
 from geo_corrosion.errors import ExportError, KrigingError, QAError
@@ -150,13 +151,16 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
                 lr.stats[name] = entry
                 continue
             lr.surfaces[name] = s
+            lr.readings[name] = readings
+            vunit = kind.canonical_unit if kind.krige_transform is None else f"ln({kind.canonical_unit})"
             cell_area_m2 = (s.grid.cell**2) * a2
             mapped_area = float(np.isfinite(s.mean).sum()) * cell_area_m2
             entry["surface"] = {
                 "cell_size": s.grid.cell, "cell_unit": lv.unit, "shape": list(s.grid.shape),
                 "mapped_area_m2": mapped_area,
                 "mapped_area_" + units.area: float(units.area_from_m2(mapped_area)),
-                "variogram": s.fit.to_dict(), "cross_validation": s.cv,
+                "variogram": s.fit.to_dict(value_unit=vunit, length_unit=lv.unit),
+                "cross_validation": s.cv,
                 "contour_interval": s.interval, "kriged_in": s.kind.krige_transform or "linear",
             }
             if s.classes is not None and len(s.classes):
@@ -168,6 +172,12 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
                      "share_of_deck": r["area_local"] * a2 / deck_area}
                     for r in s.classes.to_dict("records")]
             lr.stats[name] = entry
+        if lr.surfaces:
+            say(f"level {lid}: condition assessment")
+            lr.condition = assess_level(
+                lr.surfaces, {k: r[lr.surfaces[k].kind.value_column].to_numpy(float)
+                              for k, r in lr.readings.items()}, deck=lv.deck, unit=lv.unit)
+            lr.stats["condition"] = lr.condition.stats
         say(f"level {lid}: laying out repairs")
         lr.repairs = _simple_repairs(lr, params)
         levels[lid] = lr
@@ -265,7 +275,8 @@ def manifest(result: RunResult, started: float) -> dict[str, Any]:
         "levels": {lid: {"name": lr.level.config.name,
                          "georeference": lr.level.grid.to_dict(),
                          "deck_area_m2": lr.level.deck.area * LENGTH_TO_M[lr.level.unit] ** 2,
-                         "kinds": lr.stats,
+                         "kinds": {k: v for k, v in lr.stats.items() if k != "condition"},
+                         "condition": lr.stats.get("condition"),
                          "repairs": 0 if lr.repairs is None else len(lr.repairs)}
                    for lid, lr in result.levels.items()},
         "schedule": sched,

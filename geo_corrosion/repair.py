@@ -693,6 +693,16 @@ def layout_repairs(sources: gpd.GeoDataFrame, *, slab: Polygon,
     return _attributes(found, rows, row_of, slab, excl, jts, rot, unit, p, level_id, tol)
 
 
+def _tidy(g: BaseGeometry, tol: float) -> BaseGeometry:
+    """Snap to a fine grid (drops near-coincident vertices), drop collinear ones, orient CCW."""
+    grid = 10.0 ** (math.floor(math.log10(tol)) - 3)
+    g = shapely.set_precision(g, grid).simplify(0)
+    parts = [orient(p, 1.0) for p in polygon_parts(g) if p.area > tol]
+    if not parts:
+        return Polygon()
+    return parts[0] if len(parts) == 1 else MultiPolygon(parts)
+
+
 def _attributes(found: Iterable[tuple[BaseGeometry, frozenset[int]]], rows: pd.DataFrame,
                 row_of: list[int], slab: Polygon, excl: list[Polygon], jts: list[LineString],
                 rot: object, unit: str, p: LayoutParams, level_id: str, tol: float
@@ -701,7 +711,9 @@ def _attributes(found: Iterable[tuple[BaseGeometry, frozenset[int]]], rows: pd.D
     nocut = shapely.union_all([slab.boundary, *[e.boundary for e in excl], *jts]).buffer(tol * 10)
     recs = []
     for g_r, ks in found:
-        g = orient(rot(g_r, 1.0), 1.0)  # type: ignore[operator]
+        g = _tidy(rot(g_r, 1.0), tol)  # type: ignore[operator]
+        if g.is_empty:
+            continue
         srows = sorted({row_of[k] for k in ks})
         best: tuple[int, float, str] = (-1, 0.0, "")
         for r in srows:

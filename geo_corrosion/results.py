@@ -34,6 +34,8 @@ class LevelResult:
     repairs: gpd.GeoDataFrame | None = None
     stats: dict[str, Any] = field(default_factory=dict)
     skipped: dict[str, str] = field(default_factory=dict)
+    condition: Any = None  # assessment.LevelCondition
+    readings: dict[str, Any] = field(default_factory=dict)  # mapped readings by kind
 
 
 @dataclass

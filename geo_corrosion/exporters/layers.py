@@ -76,6 +76,11 @@ def level_layers(lr: LevelResult, crs: Any) -> dict[str, gpd.GeoDataFrame]:
              for r, v, g in zip(res["reading_id"], res["residual"],
                                 points(np.column_stack([res["x_local"], res["y_local"]])),
                                 strict=True)], lr, crs)
+    cond = lr.condition
+    if cond is not None and cond.combined_polygons is not None and len(cond.combined_polygons):
+        c = cond.combined_polygons.copy()
+        c["area_m2"] = c.pop("area_local") * a2
+        out["combined_classes"] = to_site_frame(c.to_dict("records"), lr, crs)
     if lr.repairs is not None and len(lr.repairs):
         rep = pd.DataFrame(lr.repairs.drop(columns="geometry"))
         rep["geometry"] = list(lr.repairs.geometry)

@@ -57,4 +57,12 @@ class GeoTiffExporter(Exporter):
                                            {"kriging_variance": s.variance}, transform=tr,
                                            crs=result.site.crs,
                                            units={"kriging_variance": vunit}, tags=tags))
+                cond = lr.condition
+                if cond is not None and name in cond.probability:
+                    paths.append(write_geotiff(
+                        rdir / f"{lid}_{name}_probability.tif",
+                        {"probability": cond.probability[name]}, transform=tr,
+                        crs=result.site.crs, units={"probability": "1"},
+                        tags={**tags, "meaning": cond.stats[f"{name}_area_beyond_threshold"][
+                            "meaning"], "assumption": "Gaussian errors in the kriged variable"}))
         return paths

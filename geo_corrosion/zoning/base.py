@@ -146,7 +146,8 @@ def _drop_small(g: BaseGeometry, min_area: float) -> BaseGeometry:
 
 def _smooth(g: BaseGeometry, s: float) -> BaseGeometry:
     """Closing then opening with a square of half-side ``s`` (keeps grid-aligned shapes)."""
-    if s <= 0 or g.is_empty:
+    x0, y0, x1, y1 = g.bounds if not g.is_empty else (0.0, 0.0, 0.0, 0.0)
+    if s <= 1e-9 * max(1.0, x1 - x0, y1 - y0) or g.is_empty:
         return g
     kw: dict[str, Any] = {"join_style": "mitre", "mitre_limit": 5.0}
     g = g.buffer(s, **kw).buffer(-s, **kw)

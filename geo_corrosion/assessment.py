@@ -1,0 +1,162 @@
+"""The condition stage of the pipeline: probability maps, area intervals, site threshold, combined classes.
+
+For each level, from the kriged surfaces of :mod:`geo_corrosion.mapping`:
+
+* the probability per cell that the potential is more negative than -350 mV CSE
+  (ASTM C876's "high" bound), that the corrosion rate exceeds 1 uA/cm2 (RILEM
+  "high") and that the resistivity is below 10 kOhm.cm (RILEM "high"), assuming
+  Gaussian errors in the kriged variable (log space for resistivity and rate);
+* the area beyond each threshold as an expected value with a 90 % interval
+  (:func:`geo_corrosion.condition.probability.area_interval`, correlated errors
+  with the variogram's range as correlation length);
+* the site-specific passive/active threshold from a two-component mixture fit
+  (RILEM TC 154 statistical evaluation), with the share of readings and of
+  area on each side;
+* the combined condition class per cell from the available kinds (the rule
+  table of :mod:`geo_corrosion.condition.combined`).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import pandas as pd
+import rasterio.features
+import shapely
+from numpy.typing import NDArray
+from shapely.geometry import shape
+
+from geo_corrosion.condition.combined import DEFAULT_RULES, combine
+from geo_corrosion.condition.potential import fit_mixture_threshold
+from geo_corrosion.condition.probability import area_interval, exceedance_probability
+from geo_corrosion.errors import ConditionError
+from geo_corrosion.mapping import KindSurface
+from geo_corrosion.units import LENGTH_TO_M
+
+__all__ = ["THRESHOLDS", "LevelCondition", "assess_level", "log_space_moments"]
+
+#: kind -> (threshold in canonical unit, direction, what it means, source)
+THRESHOLDS: dict[str, tuple[float, str, str, str]] = {
+    "potential": (-350.0, "below", "more negative than -350 mV CSE",
+                  "ASTM C876 numeric criteria (REFERENCE.md §1.2)"),
+    "corrosion_rate": (1.0, "above", "corrosion rate above 1 uA/cm2 (high)",
+                       "RILEM TC 154 (Andrade et al. 2004), REFERENCE.md §3.3"),
+    "resistivity": (10.0, "below", "resistivity below 10 kOhm.cm (high risk)",
+                    "RILEM TC 154 (Polder 2001), REFERENCE.md §2.4(a), from memory"),
+}
+INTERVAL_LEVEL = 0.90
+
+
+@dataclass
+class LevelCondition:
+    """Condition results of one level (arrays on the level's kriging grid)."""
+
+    probability: dict[str, NDArray[np.float64]] = field(default_factory=dict)
+    combined_codes: NDArray[np.int64] | None = None
+    combined_polygons: pd.DataFrame | None = None
+    stats: dict[str, Any] = field(default_factory=dict)
+    mixture: Any = None
+
+
+def log_space_moments(
+    mean: NDArray[np.float64], variance: NDArray[np.float64]
+) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+    """Approximate log-space mean and variance from back-transformed lognormal moments.
+
+    The engine back-transforms a lognormal kind as ``est = exp(m + v/2 - nu)``
+    with variance ``est^2 (exp(v) - 1)``; this recovers ``v`` exactly and ``m``
+    up to the Lagrange term ``nu``, which is neglected (documented in
+    docs/methods.md).
+    """
+    with np.errstate(invalid="ignore", divide="ignore"):
+        v = np.log1p(variance / (mean * mean))
+        m = np.log(mean) - 0.5 * v
+    return m, v
+
+
+def _polygons(codes: NDArray[np.int64], surface: KindSurface, labels: list[tuple[str, str, str]],
+              deck: Any) -> pd.DataFrame:
+    rows = []
+    for code, (key, label, color) in enumerate(labels):
+        m = codes == code
+        if not m.any():
+            continue
+        polys = [shape(g) for g, v in rasterio.features.shapes(
+            m.astype(np.uint8), mask=m, transform=surface.grid.affine()) if v == 1]
+        geom = shapely.intersection(shapely.union_all(polys), deck)
+        if not geom.is_empty:
+            rows.append({"class_key": key, "class": label, "color": color,
+                         "area_local": geom.area, "geometry": geom})
+    return pd.DataFrame(rows)
+
+
+def assess_level(surfaces: dict[str, KindSurface], readings: dict[str, NDArray[np.float64]],
+                 *, deck: Any, unit: str, seed: int = 0) -> LevelCondition:
+    """Probability maps, area intervals, mixture threshold and combined classes of a level.
+
+    Parameters
+    ----------
+    surfaces : dict of str to KindSurface
+        Kriged surfaces by kind (all on the same grid).
+    readings : dict of str to ndarray
+        Mapped readings by kind, canonical units (for the mixture fit).
+    deck : shapely geometry
+        Slab minus exclusions, local grid units.
+    unit : str
+        Local grid unit.
+    """
+    out = LevelCondition()
+    a2 = LENGTH_TO_M[unit] ** 2
+    for name, (thr, direction, meaning, source) in THRESHOLDS.items():
+        s = surfaces.get(name)
+        if s is None:
+            continue
+        log = s.kind.krige_transform == "log"
+        mean, var = (log_space_moments(s.mean, s.variance) if log else (s.mean, s.variance))
+        p = exceedance_probability(mean, var, thr, direction=direction, log_space=log)
+        out.probability[name] = p
+        corr_len = float(s.fit.model.range)
+        est = area_interval(mean, var, thr, cell_size=s.grid.cell, correlation_length=corr_len,
+                            direction=direction, log_space=log, level=INTERVAL_LEVEL,
+                            n_draws=400, seed=seed)
+        out.stats[f"{name}_area_beyond_threshold"] = {
+            "meaning": meaning, "threshold": thr, "unit": s.kind.canonical_unit,
+            "source": source, "expected_m2": est.expected * a2,
+            "interval_level": INTERVAL_LEVEL, "lower_m2": est.lower * a2,
+            "upper_m2": est.upper * a2, "mapped_area_m2": est.total_area * a2,
+            "correlation_length": corr_len, "correlation_length_unit": unit,
+            "assumption": "Gaussian errors in the kriged variable (log space for lognormal kinds)",
+        }
+    if "potential" in surfaces and len(readings.get("potential", ())) >= 20:
+        s = surfaces["potential"]
+        try:
+            mix = fit_mixture_threshold(readings["potential"], cell_potential_mv=s.mean,
+                                        cell_area=(s.grid.cell**2) * a2)
+            out.mixture = mix
+            out.stats["site_threshold"] = {
+                k: v for k, v in dataclasses.asdict(mix).items()
+                if np.ndim(v) == 0 and not isinstance(v, dict)}
+            out.stats["site_threshold"]["method"] = (
+                "two-component Gaussian mixture, crossing of the weighted densities "
+                "(RILEM TC 154 statistical evaluation; Gulikers & Elsener 2008)")
+        except ConditionError as err:
+            out.stats["site_threshold"] = {"not_available": str(err)}
+    given = {k: surfaces[k].mean for k in ("potential", "resistivity", "corrosion_rate")
+             if k in surfaces}
+    if given:
+        res = combine(DEFAULT_RULES, potential_mv=given.get("potential"),
+                      resistivity_kohm_cm=given.get("resistivity"),
+                      icorr_ua_cm2=given.get("corrosion_rate"))
+        first = next(iter(surfaces.values()))
+        codes = np.where(np.isfinite(next(iter(given.values()))), res.codes, -1)
+        labels = [(c.key, c.label, c.color) for c in DEFAULT_RULES.classes]
+        out.combined_codes = codes
+        out.combined_polygons = _polygons(codes, first, labels, deck)
+        out.stats["combined_classes"] = [
+            {"class": r["class"], "area_m2": r["area_local"] * a2}
+            for r in out.combined_polygons.to_dict("records")] if len(out.combined_polygons) else []
+        out.stats["combined_rules"] = DEFAULT_RULES.to_dict()
+    return out
