@@ -17,6 +17,7 @@ from typing import TYPE_CHECKING, Any, ClassVar
 import numpy as np
 
 from geo_corrosion.cautions import CAUTIONS
+from geo_corrosion.errors import ExportError
 from geo_corrosion.exporters.base import Exporter
 from geo_corrosion.exporters.layers import level_layers
 
@@ -89,6 +90,36 @@ def _geojson(gdf: Any, name: str, style: dict[str, Any], fields: list[str],
                           style_function=lambda _f, st=style: st, tooltip=tooltip, show=show)
 
 
+def _leaflet_assets() -> tuple[str, str]:
+    """Leaflet's script and stylesheet, from the ``django-js-lib-leaflet`` distribution.
+
+    That PyPI package ships Leaflet's own release files (BSD-2-Clause licence) with no
+    Django dependency; we read the files without importing anything.  The stylesheet's
+    images are inlined as data URLs so the page needs no network at all.
+    """
+    import re
+    from importlib.metadata import PackageNotFoundError, distribution
+
+    try:
+        dist = distribution("django-js-lib-leaflet")
+    except PackageNotFoundError as err:  # pragma: no cover - a declared dependency
+        raise ExportError("the web map needs the package django-js-lib-leaflet "
+                          "(pip install django-js-lib-leaflet)") from err
+    base = Path(str(dist.locate_file("js_lib_leaflet/static/js_lib_leaflet")))
+    js = (base / "leaflet.js").read_text(encoding="utf-8")
+    css = (base / "leaflet.css").read_text(encoding="utf-8")
+
+    def inline(m: re.Match[str]) -> str:
+        img = base / m.group(1)
+        if not img.is_file():
+            return m.group(0)
+        return "url(data:image/png;base64," + base64.b64encode(img.read_bytes()).decode() + ")"
+
+    css = re.sub(r"url\((images/[^)]+\.png)\)", inline, css)
+    js = js.replace("//# sourceMappingURL=leaflet.js.map", "")
+    return js, css
+
+
 def build_map(result: RunResult) -> folium.Map:
     """Build the folium map of a run (one group of layers per level)."""
     import folium
@@ -103,6 +134,17 @@ def build_map(result: RunResult) -> folium.Map:
             c = slab.geometry.iloc[0].centroid
             fmap = folium.Map(location=[c.y, c.x], zoom_start=19, max_zoom=23, tiles=None,
                               control_scale=True)
+            # self-contained page: no CDN links; Leaflet inlined, nothing else is needed
+            fmap.default_js = []
+            fmap.default_css = []
+            js, css = _leaflet_assets()
+            fmap.get_root().header.add_child(folium.Element(f"<style>{css}</style>"),
+                                             name="leaflet_css")
+            fmap.get_root().header.add_child(folium.Element(f"<script>{js}</script>"),
+                                             name="leaflet_js")
+        if first:
+            x0, y0, x1, y1 = slab.total_bounds
+            fmap.fit_bounds([[y0, x0], [y1, x1]])
         name = html.escape(lr.level.config.name)
         _geojson(layers["slab"], f"{name}: slab", {"color": COLORS["slab"], "weight": 2,
                  "fillOpacity": 0.02}, ["name", "area_m2"], show=first).add_to(fmap)
@@ -127,8 +169,8 @@ def build_map(result: RunResult) -> folium.Map:
     panel = "<br>".join(html.escape(c) for c in CAUTIONS)
     title = html.escape(result.site.config.name)
     fmap.get_root().html.add_child(folium.Element(
-        f'<div style="position:fixed;bottom:10px;left:10px;z-index:9999;max-width:420px;'
-        f'background:white;padding:6px;font:11px sans-serif;border:1px solid #888">'
+        f'<div style="position:fixed;bottom:40px;left:10px;z-index:9999;max-width:380px;'
+        f'background:white;padding:6px;font:10px sans-serif;border:1px solid #888">'
         f"<b>{title}</b><br>{panel}</div>"))
     folium.LayerControl(collapsed=False).add_to(fmap)
     return fmap

@@ -48,9 +48,9 @@ def delamination(draw: st.DrawFn) -> Polygon:
 def case(draw: st.DrawFn):
     delams = draw(st.lists(delamination(), min_size=1, max_size=7))
     excl = [box(x, y, x + 0.6, y + 0.6) for x, y in
-            draw(st.lists(st.tuples(st.floats(0, W - 0.6), st.floats(0, H - 0.6)), max_size=2))]
+            draw(st.lists(st.tuples(st.floats(0, W - 0.6).map(_r), st.floats(0, H - 0.6).map(_r)), max_size=2))]
     joints = [LineString([(x, -1), (x, H + 1)]) for x in
-              draw(st.lists(st.floats(1, W - 1), max_size=2))]
+              draw(st.lists(st.floats(1, W - 1).map(_r), max_size=2))]
     params = LayoutParams(margin_mm=draw(st.floats(0, 300, allow_subnormal=False).map(_r)), merge_gap_mm=draw(st.floats(0, 600, allow_subnormal=False).map(_r)),
                           merge_max_extra=draw(st.floats(0, 1, allow_subnormal=False).map(_r)),
                           min_size_mm=draw(st.floats(0, 500, allow_subnormal=False).map(_r)),
