@@ -220,6 +220,8 @@ class RunParams:
     activation_energy_kj_mol: float = 25.0
     cse_reference_c: float = 22.2
     correct_only_outside_band: bool = False
+    #: kind -> fixed variogram parameters (``range_m`` in metres), from [run.variogram.<kind>]
+    variogram: dict[str, dict[str, Any]] = field(default_factory=dict)
 
 
 @dataclass(frozen=True)
@@ -333,8 +335,10 @@ _RUN_KEYS = (
     "cell_size", "max_distance", "contour_interval_mv", "repair_margin", "merge_gap",
     "min_repair_size", "contingency", "n_neighbors", "variogram_model",
     "resistivity_reference_c", "activation_energy_kj_mol", "cse_reference_c",
-    "correct_only_outside_band",
+    "correct_only_outside_band", "variogram",
 )
+_VARIOGRAM_KEYS = ("model", "nugget", "psill", "range", "shape", "anisotropy_ratio",
+                   "anisotropy_angle_deg")
 _LEVEL_KEYS = (
     "id", "name", "slab", "exclusions", "joints", "overlays", "grid", "specified_cover",
     "cover_tolerance",
@@ -491,7 +495,23 @@ def _run(data: object, where: str) -> RunParams:
     flag = t.data.get("correct_only_outside_band", d.correct_only_outside_band)
     if not isinstance(flag, bool):
         raise SiteFileError(f"{t.key('correct_only_outside_band')}: expected true or false")
+    fixed: dict[str, dict[str, Any]] = {}
+    vt = t.data.get("variogram", {})
+    if not isinstance(vt, dict):
+        raise SiteFileError(f"{t.key('variogram')}: expected tables such as [run.variogram.potential]")
+    for kind, spec in vt.items():
+        kt = _Table(spec, f"{t.key('variogram')}.{kind}", _VARIOGRAM_KEYS)
+        fx: dict[str, Any] = {}
+        if kt.has("model"):
+            fx["model"] = kt.str("model", choices=VARIOGRAM_MODELS[1:])
+        for k in ("nugget", "psill", "shape", "anisotropy_ratio", "anisotropy_angle_deg"):
+            if kt.has(k):
+                fx[k] = kt.num(k)
+        if kt.has("range"):
+            fx["range_m"] = kt.length("range", 0.0)
+        fixed[str(kind)] = fx
     return RunParams(
+        variogram=fixed,
         cell_size_m=t.length("cell_size", d.cell_size_m),
         max_distance_m=t.length("max_distance", d.max_distance_m),
         contour_interval_mv=t.num("contour_interval_mv", d.contour_interval_mv, positive=True),

@@ -35,6 +35,7 @@ from geo_corrosion.surfaces import (
     contour_bands,
     contour_lines,
     cross_validate,
+    experimental_variogram,
     fit_variogram,
     grid_for_polygon,
     krige_grid,
@@ -89,6 +90,7 @@ class KindSurface:
     lines: list[tuple[float, BaseGeometry]] = field(default_factory=list)
     bands: list[tuple[float, float, BaseGeometry]] = field(default_factory=list)
     classes: pd.DataFrame | None = None
+    directional: dict[str, Any] = field(default_factory=dict)
 
 
 def mappable_readings(surveys: list[Survey], flags: pd.DataFrame) -> pd.DataFrame:
@@ -120,6 +122,32 @@ def merge_repeats(readings: pd.DataFrame, value_column: str) -> pd.DataFrame:
     out[value_column] = g[value_column].mean()
     out["reading_id"] = g["reading_id"].agg(",".join)
     return out.reset_index(drop=True)
+
+
+def directional_variograms(
+    x: NDArray[np.float64], y: NDArray[np.float64], z: NDArray[np.float64],
+    kind: MeasurementKind, fit: VariogramFit,
+) -> dict[str, Any]:
+    """Experimental variograms along the grid axes (the deck's bar directions).
+
+    Reported with an anisotropy indication: the ratio of the mean semivariance
+    over lags up to half the fitted range, along x to along y (1 = isotropic).
+    The engine does not fit anisotropy automatically; fix it in the site file
+    (``[run.variogram.<kind>] anisotropy_ratio, anisotropy_angle_deg``).
+    """
+    zz = np.log(z) if kind.krige_transform == "log" else z
+    max_lag = float(fit.experimental.lags.max()) if len(fit.experimental.lags) else None
+    out: dict[str, Any] = {}
+    means = {}
+    for label, ang in (("along_x", 0.0), ("along_y", 90.0)):
+        ev = experimental_variogram(x, y, zz, max_lag=max_lag, direction_deg=ang)
+        sel = (ev.lags <= 0.5 * fit.model.range) & (ev.counts > 0)
+        means[label] = float(np.mean(ev.gamma[sel])) if sel.any() else float("nan")
+        out[label] = {"direction_deg": ang, "lags": ev.lags.tolist(), "gamma": ev.gamma.tolist(),
+                      "pairs": ev.counts.tolist()}
+    out["anisotropy_indication"] = (means["along_x"] / means["along_y"]
+                                    if means["along_y"] > 0 else None)
+    return out
 
 
 def _class_polygons(
@@ -175,10 +203,15 @@ def build_surface(
         raise KrigingError(
             f"level {level.id}: only {len(z)} usable {kind.name} reading(s); a surface needs more"
         )
-    models = (("spherical", "exponential", "gaussian", "matern") if params.variogram_model == "auto"
-              else (params.variogram_model,))
+    fixed = dict(params.variogram.get(kind.name, {}))
+    if "range_m" in fixed:
+        fixed["range"] = fixed.pop("range_m") / u
+    chosen = fixed.get("model") or params.variogram_model
+    models = (("spherical", "exponential", "gaussian", "matern") if chosen == "auto"
+              else (chosen,))
     fit = fit_variogram(x, y, z, models=models, transform=kind.krige_transform,
-                        n_neighbors=params.n_neighbors)
+                        n_neighbors=params.n_neighbors, fixed=fixed or None)
+    directional = directional_variograms(x, y, z, kind, fit)
     deck = level.deck
     grid = grid_for_polygon(deck, cell)
     mask = surface_mask(grid, deck, x, y, max_distance=max_d)
@@ -194,5 +227,5 @@ def build_surface(
     lines = contour_lines(mean, grid, interval=interval)
     bands = contour_bands(mean, grid, interval=interval)
     classes = _class_polygons(kind, mean, grid, deck)
-    return KindSurface(kind, grid, mean, var, fit, cv.to_dict(value_unit=kind.canonical_unit), res, len(z), interval, lines,
-                       bands, classes)
+    return KindSurface(kind, grid, mean, var, fit, cv.to_dict(value_unit=kind.canonical_unit),
+                       res, len(z), interval, lines, bands, classes, directional)

@@ -31,7 +31,7 @@ from geo_corrosion import qa
 from geo_corrosion.assessment import assess_level
 from geo_corrosion.cautions import CAUTIONS
 from geo_corrosion.config import SiteConfig, read_site
-from geo_corrosion.errors import ExportError, KrigingError, QAError
+from geo_corrosion.errors import ExportError, GeoCorrosionWarning, KrigingError, QAError
 from geo_corrosion.mapping import build_surface, mappable_readings
 from geo_corrosion.model import Site
 from geo_corrosion.results import LevelResult, RunResult
@@ -161,6 +161,7 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
                 "mapped_area_" + units.area: float(units.area_from_m2(mapped_area)),
                 "variogram": s.fit.to_dict(value_unit=vunit, length_unit=lv.unit),
                 "cross_validation": s.cv,
+                "directional_variograms": s.directional,
                 "contour_interval": s.interval, "kriged_in": s.kind.krige_transform or "linear",
             }
             if s.classes is not None and len(s.classes):
@@ -280,6 +281,7 @@ def manifest(result: RunResult, started: float) -> dict[str, Any]:
                          "repairs": 0 if lr.repairs is None else len(lr.repairs)}
                    for lid, lr in result.levels.items()},
         "schedule": sched,
+        "warnings": list(result.warnings),
         "files": sorted(result.files),
         "cautions": list(CAUTIONS),
     }
@@ -345,9 +347,20 @@ def run(
         errs = flags[flags["severity"] == "error"]
         lines = "\n".join(f"  - {r.where or r.survey_id}: {r.message}" for r in errs.itertuples())
         raise QAError(f"the site cannot be run; QA found {len(errs)} error(s):\n{lines}")
-    with warnings.catch_warnings():
-        warnings.simplefilter("default")
+    # our warnings (fallback variograms, averaged repeats, repaired outlines) are
+    # collected into run.json and shown as progress, never lost and never fatal
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", GeoCorrosionWarning)
         result = process(s, flags, progress=progress)
+    notes = sorted({f"{w.category.__name__}: {w.message}" for w in caught
+                    if issubclass(w.category, GeoCorrosionWarning)})
+    for other in caught:
+        if not issubclass(other.category, GeoCorrosionWarning):
+            warnings.warn_explicit(other.message, other.category, other.filename, other.lineno)
+    result.warnings.extend(notes)
+    if progress:
+        for n in notes:
+            progress(f"note: {n}")
     out.parent.mkdir(parents=True, exist_ok=True)
     tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=out.parent))
     try:

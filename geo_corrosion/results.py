@@ -48,3 +48,4 @@ class RunResult:
     schedule: pd.DataFrame
     manifest: dict[str, Any] = field(default_factory=dict)
     files: list[str] = field(default_factory=list)
+    warnings: list[str] = field(default_factory=list)

@@ -101,3 +101,46 @@ def test_overwrite_replaces_only_when_asked(run_out: tuple[Path, Path]) -> None:
     site, out = run_out
     res = CliRunner().invoke(cli, ["run", str(site), "--out", str(out), "-q"])
     assert res.exit_code != 0 and "already exists" in res.output
+
+
+def test_webmap_is_self_contained(run_out: tuple[Path, Path]) -> None:
+    # the owner opens it with no network: no script, stylesheet or image is fetched
+    import re
+
+    html = (run_out[1] / "webmap.html").read_text()
+    assert "L.map(" in html or "L.map" in html
+    assert not re.findall(r'<script[^>]+src="http', html)
+    assert not re.findall(r'<link[^>]+href="http', html)
+    assert "licensed professional engineer" in html
+
+
+def test_plots_written(run_out: tuple[Path, Path]) -> None:
+    out = run_out[1]
+    pngs = sorted(p.name for p in (out / "plots").glob("*.png"))
+    assert "D1_potential_cumulative.png" in pngs and "D1_potential_histogram.png" in pngs
+    assert (out / "plots/D1_potential_cumulative.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+def test_condition_in_manifest(run_out: tuple[Path, Path]) -> None:
+    man = json.loads((run_out[1] / "run.json").read_text())
+    cond = man["levels"]["D1"]["condition"]
+    a = cond["potential_area_beyond_threshold"]
+    assert a["lower_m2"] <= a["expected_m2"] <= a["upper_m2"] <= a["mapped_area_m2"]
+    assert "Gaussian" in a["assumption"]
+    assert {c["class"] for c in cond["combined_classes"]}
+    d = man["levels"]["D1"]["kinds"]["potential"]["surface"]["directional_variograms"]
+    assert d["along_x"]["direction_deg"] == 0.0 and d["along_y"]["direction_deg"] == 90.0
+
+
+def test_fixed_variogram_from_site_file(tmp_path: Path) -> None:
+    from geo_corrosion.pipeline import run
+    from geo_corrosion.testing import make_synthetic_site
+
+    site = make_synthetic_site(tmp_path / "s")
+    text = site.read_text().replace(
+        '[run]\n', '[run]\nvariogram.potential = { model = "exponential", nugget = 50.0, '
+        'range = "20 ft" }\n', 1)
+    site.write_text(text)
+    r = run(site, tmp_path / "out", exporters=("geopackage",))
+    m = r.levels["D1"].surfaces["potential"].fit.model
+    assert m.name == "exponential" and m.nugget == 50.0 and m.range == pytest.approx(20.0)
