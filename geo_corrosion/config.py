@@ -36,6 +36,7 @@ __all__ = [
     "read_site",
     "parse_length",
     "site_crs",
+    "OptionsTable",
 ]
 
 COORDS = ("local", "site")
@@ -201,6 +202,10 @@ class SurveyConfig:
     layer: str | None
     columns: Mapping[str, str]
     where: str
+    #: kind-specific options of ``[surveys.options]``, as parsed and validated by the kind's
+    #: :meth:`~geo_corrosion.measurements.base.MeasurementKind.parse_options`: keys carry their
+    #: unit (``probe_spacing_mm``); empty when the table is absent.
+    options: Mapping[str, Any] = field(default_factory=dict)
 
 
 @dataclass(frozen=True)
@@ -330,6 +335,34 @@ class _Table:
         return v
 
 
+class OptionsTable(_Table):
+    """A kind's ``[surveys.options]`` table: unknown keys refused, typed getters.
+
+    Used by :meth:`MeasurementKind.parse_options`; every getter names the key in
+    its message (``<site file>: [[surveys]][2].options.probe_spacing: ...``).
+    """
+
+    def length_mm(self, name: str) -> float | None:
+        """A positive length with its unit (``"50 mm"``), in mm; None when absent."""
+        if name not in self.data:
+            return None
+        v = parse_length(self.data[name], where=self.key(name)) * 1000.0
+        if not v > 0:
+            raise SiteFileError(f"{self.key(name)}: expected a positive length, got {v!r} mm")
+        return v
+
+    def opt_positive(self, name: str) -> float | None:
+        """A positive number, or None when absent."""
+        return self.num(name, positive=True) if name in self.data else None
+
+    def flag(self, name: str, default: bool = False) -> bool:
+        """True or false."""
+        v = self.data.get(name, default)
+        if not isinstance(v, bool):
+            raise SiteFileError(f"{self.key(name)}: expected true or false, got {v!r}")
+        return v
+
+
 _SITE_KEYS = ("name", "owner", "crs", "units", "notes")
 _RUN_KEYS = (
     "cell_size", "max_distance", "contour_interval_mv", "repair_margin", "merge_gap",
@@ -350,7 +383,7 @@ _CP_KEYS = ("id", "local", "site")
 _SURVEY_KEYS = (
     "id", "level", "kind", "path", "unit", "coords", "electrode", "temperature_c",
     "temperature_f", "temperature_coefficient_mv_per_c", "date", "separator", "decimal",
-    "layer", "columns",
+    "layer", "columns", "options",
 )
 VARIOGRAM_MODELS = ("auto", "spherical", "exponential", "gaussian", "matern")
 
@@ -458,6 +491,8 @@ def _survey(data: object, where: str, root: Path, level_ids: set[str]) -> Survey
         raise SiteFileError(
             f"{t.key('columns')}: expected a table of our column name = the file's column name"
         )
+    kind = t.str("kind")
+    options = _survey_options(t, kind, root)
     sep = t.str("separator", ",")
     dec = t.str("decimal", ".", choices=(".", ","))
     if sep == dec:
@@ -465,7 +500,7 @@ def _survey(data: object, where: str, root: Path, level_ids: set[str]) -> Survey
     return SurveyConfig(
         id=sid,
         level=level,
-        kind=t.str("kind"),
+        kind=kind,
         path=(root / t.str("path")).resolve(),
         unit=t.str("unit"),
         coords=t.str("coords", "local", choices=COORDS),
@@ -480,7 +515,24 @@ def _survey(data: object, where: str, root: Path, level_ids: set[str]) -> Survey
         layer=t.opt_str("layer"),
         columns=dict(columns),
         where=where,
+        options=options,
     )
+
+
+def _survey_options(t: _Table, kind: str, root: Path) -> dict[str, Any]:
+    """Validate ``[surveys.options]`` through the survey's kind; {} when absent."""
+    if not t.has("options"):
+        return {}
+    raw = t.data["options"]
+    where = t.key("options")
+    if not isinstance(raw, dict):
+        raise SiteFileError(
+            f"{where}: expected a table [surveys.options] of kind-specific options, got "
+            f"{type(raw).__name__}"
+        )
+    from geo_corrosion.measurements import get_kind  # lazy: kinds import this module's types
+
+    return dict(get_kind(kind, where=f"{t.key('kind')}: ").parse_options(raw, where=where, root=root))
 
 
 def _run(data: object, where: str) -> RunParams:

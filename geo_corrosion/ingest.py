@@ -11,7 +11,16 @@ unit; the raw value and unit are kept beside it.
 Every reading frame follows one contract (see DEVELOPERS.md): ``reading_id``,
 ``survey_id``, ``level_id``, ``row``, ``where``, ``point_id``, ``x_local``,
 ``y_local``, ``geometry`` (site CRS), the kind's value column, ``raw_value``,
-``raw_unit``.
+``raw_unit``, and ``value_source``.
+
+Raw instrument readings: a kind may declare extra raw columns
+(:attr:`~geo_corrosion.measurements.base.MeasurementKind.raw_columns`, such as
+``voltage_v`` and ``current_a`` for resistivity), read as numbers when the file
+has them (and mappable under ``[surveys.columns]``).  When the file has no
+value column but the kind can derive the value from the raw columns present,
+the value column is left NaN, ``value_source`` is ``"raw"`` (else ``"file"``)
+and the kind's :meth:`derive` fills it in before the corrections
+(``docs/raw-readings.md``).
 """
 
 from __future__ import annotations
@@ -150,27 +159,40 @@ def read_readings(
         xy_default = ("__x", "__y")
     else:
         raise IngestError(f"{name}: unknown file type {suffix!r}; use .csv, .geojson or .gpkg")
-    unknown = set(cfg.columns) - set(OUR_COLUMNS)
+    raw_cols = tuple(c for c in kind.raw_columns if c not in OUR_COLUMNS)
+    known = (*OUR_COLUMNS, *raw_cols)
+    unknown = set(cfg.columns) - set(known)
     if unknown:
         raise IngestError(
             f"{cfg.where}.columns: unknown column key(s) {sorted(unknown)}; our columns are "
-            f"{', '.join(OUR_COLUMNS)}"
+            f"{', '.join(known)}"
         )
-    mapping = {k: cfg.columns.get(k, k) for k in OUR_COLUMNS}
+    mapping = {k: cfg.columns.get(k, k) for k in known}
     if row_word == "feature":
         mapping["x"] = cfg.columns.get("x", xy_default[0])
         mapping["y"] = cfg.columns.get("y", xy_default[1])
+    present_raw = [c for c in raw_cols if mapping[c] in df.columns]
+    from_raw = mapping["value"] not in df.columns and kind.can_derive(present_raw, cfg)
     for ours, theirs in mapping.items():
-        if OUR_COLUMNS[ours] and theirs not in df.columns:
+        if ours == "value" and from_raw:
+            continue
+        if ours in OUR_COLUMNS and OUR_COLUMNS[ours] and theirs not in df.columns:
+            hint = ""
+            if ours == "value" and raw_cols:
+                hint = (f" {kind.name} readings may instead give raw instrument columns "
+                        f"({', '.join(raw_cols)}; see docs/raw-readings.md)")
+                if present_raw:
+                    hint += f"; the file has {', '.join(present_raw)}, which is not enough"
             raise SchemaError(
                 f"{name}: column {theirs!r} (for {ours}) is missing; the file has columns "
                 f"{', '.join(c for c in df.columns if not c.startswith('__'))}. Add "
-                f"`{ours} = \"<column>\"` under [surveys.columns] for survey {cfg.id!r}"
+                f"`{ours} = \"<column>\"` under [surveys.columns] for survey {cfg.id!r}.{hint}"
             )
     dec = cfg.decimal if row_word == "line" else "."
     x = _numbers(df[mapping["x"]], mapping["x"], dec, name, rows, row_word, True)
     y = _numbers(df[mapping["y"]], mapping["y"], dec, name, rows, row_word, True)
-    raw = _numbers(df[mapping["value"]], mapping["value"], dec, name, rows, row_word, False)
+    raw = (np.full(len(df), np.nan) if from_raw else
+           _numbers(df[mapping["value"]], mapping["value"], dec, name, rows, row_word, False))
     where_u = f"{name}: "
     value = kind.to_canonical(raw, cfg.unit, where=where_u)
     if cfg.coords == "local":
@@ -192,8 +214,11 @@ def read_readings(
         "y_local": yl,
         kind.value_column: value,
         "raw_value": raw,
-        "raw_unit": cfg.unit,
+        "raw_unit": "" if from_raw else cfg.unit,
+        "value_source": "raw" if from_raw else "file",
     })
+    for col in present_raw:
+        out[col] = _numbers(df[mapping[col]], mapping[col], dec, name, rows, row_word, False)
     if mapping["temperature_c"] in df.columns:
         out["temperature_c"] = _numbers(df[mapping["temperature_c"]], mapping["temperature_c"], dec,
                                         name, rows, row_word, False)

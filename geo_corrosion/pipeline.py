@@ -34,6 +34,9 @@ from geo_corrosion.config import SiteConfig, read_site
 from geo_corrosion.errors import ExportError, GeoCorrosionWarning, KrigingError, QAError
 from geo_corrosion.mapping import build_surface, mappable_readings
 from geo_corrosion.model import Site
+from geo_corrosion.planning import PlanningParams, plan_level
+from geo_corrosion.quantities import bid_schedule
+from geo_corrosion.repair import LayoutParams
 from geo_corrosion.results import LevelResult, RunResult
 from geo_corrosion.site import open_site
 from geo_corrosion.units import LENGTH_TO_M, report_units
@@ -89,25 +92,10 @@ def _stats(values: np.ndarray) -> dict[str, float]:
             "median": float(p[2]), "p90": float(p[3]), "p95": float(p[4]), "max": float(v.max())}
 
 
-def _simple_repairs(lr: LevelResult, params: Any) -> Any:
-    import geopandas as gpd
-
-    try:
-        from geo_corrosion.repair import LayoutParams, layout_repairs
-    except ImportError:  # TEMP until repair lands
-        return None
-
-    lv = lr.level
-    rows = [{"source_id": f.where, "kind": k, "geometry": f.geometry}
-            for k in ("delamination", "spall") for f in lv.overlays.get(k, ())]
-    if not rows:
-        return None
-    src = gpd.GeoDataFrame(rows, geometry="geometry")
-    lp = LayoutParams(margin_mm=params.repair_margin_m * 1000, merge_gap_mm=params.merge_gap_m * 1000,
-                      min_size_mm=params.min_repair_size_m * 1000)
-    return layout_repairs(src, slab=lv.slab, exclusions=lv.exclusion_polygons(),
-                          joints=[j.geometry for j in lv.joints], unit=lv.unit, params=lp,
-                          level_id=lv.id)
+def _planning_params(params: Any) -> PlanningParams:
+    return PlanningParams(layout=LayoutParams(
+        margin_mm=params.repair_margin_m * 1000, merge_gap_mm=params.merge_gap_m * 1000,
+        min_size_mm=params.min_repair_size_m * 1000))
 
 
 def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None) -> RunResult:
@@ -179,21 +167,21 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
                 lr.surfaces, {k: r[lr.surfaces[k].kind.value_column].to_numpy(float)
                               for k, r in lr.readings.items()}, deck=lv.deck, unit=lv.unit)
             lr.stats["condition"] = lr.condition.stats
-        say(f"level {lid}: laying out repairs")
-        lr.repairs = _simple_repairs(lr, params)
+        say(f"level {lid}: laying out repairs and zones")
+        lr.repairs, lr.zones, lr.stats["planning"] = plan_level(lv, lr.surfaces,
+                                                                _planning_params(params))
         levels[lid] = lr
     import geopandas as gpd
 
-    try:
-        from geo_corrosion.quantities import bid_schedule
-    except ImportError:  # TEMP until quantities lands
-        return RunResult(site, flags, levels, pd.DataFrame())
+    def _cat(frames: list[Any]) -> Any:
+        frames = [f for f in frames if f is not None and len(f)]
+        return gpd.GeoDataFrame(pd.concat(frames, ignore_index=True), geometry="geometry") \
+            if frames else None
 
-    reps = [lr.repairs for lr in levels.values() if lr.repairs is not None and len(lr.repairs)]
-    allrep = (gpd.GeoDataFrame(pd.concat(reps, ignore_index=True), geometry="geometry")
-              if reps else None)
-    schedule = bid_schedule(allrep, None, units=units, contingency=params.contingency) \
-        if allrep is not None else pd.DataFrame()
+    allrep = _cat([lr.repairs for lr in levels.values()])
+    allzones = _cat([lr.zones for lr in levels.values()])
+    schedule = (bid_schedule(allrep, allzones, units=units, contingency=params.contingency)
+                if allrep is not None or allzones is not None else pd.DataFrame())
     return RunResult(site, flags, levels, schedule)
 
 
@@ -276,8 +264,13 @@ def manifest(result: RunResult, started: float) -> dict[str, Any]:
         "levels": {lid: {"name": lr.level.config.name,
                          "georeference": lr.level.grid.to_dict(),
                          "deck_area_m2": lr.level.deck.area * LENGTH_TO_M[lr.level.unit] ** 2,
-                         "kinds": {k: v for k, v in lr.stats.items() if k != "condition"},
+                         "kinds": {k: v for k, v in lr.stats.items()
+                                   if k not in ("condition", "planning")},
                          "condition": lr.stats.get("condition"),
+                         "planning": lr.stats.get("planning"),
+                         "zones": [] if lr.zones is None else [
+                             {k: v for k, v in z.items() if k != "geometry"}
+                             for z in lr.zones.to_dict("records")],
                          "repairs": 0 if lr.repairs is None else len(lr.repairs)}
                    for lid, lr in result.levels.items()},
         "schedule": sched,

@@ -20,7 +20,7 @@ import tempfile
 from collections.abc import Mapping
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Literal, get_args
+from typing import Any, Literal, get_args
 
 import geopandas as gpd
 import pandas as pd
@@ -80,7 +80,7 @@ class BidItem:
             raise RepairError("a bid item needs a code")
 
     def unit(self, units: ReportUnits) -> str:
-        """Unit label of this item in the reporting system."""
+        """Return the unit label of this item in the reporting system."""
         return {"area": units.area, "length": units.length, "volume": units.volume,
                 "count": "EA", "lump_sum": "LS"}[self.unit_kind]
 
@@ -113,13 +113,14 @@ def _union_ratio(geoms: gpd.GeoSeries) -> float:
     return min(1.0, float(shapely.union_all(geoms.to_numpy()).area) / total)
 
 
-def _repair_lines(repairs: gpd.GeoDataFrame, anode_spacing_mm: float | None) -> list[dict]:
+def _repair_lines(repairs: gpd.GeoDataFrame, anode_spacing_mm: float | None
+                  ) -> list[dict[str, Any]]:
     need = [c for c in ("level_id", "area_m2") if c not in repairs.columns]
     if "depth_class" not in repairs.columns and "bid_item" not in repairs.columns:
         need.append("depth_class or bid_item")
     if need:
         raise RepairError(f"repairs lack column(s) {need}; pass the frame from layout_repairs")
-    lines: list[dict] = []
+    lines: list[dict[str, Any]] = []
     r = repairs.copy()
     if "bid_item" not in r.columns or r["bid_item"].isna().all():
         unknown = sorted(set(map(str, r["depth_class"])) - set(DEPTH_CLASS_ITEMS))
@@ -145,7 +146,7 @@ def _repair_lines(repairs: gpd.GeoDataFrame, anode_spacing_mm: float | None) -> 
     return lines
 
 
-def _zone_lines(zones: gpd.GeoDataFrame) -> tuple[list[dict], dict[str, str]]:
+def _zone_lines(zones: gpd.GeoDataFrame) -> tuple[list[dict[str, Any]], dict[str, str]]:
     need = [c for c in ("level_id", "bid_item", "area_m2") if c not in zones.columns]
     if need:
         raise RepairError(f"zones lack column(s) {need}; pass the frame from zoning.zone")
@@ -244,7 +245,7 @@ def bid_schedule(repairs: gpd.GeoDataFrame | None, zones: gpd.GeoDataFrame | Non
                  units: ReportUnits, contingency: float = 0.20,
                  anode_spacing_mm: float | None = None,
                  items: Mapping[str, BidItem] | None = None) -> pd.DataFrame:
-    """The schedule of quantities of repairs and zones, per level and in total.
+    """Compute the schedule of quantities of repairs and zones, per level and in total.
 
     Parameters
     ----------
@@ -279,7 +280,7 @@ def bid_schedule(repairs: gpd.GeoDataFrame | None, zones: gpd.GeoDataFrame | Non
         raise RepairError(f"anode_spacing_mm = {anode_spacing_mm!r} mm; give a spacing > 0 mm")
     all_items: dict[str, BidItem] = dict(DEFAULT_BID_ITEMS)
     all_items.update(items or {})
-    lines: list[dict] = []
+    lines: list[dict[str, Any]] = []
     levels: list[str] = []
     if repairs is not None and len(repairs):
         lines += _repair_lines(repairs, anode_spacing_mm)
@@ -334,7 +335,8 @@ def _atomic_write(path: Path, write: object) -> Path:
     """Call ``write(tmp_path)`` then move the temporary file onto ``path``."""
     try:
         path.parent.mkdir(parents=True, exist_ok=True)
-        fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.stem}.", suffix=f".tmp{path.suffix}")
+        fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.stem}.",
+                                   suffix=f".tmp{path.suffix}")
         os.close(fd)
     except OSError as err:
         raise ExportError(f"cannot write {path}: {err}") from err

@@ -36,6 +36,7 @@ import geopandas as gpd
 import numpy as np
 import pandas as pd
 import shapely
+from numpy.typing import NDArray
 from shapely import affinity
 from shapely.geometry import LinearRing, LineString, MultiPolygon, Polygon, box
 from shapely.geometry.base import BaseGeometry
@@ -91,7 +92,8 @@ class LayoutParams:
     axis_angle_deg : float
         Angle of the saw-cut axes from the grid x axis, degrees counter-clockwise.
     sawcut_depth_mm : float
-        Perimeter saw-cut depth and least removal depth, mm (default 19 mm / 3/4 in, REFERENCE §6.2 [S]).
+        Perimeter saw-cut depth and least removal depth, mm (default 19 mm / 3/4 in,
+        REFERENCE §6.2 [S]).
     extend_to_edge : bool
         Extend a repair to a free slab edge that lies within the margin of it.
     cover_mm : float
@@ -262,7 +264,7 @@ def depth_class(*, cover_mm: float, bar_diameter_mm: float, delam_depth_mm: floa
 
 
 def polygon_parts(geom: BaseGeometry | None) -> list[Polygon]:
-    """The non-empty polygons of any geometry, flattened (lines and points are dropped)."""
+    """Return the non-empty polygons of any geometry, flattened (lines and points dropped)."""
     if geom is None or geom.is_empty:
         return []
     if isinstance(geom, Polygon):
@@ -338,7 +340,7 @@ def clean_outlines(geoms: Sequence[BaseGeometry | None], ids: Sequence[str], *, 
 
 
 def n_reentrant_corners(geom: BaseGeometry, *, tol_deg: float = 1.0) -> int:
-    """Number of re-entrant (reflex, > 180 degree interior) corners of polygons.
+    """Count the re-entrant (reflex, > 180 degree interior) corners of polygons.
 
     Corners of holes count: they are re-entrant for the repair around them.
     """
@@ -376,10 +378,10 @@ def _square_off(geom: BaseGeometry, strip: float, tol: float) -> BaseGeometry:
         return geom
     xy = np.vstack([np.asarray(r.coords) for p in parts for r in (p.exterior, *p.interiors)])
 
-    def uniq(v: np.ndarray) -> np.ndarray:
-        v = np.unique(v)
-        keep = np.concatenate([[True], np.diff(v) > tol])
-        return v[keep]
+    def uniq(v: NDArray[np.float64]) -> NDArray[np.float64]:
+        u: NDArray[np.float64] = np.unique(v)
+        keep = np.concatenate([[True], np.diff(u) > tol])
+        return np.asarray(u[keep], dtype=np.float64)
 
     xs, ys = uniq(xy[:, 0]), uniq(xy[:, 1])
     if len(xs) < 2 or len(ys) < 2:
@@ -443,6 +445,14 @@ class _Shape:
     ids: frozenset[int]
 
 
+def _find(parent: list[int], i: int) -> int:
+    """Root of ``i`` in a union-find forest (with path halving)."""
+    while parent[i] != i:
+        parent[i] = parent[parent[i]]
+        i = parent[i]
+    return i
+
+
 def _merge(shapes: list[_Shape], gap: float, max_extra: float, strip: float, tol: float
            ) -> list[_Shape]:
     """Merge shapes closer than ``gap`` (iterated until stable)."""
@@ -451,21 +461,14 @@ def _merge(shapes: list[_Shape], gap: float, max_extra: float, strip: float, tol
         n = len(shapes)
         tree = shapely.STRtree([s.geom for s in shapes])
         parent = list(range(n))
-
-        def find(i: int) -> int:
-            while parent[i] != i:
-                parent[i] = parent[parent[i]]
-                i = parent[i]
-            return i
-
         for i, s in enumerate(shapes):
             for j in tree.query(s.geom, predicate="dwithin", distance=gap - tol):
                 j = int(j)
                 if j > i and frozenset((s.ids, shapes[j].ids)) not in refused:
-                    parent[find(i)] = find(j)
+                    parent[_find(parent, i)] = _find(parent, j)
         groups: dict[int, list[int]] = {}
         for i in range(n):
-            groups.setdefault(find(i), []).append(i)
+            groups.setdefault(_find(parent, i), []).append(i)
         if all(len(g) == 1 for g in groups.values()):
             return shapes
         new: list[_Shape] = []
@@ -636,6 +639,13 @@ def layout_repairs(sources: gpd.GeoDataFrame, *, slab: Polygon,
     _check_inputs(sources, slab, unit, level_id)
     if len(sources) == 0:
         return _empty_frame()
+    with np.errstate(all="ignore"):  # GEOS floating-point flags on near-degenerate shapes
+        return _layout(sources, slab, exclusions, joints, unit, params, level_id)
+
+
+def _layout(sources: gpd.GeoDataFrame, slab: Polygon, exclusions: Sequence[Polygon],
+            joints: Sequence[LineString], unit: str, params: LayoutParams, level_id: str
+            ) -> gpd.GeoDataFrame:
     per_mm = 0.001 / LENGTH_TO_M[unit]
     p = params
     margin, gap = p.margin_mm * per_mm, p.merge_gap_mm * per_mm

@@ -32,6 +32,7 @@ class LevelResult:
     level: Level
     surfaces: dict[str, KindSurface] = field(default_factory=dict)
     repairs: gpd.GeoDataFrame | None = None
+    zones: gpd.GeoDataFrame | None = None
     stats: dict[str, Any] = field(default_factory=dict)
     skipped: dict[str, str] = field(default_factory=dict)
     condition: Any = None  # assessment.LevelCondition

@@ -621,6 +621,10 @@ def _site_toml(seed: int) -> str:
             f'overlays = [ {{ kind = "delamination", path = "sounding/{lid}.dxf", '
             f'layer = "DELAM" }}, '
             f'{{ kind = "spall", path = "sounding/{lid}.dxf", layer = "SPALL" }} ]',
+            "# design cover of the top bars and its placement tolerance (the low-cover",
+            "# threshold is their difference; ACI 318 tolerance for members over 8 in)",
+            'specified_cover = "2 in"',
+            'cover_tolerance = "0.5 in"',
             "[levels.grid]",
             'unit = "ft"',
             f"spacing = {SPACING_FT:.1f}",

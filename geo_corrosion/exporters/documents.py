@@ -78,7 +78,7 @@ class DrawingsExporter(Exporter):
             lv = lr.level
             paths.append(write_level_dxf(
                 ddir / f"{lid}_repairs.dxf", slab=lv.slab, exclusions=lv.exclusion_polygons(),
-                joints=[j.geometry for j in lv.joints], repairs=lr.repairs, zones=None,
+                joints=[j.geometry for j in lv.joints], repairs=lr.repairs, zones=lr.zones,
                 delaminations=[f.geometry for k in ("delamination", "spall")
                                for f in lv.overlays.get(k, ())],
                 unit=lv.unit, title=f"{result.site.config.name} - {lv.config.name}",

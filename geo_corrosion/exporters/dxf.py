@@ -33,14 +33,21 @@ LAYER_JOINT = "GC-JOINT"
 LAYER_DELAM = "GC-DELAM"
 LAYER_TEXT = "GC-TEXT"
 
-_INSUNITS = {"m": 6, "ft": 2, "us-ft": 21}  # DXF $INSUNITS codes: 6 metres, 2 feet, 21 US survey feet
+#: DXF $INSUNITS codes: 6 metres, 2 feet, 21 US survey feet.
+_INSUNITS = {"m": 6, "ft": 2, "us-ft": 21}
 _COLOURS = {LAYER_SLAB: 7, LAYER_EXCLUSION: 8, LAYER_JOINT: 4, LAYER_DELAM: 1, LAYER_TEXT: 7}
 _REPAIR_COLOURS = {"PARTIAL-ABOVE-BARS": 3, "PARTIAL-BELOW-BARS": 5, "FULL-DEPTH": 6}
 _ZONE_COLOURS = (30, 50, 140, 170, 200, 230, 9)
 
 
 def layer_name(prefix: str, name: str) -> str:
-    """A DXF-safe layer name, e.g. ``layer_name("GC-REPAIR", "full_depth") == "GC-REPAIR-FULL-DEPTH"``."""
+    """Return a DXF-safe layer name.
+
+    Examples
+    --------
+    >>> layer_name("GC-REPAIR", "full_depth")
+    'GC-REPAIR-FULL-DEPTH'
+    """
     clean = re.sub(r"[^A-Z0-9]+", "-", str(name).upper()).strip("-") or "UNNAMED"
     return f"{prefix}-{clean}"[:250]
 
@@ -102,7 +109,7 @@ def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
     units = units or report_units("metric" if unit == "m" else "us")
     x0, y0, x1, y1 = slab.bounds
     h = text_height or max(x1 - x0, y1 - y0) / 100.0
-    doc = ezdxf.new("R2010", setup=True)
+    doc = ezdxf.new("R2010", setup=True)  # type: ignore[attr-defined]
     doc.header["$INSUNITS"] = _INSUNITS[unit]
     doc.header["$MEASUREMENT"] = 1 if unit == "m" else 0
     msp = doc.modelspace()

@@ -81,6 +81,11 @@ def level_layers(lr: LevelResult, crs: Any) -> dict[str, gpd.GeoDataFrame]:
         c = cond.combined_polygons.copy()
         c["area_m2"] = c.pop("area_local") * a2
         out["combined_classes"] = to_site_frame(c.to_dict("records"), lr, crs)
+    if lr.zones is not None and len(lr.zones):
+        z = pd.DataFrame(lr.zones.drop(columns="geometry"))
+        z["geometry"] = list(lr.zones.geometry)
+        out["zones"] = to_site_frame(z.drop(columns=[c for c in ("level_id",) if c in z])
+                                     .to_dict("records"), lr, crs)
     if lr.repairs is not None and len(lr.repairs):
         rep = pd.DataFrame(lr.repairs.drop(columns="geometry"))
         rep["geometry"] = list(lr.repairs.geometry)

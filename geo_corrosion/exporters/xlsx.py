@@ -29,7 +29,13 @@ _WORDS = {"repair_id": "Repair", "level_id": "Level", "source_ids": "Sources", "
 
 
 def column_header(name: str) -> str:
-    """A readable header with the unit in parentheses (``"area_ft2"`` -> ``"Area (ft2)"``)."""
+    """Return a readable header with the unit in parentheses.
+
+    Examples
+    --------
+    >>> column_header("area_ft2")
+    'Area (ft2)'
+    """
     if name in _WORDS:
         return _WORDS[name]
     stem, _, suffix = str(name).rpartition("_")

@@ -10,6 +10,8 @@ under the entry-point group ``geo_corrosion.measurements``.
 
 from __future__ import annotations
 
+from collections.abc import Collection, Mapping
+from pathlib import Path
 from typing import TYPE_CHECKING, Any, ClassVar
 
 import numpy as np
@@ -47,6 +49,12 @@ class MeasurementKind:
         Default contour interval in the canonical unit.
     class_set : str or None
         Name of the default class set in :mod:`geo_corrosion.condition.classes`.
+    raw_columns : tuple of str
+        Raw instrument columns (numbers, their unit in the name) read at ingest
+        when the file has them; from them :meth:`derive` computes the value
+        when the file has no value column (see ``docs/raw-readings.md``).
+    option_keys : tuple of str
+        Keys accepted in the survey's ``[surveys.options]`` table.
     api_version : int
     """
 
@@ -59,6 +67,8 @@ class MeasurementKind:
     krige_transform: ClassVar[str | None] = None
     contour_interval: ClassVar[float] = 1.0
     class_set: ClassVar[str | None] = None
+    raw_columns: ClassVar[tuple[str, ...]] = ()
+    option_keys: ClassVar[tuple[str, ...]] = ()
     api_version: ClassVar[int] = 1
 
     def to_canonical(self, values: ArrayLike, unit: str, *, where: str = "") -> NDArray[np.float64]:
@@ -74,6 +84,63 @@ class MeasurementKind:
         except UnitError as err:
             raise UnitError(f"{where}{err} (for {self.name} readings)") from err
         return convert(values, u, self.canonical_unit)
+
+    def parse_options(
+        self, options: Mapping[str, Any], *, where: str, root: Path
+    ) -> dict[str, Any]:
+        """Validate a survey's ``[surveys.options]`` table and return it parsed.
+
+        The base kind takes no options: any key is refused.  Kinds with options
+        override this; returned keys carry their unit (``probe_spacing_mm``).
+
+        Parameters
+        ----------
+        options : mapping
+            The table as read from TOML.
+        where : str
+            Where the table is in the site file, for messages.
+        root : Path
+            Site folder, against which relative paths are resolved.
+
+        Raises
+        ------
+        SiteFileError
+            An unknown key (the message lists the allowed ones) or a bad value.
+        """
+        from geo_corrosion.config import OptionsTable
+        from geo_corrosion.errors import SiteFileError
+
+        if options and not self.option_keys:
+            raise SiteFileError(
+                f"{where}: {self.name} surveys take no options (got {', '.join(map(repr, options))}); "
+                "remove the [surveys.options] table"
+            )
+        OptionsTable(dict(options), where, self.option_keys)
+        return {}
+
+    def can_derive(self, columns: Collection[str], survey: SurveyConfig) -> bool:
+        """Whether readings without a value column can be derived from ``columns`` (raw ones)."""
+        return False
+
+    def derive(
+        self, frame: pd.DataFrame, survey: SurveyConfig, params: RunParams
+    ) -> tuple[pd.DataFrame, list[dict[str, Any]]]:
+        """Derive the value column from raw instrument columns (before :meth:`correct`).
+
+        Called for every survey.  Readings whose ``value_source`` is ``"raw"``
+        have no value yet; a kind computes it here.  A problem with one reading
+        never raises: its value becomes NaN and the column ``derive_message``
+        says why, naming the location; readings without a problem get ``""``.
+        Only survey-wide impossibilities raise (SiteFileError).  The base kind
+        derives nothing.
+
+        Returns
+        -------
+        frame : DataFrame
+        records : list of dict
+            What was derived and checked, with sources (for run.json).
+        """
+        return frame, []
 
     def check_survey(self, survey: SurveyConfig) -> None:
         """Validate kind-specific survey settings (electrode, temperature); raise on error."""

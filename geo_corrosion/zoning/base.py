@@ -18,6 +18,7 @@ from dataclasses import dataclass, field
 from typing import Any, ClassVar
 
 import geopandas as gpd
+import numpy as np
 import pandas as pd
 import shapely
 from shapely.geometry import MultiPolygon, Polygon
@@ -102,7 +103,7 @@ class ZoningRule:
 
     @classmethod
     def parameters(cls) -> dict[str, inspect.Parameter]:
-        """The keyword-only parameters of the rule (for the site file and the CLI).
+        """Return the keyword-only parameters of the rule (for the site file and the CLI).
 
         Raises
         ------
@@ -145,7 +146,7 @@ def _drop_small(g: BaseGeometry, min_area: float) -> BaseGeometry:
 
 
 def _smooth(g: BaseGeometry, s: float) -> BaseGeometry:
-    """Closing then opening with a square of half-side ``s`` (keeps grid-aligned shapes)."""
+    """Close then open with a square of half-side ``s`` (keeps grid-aligned shapes)."""
     x0, y0, x1, y1 = g.bounds if not g.is_empty else (0.0, 0.0, 0.0, 0.0)
     if s <= 1e-9 * max(1.0, x1 - x0, y1 - y0) or g.is_empty:
         return g
@@ -209,7 +210,8 @@ def zone(slab: Polygon, exclusions: Sequence[Polygon], layers: ZoningLayers,
         if remaining.is_empty:
             break
         try:
-            got = rule.apply(layers)
+            with np.errstate(all="ignore"):  # GEOS floating-point flags on slivers
+                got = rule.apply(layers)
         except ZoningError:
             raise
         except Exception as err:
@@ -218,14 +220,15 @@ def zone(slab: Polygon, exclusions: Sequence[Polygon], layers: ZoningLayers,
         if got is not None and not isinstance(got, BaseGeometry):
             raise ZoningError(f"zoning rule {rule.name!r} returned {type(got).__name__}, "
                               "not a polygon")
-        if rule.catch_all:
-            claimed = remaining
-        else:
-            g = _smooth(_polygonal(got).intersection(remaining), s)
-            claimed = _drop_small(_polygonal(g.intersection(remaining)), min_area)
-        if claimed.is_empty or claimed.area <= 0:
-            continue
-        remaining = _polygonal(remaining.difference(claimed))
+        with np.errstate(all="ignore"):
+            if rule.catch_all:
+                claimed = remaining
+            else:
+                g = _smooth(_polygonal(got).intersection(remaining), s)
+                claimed = _drop_small(_polygonal(g.intersection(remaining)), min_area)
+            if claimed.is_empty or claimed.area <= 0:
+                continue
+            remaining = _polygonal(remaining.difference(claimed))
         rows.append({"level_id": level_id, "zone": rule.name, "treatment": rule.treatment,
                      "bid_item": rule.bid_item, "order": k, "area_m2": claimed.area * f * f,
                      "plan_unit": unit, "geometry": claimed})

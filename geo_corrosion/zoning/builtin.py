@@ -48,7 +48,7 @@ class RepairRule(ZoningRule):
         self.include_repairs = include_repairs
 
     def apply(self, layers: ZoningLayers) -> BaseGeometry:
-        """Delaminated, spalled and (optionally) repaired areas."""
+        """Return the delaminated, spalled and (optionally) repaired areas."""
         extra = [layers.repairs] if self.include_repairs else []
         return _union([layers.delaminated, layers.spalled, *extra])
 
@@ -77,7 +77,7 @@ class ActiveCorrosionRule(ZoningRule):
         self.classes = tuple(classes)
 
     def apply(self, layers: ZoningLayers) -> BaseGeometry:
-        """The active layer and the chosen condition classes."""
+        """Return the active layer and the chosen condition classes."""
         return _union([layers.active, *[layers.classes[c] for c in self.classes
                                         if c in layers.classes]])
 
@@ -91,7 +91,7 @@ class LowCoverRule(ZoningRule):
     description = "cover below the low-cover threshold"
 
     def apply(self, layers: ZoningLayers) -> BaseGeometry:
-        """The low-cover layer."""
+        """Return the low-cover layer."""
         return layers.low_cover
 
 
@@ -116,5 +116,5 @@ BUILTIN_ZONING_RULES: dict[str, type[ZoningRule]] = {
 
 
 def default_rules() -> list[ZoningRule]:
-    """The built-in rules in their usual order, with default parameters."""
+    """Return the built-in rules in their usual order, with default parameters."""
     return [RepairRule(), ActiveCorrosionRule(), LowCoverRule(), NoActionRule()]

@@ -144,3 +144,25 @@ def test_fixed_variogram_from_site_file(tmp_path: Path) -> None:
     r = run(site, tmp_path / "out", exporters=("geopackage",))
     m = r.levels["D1"].surfaces["potential"].fit.model
     assert m.name == "exponential" and m.nugget == 50.0 and m.range == pytest.approx(20.0)
+
+
+def test_zones_partition_the_deck_and_schedule_adds_up(run_out: tuple[Path, Path]) -> None:
+    import pandas as pd
+
+    man = json.loads((run_out[1] / "run.json").read_text())
+    lv = man["levels"]["D1"]
+    # zones never overlap and together cover the slab minus exclusions (issue 5)
+    assert sum(z["area_m2"] for z in lv["zones"]) == pytest.approx(lv["deck_area_m2"], rel=1e-6)
+    sched = pd.read_csv(run_out[1] / "quantities.csv")
+    per_level = sched[sched["level_id"] != "ALL"].groupby(["item", "line"])["quantity"].sum()
+    total = sched[sched["level_id"] == "ALL"].set_index(["item", "line"])["quantity"]
+    pd.testing.assert_series_equal(per_level.sort_index(), total.sort_index(), check_names=False)
+
+
+def test_every_delamination_inside_a_repair(run_out: tuple[Path, Path]) -> None:
+    import shapely
+
+    gpkg = run_out[1] / "survey.gpkg"
+    rep = shapely.union_all(list(pyogrio.read_dataframe(gpkg, layer="D1_repairs").geometry))
+    for g in pyogrio.read_dataframe(gpkg, layer="D1_delaminations").geometry:
+        assert rep.buffer(1e-6).contains(g)

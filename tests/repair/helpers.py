@@ -13,8 +13,9 @@ from shapely.geometry.polygon import orient
 from geo_corrosion.repair import polygon_parts
 
 
-def sources(geoms: Sequence[BaseGeometry], kind: str = "delamination", **cols: list) -> gpd.GeoDataFrame:
-    """A sources frame with ids d0, d1, ..."""
+def sources(geoms: Sequence[BaseGeometry], kind: str = "delamination",
+            **cols: list) -> gpd.GeoDataFrame:
+    """Build a sources frame with ids d0, d1, ..."""
     data = {"source_id": [f"d{i}" for i in range(len(geoms))], "kind": [kind] * len(geoms)}
     data.update(cols)
     return gpd.GeoDataFrame(data, geometry=list(geoms))

@@ -102,6 +102,7 @@ def test_xlsx_read_back(tmp_path, level) -> None:
     wl = wb["P1"]
     assert [c.value for c in wl[2]] == ["Repair", "Area (ft2)", "Saw cut (LF)"]
     assert wl.cell(row=2, column=2).font.bold
-    assert [wl.cell(row=3 + i, column=2).value for i in range(2)] == pytest.approx([6.0, 9.0])  # R001 is the upper one
+    # R001 is the upper repair (REP-02 rectangle, 6 ft2), R002 the REP-01 square (9 ft2)
+    assert [wl.cell(row=3 + i, column=2).value for i in range(2)] == pytest.approx([6.0, 9.0])
     assert wl.column_dimensions["A"].width >= len("P1-R001")
     assert [p.name for p in tmp_path.iterdir()] == ["q.xlsx"]

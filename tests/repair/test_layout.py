@@ -27,7 +27,8 @@ def run(geoms, *, slab=SLAB_M, unit="m", exclusions=(), joints=(), **params):
 
 
 def test_rep01_circle_grown_to_saw_cut_square() -> None:
-    # REFERENCE.md REP-01: r = 12 in, offset 6 in -> 36 x 36 in = 9.00 ft2, perimeter 12 ft (M 6 in + D)
+    # REFERENCE.md REP-01: r = 12 in, offset 6 in -> 36 x 36 in = 9.00 ft2, perimeter 12 ft
+    # (M for the 6 in, D)
     r = run([Point(0, 0).buffer(1.0)], slab=box(-20, -20, 20, 20), unit="ft", margin_mm=152.4)
     assert len(r) == 1
     assert r.area_m2.iloc[0] / FT2 == pytest.approx(9.0, abs=1e-6)
@@ -48,7 +49,8 @@ def test_rep02_rectangle_grown_by_six_inches() -> None:
 
 def test_two_nearby_repairs_merged_into_bounding_rectangle() -> None:
     # hand-worked: 1 x 1 m delaminations 0.4 m apart, margin 0.15 m -> rectangles 0.1 m apart
-    # (< 0.3 m gap); bounding rectangle 2.7 x 1.3 m = 3.51 m2 adds 3.8 % < 25 % (REFERENCE §6.2 step 4, P)
+    # (< 0.3 m gap); bounding rectangle 2.7 x 1.3 m = 3.51 m2 adds 3.8 % < 25 %
+    # (REFERENCE §6.2 step 4, P)
     r = run([box(5, 5, 6, 6), box(6.4, 5, 7.4, 6)])
     assert len(r) == 1
     assert r.area_m2.iloc[0] == pytest.approx(3.51, abs=1e-9)
@@ -109,7 +111,8 @@ def test_repair_across_joint_is_split() -> None:
 
 def test_repair_extends_to_free_edge_within_margin() -> None:
     # hand-worked: rectangle side 0.05 m from the slab edge (< 0.15 m margin) goes to the edge:
-    # 1.15 x 1.3 = 1.495 m2 instead of 1.1 x 1.3 = 1.43 m2; no cut on the edge (REFERENCE §6.2 step 6, P)
+    # 1.15 x 1.3 = 1.495 m2 instead of 1.1 x 1.3 = 1.43 m2; no cut on the edge
+    # (REFERENCE §6.2 step 6, P)
     r = run([box(0.2, 5, 1, 6)])
     assert r.area_m2.iloc[0] == pytest.approx(1.495, abs=1e-9)
     assert r.perimeter_m.iloc[0] == pytest.approx(2 * 1.15 + 1.3, abs=1e-6)
@@ -133,7 +136,8 @@ def test_rotated_axes() -> None:
 
 
 def test_depth_class_from_source_columns() -> None:
-    # REFERENCE §6.3 (M/P): plane above the bars -> partial above; the deepest source governs a merge
+    # REFERENCE §6.3 (M/P): plane above the bars -> partial above; the deepest source
+    # governs a merged repair
     src = sources([box(5, 5, 6, 6), box(6.2, 5, 7.2, 6)], cover_mm=[50.0, 50.0],
                   delam_depth_mm=[25.0, None])
     r = layout_repairs(src, slab=SLAB_M, unit="m", params=LayoutParams(), level_id="P1")

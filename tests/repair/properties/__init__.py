@@ -1,0 +1,1 @@
+"""Property tests (hypothesis) of the repair layout, quantities and zoning."""

@@ -21,18 +21,23 @@ def _r(v: float) -> float:
     return round(v, 4)
 
 
+def fl(lo: float, hi: float) -> st.SearchStrategy[float]:
+    """Finite floats in [lo, hi], rounded to 0.1 mm."""
+    return st.floats(lo, hi, allow_nan=False, allow_subnormal=False).map(_r)
+
+
 SETTINGS = settings(max_examples=50, deadline=None,
                     suppress_health_check=[HealthCheck.too_slow])
 W, H = 20.0, 12.0
 SLAB = box(0, 0, W, H)
 
-coord = st.floats(-1.0, 21.0, allow_nan=False, allow_subnormal=False).map(_r)
-size = st.floats(0.01, 3.0, allow_nan=False, allow_subnormal=False).map(_r)
+coord = fl(-1.0, 21.0)
+size = fl(0.01, 3.0)
 
 
 @st.composite
 def delamination(draw: st.DrawFn) -> Polygon:
-    x, y = draw(coord), draw(st.floats(-1.0, 13.0, allow_subnormal=False).map(_r))
+    x, y = draw(coord), draw(fl(-1.0, 13.0))
     kind = draw(st.sampled_from(["box", "circle", "triangle", "rotated"]))
     w, h = draw(size), draw(size)
     if kind == "box":
@@ -41,20 +46,20 @@ def delamination(draw: st.DrawFn) -> Polygon:
         return Point(x, y).buffer(w / 2)
     if kind == "triangle":
         return Polygon([(x, y), (x + w, y), (x + w / 3, y + h)])
-    return affinity.rotate(box(x, y, x + w, y + h), draw(st.floats(0, 90, allow_subnormal=False).map(_r)), origin="centroid")
+    return affinity.rotate(box(x, y, x + w, y + h), draw(fl(0, 90)), origin="centroid")
 
 
 @st.composite
 def case(draw: st.DrawFn):
     delams = draw(st.lists(delamination(), min_size=1, max_size=7))
     excl = [box(x, y, x + 0.6, y + 0.6) for x, y in
-            draw(st.lists(st.tuples(st.floats(0, W - 0.6).map(_r), st.floats(0, H - 0.6).map(_r)), max_size=2))]
+            draw(st.lists(st.tuples(fl(0, W - 0.6), fl(0, H - 0.6)), max_size=2))]
     joints = [LineString([(x, -1), (x, H + 1)]) for x in
-              draw(st.lists(st.floats(1, W - 1).map(_r), max_size=2))]
-    params = LayoutParams(margin_mm=draw(st.floats(0, 300, allow_subnormal=False).map(_r)), merge_gap_mm=draw(st.floats(0, 600, allow_subnormal=False).map(_r)),
-                          merge_max_extra=draw(st.floats(0, 1, allow_subnormal=False).map(_r)),
-                          min_size_mm=draw(st.floats(0, 500, allow_subnormal=False).map(_r)),
-                          min_reentrant_mm=draw(st.floats(0, 500, allow_subnormal=False).map(_r)),
+              draw(st.lists(fl(1, W - 1), max_size=2))]
+    params = LayoutParams(margin_mm=draw(fl(0, 300)), merge_gap_mm=draw(fl(0, 600)),
+                          merge_max_extra=draw(fl(0, 1)),
+                          min_size_mm=draw(fl(0, 500)),
+                          min_reentrant_mm=draw(fl(0, 500)),
                           extend_to_edge=draw(st.booleans()))
     return delams, excl, joints, params
 
@@ -124,7 +129,7 @@ def test_quantities_never_below_polygon_area(c, unit, system) -> None:
 
 @SETTINGS
 @given(st.lists(case(), min_size=1, max_size=3), st.sampled_from(["metric", "us"]),
-       st.one_of(st.none(), st.floats(300, 900, allow_subnormal=False).map(_r)))
+       st.one_of(st.none(), fl(300, 900)))
 def test_totals_equal_sum_of_levels(cases, system, spacing) -> None:
     # issue 5 "Shown by": totals equal the sum of the parts
     frames = []

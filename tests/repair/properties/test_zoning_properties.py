@@ -22,21 +22,26 @@ def _r(v: float) -> float:
     return round(v, 4)
 
 
+def fl(lo: float, hi: float) -> st.SearchStrategy[float]:
+    """Finite floats in [lo, hi], rounded to 0.1 mm."""
+    return st.floats(lo, hi, allow_nan=False, allow_subnormal=False).map(_r)
+
+
 SLAB = box(0, 0, 20, 12)
 
 
 def blobs(max_size: int = 4) -> st.SearchStrategy:
     one = st.builds(lambda x, y, w, h, c: Point(x, y).buffer(w) if c else box(x, y, x + w, y + h),
-                    st.floats(-2, 22, allow_subnormal=False).map(_r), st.floats(-2, 14, allow_subnormal=False).map(_r), st.floats(0.05, 5, allow_subnormal=False).map(_r), st.floats(0.05, 5, allow_subnormal=False).map(_r),
+                    fl(-2, 22), fl(-2, 14), fl(0.05, 5), fl(0.05, 5),
                     st.booleans())
     return st.lists(one, max_size=max_size).map(
         lambda gs: shapely.union_all(gs) if gs else box(0, 0, 0, 0))
 
 
 @settings(max_examples=50, deadline=None, suppress_health_check=[HealthCheck.too_slow])
-@given(blobs(), blobs(), blobs(), st.lists(st.tuples(st.floats(0, 18, allow_subnormal=False).map(_r), st.floats(0, 10, allow_subnormal=False).map(_r)),
+@given(blobs(), blobs(), blobs(), st.lists(st.tuples(fl(0, 18), fl(0, 10)),
                                           max_size=2),
-       st.floats(0, 2, allow_subnormal=False).map(_r), st.floats(0, 0.5, allow_subnormal=False).map(_r), st.permutations([0, 1, 2]), st.booleans())
+       fl(0, 2), fl(0, 0.5), st.permutations([0, 1, 2]), st.booleans())
 def test_zones_partition_the_slab(delam, active, low, excl_xy, min_area, smooth, order, catch):
     # issue 5: zones of one level never overlap and together cover its slab (less exclusions)
     excl = [box(x, y, x + 1, y + 1) for x, y in excl_xy]

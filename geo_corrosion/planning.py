@@ -1,0 +1,136 @@
+"""The zoning and repair-layout stage of the pipeline.
+
+For each level: the overlay layers (delaminations, spalls), the condition
+classes and the low-cover areas read off the kriged surfaces become
+:class:`~geo_corrosion.zoning.base.ZoningLayers`; the repair layout
+(:func:`geo_corrosion.repair.layout_repairs`) grows the sounded areas into
+saw-cut outlines whose depth class comes from the cover measured at them; the
+zoning rules then partition the slab.  All geometry is in local grid units.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import geopandas as gpd
+import numpy as np
+import rasterio.features
+import shapely
+from numpy.typing import NDArray
+from shapely.geometry import shape
+from shapely.geometry.base import BaseGeometry
+
+from geo_corrosion.mapping import KindSurface
+from geo_corrosion.model import Level
+from geo_corrosion.repair import LayoutParams, layout_repairs
+from geo_corrosion.zoning import ZoningLayers, default_rules, zone
+
+__all__ = ["PlanningParams", "low_cover_threshold_mm", "plan_level", "raster_region"]
+
+#: Default low-cover threshold when the level gives no specified cover, mm
+#: (REFERENCE.md §5.3 item 1: 25 mm / 1 in, common practice).
+DEFAULT_LOW_COVER_MM = 25.0
+
+
+@dataclass(frozen=True)
+class PlanningParams:
+    """Parameters of zoning and layout (lengths in mm or m as named)."""
+
+    layout: LayoutParams
+    min_zone_area_m2: float = 0.5
+    smoothing_m: float = 0.15
+
+
+def low_cover_threshold_mm(level: Level) -> tuple[float, str]:
+    """Low-cover threshold of a level and where it comes from.
+
+    ``specified - tolerance`` when the site file gives the level's specified
+    cover (REFERENCE.md COV-01, common practice), else 25 mm.
+    """
+    spec, tol = level.config.specified_cover_mm, level.config.cover_tolerance_mm
+    if spec is not None:
+        t = tol if tol is not None else 0.0
+        return spec - t, f"specified cover {spec:.1f} mm minus tolerance {t:.1f} mm"
+    return DEFAULT_LOW_COVER_MM, "default 25 mm (REFERENCE.md §5.3, common practice)"
+
+
+def raster_region(mask: NDArray[np.bool_], s: KindSurface, clip: BaseGeometry) -> BaseGeometry:
+    """Polygon (local grid) of the True cells of a mask on a surface's grid, clipped."""
+    if not mask.any():
+        return shapely.Polygon()
+    polys = [shape(g) for g, v in rasterio.features.shapes(
+        mask.astype(np.uint8), mask=mask, transform=s.grid.affine()) if v == 1]
+    return shapely.intersection(shapely.union_all(polys), clip)
+
+
+def _cover_at(geoms: list[BaseGeometry], cover: KindSurface | None) -> list[float]:
+    """Least kriged cover (mm) under each shape; NaN where no cover surface reaches."""
+    if cover is None:
+        return [float("nan")] * len(geoms)
+    out = []
+    for g in geoms:
+        m = rasterio.features.geometry_mask([g], out_shape=cover.grid.shape,
+                                            transform=cover.grid.affine(), invert=True,
+                                            all_touched=True)
+        v = cover.mean[m]
+        v = v[np.isfinite(v)]
+        out.append(float(v.min()) if v.size else float("nan"))
+    return out
+
+
+def plan_level(level: Level, surfaces: dict[str, KindSurface], params: PlanningParams
+               ) -> tuple[gpd.GeoDataFrame | None, gpd.GeoDataFrame, dict[str, Any]]:
+    """Repairs, zones and their notes for one level.
+
+    Returns
+    -------
+    repairs : GeoDataFrame or None
+        Repair outlines (None when nothing was sounded).
+    zones : GeoDataFrame
+        Zones that partition the slab minus exclusions.
+    notes : dict
+        Thresholds used and their sources (for run.json).
+    """
+    deck = level.deck
+    cover = surfaces.get("cover")
+    rows = [{"source_id": f.where.split(": ", 1)[-1], "kind": k, "geometry": f.geometry}
+            for k in ("delamination", "spall") for f in level.overlays.get(k, ())]
+    repairs = None
+    if rows:
+        src = gpd.GeoDataFrame(rows, geometry="geometry")
+        src["cover_mm"] = _cover_at(list(src.geometry), cover)
+        repairs = layout_repairs(src, slab=level.slab, exclusions=level.exclusion_polygons(),
+                                 joints=[j.geometry for j in level.joints], unit=level.unit,
+                                 params=params.layout, level_id=level.id)
+    thr, thr_src = low_cover_threshold_mm(level)
+    low = (raster_region(np.nan_to_num(cover.mean, nan=np.inf) < thr, cover, deck)
+           if cover is not None else shapely.Polygon())
+    classes: dict[str, BaseGeometry] = {}
+    pot = surfaces.get("potential")
+    if pot is not None and pot.classes is not None and len(pot.classes):
+        from geo_corrosion.condition.classes import get_class_set
+
+        keys = get_class_set(pot.kind.class_set).keys if pot.kind.class_set else ()
+        for r in pot.classes.to_dict("records"):
+            classes[keys[r["class_code"]] if keys else r["class"]] = r["geometry"]
+
+    def _u(kind: str) -> BaseGeometry:
+        return shapely.union_all([f.geometry for f in level.overlays.get(kind, ())]) \
+            if level.overlays.get(kind) else shapely.Polygon()
+
+    layers = ZoningLayers(
+        delaminated=_u("delamination"), spalled=_u("spall"), classes=classes, low_cover=low,
+        repairs=(shapely.union_all(list(repairs.geometry)) if repairs is not None and len(repairs)
+                 else shapely.Polygon()))
+    slab = level.slab if isinstance(level.slab, shapely.Polygon) else max(
+        level.slab.geoms, key=lambda g: g.area)
+    zones = zone(slab, level.exclusion_polygons(), layers, default_rules(),
+                 min_zone_area_m2=params.min_zone_area_m2, smoothing_m=params.smoothing_m,
+                 unit=level.unit, level_id=level.id)
+    notes = {"low_cover_threshold_mm": thr, "low_cover_threshold_source": thr_src,
+             "depth_class_cover": "least kriged cover under each sounded area"
+             if cover is not None else f"no cover survey: LayoutParams.cover_mm = "
+             f"{params.layout.cover_mm} mm assumed",
+             "zoning_rules": [r.name for r in default_rules()]}
+    return repairs, zones, notes
