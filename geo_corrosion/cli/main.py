@@ -25,6 +25,8 @@ def errors_handler(f: F) -> F:
     def wrapper(*args: Any, **kwargs: Any) -> Any:
         try:
             return f(*args, **kwargs)
+        except (click.ClickException, click.exceptions.Exit, click.exceptions.Abort):
+            raise
         except GeoCorrosionError as err:
             raise click.ClickException(str(err)) from err
         except KeyboardInterrupt:
@@ -148,7 +150,13 @@ def run(site: Path, out: Path | None, overwrite: bool, quiet: bool) -> None:
 @run_dir_arg
 @errors_handler
 def quantities(run_dir: Path) -> None:
-    """Reprint the bid schedule of an existing run (no recomputation)."""
+    """Reprint the bid schedule of an existing run (no recomputation).
+
+    RUN_DIR is a run's output folder, or a site folder whose run went to its default
+    output folder (SITE/out).
+    """
+    if not (run_dir / "run.json").is_file() and (run_dir / "site.toml").is_file():
+        run_dir = run_dir / "out"
     man = run_dir / "run.json"
     if not man.is_file():
         raise click.ClickException(f"{run_dir} holds no run.json; is it the output of `geo-corrosion run`?")

@@ -2,6 +2,9 @@
 
 from __future__ import annotations
 
+import math
+from collections.abc import Collection, Mapping
+from pathlib import Path
 from typing import TYPE_CHECKING, Any, ClassVar
 
 import numpy as np
@@ -15,7 +18,7 @@ from geo_corrosion.corrections import (
     electrode,
     electrode_offset_mv,
 )
-from geo_corrosion.errors import SiteFileError
+from geo_corrosion.errors import ConditionError, IngestError, SiteFileError
 from geo_corrosion.measurements.base import MeasurementKind
 
 if TYPE_CHECKING:
@@ -110,6 +113,153 @@ class Resistivity(MeasurementKind):
     krige_transform: ClassVar[str | None] = "log"
     contour_interval: ClassVar[float] = 10.0
     class_set: ClassVar[str | None] = "rilem_resistivity"
+    raw_columns: ClassVar[tuple[str, ...]] = ("voltage_v", "current_a")
+    option_keys: ClassVar[tuple[str, ...]] = (
+        "probe_spacing", "element_thickness", "edge_distance", "max_aggregate", "class_set",
+    )
+
+    def parse_options(
+        self, options: Mapping[str, Any], *, where: str, root: Path
+    ) -> dict[str, Any]:
+        """Wenner geometry (lengths with units, held in mm) and the class set.
+
+        Raises
+        ------
+        SiteFileError
+            Unknown key, bad length, a geometry length without ``probe_spacing``,
+            or an unknown or laboratory class set (refused for field readings).
+        """
+        from geo_corrosion.condition.classes import get_class_set
+        from geo_corrosion.config import OptionsTable
+
+        t = OptionsTable(dict(options), where, self.option_keys)
+        out: dict[str, Any] = {}
+        for key in ("probe_spacing", "element_thickness", "edge_distance", "max_aggregate"):
+            v = t.length_mm(key)
+            if v is not None:
+                out[f"{key}_mm"] = v
+        needs_a = [k for k in ("element_thickness", "edge_distance", "max_aggregate") if t.has(k)]
+        if needs_a and "probe_spacing_mm" not in out:
+            raise SiteFileError(
+                f"{where}: {', '.join(needs_a)} given without probe_spacing; the Wenner geometry "
+                "check and the thickness correction need the probe spacing a, e.g. "
+                "probe_spacing = \"50 mm\""
+            )
+        if t.has("class_set"):
+            try:
+                cs = get_class_set(t.str("class_set"), field=True)
+            except ConditionError as err:
+                raise SiteFileError(f"{t.key('class_set')}: {err}") from err
+            if cs.variable != self.value_column:
+                raise SiteFileError(
+                    f"{t.key('class_set')}: class set {cs.name!r} classifies {cs.variable}, not "
+                    f"{self.value_column}; use 'rilem_resistivity' or 'langford_broomfield'"
+                )
+            out["class_set"] = cs.name
+        return out
+
+    def can_derive(self, columns: Collection[str], survey: SurveyConfig) -> bool:
+        """Raw Wenner readings need ``voltage_v`` and ``current_a`` (and the probe spacing)."""
+        return {"voltage_v", "current_a"} <= set(columns)
+
+    def derive(
+        self, frame: pd.DataFrame, survey: SurveyConfig, params: RunParams
+    ) -> tuple[pd.DataFrame, list[dict[str, Any]]]:
+        """Wenner ``rho = 2 pi a V / I`` for raw readings, geometry check, thickness correction.
+
+        Adds ``wenner_spacing_cm``, ``apparent_resistivity_kohm_cm``,
+        ``thickness_factor`` and ``derive_message``.  A reading with a zero,
+        negative or missing current or voltage gets NaN and a message.
+
+        Raises
+        ------
+        SiteFileError
+            Raw readings without ``probe_spacing`` in ``[surveys.options]``.
+        """
+        from geo_corrosion.condition.resistivity import (
+            check_wenner_geometry,
+            correct_for_thickness,
+            thickness_factor,
+            wenner_resistivity_kohm_cm,
+        )
+
+        opts = survey.options
+        records: list[dict[str, Any]] = []
+        raw = _raw_mask(frame)
+        n = len(frame)
+        msgs = np.full(n, "", dtype=object)
+        a_mm = opts.get("probe_spacing_mm")
+        if raw.any() and a_mm is None:
+            raise SiteFileError(
+                f"{survey.where}: {survey.path.name} gives raw voltage_v and current_a but the "
+                "probe spacing is unknown; add probe_spacing = \"50 mm\" (say) under "
+                "[surveys.options]"
+            )
+        apparent = frame[self.value_column].to_numpy(float).copy()
+        if raw.any():
+            assert a_mm is not None
+            volt = _col(frame, "voltage_v")
+            cur = _col(frame, "current_a")
+            for i in np.flatnonzero(raw):
+                v, c = volt[i], cur[i]
+                problem = ""
+                if not np.isfinite(v) or not np.isfinite(c):
+                    problem = "voltage_v or current_a is empty; the reading cannot be used"
+                elif c == 0:
+                    problem = ("current of zero: no current flowed; check the probe contact and "
+                               "wetting, the reading cannot be used")
+                elif c < 0 or v < 0:
+                    problem = (f"negative {'current' if c < 0 else 'voltage'} ({c:g} A, {v:g} V); "
+                               "give magnitudes in A and V (check lead polarity)")
+                if problem:
+                    msgs[i] = f"{_loc(frame, i)}: {problem}"
+                    apparent[i] = np.nan
+                    continue
+                try:
+                    apparent[i] = float(wenner_resistivity_kohm_cm(a_mm / 10.0, v, c))
+                except ConditionError as err:
+                    msgs[i] = f"{_loc(frame, i)}: {err}"
+                    apparent[i] = np.nan
+            records.append({
+                "correction": "Wenner resistivity from raw voltage and current",
+                "formula": "rho = 2 pi a V / I",
+                "spacing_cm": a_mm / 10.0,
+                "readings": int(raw.sum()),
+                "readings_not_derived": int(sum(1 for i in np.flatnonzero(raw) if msgs[i])),
+                "source": "REFERENCE.md §2.1 (RES-01)",
+            })
+        frame["wenner_spacing_cm"] = np.nan if a_mm is None else a_mm / 10.0
+        frame["apparent_resistivity_kohm_cm"] = apparent
+        h_mm = opts.get("element_thickness_mm")
+        if a_mm is not None:
+            for text in check_wenner_geometry(
+                a_mm, thickness_mm=h_mm, edge_distance_mm=opts.get("edge_distance_mm"),
+                max_aggregate_mm=opts.get("max_aggregate_mm"),
+            ):
+                records.append({
+                    "correction": "Wenner geometry check",
+                    "warning": text,
+                    "source": "REFERENCE.md §2.2 (Gowers & Millard 1999; Polder; from memory)",
+                })
+        if h_mm is not None and a_mm is not None:
+            f = float(thickness_factor(h_mm / a_mm))
+            frame["thickness_factor"] = f
+            frame[self.value_column] = correct_for_thickness(apparent, h_mm, a_mm)
+            records.append({
+                "correction": "finite-thickness correction rho_true = rho_apparent / F(h/a)",
+                "thickness_mm": h_mm,
+                "spacing_mm": a_mm,
+                "thickness_factor": f,
+                "source": "REFERENCE.md §2.2, method of images (RES-04)",
+            })
+        else:
+            frame["thickness_factor"] = 1.0
+            frame[self.value_column] = apparent
+        if "class_set" in opts:
+            records.append({"correction": "class set", "class_set": opts["class_set"],
+                            "source": "[surveys.options] class_set"})
+        frame["derive_message"] = msgs
+        return frame, records
 
     def correct(
         self, frame: pd.DataFrame, survey: SurveyConfig, params: RunParams

@@ -191,3 +191,9 @@ def test_init_writes_template_that_parses(tmp_path: Path) -> None:
     assert data["site"]["crs"] == "EPSG:26918"
     res = CliRunner().invoke(cli, ["init", str(tmp_path / "new")])
     assert res.exit_code != 0 and "already exists" in res.output
+
+
+def test_quantities_without_a_run_says_so(tmp_path: Path) -> None:
+    res = CliRunner().invoke(cli, ["quantities", str(tmp_path)])
+    assert res.exit_code == 1 and "holds no run.json" in res.output
+    assert "internal error" not in res.output
