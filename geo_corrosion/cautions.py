@@ -17,13 +17,18 @@ CAUTIONS: tuple[str, ...] = (
     "coated or sealed surfaces, with epoxy-coated or galvanized bars, and in cathodically "
     "protected or stray-current areas (after ASTM C876 §1.2, §4.2).",
     "Resistivity and corrosion-rate classes are indicative; they depend on cement type and "
-    "temperature and do not measure chloride contamination.",
+    "temperature and do not measure chloride contamination. Laboratory permeability classes "
+    "(AASHTO T 358) do not apply to field readings.",
     "Repair areas and quantities are estimates for bidding. Final removal limits are set in the "
     "field by sounding, during and after removal, under the engineer's direction.",
     "Never saw-cut or chip into prestressing or post-tensioning tendons, and do not cut "
     "reinforcement: locate tendons and bars first; saw cuts must not be deeper than the steel.",
     "Evaluate the need for temporary shoring before removal; overhead spalls are a falling-debris "
     "hazard over occupied areas.",
+    "Bars with more than 25 % section loss (or adjacent bars with more than 20 %) need an "
+    "engineering decision on replacement or supplementing.",
+    "Do not sound frozen concrete (ASTM D4580); keep traffic control in place on active decks; "
+    "follow electrical safety when drilling to connect to the reinforcement.",
     "Local building codes and the owner's or agency's specifications govern over anything shown "
     "here.",
 )

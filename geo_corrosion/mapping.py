@@ -64,8 +64,9 @@ class KindSurface:
     grid : GridSpec
         Prediction grid (local grid units).
     mean, variance : ndarray
-        ``(ny, nx)``, NaN outside the mask; mean in the kind's canonical unit,
-        variance of the kriged variable (log space for lognormal kinds).
+        ``(ny, nx)``, NaN outside the mask; mean in the kind's canonical unit and
+        variance in its square (lognormal kinds are kriged in log space and both are
+        back-transformed; see :func:`geo_corrosion.surfaces.kriging.back_transform`).
     fit : VariogramFit
     cv : dict
         Cross-validation statistics.

@@ -50,6 +50,22 @@ MIN_READINGS_FOR_SURFACE = 30
 DEFAULT_EXPORTERS = ("geopackage", "geotiff", "quantities", "drawings", "plots", "webmap")
 
 
+def check_parameters(cfg: SiteConfig) -> None:
+    """Refuse run parameters that the standards do not allow, before any work.
+
+    Raises
+    ------
+    KrigingError
+        A potential contour interval above 100 mV (ASTM C876 maximum, from memory).
+    """
+    from geo_corrosion.surfaces import check_contour_interval
+
+    try:
+        check_contour_interval(cfg.run.contour_interval_mv, "potential")
+    except KrigingError as err:
+        raise KrigingError(f"{cfg.path}: [run].contour_interval_mv: {err}") from err
+
+
 def check_site(site: Site) -> pd.DataFrame:
     """QA of every survey and, across surveys, of every level and kind.
 
@@ -332,6 +348,7 @@ def run(
     if out.exists() and not overwrite:
         raise ExportError(f"{out} already exists; choose another --out or pass --overwrite")
     cfg = site if isinstance(site, SiteConfig) else read_site(site)
+    check_parameters(cfg)
     if out == cfg.root or cfg.root.is_relative_to(out):
         raise ExportError(f"{out}: the output folder cannot be the site folder or hold it")
     s = open_site(cfg, progress=progress)

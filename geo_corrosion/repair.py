@@ -443,6 +443,55 @@ def _panels(slab: Polygon, joints: Sequence[LineString], tol: float) -> list[Pol
 class _Shape:
     geom: BaseGeometry
     ids: frozenset[int]
+    own: BaseGeometry | None = None  # union of the member rectangles, before any merge
+
+    def base(self) -> BaseGeometry:
+        return self.geom if self.own is None else self.own
+
+
+def _pair_rectangles(shapes: list[_Shape], gap: float, max_extra: float, tol: float
+                     ) -> list[_Shape]:
+    """Greedily merge the pair that costs least into its bounding rectangle.
+
+    A pair qualifies when closer than ``gap`` and its bounding rectangle exceeds
+    the union of the pair's own rectangles by at most ``max_extra``.
+    """
+    while len(shapes) > 1:
+        tree = shapely.STRtree([s.geom for s in shapes])
+        best: tuple[float, int, int] | None = None
+        for i, s in enumerate(shapes):
+            for j in tree.query(s.geom, predicate="dwithin", distance=gap - tol):
+                j = int(j)
+                if j <= i:
+                    continue
+                own = shapely.union_all([s.base(), shapes[j].base()]).area
+                rect = box(*shapely.union_all([s.geom, shapes[j].geom]).bounds).area
+                extra = rect / own - 1.0 if own > 0 else math.inf
+                if extra <= max_extra + 1e-12 and (best is None or extra < best[0]):
+                    best = (extra, i, j)
+        if best is None:
+            break
+        _, i, j = best
+        a, b = shapes[i], shapes[j]
+        merged = _Shape(box(*shapely.union_all([a.geom, b.geom]).bounds), a.ids | b.ids,
+                        shapely.union_all([a.base(), b.base()]))
+        shapes = [x for k, x in enumerate(shapes) if k not in (i, j)] + [merged]
+    return shapes
+
+
+def _fill_holes(geom: BaseGeometry, max_extra: float, strip: float) -> BaseGeometry:
+    """Fill sound islands inside a repair: small ones (by ``max_extra``) and narrow ones."""
+    out = []
+    for p in polygon_parts(geom):
+        keep = []
+        for ring in p.interiors:
+            hole = Polygon(ring)
+            hx0, hy0, hx1, hy1 = hole.bounds
+            if hole.area > max_extra * Polygon(p.exterior).area and min(hx1 - hx0,
+                                                                        hy1 - hy0) >= strip:
+                keep.append(ring)
+        out.append(Polygon(p.exterior, keep))
+    return shapely.union_all(out) if out else geom
 
 
 def _find(parent: list[int], i: int) -> int:
@@ -456,6 +505,7 @@ def _find(parent: list[int], i: int) -> int:
 def _merge(shapes: list[_Shape], gap: float, max_extra: float, strip: float, tol: float
            ) -> list[_Shape]:
     """Merge shapes closer than ``gap`` (iterated until stable)."""
+    shapes = _pair_rectangles(shapes, gap, max_extra, tol)
     refused: set[frozenset[frozenset[int]]] = set()
     while True:
         n = len(shapes)
@@ -479,13 +529,14 @@ def _merge(shapes: list[_Shape], gap: float, max_extra: float, strip: float, tol
                 continue
             ms = [shapes[i] for i in members]
             union = shapely.union_all([m.geom for m in ms])
+            own = shapely.union_all([m.base() for m in ms])
             ids = frozenset().union(*(m.ids for m in ms))
             rect = box(*union.bounds)
-            if rect.area <= union.area * (1 + max_extra) + tol:
-                new.append(_Shape(rect, ids))
+            if rect.area <= own.area * (1 + max_extra) + tol:
+                new.append(_Shape(rect, ids, own))
                 changed = True
                 continue
-            closed = _square_off(_close(union, gap), strip, tol)
+            closed = _square_off(_fill_holes(_close(union, gap), max_extra, strip), strip, tol)
             pieces = polygon_parts(closed)
             if len(pieces) == len(ms):  # nothing bridged: never try this group again
                 for a in range(len(ms)):
@@ -495,8 +546,9 @@ def _merge(shapes: list[_Shape], gap: float, max_extra: float, strip: float, tol
                 continue
             changed = True
             for pc in pieces:
-                pids = frozenset().union(*(m.ids for m in ms if m.geom.intersects(pc)))
-                new.append(_Shape(pc, pids))
+                inside = [m for m in ms if m.geom.intersects(pc)]
+                new.append(_Shape(pc, frozenset().union(*(m.ids for m in inside)),
+                                  shapely.union_all([m.base() for m in inside])))
         shapes = new
         if not changed and all(len(g) == 1 for g in groups.values()):
             return shapes

@@ -102,10 +102,13 @@ def check(site: Path, quiet: bool, max_rows: int) -> None:
     Exits 0 when the site can be run, 1 when it cannot.
     """
     from geo_corrosion import qa
-    from geo_corrosion.pipeline import check_site
+    from geo_corrosion.config import read_site
+    from geo_corrosion.pipeline import check_parameters, check_site
     from geo_corrosion.site import open_site
 
-    s = open_site(site, progress=_progress(quiet))
+    cfg = read_site(site)
+    check_parameters(cfg)
+    s = open_site(cfg, progress=_progress(quiet))
     flags = check_site(s)
     for lv in s.levels.values():
         g = lv.grid

@@ -71,8 +71,7 @@ def level_layers(lr: LevelResult, crs: Any) -> dict[str, gpd.GeoDataFrame]:
         from shapely import points
 
         out[f"cv_residuals_{name}"] = to_site_frame(
-            [{"reading_id": r, "residual": v, "unit": unit if s.kind.krige_transform is None
-              else "log", "geometry": g}
+            [{"reading_id": r, "residual": v, "unit": unit, "geometry": g}
              for r, v, g in zip(res["reading_id"], res["residual"],
                                 points(np.column_stack([res["x_local"], res["y_local"]])),
                                 strict=True)], lr, crs)

@@ -51,8 +51,8 @@ class GeoTiffExporter(Exporter):
                 paths.append(write_geotiff(rdir / f"{lid}_{name}.tif", {col: s.mean},
                                            transform=tr, crs=result.site.crs,
                                            units={col: s.kind.canonical_unit}, tags=tags))
-                vunit = (f"({s.kind.canonical_unit})^2" if s.kind.krige_transform is None
-                         else "(log units)^2")
+                # lognormal kinds are back-transformed: mean and variance in value units
+                vunit = f"({s.kind.canonical_unit})^2"
                 paths.append(write_geotiff(rdir / f"{lid}_{name}_variance.tif",
                                            {"kriging_variance": s.variance}, transform=tr,
                                            crs=result.site.crs,

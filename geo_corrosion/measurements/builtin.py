@@ -301,6 +301,134 @@ class CorrosionRate(MeasurementKind):
     krige_transform: ClassVar[str | None] = "log"
     contour_interval: ClassVar[float] = 0.5
     class_set: ClassVar[str | None] = "rilem_rate"
+    raw_columns: ClassVar[tuple[str, ...]] = (
+        "rp_ohm", "r_ohm_ohm", "delta_e_mv", "delta_i_ua", "area_cm2", "b_mv",
+        "tafel_anodic_mv_dec", "tafel_cathodic_mv_dec",
+    )
+    option_keys: ClassVar[tuple[str, ...]] = (
+        "b_mv", "tafel_anodic_mv_dec", "tafel_cathodic_mv_dec", "polarized_area_cm2",
+        "bar_diameter", "confinement_length", "transients", "strict_linearity",
+    )
+
+    def parse_options(
+        self, options: Mapping[str, Any], *, where: str, root: Path
+    ) -> dict[str, Any]:
+        """Stern-Geary B, polarized area, transient file and linearity mode of a survey.
+
+        Returns keys ``b_mv`` and ``b_source``, ``polarized_area_cm2`` and
+        ``area_source``, ``transients_path`` (absolute) and ``strict_linearity``,
+        each only when given.
+
+        Raises
+        ------
+        SiteFileError
+            Unknown key; B given twice or not positive; one Tafel slope without
+            the other or slopes out of range; area given twice or not positive.
+        """
+        from geo_corrosion.condition.corrosion_rate import (
+            polarized_area_cm2,
+            resolve_b_mv,
+            stern_geary_b_mv,
+        )
+        from geo_corrosion.config import OptionsTable
+
+        t = OptionsTable(dict(options), where, self.option_keys)
+        out: dict[str, Any] = {}
+        tafel = [t.has("tafel_anodic_mv_dec"), t.has("tafel_cathodic_mv_dec")]
+        if t.has("b_mv") and any(tafel):
+            raise SiteFileError(f"{where}: give b_mv or the Tafel slopes, not both")
+        if t.has("b_mv"):
+            b = t.data["b_mv"]
+            if isinstance(b, bool) or not isinstance(b, int | float | str):
+                raise SiteFileError(f"{t.key('b_mv')}: expected a number in mV or \"active\" / "
+                                    f"\"passive\", got {b!r}")
+            try:
+                out["b_mv"] = float(resolve_b_mv([b])[0])
+            except ConditionError as err:
+                raise SiteFileError(f"{t.key('b_mv')}: {err}") from err
+            out["b_source"] = f"[surveys.options] b_mv = {b!r}"
+        elif any(tafel):
+            if not all(tafel):
+                raise SiteFileError(
+                    f"{where}: give both tafel_anodic_mv_dec and tafel_cathodic_mv_dec "
+                    "(inf for a passive branch), or b_mv"
+                )
+            ba, bc = t.num("tafel_anodic_mv_dec"), t.num("tafel_cathodic_mv_dec")
+            try:
+                out["b_mv"] = float(stern_geary_b_mv(ba, bc))
+            except ConditionError as err:
+                raise SiteFileError(f"{where}: {err}") from err
+            out["b_source"] = (f"Stern-Geary from Tafel slopes {ba:g} / {bc:g} mV/decade "
+                               "(REFERENCE.md §3.1)")
+        geometric = [t.has("bar_diameter"), t.has("confinement_length")]
+        if t.has("polarized_area_cm2") and any(geometric):
+            raise SiteFileError(
+                f"{where}: give polarized_area_cm2 or bar_diameter with confinement_length, not both"
+            )
+        if t.has("polarized_area_cm2"):
+            out["polarized_area_cm2"] = t.num("polarized_area_cm2", positive=True)
+            out["area_source"] = "[surveys.options] polarized_area_cm2"
+        elif any(geometric):
+            if not all(geometric):
+                raise SiteFileError(
+                    f"{where}: the polarized area A = pi d L needs both bar_diameter and "
+                    "confinement_length (e.g. \"16 mm\" and \"105 mm\")"
+                )
+            d, length = t.length_mm("bar_diameter"), t.length_mm("confinement_length")
+            assert d is not None and length is not None
+            out["polarized_area_cm2"] = float(polarized_area_cm2(d, length))
+            out["area_source"] = (f"pi x bar diameter {d:g} mm x confined length {length:g} mm "
+                                  "(REFERENCE.md CR-04)")
+        if t.has("transients"):
+            out["transients_path"] = (root / t.str("transients")).resolve()
+        if t.has("strict_linearity"):
+            out["strict_linearity"] = t.flag("strict_linearity")
+        return out
+
+    def can_derive(self, columns: Collection[str], survey: SurveyConfig) -> bool:
+        """R_p from ``rp_ohm``, from ``delta_e_mv`` and ``delta_i_ua``, or from transients."""
+        cols = set(columns)
+        return ("rp_ohm" in cols or {"delta_e_mv", "delta_i_ua"} <= cols
+                or "transients_path" in survey.options)
+
+    def derive(
+        self, frame: pd.DataFrame, survey: SurveyConfig, params: RunParams
+    ) -> tuple[pd.DataFrame, list[dict[str, Any]]]:
+        """Stern-Geary ``i_corr = B / (R_p A)`` for raw readings; Faraday and RILEM level for all.
+
+        Per reading, B comes from its ``b_mv`` column, else its Tafel slope
+        columns, else the survey option; the area from ``area_cm2``, else the
+        option; R_p from a fitted transient (``location_id`` = ``point_id``),
+        else ``delta_e_mv / delta_i_ua - r_ohm_ohm``, else ``rp_ohm - r_ohm_ohm``
+        (``r_ohm_ohm`` optional).  Problems give NaN and ``derive_message``;
+        non-fatal warnings (linearity, short pulse) go to ``derive_warning``.
+
+        Raises
+        ------
+        IngestError
+            The transient file is missing or lacks its columns.
+        """
+        from geo_corrosion.condition.classes import get_class_set
+        from geo_corrosion.condition.corrosion_rate import faraday_um_per_year
+
+        records: list[dict[str, Any]] = []
+        raw = _raw_mask(frame)
+        n = len(frame)
+        msgs = np.full(n, "", dtype=object)
+        warns = np.full(n, "", dtype=object)
+        if raw.any():
+            records += _derive_rate(frame, survey, raw, msgs, warns)
+        elif "transients_path" in survey.options:
+            records.append({
+                "correction": "transients not used",
+                "reason": f"{survey.path.name} has a value column; its values are used as given",
+            })
+        value = frame[self.value_column].to_numpy(float)
+        frame["penetration_um_yr"] = faraday_um_per_year(value)
+        frame["rate_level"] = get_class_set(self.class_set or "rilem_rate").classify(value)
+        frame["derive_message"] = msgs
+        frame["derive_warning"] = warns
+        return frame, records
 
 
 class CoverDepth(MeasurementKind):
@@ -313,3 +441,210 @@ class CoverDepth(MeasurementKind):
     accepted_units: ClassVar[tuple[str, ...]] = ("mm", "cm", "in")
     plausible_range: ClassVar[tuple[float, float]] = (3.0, 200.0)  # common practice, no source
     contour_interval: ClassVar[float] = 10.0
+
+
+# --------------------------------------------------------------------------- raw-reading helpers
+
+
+def _raw_mask(frame: pd.DataFrame) -> np.ndarray:
+    """Readings whose value is to be derived from raw instrument columns."""
+    if "value_source" not in frame:
+        return np.zeros(len(frame), dtype=bool)
+    return frame["value_source"].to_numpy(object) == "raw"
+
+
+def _col(frame: pd.DataFrame, name: str) -> np.ndarray:
+    """A numeric column as float, all NaN when absent."""
+    if name not in frame:
+        return np.full(len(frame), np.nan)
+    return pd.to_numeric(frame[name], errors="coerce").to_numpy(float)
+
+
+def _loc(frame: pd.DataFrame, i: int) -> str:
+    """The location of reading ``i`` for messages: ``where`` and point id."""
+    where = str(frame["where"].iat[i]) if "where" in frame else f"reading {i + 1}"
+    pid = str(frame["point_id"].iat[i]) if "point_id" in frame else ""
+    return f"{where} (point {pid})" if pid else where
+
+
+def _b_and_area(
+    frame: pd.DataFrame, survey: SurveyConfig, raw: np.ndarray, msgs: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """Per reading Stern-Geary B (mV) and polarized area (cm2); NaN where unknown."""
+    from geo_corrosion.condition.corrosion_rate import stern_geary_b_mv
+
+    opts = survey.options
+    n = len(frame)
+    b = np.full(n, float(opts.get("b_mv", np.nan)))
+    area = np.full(n, float(opts.get("polarized_area_cm2", np.nan)))
+    b_col, a_col = _col(frame, "b_mv"), _col(frame, "area_cm2")
+    ta, tc = _col(frame, "tafel_anodic_mv_dec"), _col(frame, "tafel_cathodic_mv_dec")
+    for i in np.flatnonzero(raw):
+        problems = []
+        if np.isfinite(b_col[i]):
+            b[i] = b_col[i] if b_col[i] > 0 else np.nan
+            if not b_col[i] > 0:
+                problems.append(f"Stern-Geary B of {b_col[i]:g} mV is not positive")
+        elif np.isfinite(ta[i]) or np.isfinite(tc[i]):
+            try:
+                b[i] = float(stern_geary_b_mv(ta[i], tc[i]))
+            except ConditionError as err:
+                b[i] = np.nan
+                problems.append(f"Tafel slopes {ta[i]:g} / {tc[i]:g} mV/decade: {err}")
+        if np.isfinite(a_col[i]):
+            area[i] = a_col[i] if a_col[i] > 0 else np.nan
+            if not a_col[i] > 0:
+                problems.append(f"polarized area of {a_col[i]:g} cm2 is not positive")
+        if problems:
+            msgs[i] = f"{_loc(frame, i)}: " + "; ".join(problems)
+    return b, area
+
+
+def _fit_survey_transients(
+    frame: pd.DataFrame, survey: SurveyConfig, raw: np.ndarray, b: np.ndarray, area: np.ndarray
+) -> tuple[dict[str, dict[str, Any]], dict[str, Any]]:
+    """Fit the survey's transient file; results by location id, and a record."""
+    from geo_corrosion.condition.transient import fit_transients, read_transients_csv
+
+    path: Path = survey.options["transients_path"]
+    if not path.is_file():
+        raise IngestError(f"{survey.where}.options.transients: transient file not found: {path}")
+    tr = read_transients_csv(path)
+    tr["location_id"] = tr["location_id"].astype(str).str.strip()
+    pids = frame["point_id"].astype(str).to_numpy(object)
+    wanted = {str(pids[i]) for i in np.flatnonzero(raw)} & set(tr["location_id"])
+    locs = pd.DataFrame({
+        "location_id": [str(pids[i]) for i in np.flatnonzero(raw) if pids[i] in wanted],
+        "area_cm2": [area[i] for i in np.flatnonzero(raw) if pids[i] in wanted],
+        "b_mv": [b[i] for i in np.flatnonzero(raw) if pids[i] in wanted],
+    }).drop_duplicates("location_id", keep="first")
+    strict = bool(survey.options.get("strict_linearity", False))
+    fits = fit_transients(tr[tr["location_id"].isin(wanted)], locations=locs, strict=strict)
+    by_loc = {str(r["location_id"]): r for r in fits.to_dict("records")}
+    record = {
+        "correction": "R_p from galvanostatic pulse transients (Randles fit)",
+        "file": path.name,
+        "locations_fitted": int((fits["flag"] != "error").sum()),
+        "locations_failed": int((fits["flag"] == "error").sum()),
+        "locations_in_file_not_in_survey": int(len(set(tr["location_id"]) - wanted)),
+        "linear_limit_mv": 20.0 if strict else 30.0,
+        "source": "REFERENCE.md §3.6 (Newton & Sykes 1988; RILEM TC 154 2004; from memory), CR-13",
+    }
+    return by_loc, record
+
+
+def _derive_rate(
+    frame: pd.DataFrame, survey: SurveyConfig, raw: np.ndarray, msgs: np.ndarray,
+    warns: np.ndarray,
+) -> list[dict[str, Any]]:
+    """Fill ``icorr_ua_cm2`` and the raw-value columns of the raw readings of ``frame``."""
+    from geo_corrosion.condition.corrosion_rate import (
+        check_linearity,
+        icorr_ua_cm2,
+        ohmic_corrected_rp_ohm,
+    )
+
+    n = len(frame)
+    b, area = _b_and_area(frame, survey, raw, msgs)
+    records: list[dict[str, Any]] = []
+    fits: dict[str, dict[str, Any]] = {}
+    if "transients_path" in survey.options:
+        fits, rec = _fit_survey_transients(frame, survey, raw, b, area)
+        records.append(rec)
+    rp_in, r_ohm_in = _col(frame, "rp_ohm"), _col(frame, "r_ohm_ohm")
+    de, di = _col(frame, "delta_e_mv"), _col(frame, "delta_i_ua")
+    rp = np.full(n, np.nan)
+    r_ohm = r_ohm_in.copy()
+    cdl = np.full(n, np.nan)
+    rms = np.full(n, np.nan)
+    source = np.full(n, "", dtype=object)
+    icorr = frame[CorrosionRate.value_column].to_numpy(float).copy()
+    pids = frame["point_id"].astype(str).to_numpy(object)
+    for i in np.flatnonzero(raw):
+        problems = [msgs[i].split(": ", 1)[1]] if msgs[i] else []
+        notes: list[str] = []
+        ro = r_ohm_in[i] if np.isfinite(r_ohm_in[i]) else 0.0
+        try:
+            if pids[i] in fits:
+                fit = fits[pids[i]]
+                source[i] = "transient"
+                if fit["flag"] == "error":
+                    raise ConditionError(f"transient not fitted: {fit['message']}")
+                rp[i], r_ohm[i], cdl[i], rms[i] = (fit["rp_ohm"], fit["r_ohm_ohm"], fit["cdl_uf"],
+                                                   fit["residual_rms_mv"])
+                b[i], area[i] = fit["b_mv"], fit["area_cm2"]
+                if fit["message"]:
+                    notes.append(str(fit["message"]))
+            elif np.isfinite(de[i]) and np.isfinite(di[i]):
+                source[i] = "delta_e/delta_i"
+                if di[i] == 0:
+                    raise ConditionError("current step delta_i_ua of zero: no polarization applied")
+                rp[i] = float(ohmic_corrected_rp_ohm(de[i], di[i], ro))
+                lin = check_linearity(float(de[i]))
+                if lin:
+                    notes.append(lin)
+            elif np.isfinite(rp_in[i]):
+                source[i] = "rp_ohm"
+                if not rp_in[i] > 0:
+                    raise ConditionError(
+                        f"polarization resistance rp_ohm = {rp_in[i]:g} ohm is not positive: a bad "
+                        "connection or a sign error; repeat the measurement"
+                    )
+                # R_p = dE/dI - R_ohm with dE/dI given directly in ohm (1000 mV / 1000 uA)
+                rp[i] = (float(ohmic_corrected_rp_ohm(rp_in[i], 1000.0, ro))
+                         if np.isfinite(r_ohm_in[i]) else rp_in[i])
+            else:
+                where_tr = (f", nor a transient for it in {survey.options['transients_path'].name}"
+                            if "transients_path" in survey.options else "")
+                raise ConditionError(
+                    "no polarization resistance: the reading has no rp_ohm, no delta_e_mv and "
+                    f"delta_i_ua{where_tr}"
+                )
+        except ConditionError as err:
+            problems.append(str(err))
+        if not np.isfinite(area[i]) and not any("area" in p for p in problems):
+            problems.append(
+                "no polarized area: give an area_cm2 column, or polarized_area_cm2 or bar_diameter "
+                "with confinement_length under [surveys.options]; i_corr is never computed "
+                "without it (REFERENCE.md §3.4)"
+            )
+        if not np.isfinite(b[i]) and not any("B " in p or "Tafel" in p for p in problems):
+            problems.append(
+                "no Stern-Geary B: give a b_mv column or b_mv (26 active, 52 passive) or Tafel "
+                "slopes under [surveys.options]"
+            )
+        if not problems:
+            try:
+                icorr[i] = float(icorr_ua_cm2(rp[i], area[i], b[i]))
+            except ConditionError as err:
+                problems.append(str(err))
+        if problems:
+            icorr[i] = np.nan
+            msgs[i] = f"{_loc(frame, i)}: " + "; ".join(problems)
+        else:
+            msgs[i] = ""
+        if notes:
+            warns[i] = f"{_loc(frame, i)}: " + "; ".join(notes)
+    if np.isfinite(r_ohm_in[raw]).any() and "rp_ohm" in frame:
+        frame["rp_measured_ohm"] = rp_in
+    frame[CorrosionRate.value_column] = icorr
+    frame["b_mv"] = np.where(raw, b, np.nan)
+    frame["rp_ohm"] = rp
+    frame["polarized_area_cm2"] = np.where(raw, area, np.nan)
+    frame["r_ohm_ohm"] = r_ohm
+    frame["cdl_uf"] = cdl
+    frame["fit_rms_mv"] = rms
+    frame["rp_source"] = source
+    opts = survey.options
+    records.insert(0, {
+        "correction": "corrosion rate from polarization resistance (Stern-Geary)",
+        "formula": "i_corr = B / (R_p A), R_p = dE/dI - R_ohm",
+        "readings": int(raw.sum()),
+        "readings_not_derived": int(sum(1 for i in np.flatnonzero(raw) if msgs[i])),
+        "b_mv": opts.get("b_mv"),
+        "b_source": opts.get("b_source", "per reading"),
+        "polarized_area_cm2": opts.get("polarized_area_cm2"),
+        "area_source": opts.get("area_source", "per reading"),
+        "source": "REFERENCE.md §3.1 (CR-02, CR-09), RILEM TC 154 (2004)",
+    })
+    return records

@@ -197,3 +197,9 @@ def test_quantities_without_a_run_says_so(tmp_path: Path) -> None:
     res = CliRunner().invoke(cli, ["quantities", str(tmp_path)])
     assert res.exit_code == 1 and "holds no run.json" in res.output
     assert "internal error" not in res.output
+
+
+def test_contour_interval_over_100_mv_refused(site_dir: Path) -> None:
+    # ASTM C876 maximum contour interval 0.10 V (REFERENCE.md §1.8, from memory)
+    edit(site_dir / "site.toml", '[run]\n', '[run]\ncontour_interval_mv = 150\n')
+    _fails(site_dir, "contour_interval_mv")
