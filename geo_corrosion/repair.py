@@ -15,11 +15,14 @@ built on ICRI 310.1R-2008 and agency specifications]:
    grid axes (rotated by ``axis_angle_deg``);
 4. enforce the minimum repair size, and extend a side to a free slab edge that is
    within the margin of it;
-5. merge rectangles closer than the merge gap: the bounding rectangle of a group
-   if it adds less than ``merge_max_extra`` of area, else their union bridged
-   across the gaps, kept rectilinear with no re-entrant notch or step smaller
-   than ``min_reentrant_mm`` (narrow strips are filled, never cut, so no sounded
-   area is lost);
+5. merge rectangles closer than the merge gap: first, pair by pair (cheapest
+   first), into their bounding rectangle while it adds no more than
+   ``merge_max_extra`` of the members' own rectangle area; then the bounding
+   rectangle of each remaining close group if that is cheap enough, else the
+   group's union bridged across the gaps, kept rectilinear with no re-entrant
+   notch or step smaller than ``min_reentrant_mm`` (narrow strips are filled,
+   never cut, so no sounded area is lost) and with small or narrow sound islands
+   inside it filled;
 6. clip to the panel and subtract exclusions.
 """
 

@@ -71,9 +71,14 @@ def read_survey(cfg: SurveyConfig, level: Level, site: SiteConfig) -> Survey:
 
 
 def correct(survey: Survey, params: RunParams) -> Survey:
-    """Apply the kind's corrections, recording each per reading."""
-    frame, records = survey.kind.correct(survey.frame.copy(), survey.config, params)
-    return Survey(survey.config, survey.kind, frame, tuple(records))
+    """Derive values from raw instrument columns, then apply the kind's corrections.
+
+    Both steps record what they did (``Survey.corrections``); readings whose value
+    could not be derived carry the reason in ``derive_message``.
+    """
+    frame, derived = survey.kind.derive(survey.frame.copy(), survey.config, params)
+    frame, records = survey.kind.correct(frame, survey.config, params)
+    return Survey(survey.config, survey.kind, frame, tuple(derived) + tuple(records))
 
 
 def open_site(path: str | Path | SiteConfig, *, progress: Progress | None = None) -> Site:

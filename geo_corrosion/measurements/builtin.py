@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import math
 from collections.abc import Collection, Mapping
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, ClassVar
@@ -468,36 +467,45 @@ def _loc(frame: pd.DataFrame, i: int) -> str:
 
 
 def _b_and_area(
-    frame: pd.DataFrame, survey: SurveyConfig, raw: np.ndarray, msgs: np.ndarray
-) -> tuple[np.ndarray, np.ndarray]:
-    """Per reading Stern-Geary B (mV) and polarized area (cm2); NaN where unknown."""
+    frame: pd.DataFrame, survey: SurveyConfig, raw: np.ndarray
+) -> tuple[np.ndarray, np.ndarray, list[list[str]]]:
+    """Per reading Stern-Geary B (mV), polarized area (cm2) and problems; NaN where unknown."""
     from geo_corrosion.condition.corrosion_rate import stern_geary_b_mv
 
     opts = survey.options
     n = len(frame)
     b = np.full(n, float(opts.get("b_mv", np.nan)))
     area = np.full(n, float(opts.get("polarized_area_cm2", np.nan)))
+    problems: list[list[str]] = [[] for _ in range(n)]
     b_col, a_col = _col(frame, "b_mv"), _col(frame, "area_cm2")
     ta, tc = _col(frame, "tafel_anodic_mv_dec"), _col(frame, "tafel_cathodic_mv_dec")
     for i in np.flatnonzero(raw):
-        problems = []
         if np.isfinite(b_col[i]):
             b[i] = b_col[i] if b_col[i] > 0 else np.nan
             if not b_col[i] > 0:
-                problems.append(f"Stern-Geary B of {b_col[i]:g} mV is not positive")
+                problems[i].append(f"Stern-Geary B of {b_col[i]:g} mV is not positive")
         elif np.isfinite(ta[i]) or np.isfinite(tc[i]):
             try:
                 b[i] = float(stern_geary_b_mv(ta[i], tc[i]))
             except ConditionError as err:
                 b[i] = np.nan
-                problems.append(f"Tafel slopes {ta[i]:g} / {tc[i]:g} mV/decade: {err}")
+                problems[i].append(f"Tafel slopes {ta[i]:g} / {tc[i]:g} mV/decade: {err}")
+        elif not np.isfinite(b[i]):
+            problems[i].append(
+                "no Stern-Geary B: give a b_mv column, or b_mv (26 active, 52 passive) or Tafel "
+                "slopes under [surveys.options]"
+            )
         if np.isfinite(a_col[i]):
             area[i] = a_col[i] if a_col[i] > 0 else np.nan
             if not a_col[i] > 0:
-                problems.append(f"polarized area of {a_col[i]:g} cm2 is not positive")
-        if problems:
-            msgs[i] = f"{_loc(frame, i)}: " + "; ".join(problems)
-    return b, area
+                problems[i].append(f"polarized area of {a_col[i]:g} cm2 is not positive")
+        elif not np.isfinite(area[i]):
+            problems[i].append(
+                "no polarized area: give an area_cm2 column, or polarized_area_cm2 or "
+                "bar_diameter with confinement_length under [surveys.options]; i_corr is never "
+                "computed without it (REFERENCE.md §3.4)"
+            )
+    return b, area, problems
 
 
 def _fit_survey_transients(
@@ -545,7 +553,7 @@ def _derive_rate(
     )
 
     n = len(frame)
-    b, area = _b_and_area(frame, survey, raw, msgs)
+    b, area, setup_problems = _b_and_area(frame, survey, raw)
     records: list[dict[str, Any]] = []
     fits: dict[str, dict[str, Any]] = {}
     if "transients_path" in survey.options:
@@ -561,7 +569,8 @@ def _derive_rate(
     icorr = frame[CorrosionRate.value_column].to_numpy(float).copy()
     pids = frame["point_id"].astype(str).to_numpy(object)
     for i in np.flatnonzero(raw):
-        problems = [msgs[i].split(": ", 1)[1]] if msgs[i] else []
+        # a transient fit checks B and area itself (they may come from the transient file)
+        problems = [] if pids[i] in fits else list(setup_problems[i])
         notes: list[str] = []
         ro = r_ohm_in[i] if np.isfinite(r_ohm_in[i]) else 0.0
         try:
@@ -602,17 +611,6 @@ def _derive_rate(
                 )
         except ConditionError as err:
             problems.append(str(err))
-        if not np.isfinite(area[i]) and not any("area" in p for p in problems):
-            problems.append(
-                "no polarized area: give an area_cm2 column, or polarized_area_cm2 or bar_diameter "
-                "with confinement_length under [surveys.options]; i_corr is never computed "
-                "without it (REFERENCE.md §3.4)"
-            )
-        if not np.isfinite(b[i]) and not any("B " in p or "Tafel" in p for p in problems):
-            problems.append(
-                "no Stern-Geary B: give a b_mv column or b_mv (26 active, 52 passive) or Tafel "
-                "slopes under [surveys.options]"
-            )
         if not problems:
             try:
                 icorr[i] = float(icorr_ua_cm2(rp[i], area[i], b[i]))
@@ -621,8 +619,6 @@ def _derive_rate(
         if problems:
             icorr[i] = np.nan
             msgs[i] = f"{_loc(frame, i)}: " + "; ".join(problems)
-        else:
-            msgs[i] = ""
         if notes:
             warns[i] = f"{_loc(frame, i)}: " + "; ".join(notes)
     if np.isfinite(r_ohm_in[raw]).any() and "rp_ohm" in frame:
