@@ -28,6 +28,7 @@ import numpy as np
 import pandas as pd
 
 from geo_corrosion import qa
+from geo_corrosion._io import atomic_write
 from geo_corrosion.assessment import assess_level
 from geo_corrosion.cautions import CAUTIONS
 from geo_corrosion.config import SiteConfig, read_site
@@ -310,9 +311,9 @@ def write_outputs(result: RunResult, out_dir: Path, *, exporters: tuple[str, ...
         for p in inst.export(result, out_dir):
             result.files.append(str(Path(p).relative_to(out_dir)))
     result.manifest = manifest(result, t0)
-    tmp = out_dir / (MANIFEST_NAME + ".tmp")
-    tmp.write_text(json.dumps(result.manifest, indent=2, default=_json_default), encoding="utf-8")
-    os.replace(tmp, out_dir / MANIFEST_NAME)
+    text = json.dumps(result.manifest, indent=2, default=_json_default)
+    atomic_write(out_dir / MANIFEST_NAME, lambda tmp: tmp.write_text(text, encoding="utf-8"),
+                 what="run manifest")
 
 
 def run(

@@ -16,7 +16,6 @@ from __future__ import annotations
 
 import math
 import os
-import tempfile
 from collections.abc import Mapping
 from dataclasses import dataclass
 from pathlib import Path
@@ -26,7 +25,8 @@ import geopandas as gpd
 import pandas as pd
 import shapely
 
-from geo_corrosion.errors import ExportError, RepairError
+from geo_corrosion._io import atomic_write
+from geo_corrosion.errors import RepairError
 from geo_corrosion.units import ReportUnits
 
 __all__ = [
@@ -328,22 +328,4 @@ def write_quantities_csv(schedule: pd.DataFrame, path: str | os.PathLike[str]) -
                  else pd.Series(False, index=out.index))
         out["quantity"] = [f"{q:.0f}" if w else f"{q:.2f}"
                            for q, w in zip(out["quantity"], whole, strict=True)]
-    return _atomic_write(path, lambda tmp: out.to_csv(tmp, index=False))
-
-
-def _atomic_write(path: Path, write: object) -> Path:
-    """Call ``write(tmp_path)`` then move the temporary file onto ``path``."""
-    try:
-        path.parent.mkdir(parents=True, exist_ok=True)
-        fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.stem}.",
-                                   suffix=f".tmp{path.suffix}")
-        os.close(fd)
-    except OSError as err:
-        raise ExportError(f"cannot write {path}: {err}") from err
-    try:
-        write(tmp)  # type: ignore[operator]
-        os.replace(tmp, path)
-    except Exception as err:
-        Path(tmp).unlink(missing_ok=True)
-        raise ExportError(f"cannot write {path}: {err}") from err
-    return path
+    return atomic_write(path, lambda tmp: out.to_csv(tmp, index=False), what="quantities CSV")

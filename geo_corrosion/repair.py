@@ -567,7 +567,8 @@ def _resolve_overlaps(shapes: list[_Shape], strip: float, tol: float) -> list[_S
             if hits:
                 j = hits[0]
                 u = _square_off(shapely.union_all([s.geom, shapes[j].geom]), strip, tol)
-                merged = _Shape(u, s.ids | shapes[j].ids)
+                merged = _Shape(u, s.ids | shapes[j].ids,
+                                shapely.union_all([s.base(), shapes[j].base()]))
                 shapes = [x for k, x in enumerate(shapes) if k not in (i, j)] + [merged]
                 break
         else:

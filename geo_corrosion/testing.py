@@ -8,7 +8,6 @@ from __future__ import annotations
 import json
 import math
 from pathlib import Path
-from typing import Any
 
 import numpy as np
 

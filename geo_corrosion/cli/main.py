@@ -5,7 +5,6 @@ from __future__ import annotations
 import functools
 import json
 import sys
-import traceback
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any, TypeVar
@@ -82,9 +81,9 @@ def init(directory: Path) -> None:
     if target.exists():
         raise click.ClickException(f"{target} already exists; not overwritten")
     text = files("geo_corrosion").joinpath("templates/site.toml").read_text(encoding="utf-8")
-    tmp = target.with_suffix(".toml.tmp")
-    tmp.write_text(text, encoding="utf-8")
-    tmp.replace(target)
+    from geo_corrosion._io import atomic_write
+
+    atomic_write(target, lambda tmp: tmp.write_text(text, encoding="utf-8"), what="site file")
     for sub in ("plans", "sounding", "readings"):
         (directory / sub).mkdir(exist_ok=True)
     click.echo(f"wrote {target}; put plans, sounding sketches and readings beside it, then run "

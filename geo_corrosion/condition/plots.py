@@ -15,7 +15,6 @@ mixture threshold (:mod:`geo_corrosion.condition.potential`).
 from __future__ import annotations
 
 import os
-import tempfile
 from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
@@ -30,6 +29,7 @@ from scipy import stats
 
 from geo_corrosion.condition.classes import POTENTIAL_C876, RESISTIVITY_RILEM, ClassSet
 from geo_corrosion.condition.potential import MixtureThreshold, cumulative_frequency
+from geo_corrosion._io import atomic_write
 from geo_corrosion.errors import ConditionError, ExportError
 
 __all__ = [
@@ -60,20 +60,7 @@ def _finish(fig: Figure, path: str | os.PathLike[str], dpi: int) -> Path:
         raise ExportError(f"{out}: figures are written as PNG; give a path ending in .png")
     if not out.parent.is_dir():
         raise ExportError(f"{out}: folder {out.parent} does not exist; create it first")
-    fd, tmp = tempfile.mkstemp(prefix=f".{out.stem}.", suffix=".png.tmp", dir=out.parent)
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fig.savefig(fh, format="png", dpi=dpi)
-        os.chmod(tmp, 0o644)  # mkstemp creates 0600; a report figure is world-readable
-        os.replace(tmp, out)
-    except OSError as err:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise ExportError(f"{out}: cannot write figure ({err})") from err
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
+    atomic_write(out, lambda tmp: fig.savefig(tmp, format="png", dpi=dpi), what="figure")
     return out
 
 

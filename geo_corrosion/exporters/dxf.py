@@ -20,7 +20,7 @@ from shapely.geometry import LineString, Polygon
 from shapely.geometry.base import BaseGeometry
 
 from geo_corrosion.errors import ExportError
-from geo_corrosion.quantities import _atomic_write
+from geo_corrosion._io import atomic_write
 from geo_corrosion.repair import polygon_parts
 from geo_corrosion.units import ReportUnits, report_units
 
@@ -165,4 +165,4 @@ def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
     def save(tmp: Any) -> None:
         doc.saveas(tmp)
 
-    return _atomic_write(Path(path), save)
+    return atomic_write(Path(path), save)

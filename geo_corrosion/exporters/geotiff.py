@@ -11,7 +11,6 @@ from __future__ import annotations
 
 import math
 import os
-import tempfile
 from pathlib import Path
 from typing import Any
 
@@ -21,6 +20,7 @@ import rasterio
 from numpy.typing import NDArray
 from rasterio.enums import Resampling
 
+from geo_corrosion._io import atomic_write
 from geo_corrosion.errors import ExportError
 
 __all__ = ["write_geotiff"]
@@ -129,10 +129,7 @@ def write_geotiff(
         "predictor": 3,
         "BIGTIFF": "IF_SAFER",
     }
-    fd, tmp_name = tempfile.mkstemp(prefix=f".{out.stem}.", suffix=".tif.part", dir=out.parent)
-    os.close(fd)
-    tmp = Path(tmp_name)
-    try:
+    def write(tmp: Path) -> None:
         with rasterio.Env(GDAL_TIFF_INTERNAL_MASK=True):
             with rasterio.open(tmp, "w", **profile) as dst:
                 for i, (name, arr) in enumerate(arrays.items(), start=1):
@@ -146,11 +143,6 @@ def write_geotiff(
                 if factors:
                     dst.build_overviews(factors, Resampling.average)
                     dst.update_tags(ns="rio_overview", resampling="average")
-        os.replace(tmp, out)
-    except ExportError:
-        tmp.unlink(missing_ok=True)
-        raise
-    except Exception as err:
-        tmp.unlink(missing_ok=True)
-        raise ExportError(f"{out}: GeoTIFF could not be written: {err}") from err
+
+    atomic_write(out, write, what="GeoTIFF")
     return out

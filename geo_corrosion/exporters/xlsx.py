@@ -15,7 +15,8 @@ from typing import Any
 
 import pandas as pd
 
-from geo_corrosion.quantities import ALL_LEVELS, _atomic_write, schedule_table
+from geo_corrosion._io import atomic_write
+from geo_corrosion.quantities import ALL_LEVELS, schedule_table
 from geo_corrosion.units import ReportUnits
 
 __all__ = ["SCHEDULE_SHEET", "column_header", "write_schedule_xlsx"]
@@ -160,4 +161,4 @@ def write_schedule_xlsx(path: str | os.PathLike[str], schedule: pd.DataFrame,
         wl.append([])
         wl.append([f"See the cautions on the {SCHEDULE_SHEET} sheet."])
         _widths(wl, 2, max(2, 2 + len(f)))
-    return _atomic_write(Path(path), lambda tmp: wb.save(tmp))
+    return atomic_write(Path(path), lambda tmp: wb.save(tmp))

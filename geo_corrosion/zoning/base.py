@@ -79,7 +79,8 @@ class ZoningRule:
     treatment : str, optional
         Treatment of the zone, for the schedule and drawings.
     bid_item : str or None, optional
-        Bid item code pricing the zone's area; None: not priced by area.
+        Bid item code pricing the zone's area; None: not priced by area; ``""``
+        (the default) keeps the rule's own.
     """
 
     name: str = ""
