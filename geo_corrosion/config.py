@@ -343,7 +343,7 @@ class OptionsTable(_Table):
     """
 
     def length_mm(self, name: str) -> float | None:
-        """A positive length with its unit (``"50 mm"``), in mm; None when absent."""
+        """Return a positive length with its unit (``"50 mm"``) in mm; None when absent."""
         if name not in self.data:
             return None
         v = parse_length(self.data[name], where=self.key(name)) * 1000.0
@@ -352,11 +352,11 @@ class OptionsTable(_Table):
         return v
 
     def opt_positive(self, name: str) -> float | None:
-        """A positive number, or None when absent."""
+        """Return a positive number, or None when absent."""
         return self.num(name, positive=True) if name in self.data else None
 
     def flag(self, name: str, default: bool = False) -> bool:
-        """True or false."""
+        """Return a boolean (``true`` / ``false``)."""
         v = self.data.get(name, default)
         if not isinstance(v, bool):
             raise SiteFileError(f"{self.key(name)}: expected true or false, got {v!r}")
@@ -532,7 +532,8 @@ def _survey_options(t: _Table, kind: str, root: Path) -> dict[str, Any]:
         )
     from geo_corrosion.measurements import get_kind  # lazy: kinds import this module's types
 
-    return dict(get_kind(kind, where=f"{t.key('kind')}: ").parse_options(raw, where=where, root=root))
+    kind_obj = get_kind(kind, where=f"{t.key('kind')}: ")
+    return dict(kind_obj.parse_options(raw, where=where, root=root))
 
 
 def _run(data: object, where: str) -> RunParams:

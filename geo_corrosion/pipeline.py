@@ -352,16 +352,17 @@ def run(
     check_parameters(cfg)
     if out == cfg.root or cfg.root.is_relative_to(out):
         raise ExportError(f"{out}: the output folder cannot be the site folder or hold it")
-    s = open_site(cfg, progress=progress)
-    flags = check_site(s)
-    if len(flags) and not qa.runnable(flags):
-        errs = flags[flags["severity"] == "error"]
-        lines = "\n".join(f"  - {r.where or r.survey_id}: {r.message}" for r in errs.itertuples())
-        raise QAError(f"the site cannot be run; QA found {len(errs)} error(s):\n{lines}")
     # our warnings (fallback variograms, averaged repeats, repaired outlines) are
     # collected into run.json and shown as progress, never lost and never fatal
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", GeoCorrosionWarning)
+        s = open_site(cfg, progress=progress)
+        flags = check_site(s)
+        if len(flags) and not qa.runnable(flags):
+            errs = flags[flags["severity"] == "error"]
+            lines = "\n".join(f"  - {r.where or r.survey_id}: {r.message}"
+                              for r in errs.itertuples())
+            raise QAError(f"the site cannot be run; QA found {len(errs)} error(s):\n{lines}")
         result = process(s, flags, progress=progress)
     notes = sorted({f"{w.category.__name__}: {w.message}" for w in caught
                     if issubclass(w.category, GeoCorrosionWarning)})

@@ -10,6 +10,7 @@ zoning rules then partition the slab.  All geometry is in local grid units.
 
 from __future__ import annotations
 
+import warnings
 from dataclasses import dataclass
 from typing import Any
 
@@ -21,6 +22,7 @@ from numpy.typing import NDArray
 from shapely.geometry import shape
 from shapely.geometry.base import BaseGeometry
 
+from geo_corrosion.errors import GeometryWarning
 from geo_corrosion.mapping import KindSurface
 from geo_corrosion.model import Level
 from geo_corrosion.repair import LayoutParams, layout_repairs
@@ -94,6 +96,12 @@ def plan_level(level: Level, surfaces: dict[str, KindSurface], params: PlanningP
     """
     deck = level.deck
     cover = surfaces.get("cover")
+    for kind in ("delamination", "spall"):
+        for f in level.overlays.get(kind, ()):
+            if not f.geometry.intersects(level.slab):
+                warnings.warn(f"{f.where}: {kind} lies outside the slab of level {level.id}; "
+                              "it is not repaired (check the layer's coordinates)",
+                              GeometryWarning, stacklevel=2)
     rows = [{"source_id": f.where.split(": ", 1)[-1], "kind": k, "geometry": f.geometry}
             for k in ("delamination", "spall") for f in level.overlays.get(k, ())]
     repairs = None

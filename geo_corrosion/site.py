@@ -37,13 +37,8 @@ def read_level(cfg: LevelConfig, site: SiteConfig) -> Level:
     """
     where = f"level {cfg.id!r}"
     grid = LocalGrid.from_config(cfg.grid, site.crs_unit, where=f"{site.path.name}: {where} grid")
-    slab_feats = read_polygons(cfg.slab, grid, site_crs=site.crs, what="slab outline")
-    for f in slab_feats:
-        if "repaired" in f.where:
-            raise IngestError(
-                f"{f.where}: the slab outline is not a valid polygon; redraw it as one simple "
-                "closed polyline"
-            )
+    slab_feats = read_polygons(cfg.slab, grid, site_crs=site.crs, what="slab outline",
+                               repair=False)
     slab = shapely.union_all([f.geometry for f in slab_feats])
     if not isinstance(slab, Polygon | MultiPolygon) or slab.area <= 0 or not slab.is_valid:
         raise IngestError(f"{cfg.slab.where}: the slab outline is not a valid polygon")

@@ -10,6 +10,7 @@ file when the header does not say; a DXF in unknown units is refused.
 from __future__ import annotations
 
 import math
+import warnings
 from dataclasses import dataclass
 
 import numpy as np
@@ -19,7 +20,7 @@ from shapely.geometry.base import BaseGeometry
 
 from geo_corrosion.config import LayerRef
 from geo_corrosion.crs import LocalGrid
-from geo_corrosion.errors import IngestError
+from geo_corrosion.errors import GeometryWarning, IngestError
 from geo_corrosion.units import LENGTH_TO_M
 
 __all__ = ["Feature", "read_layer", "read_polygons", "read_lines", "DXF_UNITS"]
@@ -27,6 +28,8 @@ __all__ = ["Feature", "read_layer", "read_polygons", "read_lines", "DXF_UNITS"]
 #: $INSUNITS codes of the DXF reference that name plan length units.
 DXF_UNITS = {1: "in", 2: "ft", 4: "mm", 5: "cm", 6: "m", 21: "us-ft"}
 CIRCLE_SEGMENTS = 64
+#: An open outline whose ends are closer than this share of its length is closed.
+CLOSE_TOLERANCE = 0.02
 
 
 @dataclass(frozen=True)
@@ -174,13 +177,14 @@ def _explode_polygons(geom: BaseGeometry) -> list[Polygon]:
 
 
 def read_polygons(
-    ref: LayerRef, grid: LocalGrid, *, site_crs: object = None, what: str = "shapes"
+    ref: LayerRef, grid: LocalGrid, *, site_crs: object = None, what: str = "shapes",
+    repair: bool = True,
 ) -> list[Feature]:
     """Read the closed shapes of a layer as valid polygons (local grid coordinates).
 
-    Self-intersecting outlines are repaired with :func:`shapely.make_valid` when the
-    repair keeps the area; the caller decides what to do with open shapes (here they
-    are ignored, and a layer with none raises).
+    Self-intersecting outlines are repaired with :func:`shapely.make_valid` when
+    ``repair`` and the repair keeps an area (with a GeometryWarning); a nearly closed
+    polyline is closed (warned); open lines on a polygon layer raise.
 
     Raises
     ------
@@ -188,21 +192,39 @@ def read_polygons(
         If the layer holds no closed shape.
     """
     feats = read_layer(ref, grid, site_crs=site_crs)
-    out = []
+    out: list[Feature] = []
+    open_lines: list[Feature] = []
     for f in feats:
-        for poly in _explode_polygons(f.geometry):
+        g = f.geometry
+        if g.geom_type == "LineString" and len(g.coords) >= 3:
+            ends = Point(g.coords[0]).distance(Point(g.coords[-1]))
+            if ends <= CLOSE_TOLERANCE * g.length:
+                # nearly closed: closing it is safe and keeps the drawn shape
+                warnings.warn(f"{f.where}: outline was not closed (ends {ends:.3g} apart); "
+                              "closed it", GeometryWarning, stacklevel=2)
+                g = Polygon(list(g.coords))
+                f = Feature(g, f.where + " (closed)", f.label)
+            else:
+                open_lines.append(f)
+                continue
+        elif g.geom_type in ("LineString", "MultiLineString"):
+            open_lines.append(f)
+            continue
+        for poly in _explode_polygons(g):
             if not poly.is_valid:
+                reason = shapely.is_valid_reason(poly)
                 fixed = shapely.make_valid(poly)
-                parts = [p for p in _explode_polygons(fixed)] if not isinstance(
-                    fixed, Polygon | MultiPolygon) else _explode_polygons(fixed)
-                if not parts and hasattr(fixed, "geoms"):
-                    parts = [g for g in fixed.geoms if isinstance(g, Polygon)]
-                if not parts or sum(p.area for p in parts) <= 0:
+                parts = [p for p in getattr(fixed, "geoms", [fixed]) if isinstance(p, Polygon)]
+                parts = [q for p in parts for q in _explode_polygons(p)] or _explode_polygons(fixed)
+                if not repair or not parts or sum(p.area for p in parts) <= 0:
                     raise IngestError(
-                        f"{f.where}: the outline is not a valid polygon ({shapely.is_valid_reason(poly)}) "
-                        "and cannot be repaired; redraw it as a simple closed polyline"
+                        f"{f.where}: the outline is not a valid polygon ({reason}) and cannot "
+                        "be repaired; redraw it as a simple closed polyline"
                     )
-                out.extend(Feature(p, f.where + " (self-intersection repaired)", f.label) for p in parts)
+                warnings.warn(f"{f.where}: self-intersecting outline ({reason}) repaired into "
+                              f"{len(parts)} polygon(s)", GeometryWarning, stacklevel=2)
+                out.extend(Feature(p, f.where + " (self-intersection repaired)", f.label)
+                           for p in parts)
             elif poly.area > 0:
                 out.append(Feature(poly, f.where, f.label))
     if not out:
@@ -210,6 +232,12 @@ def read_polygons(
             f"{ref.where}: no closed {what} found in {ref.path.name}"
             f"{' on layer ' + repr(ref.layer) if ref.layer else ''}; draw them as closed "
             "polylines, circles or hatches"
+        )
+    if open_lines:
+        lst = "; ".join(f.where.split(": ", 1)[-1] for f in open_lines[:5])
+        raise IngestError(
+            f"{ref.where}: {len(open_lines)} open line(s) among the {what}: {lst}. Close each "
+            "outline in the drawing (or move cracks to a layer declared as kind = \"crack\")"
         )
     return out
 

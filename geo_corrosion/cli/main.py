@@ -22,8 +22,18 @@ def errors_handler(f: F) -> F:
 
     @functools.wraps(f)
     def wrapper(*args: Any, **kwargs: Any) -> Any:
+        import warnings
+
+        from geo_corrosion.errors import GeoCorrosionWarning
+
+        def show(message: Any, category: Any, *_a: Any, **_k: Any) -> None:
+            click.echo(f"note: {message}", err=True)
+
         try:
-            return f(*args, **kwargs)
+            with warnings.catch_warnings():
+                warnings.simplefilter("always", GeoCorrosionWarning)
+                warnings.showwarning = show
+                return f(*args, **kwargs)
         except (click.ClickException, click.exceptions.Exit, click.exceptions.Abort):
             raise
         except GeoCorrosionError as err:

@@ -24,7 +24,7 @@ from geo_corrosion.units import convert, normalize_unit
 if TYPE_CHECKING:
     from geo_corrosion.config import RunParams, SurveyConfig
 
-__all__ = ["MeasurementKind"]
+__all__ = ["MeasurementKind", "raw_mask", "numeric_column", "location_label"]
 
 
 class MeasurementKind:
@@ -112,7 +112,8 @@ class MeasurementKind:
 
         if options and not self.option_keys:
             raise SiteFileError(
-                f"{where}: {self.name} surveys take no options (got {', '.join(map(repr, options))}); "
+                f"{where}: {self.name} surveys take no options "
+                f"(got {', '.join(map(repr, options))}); "
                 "remove the [surveys.options] table"
             )
         OptionsTable(dict(options), where, self.option_keys)
@@ -176,3 +177,27 @@ class MeasurementKind:
             "krige_transform": self.krige_transform,
             "class_set": self.class_set,
         }
+
+
+# --------------------------------------------------------------------------- helpers for derive()
+
+
+def raw_mask(frame: pd.DataFrame) -> NDArray[np.bool_]:
+    """Return the readings to derive from raw columns (``value_source == "raw"``)."""
+    if "value_source" not in frame:
+        return np.zeros(len(frame), dtype=bool)
+    return np.asarray(frame["value_source"].to_numpy(object) == "raw", dtype=bool)
+
+
+def numeric_column(frame: pd.DataFrame, name: str) -> NDArray[np.float64]:
+    """Return a column as float (text gives NaN); all NaN when the frame lacks it."""
+    if name not in frame:
+        return np.full(len(frame), np.nan)
+    return pd.to_numeric(frame[name], errors="coerce").to_numpy(float)
+
+
+def location_label(frame: pd.DataFrame, i: int | np.integer[Any]) -> str:
+    """Return reading ``i`` for messages: ``"readings/x.csv line 5 (point P3)"``."""
+    where = str(frame["where"].iat[i]) if "where" in frame else f"reading {i + 1}"
+    pid = str(frame["point_id"].iat[i]) if "point_id" in frame else ""
+    return f"{where} (point {pid})" if pid else where

@@ -18,7 +18,12 @@ from geo_corrosion.corrections import (
     electrode_offset_mv,
 )
 from geo_corrosion.errors import ConditionError, IngestError, SiteFileError
-from geo_corrosion.measurements.base import MeasurementKind
+from geo_corrosion.measurements.base import (
+    MeasurementKind,
+    location_label,
+    numeric_column,
+    raw_mask,
+)
 
 if TYPE_CHECKING:
     from geo_corrosion.config import RunParams, SurveyConfig
@@ -184,7 +189,7 @@ class Resistivity(MeasurementKind):
 
         opts = survey.options
         records: list[dict[str, Any]] = []
-        raw = _raw_mask(frame)
+        raw = raw_mask(frame)
         n = len(frame)
         msgs = np.full(n, "", dtype=object)
         a_mm = opts.get("probe_spacing_mm")
@@ -197,8 +202,8 @@ class Resistivity(MeasurementKind):
         apparent = frame[self.value_column].to_numpy(float).copy()
         if raw.any():
             assert a_mm is not None
-            volt = _col(frame, "voltage_v")
-            cur = _col(frame, "current_a")
+            volt = numeric_column(frame, "voltage_v")
+            cur = numeric_column(frame, "current_a")
             for i in np.flatnonzero(raw):
                 v, c = volt[i], cur[i]
                 problem = ""
@@ -211,13 +216,13 @@ class Resistivity(MeasurementKind):
                     problem = (f"negative {'current' if c < 0 else 'voltage'} ({c:g} A, {v:g} V); "
                                "give magnitudes in A and V (check lead polarity)")
                 if problem:
-                    msgs[i] = f"{_loc(frame, i)}: {problem}"
+                    msgs[i] = f"{location_label(frame, i)}: {problem}"
                     apparent[i] = np.nan
                     continue
                 try:
                     apparent[i] = float(wenner_resistivity_kohm_cm(a_mm / 10.0, v, c))
                 except ConditionError as err:
-                    msgs[i] = f"{_loc(frame, i)}: {err}"
+                    msgs[i] = f"{location_label(frame, i)}: {err}"
                     apparent[i] = np.nan
             records.append({
                 "correction": "Wenner resistivity from raw voltage and current",
@@ -362,7 +367,8 @@ class CorrosionRate(MeasurementKind):
         geometric = [t.has("bar_diameter"), t.has("confinement_length")]
         if t.has("polarized_area_cm2") and any(geometric):
             raise SiteFileError(
-                f"{where}: give polarized_area_cm2 or bar_diameter with confinement_length, not both"
+                f"{where}: give polarized_area_cm2, or bar_diameter with confinement_length; "
+                "not both"
             )
         if t.has("polarized_area_cm2"):
             out["polarized_area_cm2"] = t.num("polarized_area_cm2", positive=True)
@@ -411,7 +417,7 @@ class CorrosionRate(MeasurementKind):
         from geo_corrosion.condition.corrosion_rate import faraday_um_per_year
 
         records: list[dict[str, Any]] = []
-        raw = _raw_mask(frame)
+        raw = raw_mask(frame)
         n = len(frame)
         msgs = np.full(n, "", dtype=object)
         warns = np.full(n, "", dtype=object)
@@ -445,27 +451,6 @@ class CoverDepth(MeasurementKind):
 # --------------------------------------------------------------------------- raw-reading helpers
 
 
-def _raw_mask(frame: pd.DataFrame) -> np.ndarray:
-    """Readings whose value is to be derived from raw instrument columns."""
-    if "value_source" not in frame:
-        return np.zeros(len(frame), dtype=bool)
-    return frame["value_source"].to_numpy(object) == "raw"
-
-
-def _col(frame: pd.DataFrame, name: str) -> np.ndarray:
-    """A numeric column as float, all NaN when absent."""
-    if name not in frame:
-        return np.full(len(frame), np.nan)
-    return pd.to_numeric(frame[name], errors="coerce").to_numpy(float)
-
-
-def _loc(frame: pd.DataFrame, i: int) -> str:
-    """The location of reading ``i`` for messages: ``where`` and point id."""
-    where = str(frame["where"].iat[i]) if "where" in frame else f"reading {i + 1}"
-    pid = str(frame["point_id"].iat[i]) if "point_id" in frame else ""
-    return f"{where} (point {pid})" if pid else where
-
-
 def _b_and_area(
     frame: pd.DataFrame, survey: SurveyConfig, raw: np.ndarray
 ) -> tuple[np.ndarray, np.ndarray, list[list[str]]]:
@@ -477,8 +462,9 @@ def _b_and_area(
     b = np.full(n, float(opts.get("b_mv", np.nan)))
     area = np.full(n, float(opts.get("polarized_area_cm2", np.nan)))
     problems: list[list[str]] = [[] for _ in range(n)]
-    b_col, a_col = _col(frame, "b_mv"), _col(frame, "area_cm2")
-    ta, tc = _col(frame, "tafel_anodic_mv_dec"), _col(frame, "tafel_cathodic_mv_dec")
+    b_col, a_col = numeric_column(frame, "b_mv"), numeric_column(frame, "area_cm2")
+    ta = numeric_column(frame, "tafel_anodic_mv_dec")
+    tc = numeric_column(frame, "tafel_cathodic_mv_dec")
     for i in np.flatnonzero(raw):
         if np.isfinite(b_col[i]):
             b[i] = b_col[i] if b_col[i] > 0 else np.nan
@@ -559,8 +545,8 @@ def _derive_rate(
     if "transients_path" in survey.options:
         fits, rec = _fit_survey_transients(frame, survey, raw, b, area)
         records.append(rec)
-    rp_in, r_ohm_in = _col(frame, "rp_ohm"), _col(frame, "r_ohm_ohm")
-    de, di = _col(frame, "delta_e_mv"), _col(frame, "delta_i_ua")
+    rp_in, r_ohm_in = numeric_column(frame, "rp_ohm"), numeric_column(frame, "r_ohm_ohm")
+    de, di = numeric_column(frame, "delta_e_mv"), numeric_column(frame, "delta_i_ua")
     rp = np.full(n, np.nan)
     r_ohm = r_ohm_in.copy()
     cdl = np.full(n, np.nan)
@@ -618,9 +604,9 @@ def _derive_rate(
                 problems.append(str(err))
         if problems:
             icorr[i] = np.nan
-            msgs[i] = f"{_loc(frame, i)}: " + "; ".join(problems)
+            msgs[i] = f"{location_label(frame, i)}: " + "; ".join(problems)
         if notes:
-            warns[i] = f"{_loc(frame, i)}: " + "; ".join(notes)
+            warns[i] = f"{location_label(frame, i)}: " + "; ".join(notes)
     if np.isfinite(r_ohm_in[raw]).any() and "rp_ohm" in frame:
         frame["rp_measured_ohm"] = rp_in
     frame[CorrosionRate.value_column] = icorr

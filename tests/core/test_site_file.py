@@ -98,7 +98,7 @@ def test_invalid_slab_outline(site_dir: Path) -> None:
     (site_dir / "plans" / "slab.geojson").write_text(
         '{"type":"FeatureCollection","features":[{"type":"Feature","properties":{},'
         '"geometry":{"type":"Polygon","coordinates":[[[0,0],[60,40],[60,0],[0,40],[0,0]]]}}]}')
-    _fails(site_dir, "slab outline is not a valid polygon")
+    _fails(site_dir, "slab", "outline is not a valid polygon", "Self-intersection")
 
 
 def test_readings_all_outside_level(site_dir: Path) -> None:
@@ -203,3 +203,47 @@ def test_contour_interval_over_100_mv_refused(site_dir: Path) -> None:
     # ASTM C876 maximum contour interval 0.10 V (REFERENCE.md §1.8, from memory)
     edit(site_dir / "site.toml", '[run]\n', '[run]\ncontour_interval_mv = 150\n')
     _fails(site_dir, "contour_interval_mv")
+
+
+def _sounding(site_dir: Path, draw) -> None:  # type: ignore[no-untyped-def]
+    import ezdxf
+
+    doc = ezdxf.new("R2010")
+    doc.header["$INSUNITS"] = 2
+    for name in ("DELAM", "SPALL"):
+        doc.layers.add(name)
+    msp = doc.modelspace()
+    msp.add_lwpolyline([(12, 8), (18, 8), (18, 12), (12, 12)], close=True,
+                       dxfattribs={"layer": "DELAM"})
+    msp.add_circle((15, 10), 0.8, dxfattribs={"layer": "SPALL"})
+    draw(msp)
+    doc.saveas(site_dir / "sounding" / "sounding.dxf")
+
+
+def test_open_delamination_outline_is_reported(site_dir: Path) -> None:
+    _sounding(site_dir, lambda msp: msp.add_lwpolyline([(30, 5), (36, 5), (36, 9)],
+                                                       dxfattribs={"layer": "DELAM"}))
+    _fails(site_dir, "open line(s)", "DELAM", "Close each outline")
+
+
+def test_nearly_closed_and_self_intersecting_outlines_repaired(site_dir: Path, tmp_path: Path) -> None:
+    from geo_corrosion.errors import GeometryWarning
+
+    def draw(msp) -> None:  # type: ignore[no-untyped-def]
+        # ends 0.01 ft apart on a 20 ft outline: closed; a bow-tie: split in two
+        msp.add_lwpolyline([(30, 5), (35, 5), (35, 10), (30, 10), (30, 5.01)],
+                           dxfattribs={"layer": "DELAM"})
+        msp.add_lwpolyline([(45, 5), (50, 10), (50, 5), (45, 10)], close=True,
+                           dxfattribs={"layer": "DELAM"})
+        msp.add_lwpolyline([(500, 500), (502, 500), (502, 502), (500, 502)], close=True,
+                           dxfattribs={"layer": "DELAM"})  # far outside the slab
+
+    _sounding(site_dir, draw)
+    with pytest.warns(GeometryWarning) as rec:
+        site = open_site(site_dir)
+    msgs = " ".join(str(w.message) for w in rec)
+    assert "closed it" in msgs and "self-intersecting outline" in msgs
+    assert len(site.levels["D1"].overlays["delamination"]) == 5  # 1 + 1 + 2 halves + 1
+    r = run(site_dir, tmp_path / "out", exporters=("geopackage",))
+    assert any("outside the slab" in w for w in r.warnings)
+    assert any("self-intersecting" in w for w in r.warnings)
