@@ -29,7 +29,7 @@ import shapely
 from numpy.typing import NDArray
 from shapely.geometry import shape
 
-from geo_corrosion.condition.combined import DEFAULT_RULES, combine
+from geo_corrosion.condition.combined import DEFAULT_RULES, RuleTable, combine
 from geo_corrosion.condition.potential import fit_mixture_threshold
 from geo_corrosion.condition.probability import area_interval, exceedance_probability
 from geo_corrosion.errors import ConditionError
@@ -94,7 +94,8 @@ def _polygons(codes: NDArray[np.int64], surface: KindSurface, labels: list[tuple
 
 
 def assess_level(surfaces: dict[str, KindSurface], readings: dict[str, NDArray[np.float64]],
-                 *, deck: Any, unit: str, seed: int = 0) -> LevelCondition:
+                 *, deck: Any, unit: str, seed: int = 0,
+                 rules: dict[str, Any] | None = None) -> LevelCondition:
     """Probability maps, area intervals, mixture threshold and combined classes of a level.
 
     Parameters
@@ -144,19 +145,20 @@ def assess_level(surfaces: dict[str, KindSurface], readings: dict[str, NDArray[n
                 "(RILEM TC 154 statistical evaluation; Gulikers & Elsener 2008)")
         except ConditionError as err:
             out.stats["site_threshold"] = {"not_available": str(err)}
+    table = RuleTable.from_dict(rules) if rules else DEFAULT_RULES
     given = {k: surfaces[k].mean for k in ("potential", "resistivity", "corrosion_rate")
              if k in surfaces}
     if given:
-        res = combine(DEFAULT_RULES, potential_mv=given.get("potential"),
+        res = combine(table, potential_mv=given.get("potential"),
                       resistivity_kohm_cm=given.get("resistivity"),
                       icorr_ua_cm2=given.get("corrosion_rate"))
         first = next(iter(surfaces.values()))
         codes = np.where(np.isfinite(next(iter(given.values()))), res.codes, -1)
-        labels = [(c.key, c.label, c.color) for c in DEFAULT_RULES.classes]
+        labels = [(c.key, c.label, c.color) for c in table.classes]
         out.combined_codes = codes
         out.combined_polygons = _polygons(codes, first, labels, deck)
         out.stats["combined_classes"] = [
             {"class": r["class"], "area_m2": r["area_local"] * a2}
             for r in out.combined_polygons.to_dict("records")] if len(out.combined_polygons) else []
-        out.stats["combined_rules"] = DEFAULT_RULES.to_dict()
+        out.stats["combined_rules"] = table.to_dict()
     return out

@@ -225,6 +225,14 @@ class RunParams:
     activation_energy_kj_mol: float = 25.0
     cse_reference_c: float = 22.2
     correct_only_outside_band: bool = False
+    bar_diameter_mm: float = 16.0
+    max_aggregate_mm: float = 9.5
+    slab_thickness_mm: float | None = None
+    sawcut_depth_mm: float = 19.05
+    axis_angle_deg: float = 0.0
+    anode_spacing_mm: float | None = None
+    min_zone_area_m2: float = 0.5
+    zone_smoothing_m: float = 0.15
     #: kind -> fixed variogram parameters (``range_m`` in metres), from [run.variogram.<kind>]
     variogram: dict[str, dict[str, Any]] = field(default_factory=dict)
 
@@ -244,6 +252,10 @@ class SiteConfig:
     levels: tuple[LevelConfig, ...]
     surveys: tuple[SurveyConfig, ...]
     run: RunParams = field(default_factory=RunParams)
+    #: ordered zoning rules: (registry name, keyword parameters); empty = the built-in order
+    zoning: tuple[tuple[str, dict[str, Any]], ...] = ()
+    #: the combined-condition rule table as given in [condition.combined] (None = default)
+    combined_rules: dict[str, Any] | None = None
 
     def level(self, level_id: str) -> LevelConfig:
         """Return the level with this id."""
@@ -368,7 +380,8 @@ _RUN_KEYS = (
     "cell_size", "max_distance", "contour_interval_mv", "repair_margin", "merge_gap",
     "min_repair_size", "contingency", "n_neighbors", "variogram_model",
     "resistivity_reference_c", "activation_energy_kj_mol", "cse_reference_c",
-    "correct_only_outside_band", "variogram",
+    "correct_only_outside_band", "variogram", "bar_diameter", "max_aggregate", "slab_thickness",
+    "sawcut_depth", "axis_angle_deg", "anode_spacing", "min_zone_area", "zone_smoothing",
 )
 _VARIOGRAM_KEYS = ("model", "nugget", "psill", "range", "shape", "anisotropy_ratio",
                    "anisotropy_angle_deg")
@@ -563,7 +576,27 @@ def _run(data: object, where: str) -> RunParams:
         if kt.has("range"):
             fx["range_m"] = kt.length("range", 0.0)
         fixed[str(kind)] = fx
+    def _mm(name: str, default: float | None) -> float | None:
+        return t.length(name, 0.0) * 1000.0 if t.has(name) else default
+
+    min_zone = t.data.get("min_zone_area")
+    if min_zone is not None:
+        m = re.fullmatch(r"\s*(\d+(?:\.\d*)?)\s*(m2|ft2)\s*", str(min_zone))
+        if not m:
+            raise SiteFileError(f"{t.key('min_zone_area')}: expected an area such as \"5 ft2\" "
+                                f"or \"0.5 m2\"; got {min_zone!r}")
+        min_zone_m2 = float(m.group(1)) * (1.0 if m.group(2) == "m2" else 0.3048**2)
+    else:
+        min_zone_m2 = d.min_zone_area_m2
     return RunParams(
+        bar_diameter_mm=_mm("bar_diameter", d.bar_diameter_mm) or d.bar_diameter_mm,
+        max_aggregate_mm=_mm("max_aggregate", d.max_aggregate_mm) or d.max_aggregate_mm,
+        slab_thickness_mm=_mm("slab_thickness", None),
+        sawcut_depth_mm=_mm("sawcut_depth", d.sawcut_depth_mm) or d.sawcut_depth_mm,
+        axis_angle_deg=t.num("axis_angle_deg", d.axis_angle_deg),
+        anode_spacing_mm=_mm("anode_spacing", None),
+        min_zone_area_m2=min_zone_m2,
+        zone_smoothing_m=t.length("zone_smoothing", d.zone_smoothing_m),
         variogram=fixed,
         cell_size_m=t.length("cell_size", d.cell_size_m),
         max_distance_m=t.length("max_distance", d.max_distance_m),
@@ -581,6 +614,53 @@ def _run(data: object, where: str) -> RunParams:
         cse_reference_c=t.num("cse_reference_c", d.cse_reference_c),
         correct_only_outside_band=flag,
     )
+
+
+def _zoning(rules: list[Any], where: str) -> tuple[tuple[str, dict[str, Any]], ...]:
+    """Ordered zoning rules, each ``{ rule = "name", <its keyword parameters> }``.
+
+    The rule names and their parameters are checked against the zoning-rule
+    registry (built-ins and plugins).
+    """
+    from geo_corrosion.errors import PluginError
+    from geo_corrosion.plugins import ZONING_RULES
+
+    out = []
+    for i, r in enumerate(rules):
+        w = f"{where}[{i}]"
+        if not isinstance(r, dict) or "rule" not in r:
+            raise SiteFileError(f"{w}: expected a table with rule = \"<name>\"")
+        kw = {k: v for k, v in r.items() if k != "rule"}
+        try:
+            cls = ZONING_RULES.get(str(r["rule"]), where=f"{w}.rule: ")
+            allowed = set(cls.parameters())
+        except PluginError as err:
+            raise SiteFileError(str(err)) from err
+        except Exception as err:  # a rule class that declares a bad interface
+            raise SiteFileError(f"{w}: {err}") from err
+        unknown = sorted(set(kw) - allowed)
+        if unknown:
+            raise SiteFileError(f"{w}: rule {r['rule']!r} takes no parameter(s) {unknown}; "
+                                f"it takes: {', '.join(sorted(allowed)) or 'none'}")
+        out.append((str(r["rule"]), kw))
+    return tuple(out)
+
+
+def _condition(data: object, where: str) -> dict[str, Any] | None:
+    if data is None:
+        return None
+    t = _Table(data, where, ("combined",))
+    if "combined" not in t.data:
+        return None
+    from geo_corrosion.condition.combined import RuleTable
+    from geo_corrosion.errors import ConditionError
+
+    spec = t.data["combined"]
+    try:
+        RuleTable.from_dict(spec, where=f"{where}.combined: ")
+    except ConditionError as err:
+        raise SiteFileError(str(err)) from err
+    return dict(spec)
 
 
 def read_site(path: str | Path) -> SiteConfig:
@@ -614,7 +694,7 @@ def read_site(path: str | Path) -> SiteConfig:
     except UnicodeDecodeError as err:
         raise SiteFileError(f"{p}: not a UTF-8 text file") from err
     root = p.parent.resolve()
-    top = _Table(data, str(p), ("site", "run", "levels", "surveys"))
+    top = _Table(data, str(p), ("site", "run", "levels", "surveys", "zoning", "condition"))
     if "site" not in data:
         raise SiteFileError(f"{p}: missing the [site] table (name, crs, units)")
     st = _Table(data["site"], f"{p}: [site]", _SITE_KEYS)
@@ -646,4 +726,6 @@ def read_site(path: str | Path) -> SiteConfig:
         levels=levels,
         surveys=surveys,
         run=_run(data.get("run", {}), f"{p}: [run]"),
+        zoning=_zoning(top.list("zoning"), f"{p}: [[zoning]]"),
+        combined_rules=_condition(data.get("condition"), f"{p}: [condition]"),
     )

@@ -152,13 +152,15 @@ def directional_variograms(
 
 
 def _class_polygons(
-    kind: MeasurementKind, mean: NDArray[np.float64], grid: GridSpec, deck: BaseGeometry
+    kind: MeasurementKind, mean: NDArray[np.float64], grid: GridSpec, deck: BaseGeometry,
+    class_set: str | None = None,
 ) -> pd.DataFrame | None:
     from geo_corrosion.condition.classes import get_class_set
 
-    if kind.class_set is None:
+    name = class_set or kind.class_set
+    if name is None:
         return None
-    cs = get_class_set(kind.class_set)
+    cs = get_class_set(name)
     codes = cs.codes(mean).astype(np.int16)
     valid = codes >= 0
     rows = []
@@ -184,6 +186,7 @@ def build_surface(
     params: RunParams,
     *,
     progress: Callable[[int, int], None] | None = None,
+    class_set: str | None = None,
 ) -> KindSurface:
     """Fit, krige, contour and classify one kind on one level.
 
@@ -227,6 +230,6 @@ def build_surface(
         check_contour_interval(interval, kind.name)
     lines = contour_lines(mean, grid, interval=interval)
     bands = contour_bands(mean, grid, interval=interval)
-    classes = _class_polygons(kind, mean, grid, deck)
+    classes = _class_polygons(kind, mean, grid, deck, class_set)
     return KindSurface(kind, grid, mean, var, fit, cv.to_dict(value_unit=kind.canonical_unit),
                        res, len(z), interval, lines, bands, classes, directional)

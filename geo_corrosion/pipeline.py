@@ -61,10 +61,28 @@ def check_parameters(cfg: SiteConfig) -> None:
     """
     from geo_corrosion.surfaces import check_contour_interval
 
+    planning_params(cfg)  # layout parameters: negative or absurd values raise now
+
     try:
         check_contour_interval(cfg.run.contour_interval_mv, "potential")
     except KrigingError as err:
         raise KrigingError(f"{cfg.path}: [run].contour_interval_mv: {err}") from err
+
+
+def _derive_flags(s: Any) -> pd.DataFrame:
+    """QA rows for readings whose value could not be derived from raw instrument values."""
+    f = s.frame
+    rows = []
+    for col, rule, sev in (("derive_message", "QA-DERIVE", "warning"),
+                           ("derive_warning", "QA-DERIVE-NOTE", "info")):
+        if col not in f:
+            continue
+        sel = f[col].fillna("").astype(str) != ""
+        for r in f.loc[sel].itertuples():
+            rows.append({"reading_id": r.reading_id, "survey_id": r.survey_id,
+                         "level_id": r.level_id, "where": r.where, "rule": rule, "severity": sev,
+                         "message": getattr(r, col), "value": float("nan")})
+    return pd.DataFrame(rows, columns=qa.FLAG_COLUMNS)
 
 
 def check_site(site: Site) -> pd.DataFrame:
@@ -93,6 +111,8 @@ def check_site(site: Site) -> pd.DataFrame:
                 parts.append(qa.check_level(
                     frames, kind=name, value_column=kind.value_column,
                     spacing=site.levels[lid].config.grid.spacing if name == "potential" else None))
+    for s in site.surveys:
+        parts.append(_derive_flags(s))
     parts = [p for p in parts if len(p)]
     if not parts:
         return pd.DataFrame(columns=qa.FLAG_COLUMNS)
@@ -109,10 +129,19 @@ def _stats(values: np.ndarray) -> dict[str, float]:
             "median": float(p[2]), "p90": float(p[3]), "p95": float(p[4]), "max": float(v.max())}
 
 
-def _planning_params(params: Any) -> PlanningParams:
-    return PlanningParams(layout=LayoutParams(
-        margin_mm=params.repair_margin_m * 1000, merge_gap_mm=params.merge_gap_m * 1000,
-        min_size_mm=params.min_repair_size_m * 1000))
+def planning_params(cfg: SiteConfig) -> PlanningParams:
+    """Layout and zoning parameters of a site (validated: absurd values raise RepairError)."""
+    from geo_corrosion.plugins import ZONING_RULES
+
+    p = cfg.run
+    rules = tuple(ZONING_RULES.get(name)(**kw) for name, kw in cfg.zoning) or None
+    return PlanningParams(
+        layout=LayoutParams(
+            margin_mm=p.repair_margin_m * 1000, merge_gap_mm=p.merge_gap_m * 1000,
+            min_size_mm=p.min_repair_size_m * 1000, axis_angle_deg=p.axis_angle_deg,
+            sawcut_depth_mm=p.sawcut_depth_mm, bar_diameter_mm=p.bar_diameter_mm,
+            max_aggregate_mm=p.max_aggregate_mm, slab_thickness_mm=p.slab_thickness_mm),
+        min_zone_area_m2=p.min_zone_area_m2, smoothing_m=p.zone_smoothing_m, rules=rules)
 
 
 def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None) -> RunResult:
@@ -121,6 +150,7 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
     params = site.config.run
     units = report_units(site.config.units)
     levels: dict[str, LevelResult] = {}
+    planning = planning_params(site.config)
     for lid, lv in site.levels.items():
         lr = LevelResult(lv)
         a2 = LENGTH_TO_M[lv.unit] ** 2
@@ -147,8 +177,10 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
                 lr.stats[name] = entry
                 continue
             say(f"level {lid}: kriging {len(readings)} {name} readings")
+            class_set = next((sv.config.options.get("class_set") for sv in surveys
+                              if sv.config.options.get("class_set")), None)
             try:
-                s = build_surface(lv, kind, readings, params)
+                s = build_surface(lv, kind, readings, params, class_set=class_set)
             except KrigingError as err:
                 lr.skipped[name] = str(err)
                 entry["surface_skipped"] = str(err)
@@ -182,11 +214,11 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
             say(f"level {lid}: condition assessment")
             lr.condition = assess_level(
                 lr.surfaces, {k: r[lr.surfaces[k].kind.value_column].to_numpy(float)
-                              for k, r in lr.readings.items()}, deck=lv.deck, unit=lv.unit)
+                              for k, r in lr.readings.items()}, deck=lv.deck, unit=lv.unit,
+                rules=site.config.combined_rules)
             lr.stats["condition"] = lr.condition.stats
         say(f"level {lid}: laying out repairs and zones")
-        lr.repairs, lr.zones, lr.stats["planning"] = plan_level(lv, lr.surfaces,
-                                                                _planning_params(params))
+        lr.repairs, lr.zones, lr.stats["planning"] = plan_level(lv, lr.surfaces, planning)
         levels[lid] = lr
     import geopandas as gpd
 
@@ -197,7 +229,8 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
 
     allrep = _cat([lr.repairs for lr in levels.values()])
     allzones = _cat([lr.zones for lr in levels.values()])
-    schedule = (bid_schedule(allrep, allzones, units=units, contingency=params.contingency)
+    schedule = (bid_schedule(allrep, allzones, units=units, contingency=params.contingency,
+                             anode_spacing_mm=params.anode_spacing_mm)
                 if allrep is not None or allzones is not None else pd.DataFrame())
     return RunResult(site, flags, levels, schedule)
 

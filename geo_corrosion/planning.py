@@ -42,6 +42,7 @@ class PlanningParams:
     layout: LayoutParams
     min_zone_area_m2: float = 0.5
     smoothing_m: float = 0.15
+    rules: tuple[Any, ...] | None = None  # ZoningRule instances; None = the built-in order
 
 
 def low_cover_threshold_mm(level: Level) -> tuple[float, str]:
@@ -133,12 +134,14 @@ def plan_level(level: Level, surfaces: dict[str, KindSurface], params: PlanningP
                  else shapely.Polygon()))
     slab = level.slab if isinstance(level.slab, shapely.Polygon) else max(
         level.slab.geoms, key=lambda g: g.area)
-    zones = zone(slab, level.exclusion_polygons(), layers, default_rules(),
+    rules = list(params.rules) if params.rules else default_rules()
+    zones = zone(slab, level.exclusion_polygons(), layers, rules,
                  min_zone_area_m2=params.min_zone_area_m2, smoothing_m=params.smoothing_m,
                  unit=level.unit, level_id=level.id)
     notes = {"low_cover_threshold_mm": thr, "low_cover_threshold_source": thr_src,
              "depth_class_cover": "least kriged cover under each sounded area"
              if cover is not None else f"no cover survey: LayoutParams.cover_mm = "
              f"{params.layout.cover_mm} mm assumed",
-             "zoning_rules": [r.name for r in default_rules()]}
+             "zoning_rules": [{"rule": r.name, "treatment": r.treatment, "bid_item": r.bid_item}
+                              for r in rules]}
     return repairs, zones, notes
