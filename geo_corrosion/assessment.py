@@ -36,7 +36,11 @@ from geo_corrosion.errors import ConditionError
 from geo_corrosion.mapping import KindSurface
 from geo_corrosion.units import LENGTH_TO_M
 
-__all__ = ["THRESHOLDS", "LevelCondition", "assess_level", "log_space_moments"]
+__all__ = ["THRESHOLDS", "LevelCondition", "assess_level", "log_space_moments", "life_estimates",
+           "SERVICE_HORIZON_YEARS"]
+
+#: Horizon of the section-loss estimate at today's rate, years (common practice, no source).
+SERVICE_HORIZON_YEARS = 10.0
 
 #: kind -> (threshold in canonical unit, direction, what it means, source)
 THRESHOLDS: dict[str, tuple[float, str, str, str]] = {
@@ -75,6 +79,52 @@ def log_space_moments(
         v = np.log1p(variance / (mean * mean))
         m = np.log(mean) - 0.5 * v
     return m, v
+
+
+def life_estimates(frame: pd.DataFrame, cover: KindSurface | None, *,
+                   bar_diameter_mm: float) -> tuple[pd.DataFrame, dict[str, Any]]:
+    """Section loss and time to cover cracking at each corrosion-rate reading.
+
+    * Section loss of the bar after :data:`SERVICE_HORIZON_YEARS` at the measured
+      rate (uniform attack, Faraday's law; REFERENCE.md §4.1), with the 25 %
+      engineer-review trigger (UFGS 03931, LIFE-03).
+    * Time from now to the first visible crack (0.05 mm) after Alonso et al.
+      (1998), x_crit = 7.53 + 9.32 c/phi um (from memory, REFERENCE.md §4.2), with
+      the cover c read off the kriged cover surface at the reading.
+    """
+    from geo_corrosion.condition.life import section_loss, time_to_cracking_years
+
+    col = "icorr_ua_cm2"
+    i = frame[col].to_numpy(float)
+    loss = np.full(i.shape, np.nan)
+    review = np.zeros(i.shape, bool)
+    for k, v in enumerate(i):
+        if np.isfinite(v) and v >= 0:
+            r = section_loss(bar_diameter_mm, float(v), SERVICE_HORIZON_YEARS)
+            loss[k], review[k] = 100.0 * r.loss_fraction, r.review_required
+    frame[f"section_loss_{int(SERVICE_HORIZON_YEARS)}yr_pct"] = loss
+    frame["bar_review"] = review
+    c = np.full(i.shape, np.nan)
+    if cover is not None:
+        g = cover.grid
+        col_i = np.clip(((frame["x_local"] - g.x0) / g.cell).astype(int), 0, g.nx - 1).to_numpy()
+        row_i = np.clip(((g.y0 + g.ny * g.cell - frame["y_local"]) / g.cell).astype(int), 0,
+                        g.ny - 1).to_numpy()
+        c = cover.mean[row_i, col_i]
+    frame["cover_at_reading_mm"] = c
+    with np.errstate(invalid="ignore", divide="ignore"):
+        ok = np.isfinite(c) & np.isfinite(i) & (i > 0)
+        t = np.full(i.shape, np.nan)
+        if ok.any():
+            t[ok] = time_to_cracking_years(c[ok], bar_diameter_mm, i[ok])
+    frame["time_to_cracking_yr"] = t
+    return frame, {
+        "bar_diameter_mm": bar_diameter_mm, "horizon_years": SERVICE_HORIZON_YEARS,
+        "readings_needing_bar_review": int(review.sum()),
+        "median_time_to_cracking_yr": float(np.nanmedian(t)) if np.isfinite(t).any() else None,
+        "sources": ["Faraday's law, REFERENCE.md §3.2/§4.1", "UFGS 03931 (25 % section loss)",
+                    "Alonso et al. 1998, Materials and Structures 31 (from memory)"],
+    }
 
 
 def _polygons(codes: NDArray[np.int64], surface: KindSurface, labels: list[tuple[str, str, str]],

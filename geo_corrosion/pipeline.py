@@ -29,7 +29,7 @@ import pandas as pd
 
 from geo_corrosion import qa
 from geo_corrosion._io import atomic_write
-from geo_corrosion.assessment import assess_level
+from geo_corrosion.assessment import assess_level, life_estimates
 from geo_corrosion.cautions import CAUTIONS
 from geo_corrosion.config import SiteConfig, read_site
 from geo_corrosion.errors import ExportError, GeoCorrosionWarning, KrigingError, QAError
@@ -217,6 +217,9 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
                               for k, r in lr.readings.items()}, deck=lv.deck, unit=lv.unit,
                 rules=site.config.combined_rules)
             lr.stats["condition"] = lr.condition.stats
+            for sv in site.surveys_of(lid, "corrosion_rate"):
+                _, lr.stats["condition"]["life"] = life_estimates(
+                    sv.frame, lr.surfaces.get("cover"), bar_diameter_mm=params.bar_diameter_mm)
         say(f"level {lid}: laying out repairs and zones")
         lr.repairs, lr.zones, lr.stats["planning"] = plan_level(lv, lr.surfaces, planning)
         levels[lid] = lr

@@ -17,6 +17,37 @@ if TYPE_CHECKING:
 __all__ = ["QuantitiesExporter", "DrawingsExporter", "QUANTITIES_CSV", "QUANTITIES_XLSX"]
 
 QUANTITIES_CSV = "quantities.csv"
+CONDITION_CSV = "condition_areas.csv"
+
+
+def condition_table(result: RunResult) -> pd.DataFrame:
+    """Areas per level and class (ASTM C876, RILEM, combined) and beyond each threshold.
+
+    Kept apart from the bid schedule on purpose: these are condition statements, not
+    bid items, and mixing them into the schedule would invite counting areas twice.
+    """
+    u = report_units(result.site.config.units)
+    rows = []
+    for lid, lr in result.levels.items():
+        for kind, st in lr.stats.items():
+            if kind in ("condition", "planning"):
+                continue
+            for c in st.get("class_areas", []) or []:
+                rows.append({"level_id": lid, "what": f"{kind} class", "class": c["class"],
+                             f"area_{u.area}": float(u.area_from_m2(c["area_m2"])),
+                             "share_of_mapped_area": c["share_of_mapped_area"]})
+        cond = lr.stats.get("condition") or {}
+        for c in cond.get("combined_classes", []):
+            rows.append({"level_id": lid, "what": "combined condition", "class": c["class"],
+                         f"area_{u.area}": float(u.area_from_m2(c["area_m2"]))})
+        for key, a in cond.items():
+            if key.endswith("_area_beyond_threshold"):
+                rows.append({
+                    "level_id": lid, "what": "area likely beyond threshold", "class": a["meaning"],
+                    f"area_{u.area}": float(u.area_from_m2(a["expected_m2"])),
+                    f"interval_90pct_low_{u.area}": float(u.area_from_m2(a["lower_m2"])),
+                    f"interval_90pct_high_{u.area}": float(u.area_from_m2(a["upper_m2"]))})
+    return pd.DataFrame(rows)
 QUANTITIES_XLSX = "quantities.xlsx"
 
 
@@ -52,7 +83,13 @@ class QuantitiesExporter(Exporter):
         from geo_corrosion.quantities import write_quantities_csv
 
         units = report_units(result.site.config.units)
+        from geo_corrosion._io import atomic_write
+
         paths = [write_quantities_csv(result.schedule, out_dir / QUANTITIES_CSV)]
+        cond = condition_table(result)
+        if len(cond):
+            paths.append(atomic_write(out_dir / CONDITION_CSV, lambda tmp: cond.round(3).to_csv(
+                tmp, index=False), what="condition areas CSV"))
         paths.append(write_schedule_xlsx(
             out_dir / QUANTITIES_XLSX, result.schedule,
             {lid: repair_table(result, lid) for lid in result.levels},

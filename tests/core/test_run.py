@@ -30,7 +30,7 @@ def run_out(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, Path]:
 
 def test_outputs_exist(run_out: tuple[Path, Path]) -> None:
     _site, out = run_out
-    for name in ("survey.gpkg", "run.json", "webmap.html", "quantities.csv", "quantities.xlsx",
+    for name in ("survey.gpkg", "run.json", "webmap.html", "quantities.csv", "quantities.xlsx", "condition_areas.csv",
                  "rasters/D1_potential.tif", "rasters/D1_potential_variance.tif"):
         assert (out / name).is_file(), name
     assert not list(out.parent.glob(".out.partial-*"))

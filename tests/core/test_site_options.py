@@ -82,3 +82,24 @@ def test_underivable_readings_become_qa_flags() -> None:
     assert list(flags["rule"]) == ["QA-DERIVE", "QA-DERIVE-NOTE"]
     assert list(flags["severity"]) == ["warning", "info"]
     assert "current is zero" in flags["message"].iloc[0]
+
+
+def test_life_estimates_at_readings() -> None:
+    from types import SimpleNamespace
+
+    import numpy as np
+
+    from geo_corrosion.assessment import life_estimates
+    from geo_corrosion.surfaces import GridSpec
+
+    grid = GridSpec(0.0, 0.0, 1.0, nx=4, ny=4)
+    cover = SimpleNamespace(grid=grid, mean=np.full((4, 4), 50.0))
+    frame = pd.DataFrame({"x_local": [1.5, 2.5], "y_local": [1.5, 2.5], "icorr_ua_cm2": [1.0, 0.0]})
+    out, summary = life_estimates(frame, cover, bar_diameter_mm=12.0)  # type: ignore[arg-type]
+    # LIFE-05 (Alonso et al. 1998, from memory): c 50 mm, phi 12 mm -> 46.36 um; at 1 uA/cm2
+    # (11.6 um/yr, REFERENCE §3.2) -> 46.36 / 11.6 = 4.0 years
+    assert out["time_to_cracking_yr"].iloc[0] == pytest.approx(46.36 / 11.6, rel=2e-3)
+    assert np.isnan(out["time_to_cracking_yr"].iloc[1])
+    # 10 years at 1 uA/cm2: 0.116 mm off the radius of a 12 mm bar -> 1 - (11.768/12)^2 = 3.83 %
+    assert out["section_loss_10yr_pct"].iloc[0] == pytest.approx(100 * (1 - (11.768 / 12) ** 2), rel=5e-3)
+    assert summary["readings_needing_bar_review"] == 0
