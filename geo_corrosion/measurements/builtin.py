@@ -311,7 +311,7 @@ class CorrosionRate(MeasurementKind):
     )
     option_keys: ClassVar[tuple[str, ...]] = (
         "b_mv", "tafel_anodic_mv_dec", "tafel_cathodic_mv_dec", "polarized_area_cm2",
-        "bar_diameter", "confinement_length", "transients", "strict_linearity",
+        "bar_diameter", "confinement_length", "transients", "sweeps", "strict_linearity",
     )
 
     def parse_options(
@@ -386,6 +386,8 @@ class CorrosionRate(MeasurementKind):
                                   "(REFERENCE.md CR-04)")
         if t.has("transients"):
             out["transients_path"] = (root / t.str("transients")).resolve()
+        if t.has("sweeps"):
+            out["sweeps_path"] = (root / t.str("sweeps")).resolve()
         if t.has("strict_linearity"):
             out["strict_linearity"] = t.flag("strict_linearity")
         return out
@@ -394,7 +396,7 @@ class CorrosionRate(MeasurementKind):
         """R_p from ``rp_ohm``, from ``delta_e_mv`` and ``delta_i_ua``, or from transients."""
         cols = set(columns)
         return ("rp_ohm" in cols or {"delta_e_mv", "delta_i_ua"} <= cols
-                or "transients_path" in survey.options)
+                or "transients_path" in survey.options or "sweeps_path" in survey.options)
 
     def derive(
         self, frame: pd.DataFrame, survey: SurveyConfig, params: RunParams
@@ -527,6 +529,28 @@ def _fit_survey_transients(
     return by_loc, record
 
 
+def _read_survey_sweeps(survey: SurveyConfig) -> tuple[dict[str, pd.DataFrame], dict[str, Any]]:
+    """Read the survey's potentiostatic sweeps: CSV ``location_id,e_mv,i_ua`` (long format)."""
+    path: Path = survey.options["sweeps_path"]
+    if not path.is_file():
+        raise IngestError(f"{survey.where}.options.sweeps: sweep file not found: {path}")
+    try:
+        df = pd.read_csv(path, dtype={"location_id": str})
+    except (pd.errors.ParserError, UnicodeDecodeError, pd.errors.EmptyDataError) as err:
+        raise IngestError(f"{path.name}: cannot read sweeps: {err}") from err
+    missing = {"location_id", "e_mv", "i_ua"} - set(df.columns)
+    if missing:
+        raise IngestError(f"{path.name}: sweep file lacks column(s) {sorted(missing)}; expected "
+                          "location_id,e_mv,i_ua")
+    df["location_id"] = df["location_id"].astype(str).str.strip()
+    groups = {k: g for k, g in df.groupby("location_id", sort=False)}
+    return groups, {
+        "correction": "R_p from potentiostatic sweeps (slope of E(I) near the open-circuit potential)",
+        "file": path.name, "locations": len(groups),
+        "source": "ASTM G59 slope at E_corr (REFERENCE.md §3.5), CR-08 linearity",
+    }
+
+
 def _derive_rate(
     frame: pd.DataFrame, survey: SurveyConfig, raw: np.ndarray, msgs: np.ndarray,
     warns: np.ndarray,
@@ -544,6 +568,10 @@ def _derive_rate(
     fits: dict[str, dict[str, Any]] = {}
     if "transients_path" in survey.options:
         fits, rec = _fit_survey_transients(frame, survey, raw, b, area)
+        records.append(rec)
+    sweeps: dict[str, pd.DataFrame] = {}
+    if "sweeps_path" in survey.options:
+        sweeps, rec = _read_survey_sweeps(survey)
         records.append(rec)
     rp_in, r_ohm_in = numeric_column(frame, "rp_ohm"), numeric_column(frame, "r_ohm_ohm")
     de, di = numeric_column(frame, "delta_e_mv"), numeric_column(frame, "delta_i_ua")
@@ -570,6 +598,15 @@ def _derive_rate(
                 b[i], area[i] = fit["b_mv"], fit["area_cm2"]
                 if fit["message"]:
                     notes.append(str(fit["message"]))
+            elif pids[i] in sweeps:
+                from geo_corrosion.condition.corrosion_rate import rp_from_sweep
+
+                source[i] = "potentiostatic sweep"
+                sw = sweeps[pids[i]]
+                res = rp_from_sweep(sw["e_mv"].to_numpy(float), sw["i_ua"].to_numpy(float))
+                rp[i] = (float(ohmic_corrected_rp_ohm(res.rp_ohm, 1000.0, ro))
+                         if np.isfinite(r_ohm_in[i]) else res.rp_ohm)
+                notes.extend(str(w) for w in getattr(res, "warnings", ()))
             elif np.isfinite(de[i]) and np.isfinite(di[i]):
                 source[i] = "delta_e/delta_i"
                 if di[i] == 0:
@@ -591,6 +628,8 @@ def _derive_rate(
             else:
                 where_tr = (f", nor a transient for it in {survey.options['transients_path'].name}"
                             if "transients_path" in survey.options else "")
+                if "sweeps_path" in survey.options:
+                    where_tr += f", nor a sweep in {survey.options['sweeps_path'].name}"
                 raise ConditionError(
                     "no polarization resistance: the reading has no rp_ohm, no delta_e_mv and "
                     f"delta_i_ua{where_tr}"

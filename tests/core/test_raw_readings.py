@@ -285,3 +285,20 @@ def test_transient_linearity(site_dir: Path, strict: bool, warned: bool) -> None
     # REFERENCE.md CR-13: I R_p = 25 mV is within 30 mV, beyond the strict 20 mV: warning only
     assert ("linear range" in f["derive_warning"].iat[0]) is warned
     assert f["derive_message"].iat[0] == "" and np.isfinite(f["icorr_ua_cm2"].iat[0])
+
+
+def test_potentiostatic_sweeps(site_dir: Path) -> None:
+    # a linear sweep of +-15 mV about E_corr = -400 mV through a 1000 ohm polarization
+    # resistance: 1 uA gives 1 mV; Stern-Geary then gives 1.00 uA/cm2 (REFERENCE.md CR-02)
+    i_ua = np.linspace(-15, 15, 31)
+    rows = ["location_id,e_mv,i_ua"] + [f"S1,{-400 + i * 1.0:.4f},{i:.4f}" for i in i_ua]
+    rows += [f"S2,{-300 - i:.4f},{i:.4f}" for i in i_ua]  # negative slope (leads swapped): flagged
+    (site_dir / "readings" / "sweeps.csv").write_text("\n".join(rows) + "\n")
+    _add_survey(site_dir, "W", "corrosion_rate", "uA/cm2",
+                "point_id,x,y,rp_ohm\nS1,5,5,\nS2,9,5,\n",
+                _CR_OPTS + '\nsweeps = "readings/sweeps.csv"')
+    f = _survey(site_dir, "W").frame
+    assert f["rp_ohm"].iat[0] == pytest.approx(1000.0, rel=1e-6)
+    assert f["icorr_ua_cm2"].iat[0] == pytest.approx(1.00, abs=1e-3)
+    assert f["rp_source"].iat[0] == "potentiostatic sweep"
+    assert np.isnan(f["icorr_ua_cm2"].iat[1]) and "point S2" in f["derive_message"].iat[1]
