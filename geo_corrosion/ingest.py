@@ -101,6 +101,17 @@ def _numbers(series: pd.Series, col: str, decimal: str, name: str, rows: list[in
              required: bool) -> np.ndarray:
     s = series.astype(str).str.strip()
     if decimal == ",":
+        # '.' may only be a thousands mark here (1.234,5); anything else is ambiguous
+        dotted = s.str.contains(".", regex=False)
+        thousands = s.str.fullmatch(r"[-+]?\d{1,3}(\.\d{3})+(,\d*)?")
+        bad_dot = dotted & ~thousands.fillna(False)
+        if bad_dot.any():
+            i = int(np.flatnonzero(bad_dot.to_numpy())[0])
+            raise SchemaError(
+                f"{name} {unit_row} {rows[i]}: column {col!r} holds {series.iloc[i]!r} with a "
+                "'.' although this survey's decimal separator is ','; fix the value or set "
+                "decimal = \".\" for this file"
+            )
         s = s.str.replace(".", "", regex=False).str.replace(",", ".", regex=False)
     blank = s.eq("") | s.str.lower().isin(["nan", "na", "none"])
     vals = pd.to_numeric(s.where(~blank), errors="coerce")

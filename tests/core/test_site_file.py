@@ -247,3 +247,20 @@ def test_nearly_closed_and_self_intersecting_outlines_repaired(site_dir: Path, t
     r = run(site_dir, tmp_path / "out", exporters=("geopackage",))
     assert any("outside the slab" in w for w in r.warnings)
     assert any("self-intersecting" in w for w in r.warnings)
+
+
+def test_decimal_comma_file_with_a_stray_point(site_dir: Path) -> None:
+    p = site_dir / "readings" / "resistivity.csv"
+    lines = p.read_text().splitlines()
+    out = [lines[0].replace(",", ";")] + [
+        ";".join(v.replace(".", ",") for v in ln.split(",")) for ln in lines[1:]]
+    out[3] = out[3].rsplit(";", 1)[0] + ";12.5"  # a '.' in a decimal-comma file: ambiguous
+    p.write_text("\n".join(out) + "\n")
+    edit(site_dir / "site.toml", 'unit = "kohm.cm"', 'unit = "kohm.cm"\nseparator = ";"\ndecimal = ","')
+    _fails(site_dir, "resistivity.csv line 4", "'12.5'", "decimal separator is ','")
+    out[3] = out[3].rsplit(";", 1)[0] + ";1.234,5"  # a thousands mark is fine
+    p.write_text("\n".join(out) + "\n")
+    from geo_corrosion.site import open_site
+
+    f = open_site(site_dir).surveys[1].frame
+    assert f["raw_value"].iloc[2] == 1234.5
