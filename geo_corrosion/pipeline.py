@@ -82,6 +82,27 @@ def _derive_flags(s: Any) -> pd.DataFrame:
             rows.append({"reading_id": r.reading_id, "survey_id": r.survey_id,
                          "level_id": r.level_id, "where": r.where, "rule": rule, "severity": sev,
                          "message": getattr(r, col), "value": float("nan")})
+    if getattr(s, "kind", None) is not None and s.kind.name == "potential" \
+            and "temperature_c" in f:
+        from geo_corrosion.corrections import CSE_VALID_C
+
+        t = f["temperature_c"].to_numpy(float)
+        out = np.isfinite(t) & ((t < CSE_VALID_C[0]) | (t > CSE_VALID_C[1]))
+        if out.all() and len(out) and np.unique(t).size == 1:  # one survey temperature
+            out = np.zeros_like(out)
+            rows.append({"reading_id": "", "survey_id": s.config.id, "level_id": s.config.level,
+                         "where": s.config.path.name, "rule": "QA-TEMP-RANGE",
+                         "severity": "warning", "value": float(t[0]),
+                         "message": f"{s.config.path.name}: electrode temperature {t[0]:.1f} "
+                                    "degC is outside 0-49 degC, where ASTM C876's CSE "
+                                    "coefficient holds; the temperature correction is uncertain"})
+        for r, tc in zip(f.loc[out].itertuples(), t[out], strict=True):
+            rows.append({"reading_id": r.reading_id, "survey_id": r.survey_id,
+                         "level_id": r.level_id, "where": r.where, "rule": "QA-TEMP-RANGE",
+                         "severity": "warning", "value": float(tc),
+                         "message": f"{r.where}: electrode temperature {tc:.1f} degC is outside "
+                                    "0-49 degC, where ASTM C876's CSE coefficient holds; the "
+                                    "temperature correction is uncertain"})
     return pd.DataFrame(rows, columns=qa.FLAG_COLUMNS)
 
 

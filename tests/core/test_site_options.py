@@ -103,3 +103,18 @@ def test_life_estimates_at_readings() -> None:
     # 10 years at 1 uA/cm2: 0.116 mm off the radius of a 12 mm bar -> 1 - (11.768/12)^2 = 3.83 %
     assert out["section_loss_10yr_pct"].iloc[0] == pytest.approx(100 * (1 - (11.768 / 12) ** 2), rel=5e-3)
     assert summary["readings_needing_bar_review"] == 0
+
+
+def test_cse_temperature_outside_valid_range_flagged(tmp_path: Path) -> None:
+    # ASTM C876-22a §5.1.1.2: the 0.9 mV/degC coefficient holds from 0 to 49 degC (sourced)
+    from geo_corrosion.pipeline import check_site
+    from geo_corrosion.site import open_site
+    from geo_corrosion.testing import make_synthetic_site
+
+    site = open_site(make_synthetic_site(tmp_path / "s", temperature_c=52.0))
+    flags = check_site(site)
+    hot = flags[flags["rule"] == "QA-TEMP-RANGE"]
+    # one survey temperature: one survey-level flag, not one per reading
+    assert len(hot) == 1 and hot["reading_id"].iloc[0] == "" and hot["value"].iloc[0] == 52.0
+    site = open_site(make_synthetic_site(tmp_path / "t", temperature_c=48.0))
+    assert "QA-TEMP-RANGE" not in set(check_site(site)["rule"])
