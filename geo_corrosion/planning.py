@@ -103,7 +103,8 @@ def plan_level(level: Level, surfaces: dict[str, KindSurface], params: PlanningP
                 warnings.warn(f"{f.where}: {kind} lies outside the slab of level {level.id}; "
                               "it is not repaired (check the layer's coordinates)",
                               GeometryWarning, stacklevel=2)
-    rows = [{"source_id": f.where.split(": ", 1)[-1], "kind": k, "geometry": f.geometry}
+    rows = [{"source_id": f.where.split(": ", 1)[-1], "kind": k, "geometry": f.geometry,
+             "delam_depth_mm": np.nan if f.depth_mm is None else f.depth_mm}
             for k in ("delamination", "spall") for f in level.overlays.get(k, ())]
     repairs = None
     if rows:

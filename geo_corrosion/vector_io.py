@@ -39,6 +39,7 @@ class Feature:
     geometry: BaseGeometry
     where: str  # "plans/L2.dxf layer DELAM entity #3 (handle 2A)"
     label: str = ""
+    depth_mm: float | None = None  # delamination depth where the layer gives it, mm
 
 
 def _check_file(ref: LayerRef) -> None:
@@ -134,13 +135,30 @@ def _gis_features(ref: LayerRef, site_crs: object) -> tuple[list[tuple[BaseGeome
         if not gdf.crs.equals(site_crs):
             gdf = gdf.to_crs(site_crs)
     label_col = next((c for c in ("label", "name", "id") if c in gdf.columns), None)
+    depth = _depth_mm_column(gdf, ref)
     feats = []
     for i, geom in enumerate(gdf.geometry):
         if geom is None or geom.is_empty:
             continue
         label = str(gdf[label_col].iloc[i]) if label_col else ""
-        feats.append((geom, f"{ref.path.name} feature #{i + 1}", label))
+        feats.append((geom, f"{ref.path.name} feature #{i + 1}", label, depth[i]))
     return feats, gdf.crs
+
+
+def _depth_mm_column(gdf: object, ref: LayerRef) -> list[float | None]:
+    """Delamination depth per feature from a ``depth_mm`` or ``depth_in`` attribute."""
+    import pandas as pd
+
+    for col, factor in (("depth_mm", 1.0), ("depth_in", 25.4)):
+        if col in gdf.columns:  # type: ignore[attr-defined]
+            vals = pd.to_numeric(gdf[col], errors="coerce")  # type: ignore[index]
+            bad = vals.isna() & gdf[col].notna()  # type: ignore[index]
+            if bad.any():
+                i = int(bad.to_numpy().nonzero()[0][0])
+                raise IngestError(f"{ref.where}: {ref.path.name} feature #{i + 1}: {col} holds "
+                                  f"{gdf[col].iloc[i]!r}, not a number")  # type: ignore[index]
+            return [None if pd.isna(v) else float(v) * factor for v in vals]
+    return [None] * len(gdf)  # type: ignore[arg-type]
 
 
 def read_layer(ref: LayerRef, grid: LocalGrid, *, site_crs: object = None) -> list[Feature]:
@@ -158,13 +176,14 @@ def read_layer(ref: LayerRef, grid: LocalGrid, *, site_crs: object = None) -> li
         f = LENGTH_TO_M[unit] / LENGTH_TO_M[target]
         if f != 1.0:
             raw = [(shapely.affinity.scale(g, f, f, origin=(0, 0)), w, lab) for g, w, lab in raw]
+        raw = [(*r, None) for r in raw]
     else:
         raw, _ = _gis_features(ref, site_crs)
     feats = []
-    for g, w, lab in raw:
+    for g, w, lab, dep in raw:
         if ref.coords == "site":
             g = grid.geom_to_local(g)
-        feats.append(Feature(g, f"{ref.where}: {w}", lab))
+        feats.append(Feature(g, f"{ref.where}: {w}", lab, dep))
     return feats
 
 
@@ -203,7 +222,7 @@ def read_polygons(
                 warnings.warn(f"{f.where}: outline was not closed (ends {ends:.3g} apart); "
                               "closed it", GeometryWarning, stacklevel=2)
                 g = Polygon(list(g.coords))
-                f = Feature(g, f.where + " (closed)", f.label)
+                f = Feature(g, f.where + " (closed)", f.label, f.depth_mm)
             else:
                 open_lines.append(f)
                 continue
@@ -223,10 +242,10 @@ def read_polygons(
                     )
                 warnings.warn(f"{f.where}: self-intersecting outline ({reason}) repaired into "
                               f"{len(parts)} polygon(s)", GeometryWarning, stacklevel=2)
-                out.extend(Feature(p, f.where + " (self-intersection repaired)", f.label)
+                out.extend(Feature(p, f.where + " (self-intersection repaired)", f.label, f.depth_mm)
                            for p in parts)
             elif poly.area > 0:
-                out.append(Feature(poly, f.where, f.label))
+                out.append(Feature(poly, f.where, f.label, f.depth_mm))
     if not out:
         raise IngestError(
             f"{ref.where}: no closed {what} found in {ref.path.name}"

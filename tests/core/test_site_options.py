@@ -118,3 +118,23 @@ def test_cse_temperature_outside_valid_range_flagged(tmp_path: Path) -> None:
     assert len(hot) == 1 and hot["reading_id"].iloc[0] == "" and hot["value"].iloc[0] == 52.0
     site = open_site(make_synthetic_site(tmp_path / "t", temperature_c=48.0))
     assert "QA-TEMP-RANGE" not in set(check_site(site)["rule"])
+
+
+def test_delamination_depth_attribute_sets_depth_class(site_dir: Path, tmp_path: Path) -> None:
+    # a GeoJSON delamination with depth_in = 0.5: shallower than the 38 mm default cover less
+    # the bar, so the repair stays above the bars (REFERENCE §6.3; ICRI 310.1R via §6.2)
+    import json
+
+    (site_dir / "sounding" / "shallow.geojson").write_text(json.dumps({
+        "type": "FeatureCollection", "features": [{"type": "Feature",
+        "properties": {"label": "D9", "depth_in": 0.5},
+        "geometry": {"type": "Polygon", "coordinates": [[[30, 30], [34, 30], [34, 33],
+                                                          [30, 33], [30, 30]]]}}]}))
+    edit(site_dir / "site.toml", 'overlays = [ ', 'overlays = [ { kind = "delamination", '
+         'path = "sounding/shallow.geojson" }, ')
+    r = run(site_dir, tmp_path / "out", exporters=("geopackage",))
+    rep = r.levels["D1"].repairs
+    row = rep[rep["source_ids"].str.contains("shallow.geojson")]
+    assert list(row["depth_class"]) == ["partial_above_bars"]
+    others = rep[~rep["source_ids"].str.contains("shallow.geojson")]
+    assert set(others["depth_class"]) == {"partial_below_bars"}
