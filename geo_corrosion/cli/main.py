@@ -154,8 +154,10 @@ def run(site: Path, out: Path | None, overwrite: bool, quiet: bool) -> None:
     for f in sorted(result.files) + ["run.json"]:
         click.echo(f"  {f}")
     if len(result.schedule):
-        click.echo("")
-        click.echo(result.schedule.to_string(index=False))
+        from geo_corrosion.quantities import schedule_table
+
+        click.echo("\nschedule of quantities (estimates for bidding):")
+        click.echo(schedule_table(result.schedule).round(1).to_string(index=False))
 
 
 @cli.command()
@@ -179,7 +181,9 @@ def quantities(run_dir: Path) -> None:
         return
     import pandas as pd
 
-    click.echo(pd.DataFrame(rows).to_string(index=False))
+    from geo_corrosion.quantities import schedule_table
+
+    click.echo(schedule_table(pd.DataFrame(rows)).round(1).to_string(index=False))
     click.echo("\n" + data["cautions"][3])
 
 
