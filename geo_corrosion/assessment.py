@@ -88,9 +88,12 @@ def life_estimates(frame: pd.DataFrame, cover: KindSurface | None, *,
     * Section loss of the bar after :data:`SERVICE_HORIZON_YEARS` at the measured
       rate (uniform attack, Faraday's law; REFERENCE.md §4.1), with the 25 %
       engineer-review trigger (UFGS 03931, LIFE-03).
-    * Time from now to the first visible crack (0.05 mm) after Alonso et al.
+    * Propagation time to the first visible crack (0.05 mm) after Alonso et al.
       (1998), x_crit = 7.53 + 9.32 c/phi um (from memory, REFERENCE.md §4.2), with
-      the cover c read off the kriged cover surface at the reading.
+      the cover c read off the kriged cover surface at the reading.  It is counted
+      from corrosion initiation at the measured rate; it is **not** the time left from
+      today (the corrosion that already took place is unknown), so it is an upper
+      bound of the time left.
     """
     from geo_corrosion.condition.life import section_loss, time_to_cracking_years
 
@@ -121,7 +124,11 @@ def life_estimates(frame: pd.DataFrame, cover: KindSurface | None, *,
     return frame, {
         "bar_diameter_mm": bar_diameter_mm, "horizon_years": SERVICE_HORIZON_YEARS,
         "readings_needing_bar_review": int(review.sum()),
+        "readings": int(len(i)),
         "median_time_to_cracking_yr": float(np.nanmedian(t)) if np.isfinite(t).any() else None,
+        "time_to_cracking_meaning": "propagation time from corrosion initiation to the first "
+                                    "visible crack at the measured rate; not the time left from "
+                                    "today (an upper bound of it)",
         "sources": ["Faraday's law, REFERENCE.md §3.2/§4.1", "UFGS 03931 (25 % section loss)",
                     "Alonso et al. 1998, Materials and Structures 31 (from memory)"],
     }
@@ -145,7 +152,8 @@ def _polygons(codes: NDArray[np.int64], surface: KindSurface, labels: list[tuple
 
 def assess_level(surfaces: dict[str, KindSurface], readings: dict[str, NDArray[np.float64]],
                  *, deck: Any, unit: str, seed: int = 0,
-                 rules: dict[str, Any] | None = None) -> LevelCondition:
+                 rules: dict[str, Any] | None = None,
+                 low_cover: NDArray[np.bool_] | None = None) -> LevelCondition:
     """Probability maps, area intervals, mixture threshold and combined classes of a level.
 
     Parameters
@@ -158,6 +166,10 @@ def assess_level(surfaces: dict[str, KindSurface], readings: dict[str, NDArray[n
         Slab minus exclusions, local grid units.
     unit : str
         Local grid unit.
+    low_cover : ndarray of bool, optional
+        Low cover per cell of the surfaces' grid (kriged cover below the level's
+        low-cover threshold); cells without a cover value must be ``False``.  ``None``
+        when the level has no cover surface: rules on low cover then never match.
     """
     out = LevelCondition()
     a2 = LENGTH_TO_M[unit] ** 2
@@ -201,7 +213,7 @@ def assess_level(surfaces: dict[str, KindSurface], readings: dict[str, NDArray[n
     if given:
         res = combine(table, potential_mv=given.get("potential"),
                       resistivity_kohm_cm=given.get("resistivity"),
-                      icorr_ua_cm2=given.get("corrosion_rate"))
+                      icorr_ua_cm2=given.get("corrosion_rate"), low_cover=low_cover)
         first = next(iter(surfaces.values()))
         codes = np.where(np.isfinite(next(iter(given.values()))), res.codes, -1)
         labels = [(c.key, c.label, c.color) for c in table.classes]

@@ -35,7 +35,7 @@ from geo_corrosion.config import SiteConfig, read_site
 from geo_corrosion.errors import ExportError, GeoCorrosionWarning, KrigingError, QAError
 from geo_corrosion.mapping import build_surface, mappable_readings
 from geo_corrosion.model import Site
-from geo_corrosion.planning import PlanningParams, plan_level
+from geo_corrosion.planning import PlanningParams, low_cover_threshold_mm, plan_level
 from geo_corrosion.quantities import bid_schedule
 from geo_corrosion.repair import LayoutParams
 from geo_corrosion.results import LevelResult, RunResult
@@ -48,7 +48,8 @@ log = logging.getLogger(__name__)
 Progress = Callable[[str], None]
 MANIFEST_NAME = "run.json"
 MIN_READINGS_FOR_SURFACE = 30
-DEFAULT_EXPORTERS = ("geopackage", "geotiff", "quantities", "drawings", "plots", "webmap")
+DEFAULT_EXPORTERS = ("geopackage", "geotiff", "quantities", "drawings", "plots", "webmap",
+                     "report")
 
 
 def check_parameters(cfg: SiteConfig) -> None:
@@ -233,14 +234,22 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
             lr.stats[name] = entry
         if lr.surfaces:
             say(f"level {lid}: condition assessment")
+            cov = lr.surfaces.get("cover")
+            low_cover = None
+            if cov is not None:
+                thr_mm, _src = low_cover_threshold_mm(lv)
+                low_cover = np.nan_to_num(cov.mean, nan=np.inf) < thr_mm
             lr.condition = assess_level(
                 lr.surfaces, {k: r[lr.surfaces[k].kind.value_column].to_numpy(float)
                               for k, r in lr.readings.items()}, deck=lv.deck, unit=lv.unit,
-                rules=site.config.combined_rules)
+                rules=site.config.combined_rules, low_cover=low_cover)
             lr.stats["condition"] = lr.condition.stats
+            life = {}
             for sv in site.surveys_of(lid, "corrosion_rate"):
-                _, lr.stats["condition"]["life"] = life_estimates(
-                    sv.frame, lr.surfaces.get("cover"), bar_diameter_mm=params.bar_diameter_mm)
+                _, life[sv.id] = life_estimates(
+                    sv.frame, cov, bar_diameter_mm=params.bar_diameter_mm)
+            if life:
+                lr.stats["condition"]["life"] = life
         say(f"level {lid}: laying out repairs and zones")
         lr.repairs, lr.zones, lr.stats["planning"] = plan_level(lv, lr.surfaces, planning)
         levels[lid] = lr

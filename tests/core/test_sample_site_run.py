@@ -6,6 +6,7 @@ import json
 import shutil
 from pathlib import Path
 
+import numpy as np
 import pytest
 from click.testing import CliRunner
 
@@ -57,3 +58,57 @@ def test_broken_copy_fails_cleanly(tmp_path: Path) -> None:
     assert res.exit_code == 1
     assert "L2_resistivity.csv" in res.output and "Traceback" not in res.output
     assert not (tmp_path / "out").exists()
+
+
+@pytest.fixture(scope="module")
+def sample_result():  # type: ignore[no-untyped-def]
+    """The sample site processed in memory (no outputs written)."""
+    from geo_corrosion.pipeline import check_site, process
+    from geo_corrosion.site import open_site
+
+    site = open_site(SAMPLE)
+    return process(site, check_site(site))
+
+
+@pytest.mark.slow
+def test_low_cover_reaches_the_combined_classes(sample_result) -> None:  # type: ignore[no-untyped-def]
+    # REFERENCE.md §5.3 item 2: low cover together with a high corrosion likelihood is the
+    # highest priority.  Default rule 1: low cover and potential < -350 mV CSE (ASTM C876)
+    # -> High priority.  The low-cover mask is recomputed here from the kriged cover and the
+    # specified cover minus its tolerance (2 in - 0.5 in = 38.1 mm; 1 in = 25.4 mm exactly).
+    from geo_corrosion.condition.combined import DEFAULT_RULES
+
+    hp = [c.key for c in DEFAULT_RULES.classes].index("high_priority")
+    checked = overlap = 0
+    for lid, lr in sample_result.levels.items():
+        pot, cov = lr.surfaces["potential"], lr.surfaces.get("cover")
+        if cov is None:
+            continue
+        low = np.nan_to_num(cov.mean, nan=np.inf) < 1.5 * 25.4
+        both = low & (pot.mean < -350.0)
+        codes = lr.condition.combined_codes
+        overlap += int(both.sum())
+        assert (codes[both] == hp).all(), lid
+        # and no high-priority cell without a reason for it (rules 1-3 of the default table)
+        rate = lr.surfaces.get("corrosion_rate")
+        res = lr.surfaces.get("resistivity")
+        reason = both | (low & (res.mean < 10.0) if res is not None else False)
+        if rate is not None:
+            reason |= rate.mean > 1.0
+        assert not (codes == hp)[~reason].any(), lid
+        checked += 1
+    assert checked and overlap  # the sample site has low-cover cells with high potentials
+
+
+@pytest.mark.slow
+def test_life_summary_is_given_per_corrosion_rate_survey(sample_result) -> None:  # type: ignore[no-untyped-def]
+    # Alonso et al. 1998 (REFERENCE.md §4.2, from memory): the time is counted from initiation
+    site = sample_result.site
+    for lid, lr in sample_result.levels.items():
+        surveys = [s.id for s in site.surveys_of(lid, "corrosion_rate")]
+        life = lr.stats["condition"].get("life", {})
+        assert sorted(life) == sorted(surveys)
+        for sid, summary in life.items():
+            n = len(next(s for s in site.surveys if s.id == sid).frame)
+            assert summary["readings"] == n
+            assert "initiation" in summary["time_to_cracking_meaning"]
