@@ -55,7 +55,7 @@ def main() -> None:
     rows.append(("experimental_variogram", t, m,
                  f"{ev.n_readings_used} readings, {ev.n_pairs} pairs"))
     t, m, fit = _measure(lambda: fit_variogram(x, y, z), a.repeat)
-    rows.append(("fit_variogram (4 models + CV)", t, m,
+    rows.append(("fit_variogram (estimate+4 fits+CV)", t, m,
                  f"{fit.model.name} range {fit.model.range:.2f} sill {fit.model.sill:.1f}"))
     if not a.skip_gstools:
         import gstools as gs
@@ -73,9 +73,9 @@ def main() -> None:
         rows.append(("gstools estimate+fit (1 model)", t, m,
                      f"spherical len_scale {mod.len_scale:.2f} sill {mod.var + mod.nugget:.1f}"))
     print(f"readings {a.n_readings}")
-    print(f"{'step':<32}{'time_s':>9}{'traced_MB':>11}  result")
+    print(f"{'step':<36}{'time_s':>9}{'traced_MB':>11}  result")
     for r in rows:
-        print(f"{r[0]:<32}{r[1]:>9.3f}{r[2]:>11.1f}  {r[3]}")
+        print(f"{r[0]:<36}{r[1]:>9.3f}{r[2]:>11.1f}  {r[3]}")
 
 
 if __name__ == "__main__":
