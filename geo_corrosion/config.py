@@ -11,7 +11,9 @@ commented template.
 
 from __future__ import annotations
 
+import dataclasses
 import difflib
+import math
 import re
 import tomllib
 from collections.abc import Mapping
@@ -35,6 +37,7 @@ __all__ = [
     "SiteConfig",
     "read_site",
     "parse_length",
+    "parse_area",
     "site_crs",
     "OptionsTable",
 ]
@@ -65,7 +68,72 @@ def parse_length(value: object, *, where: str) -> float:
         unit = normalize_unit(m.group(2), accepted=tuple(LENGTH_TO_M))
     except UnitError as err:
         raise SiteFileError(f"{where}: {err}") from err
-    return round(float(m.group(1)) * LENGTH_TO_M[unit], 12)
+    number = float(m.group(1))
+    if not math.isfinite(number):
+        raise SiteFileError(f"{where}: {value!r} is not a finite length; give a length such as "
+                            "\"150 mm\"")
+    return round(number * LENGTH_TO_M[unit], 12)
+
+
+#: Area units accepted in the site file (``<length unit>2``), in m2 per unit.
+AREA_TO_M2: dict[str, float] = {f"{u}2": f * f for u, f in LENGTH_TO_M.items()}
+
+_AREA_EXAMPLE = "such as \"5 ft2\" or \"0.5 m2\""
+
+
+def parse_area(value: object, *, where: str) -> float:
+    """Parse an area with its unit (``"5 ft2"``, ``"0.5 m2"``) into m2.
+
+    The unit is a length unit of :data:`~geo_corrosion.units.LENGTH_TO_M` followed by ``2``
+    (``m2``, ``cm2``, ``mm2``, ``ft2``, ``us-ft2``, ``in2``), case-insensitive; ``"²"`` and
+    ``"^2"`` may stand for the ``2``.  A bare number is refused, as for lengths, and so are
+    ``"sq ft"`` and ``"sqft"`` (:mod:`geo_corrosion.units` has no such unit).
+
+    Parameters
+    ----------
+    value : object
+        The value as read from TOML.
+    where : str
+        The file and key, for messages.
+
+    Returns
+    -------
+    float
+        The area in m2 (0 or more).
+
+    Raises
+    ------
+    SiteFileError
+        Naming ``where``, for anything else, a negative or a non-finite area.
+
+    Examples
+    --------
+    >>> round(parse_area("5 ft2", where=""), 6)
+    0.464515
+    >>> parse_area("0.5 m²", where="")
+    0.5
+    """
+    if isinstance(value, bool) or not isinstance(value, str):
+        hint = (f" (a bare number is refused: write \"{value} m2\" or \"{value} ft2\")"
+                if isinstance(value, int | float) and not isinstance(value, bool) else "")
+        raise SiteFileError(f"{where}: expected an area with its unit as a string, "
+                            f"{_AREA_EXAMPLE}; got {value!r}{hint}")
+    m = re.fullmatch(r"\s*([-+]?\d+(?:\.\d*)?(?:[eE][-+]?\d+)?)\s*([A-Za-z\-_]+)(?:2|²|\^2)\s*",
+                     value)
+    units = ", ".join(AREA_TO_M2)
+    if not m:
+        raise SiteFileError(f"{where}: cannot read {value!r} as an area {_AREA_EXAMPLE}; "
+                            f"write a number and one of the units {units}")
+    try:
+        base = normalize_unit(m.group(2), accepted=tuple(LENGTH_TO_M))
+    except UnitError as err:
+        raise SiteFileError(f"{where}: unknown area unit in {value!r}; expected one of: "
+                            f"{units}") from err
+    number = float(m.group(1))
+    if not math.isfinite(number) or number < 0:
+        raise SiteFileError(f"{where}: expected an area of 0 or more, {_AREA_EXAMPLE}; "
+                            f"got {value!r}")
+    return round(number * AREA_TO_M2[f"{base}2"], 12)
 
 
 def site_crs(text: object, *, where: str) -> tuple[pyproj.CRS, str]:
@@ -210,7 +278,11 @@ class SurveyConfig:
 
 @dataclass(frozen=True)
 class RunParams:
-    """Parameters of a run; lengths in metres."""
+    """Parameters of a run, from ``[run]`` and ``[webmap]``.
+
+    Lengths are in metres, or in mm as named.  :func:`dataclasses.asdict` of it is written to
+    ``run.json`` as ``parameters``, where the exporters read it.
+    """
 
     cell_size_m: float = 0.3048
     max_distance_m: float = 1.8288
@@ -235,6 +307,10 @@ class RunParams:
     zone_smoothing_m: float = 0.15
     #: kind -> fixed variogram parameters (``range_m`` in metres), from [run.variogram.<kind>]
     variogram: dict[str, dict[str, Any]] = field(default_factory=dict)
+    #: [webmap].basemap_url: street-tile URL template (https, with {z}, {x}, {y}); None = none
+    basemap_url: str | None = None
+    #: [webmap].basemap_attribution: the tiles' attribution, shown on the map
+    basemap_attribution: str | None = None
 
 
 @dataclass(frozen=True)
@@ -304,17 +380,27 @@ class _Table:
             )
         return v
 
+    def text(self, name: str, default: str = "") -> str:
+        """Return free text: any string, the empty one included (``notes = ""``)."""
+        v = self.data.get(name, default)
+        if not isinstance(v, str):
+            raise SiteFileError(f"{self.key(name)}: expected a string, got {v!r}")
+        return v
+
     def opt_str(self, name: str) -> str | None:
         return self.str(name) if name in self.data else None
 
-    def num(self, name: str, default: float | None = None, *, positive: bool = False) -> float:
+    def num(self, name: str, default: float | None = None, *, positive: bool = False,
+            finite: bool = False) -> float:
         if name not in self.data:
             if default is None:
                 raise SiteFileError(f"{self.key(name)}: missing; expected a number")
             return default
         v = self.data[name]
-        if isinstance(v, bool) or not isinstance(v, int | float):
+        if isinstance(v, bool) or not isinstance(v, int | float) or math.isnan(v):
             raise SiteFileError(f"{self.key(name)}: expected a number, got {v!r}")
+        if finite and not math.isfinite(v):
+            raise SiteFileError(f"{self.key(name)}: expected a finite number, got {v!r}")
         if positive and not v > 0:
             raise SiteFileError(f"{self.key(name)}: expected a positive number, got {v!r}")
         return float(v)
@@ -549,71 +635,185 @@ def _survey_options(t: _Table, kind: str, root: Path) -> dict[str, Any]:
     return dict(kind_obj.parse_options(raw, where=where, root=root))
 
 
+#: [run] key -> the :class:`~geo_corrosion.repair.LayoutParams` field that checks its range
+_LAYOUT_FIELDS = {
+    "repair_margin": "margin_mm", "merge_gap": "merge_gap_mm", "min_repair_size": "min_size_mm",
+    "bar_diameter": "bar_diameter_mm", "max_aggregate": "max_aggregate_mm",
+    "slab_thickness": "slab_thickness_mm", "sawcut_depth": "sawcut_depth_mm",
+    "axis_angle_deg": "axis_angle_deg",
+}
+
+
+def _check_layout(t: _Table, values: dict[str, float | None]) -> None:
+    """Check each layout key of [run] against the repair layout's own limits.
+
+    Each value is tried alone in a :class:`~geo_corrosion.repair.LayoutParams` (the others at
+    their defaults), so the message names the site-file key that is out of range.
+    """
+    from geo_corrosion.errors import RepairError
+    from geo_corrosion.repair import LayoutParams
+
+    for key, fld in _LAYOUT_FIELDS.items():
+        if not t.has(key):
+            continue
+        try:
+            LayoutParams(**{fld: values[fld]})
+        except RepairError as err:
+            raise SiteFileError(f"{t.key(key)}: {t.data[key]!r} is out of range ({err})") from err
+
+
+def _variogram(t: _Table) -> dict[str, dict[str, Any]]:
+    """Read the [run.variogram.<kind>] tables; the kinds are those of the kind registry."""
+    from geo_corrosion.errors import PluginError
+    from geo_corrosion.plugins import MEASUREMENTS
+
+    vt = t.data.get("variogram", {})
+    if not isinstance(vt, dict):
+        raise SiteFileError(f"{t.key('variogram')}: expected tables such as "
+                            "[run.variogram.potential]")
+    file = t.where.removesuffix(": [run]")
+    fixed: dict[str, dict[str, Any]] = {}
+    for kind, spec in vt.items():
+        w = f"{file}: [run.variogram.{kind}]"
+        if kind not in MEASUREMENTS.load():
+            known = MEASUREMENTS.names()
+            close = difflib.get_close_matches(kind, known, n=1)
+            hint = f"; did you mean {close[0]!r}?" if close else ""
+            raise SiteFileError(
+                f"{w}: unknown measurement kind {kind!r}{hint} Known kinds: {', '.join(known)}. "
+                "Name the table [run.variogram.<kind>] after one of them")
+        try:
+            MEASUREMENTS.get(kind)  # a plugin kind that failed to load raises here
+        except PluginError as err:
+            raise SiteFileError(f"{w}: {err}") from err
+        kt = _Table(spec, w, _VARIOGRAM_KEYS)
+        fx: dict[str, Any] = {}
+        if kt.has("model"):
+            fx["model"] = kt.str("model", choices=VARIOGRAM_MODELS[1:])
+        for k in ("nugget", "psill", "shape", "anisotropy_ratio", "anisotropy_angle_deg"):
+            if kt.has(k):
+                fx[k] = kt.num(k, finite=True)
+        for k in ("nugget", "psill"):
+            if fx.get(k, 0.0) < 0:
+                raise SiteFileError(f"{kt.key(k)}: expected a number of 0 or more (value unit "
+                                    f"squared of the kriged variable), got {fx[k]!r}")
+        if fx.get("nugget") == 0 and fx.get("psill") == 0:
+            raise SiteFileError(f"{w}: nugget and psill are both 0, so the variogram has no sill; "
+                                "give a positive value to one of them, or leave one to be fitted")
+        if "anisotropy_ratio" in fx and not 0 < fx["anisotropy_ratio"] <= 1:
+            raise SiteFileError(f"{kt.key('anisotropy_ratio')}: expected the minor/major range "
+                                f"ratio, more than 0 and at most 1, got {fx['anisotropy_ratio']!r}")
+        if "shape" in fx:
+            from geo_corrosion.surfaces.variogram import _SHAPE_BOUNDS
+
+            lo, hi = _SHAPE_BOUNDS["matern"]
+            if fx.get("model", "matern") != "matern":
+                raise SiteFileError(f"{kt.key('shape')}: shape is the Matern smoothness and "
+                                    f"applies only to model = \"matern\", not {fx['model']!r}")
+            if not lo <= fx["shape"] <= hi:
+                raise SiteFileError(f"{kt.key('shape')}: expected a Matern shape from {lo:g} to "
+                                    f"{hi:g}, got {fx['shape']!r}")
+        if kt.has("range"):
+            fx["range_m"] = kt.length("range", 0.0)
+        fixed[str(kind)] = fx
+    return fixed
+
+
 def _run(data: object, where: str) -> RunParams:
     t = _Table(data, where, _RUN_KEYS)
     d = RunParams()
     contingency = t.num("contingency", d.contingency)
     if not 0 <= contingency <= 1:
         raise SiteFileError(f"{t.key('contingency')}: expected a fraction 0..1 (0.2 = 20 %)")
-    n_nb = t.num("n_neighbors", d.n_neighbors, positive=True)
+    n_nb = t.num("n_neighbors", d.n_neighbors, positive=True, finite=True)
     if n_nb != int(n_nb) or n_nb < 3:
         raise SiteFileError(f"{t.key('n_neighbors')}: expected a whole number of at least 3")
     flag = t.data.get("correct_only_outside_band", d.correct_only_outside_band)
     if not isinstance(flag, bool):
         raise SiteFileError(f"{t.key('correct_only_outside_band')}: expected true or false")
-    fixed: dict[str, dict[str, Any]] = {}
-    vt = t.data.get("variogram", {})
-    if not isinstance(vt, dict):
-        raise SiteFileError(f"{t.key('variogram')}: expected tables such as [run.variogram.potential]")
-    for kind, spec in vt.items():
-        kt = _Table(spec, f"{t.key('variogram')}.{kind}", _VARIOGRAM_KEYS)
-        fx: dict[str, Any] = {}
-        if kt.has("model"):
-            fx["model"] = kt.str("model", choices=VARIOGRAM_MODELS[1:])
-        for k in ("nugget", "psill", "shape", "anisotropy_ratio", "anisotropy_angle_deg"):
-            if kt.has(k):
-                fx[k] = kt.num(k)
-        if kt.has("range"):
-            fx["range_m"] = kt.length("range", 0.0)
-        fixed[str(kind)] = fx
+    fixed = _variogram(t)
+
     def _mm(name: str, default: float | None) -> float | None:
         return t.length(name, 0.0) * 1000.0 if t.has(name) else default
 
-    min_zone = t.data.get("min_zone_area")
-    if min_zone is not None:
-        m = re.fullmatch(r"\s*(\d+(?:\.\d*)?)\s*(m2|ft2)\s*", str(min_zone))
-        if not m:
-            raise SiteFileError(f"{t.key('min_zone_area')}: expected an area such as \"5 ft2\" "
-                                f"or \"0.5 m2\"; got {min_zone!r}")
-        min_zone_m2 = float(m.group(1)) * (1.0 if m.group(2) == "m2" else 0.3048**2)
-    else:
-        min_zone_m2 = d.min_zone_area_m2
+    layout: dict[str, Any] = {
+        "margin_mm": t.length("repair_margin", d.repair_margin_m) * 1000.0,
+        "merge_gap_mm": t.length("merge_gap", d.merge_gap_m) * 1000.0,
+        "min_size_mm": t.length("min_repair_size", d.min_repair_size_m) * 1000.0,
+        "bar_diameter_mm": _mm("bar_diameter", d.bar_diameter_mm),
+        "max_aggregate_mm": _mm("max_aggregate", d.max_aggregate_mm),
+        "slab_thickness_mm": _mm("slab_thickness", None),
+        "sawcut_depth_mm": _mm("sawcut_depth", d.sawcut_depth_mm),
+        "axis_angle_deg": t.num("axis_angle_deg", d.axis_angle_deg, finite=True),
+    }
+    _check_layout(t, layout)
+    min_zone_m2 = (parse_area(t.data["min_zone_area"], where=t.key("min_zone_area"))
+                   if t.has("min_zone_area") else d.min_zone_area_m2)
     return RunParams(
-        bar_diameter_mm=_mm("bar_diameter", d.bar_diameter_mm) or d.bar_diameter_mm,
-        max_aggregate_mm=_mm("max_aggregate", d.max_aggregate_mm) or d.max_aggregate_mm,
-        slab_thickness_mm=_mm("slab_thickness", None),
-        sawcut_depth_mm=_mm("sawcut_depth", d.sawcut_depth_mm) or d.sawcut_depth_mm,
-        axis_angle_deg=t.num("axis_angle_deg", d.axis_angle_deg),
+        bar_diameter_mm=layout["bar_diameter_mm"],
+        max_aggregate_mm=layout["max_aggregate_mm"],
+        slab_thickness_mm=layout["slab_thickness_mm"],
+        sawcut_depth_mm=layout["sawcut_depth_mm"],
+        axis_angle_deg=layout["axis_angle_deg"],
         anode_spacing_mm=_mm("anode_spacing", None),
         min_zone_area_m2=min_zone_m2,
         zone_smoothing_m=t.length("zone_smoothing", d.zone_smoothing_m),
         variogram=fixed,
         cell_size_m=t.length("cell_size", d.cell_size_m),
         max_distance_m=t.length("max_distance", d.max_distance_m),
-        contour_interval_mv=t.num("contour_interval_mv", d.contour_interval_mv, positive=True),
+        contour_interval_mv=t.num("contour_interval_mv", d.contour_interval_mv, positive=True,
+                                  finite=True),
         repair_margin_m=t.length("repair_margin", d.repair_margin_m),
         merge_gap_m=t.length("merge_gap", d.merge_gap_m),
         min_repair_size_m=t.length("min_repair_size", d.min_repair_size_m),
         contingency=contingency,
         n_neighbors=int(n_nb),
         variogram_model=t.str("variogram_model", d.variogram_model, choices=VARIOGRAM_MODELS),
-        resistivity_reference_c=t.num("resistivity_reference_c", d.resistivity_reference_c),
+        resistivity_reference_c=t.num("resistivity_reference_c", d.resistivity_reference_c,
+                                      finite=True),
         activation_energy_kj_mol=t.num(
-            "activation_energy_kj_mol", d.activation_energy_kj_mol, positive=True
+            "activation_energy_kj_mol", d.activation_energy_kj_mol, positive=True, finite=True
         ),
-        cse_reference_c=t.num("cse_reference_c", d.cse_reference_c),
+        cse_reference_c=t.num("cse_reference_c", d.cse_reference_c, finite=True),
         correct_only_outside_band=flag,
     )
+
+
+_WEBMAP_KEYS = ("basemap_url", "basemap_attribution")
+
+
+def _webmap(data: object, where: str) -> dict[str, str | None]:
+    """Read the [webmap] table: an optional street basemap for ``webmap.html``.
+
+    Returns
+    -------
+    dict
+        ``basemap_url`` and ``basemap_attribution`` (None when not given), for :class:`RunParams`.
+    """
+    t = _Table(data, where, _WEBMAP_KEYS)
+    url = t.opt_str("basemap_url")
+    attribution = t.opt_str("basemap_attribution")
+    if url is not None:
+        missing = [p for p in ("{z}", "{x}", "{y}") if p not in url]
+        if not url.startswith("https://") or missing:
+            why = (f"it lacks {', '.join(missing)}" if url.startswith("https://")
+                   else "it does not start with https://")
+            raise SiteFileError(
+                f"{t.key('basemap_url')}: {url!r} is not a tile URL template ({why}); give an "
+                "https:// URL with {z}, {x} and {y}, such as "
+                "\"https://tile.example.org/{z}/{x}/{y}.png\", or remove the key")
+        if re.search(r"[\s\"'<>`\\]", url):
+            raise SiteFileError(f"{t.key('basemap_url')}: {url!r} holds a space, quote, angle "
+                                "bracket or backslash; a tile URL template has none")
+        if attribution is None:
+            raise SiteFileError(
+                f"{t.key('basemap_attribution')}: missing; a basemap_url needs the tiles' "
+                "attribution as their provider asks for it, e.g. basemap_attribution = "
+                "\"(c) OpenStreetMap contributors\"")
+    elif attribution is not None:
+        raise SiteFileError(f"{t.key('basemap_attribution')}: given without basemap_url; give "
+                            "both, or remove it")
+    return {"basemap_url": url, "basemap_attribution": attribution}
 
 
 def _zoning(rules: list[Any], where: str) -> tuple[tuple[str, dict[str, Any]], ...]:
@@ -622,7 +822,7 @@ def _zoning(rules: list[Any], where: str) -> tuple[tuple[str, dict[str, Any]], .
     The rule names and their parameters are checked against the zoning-rule
     registry (built-ins and plugins).
     """
-    from geo_corrosion.errors import PluginError
+    from geo_corrosion.errors import PluginError, ZoningError
     from geo_corrosion.plugins import ZONING_RULES
 
     out = []
@@ -642,25 +842,150 @@ def _zoning(rules: list[Any], where: str) -> tuple[tuple[str, dict[str, Any]], .
         if unknown:
             raise SiteFileError(f"{w}: rule {r['rule']!r} takes no parameter(s) {unknown}; "
                                 f"it takes: {', '.join(sorted(allowed)) or 'none'}")
+        check = getattr(cls, "check_parameters", None)
+        try:
+            if check is not None:
+                check(kw, where=w)
+            cls(**kw)  # what the pipeline will build; fail here, with the place named
+        except ZoningError as err:
+            msg = str(err)
+            raise SiteFileError(msg if msg.startswith(w) else f"{w}: rule {r['rule']!r}: {msg}"
+                                ) from err
+        except Exception as err:  # a plugin rule that refuses its parameters otherwise
+            raise SiteFileError(f"{w}: rule {r['rule']!r} cannot be built from these "
+                                f"parameters: {err}") from err
         out.append((str(r["rule"]), kw))
     return tuple(out)
 
 
+_COMBINED_KEYS = ("default", "classes", "rules", "class_sets")
+_COMBINED_CLASS_KEYS = ("key", "label", "color")
+_COMBINED_RULE_KEYS = ("name", "class", "potential", "resistivity", "rate", "low_cover")
+_HEX_COLOR = re.compile(r"#[0-9A-Fa-f]{6}")
+
+
+def _combined_rule_problem(r: Mapping[str, Any], name: str, classes: list[str],
+                           sets: Mapping[str, Any]) -> tuple[str, str] | None:
+    """Return what is wrong with a combined rule, as (key or "", message); None if nothing."""
+    from geo_corrosion.condition.combined import KINDS
+
+    label = f"rule {name!r}"
+    if "class" not in r:
+        return "class", f"missing; {label} must give a class, one of: {', '.join(classes)}"
+    result = r["class"]
+    if not isinstance(result, str) or result not in classes:
+        return "class", (f"{label} gives class {result!r}, which is not one of the classes: "
+                         f"{', '.join(classes)}")
+    for kind in KINDS:
+        if kind not in r:
+            continue
+        v, cs = r[kind], sets[kind]
+        keys = f"class set {cs.name!r} has the keys: {', '.join(cs.keys)}"
+        given = [v] if isinstance(v, str) else v
+        if not isinstance(given, list | tuple) or not all(isinstance(x, str) for x in given):
+            return kind, f"{label}: expected a class key or a list of class keys, got {v!r}; {keys}"
+        if not given:
+            return kind, f"{label}: the list is empty; name at least one class; {keys}"
+        bad = [x for x in given if x not in cs.keys]
+        if bad:
+            close = difflib.get_close_matches(bad[0], cs.keys, n=1)
+            hint = f" (did you mean {close[0]!r}?)" if close else ""
+            return kind, (f"{label}: unknown {kind} class key(s) {', '.join(map(repr, bad))}"
+                          f"{hint}; {keys}")
+    if "low_cover" in r and not isinstance(r["low_cover"], bool):
+        return "low_cover", f"{label}: expected true or false, got {r['low_cover']!r}"
+    if not any(k in r for k in (*KINDS, "low_cover")):
+        return "", f"{label} has no condition; give potential, resistivity, rate or low_cover"
+    return None
+
+
 def _condition(data: object, where: str) -> dict[str, Any] | None:
+    """Read the [condition] table: only [condition.combined], the combined rule table.
+
+    Checked here key by key, with messages that name ``[condition.combined].<key>``; the rule
+    table is then built by :meth:`~geo_corrosion.condition.combined.RuleTable.from_dict`.
+    """
     if data is None:
         return None
     t = _Table(data, where, ("combined",))
     if "combined" not in t.data:
         return None
-    from geo_corrosion.condition.combined import RuleTable
+    from geo_corrosion.condition.classes import get_class_set
+    from geo_corrosion.condition.combined import DEFAULT_RULES, KINDS, RuleTable
     from geo_corrosion.errors import ConditionError
 
+    file = where.removesuffix(": [condition]")
+    w = f"{file}: [condition.combined]"
+    ct = _Table(t.data["combined"], w, _COMBINED_KEYS)
+    sets = {k: get_class_set(v) for k, v in KINDS.items()}
+    if ct.has("class_sets"):
+        st = _Table(ct.data["class_sets"], ct.key("class_sets"), tuple(KINDS))
+        for kind in st.data:
+            try:
+                cs = get_class_set(st.str(kind), field=True)
+            except ConditionError as err:
+                raise SiteFileError(f"{st.key(kind)}: {err}") from err
+            if cs.variable != sets[kind].variable:
+                raise SiteFileError(f"{st.key(kind)}: class set {cs.name!r} classifies "
+                                    f"{cs.variable}, not the {kind} ({sets[kind].variable})")
+            sets[kind] = cs
+    if ct.has("classes"):
+        classes: list[str] = []
+        for j, c in enumerate(ct.list("classes")):
+            kt = _Table(c, f"{ct.key('classes')}[{j}]", _COMBINED_CLASS_KEYS)
+            key = kt.str("key")
+            if key in classes:
+                raise SiteFileError(f"{kt.key('key')}: class key {key!r} is given twice; keys "
+                                    "must be unique")
+            kt.opt_str("label")
+            color = kt.opt_str("color")
+            if color is not None and not _HEX_COLOR.fullmatch(color):
+                raise SiteFileError(f"{kt.key('color')}: expected a colour as \"#RRGGBB\", such "
+                                    f"as \"#D55E00\", got {color!r}")
+            classes.append(key)
+        classes += [k for k in ("unclassified", "no_data") if k not in classes]
+    else:
+        classes = [c.key for c in DEFAULT_RULES.classes]
+    default = ct.str("default", "unclassified")
+    if default not in classes:
+        raise SiteFileError(f"{ct.key('default')}: {default!r} is not one of the classes: "
+                            f"{', '.join(classes)}")
+    if ct.has("rules"):
+        for i, r in enumerate(ct.list("rules")):
+            rt = _Table(r, f"{ct.key('rules')}[{i}]", _COMBINED_RULE_KEYS)
+            problem = _combined_rule_problem(rt.data, rt.str("name", f"rule {i + 1}"), classes,
+                                             sets)
+            if problem:
+                key, msg = problem
+                raise SiteFileError(f"{rt.key(key) if key else rt.where}: {msg}")
+    else:
+        for rule in DEFAULT_RULES.rules:
+            problem = _combined_rule_problem(rule.to_dict(), rule.name, classes, sets)
+            if problem:
+                given = [k for k in ("classes", "class_sets") if ct.has(k)]
+                raise SiteFileError(
+                    f"{w}: the default rules do not fit the {' and '.join(given)} given: default "
+                    f"{problem[1]}; give your own [[condition.combined.rules]] as well")
     spec = t.data["combined"]
     try:
-        RuleTable.from_dict(spec, where=f"{where}.combined: ")
+        RuleTable.from_dict(spec, where=f"{w}: ")
     except ConditionError as err:
         raise SiteFileError(str(err)) from err
     return dict(spec)
+
+
+_TOP_KEYS = ("site", "run", "levels", "surveys", "zoning", "condition", "webmap")
+
+
+def _array(top: _Table, name: str) -> list[Any]:
+    """Return a top-level array of tables (``[[levels]]``, ``[[surveys]]``, ``[[zoning]]``)."""
+    v = top.data.get(name, [])
+    if not isinstance(v, list):
+        got = f"a table [{name}]" if isinstance(v, dict) else f"{v!r}"
+        raise SiteFileError(f"{top.where}: [[{name}]]: expected an array of tables, one "
+                            f"[[{name}]] table per entry; got {got} (write [[{name}]] with double "
+                            "brackets)")
+    return v
 
 
 def read_site(path: str | Path) -> SiteConfig:
@@ -694,12 +1019,12 @@ def read_site(path: str | Path) -> SiteConfig:
     except UnicodeDecodeError as err:
         raise SiteFileError(f"{p}: not a UTF-8 text file") from err
     root = p.parent.resolve()
-    top = _Table(data, str(p), ("site", "run", "levels", "surveys", "zoning", "condition"))
+    top = _Table(data, str(p), _TOP_KEYS)
     if "site" not in data:
         raise SiteFileError(f"{p}: missing the [site] table (name, crs, units)")
     st = _Table(data["site"], f"{p}: [site]", _SITE_KEYS)
     crs, crs_unit = site_crs(st.data.get("crs"), where=st.key("crs"))
-    levels_raw = top.list("levels")
+    levels_raw = _array(top, "levels")
     if not levels_raw:
         raise SiteFileError(f"{p}: no [[levels]] declared; a site needs at least one level")
     levels = tuple(_level(lv, f"{p}: [[levels]][{i}]", root) for i, lv in enumerate(levels_raw))
@@ -708,7 +1033,7 @@ def read_site(path: str | Path) -> SiteConfig:
         raise SiteFileError(f"{p}: level ids must be unique; got {ids}")
     surveys = tuple(
         _survey(s, f"{p}: [[surveys]][{i}]", root, set(ids))
-        for i, s in enumerate(top.list("surveys"))
+        for i, s in enumerate(_array(top, "surveys"))
     )
     sids = [s.id for s in surveys]
     if len(set(sids)) != len(sids):
@@ -722,10 +1047,11 @@ def read_site(path: str | Path) -> SiteConfig:
         crs=crs,
         crs_unit=crs_unit,
         units=st.str("units", "metric", choices=("metric", "us")),
-        notes=st.str("notes", "") if st.has("notes") else "",
+        notes=st.text("notes"),
         levels=levels,
         surveys=surveys,
-        run=_run(data.get("run", {}), f"{p}: [run]"),
-        zoning=_zoning(top.list("zoning"), f"{p}: [[zoning]]"),
+        run=dataclasses.replace(_run(data.get("run", {}), f"{p}: [run]"),
+                                **_webmap(data.get("webmap", {}), f"{p}: [webmap]")),
+        zoning=_zoning(_array(top, "zoning"), f"{p}: [[zoning]]"),
         combined_rules=_condition(data.get("condition"), f"{p}: [condition]"),
     )

@@ -95,7 +95,7 @@ class LayoutParams:
     axis_angle_deg : float
         Angle of the saw-cut axes from the grid x axis, degrees counter-clockwise.
     sawcut_depth_mm : float
-        Perimeter saw-cut depth and least removal depth, mm (default 19 mm / 3/4 in,
+        Perimeter saw-cut depth and least removal depth, mm (default 19.05 mm = 3/4 in,
         REFERENCE §6.2 [S]).
     extend_to_edge : bool
         Extend a repair to a free slab edge that lies within the margin of it.
@@ -120,7 +120,7 @@ class LayoutParams:
     min_size_mm: float = 300.0
     min_reentrant_mm: float = 300.0
     axis_angle_deg: float = 0.0
-    sawcut_depth_mm: float = 19.0
+    sawcut_depth_mm: float = 19.05  # 3/4 in exactly (ICRI 310.1R)
     extend_to_edge: bool = True
     cover_mm: float = 38.0
     bar_diameter_mm: float = 16.0
@@ -204,7 +204,7 @@ def undercut_clearance_mm(max_aggregate_mm: float, *, rule: Literal["icri", "ufg
 
 def depth_class(*, cover_mm: float, bar_diameter_mm: float, delam_depth_mm: float | None = None,
                 max_aggregate_mm: float = 9.5, slab_thickness_mm: float | None = None,
-                rule: Literal["icri", "ufgs"] = "icri", sawcut_depth_mm: float = 19.0,
+                rule: Literal["icri", "ufgs"] = "icri", sawcut_depth_mm: float = 19.05,
                 full_depth_fraction: float = 0.5) -> tuple[str, float]:
     """Depth class of a repair and its removal depth (REFERENCE §6.3 [M/P]).
 

@@ -120,6 +120,46 @@ class ZoningRule:
             out[p.name] = p
         return out
 
+    @classmethod
+    def check_parameters(cls, params: Mapping[str, Any], *, where: str) -> None:
+        """Check the values of parameters given in a site file, before the rule is built.
+
+        The base checks the parameters every rule takes: ``name`` (a non-empty string),
+        ``treatment`` and ``bid_item`` (strings).  A subclass with parameters of its own
+        extends it and calls ``super().check_parameters(params, where=where)``.  Parameter
+        names are checked by the caller against :meth:`parameters`.
+
+        Parameters
+        ----------
+        params : mapping
+            The rule's parameters as read from TOML (without ``rule``).
+        where : str
+            Where the rule is in the site file (``"site.toml: [[zoning]][1]"``); messages
+            name ``<where>.<parameter>``.
+
+        Raises
+        ------
+        ZoningError
+            Naming the place, the parameter, the rule and what is expected.
+        """
+        label = cls._label(params)
+        if "name" in params and (not isinstance(params["name"], str)
+                                 or not params["name"].strip()):
+            raise ZoningError(f"{where}.name: {label}: expected a non-empty string (the zone's "
+                              f"name), got {params['name']!r}")
+        for key in ("treatment", "bid_item"):
+            if key in params and not isinstance(params[key], str):
+                raise ZoningError(f"{where}.{key}: {label}: expected a string, got "
+                                  f"{params[key]!r}")
+
+    @classmethod
+    def _label(cls, params: Mapping[str, Any]) -> str:
+        """Return ``rule 'active_corrosion'`` or ``rule 'active_corrosion' (zone 'anodes')``."""
+        name = params.get("name")
+        zone_name = (f" (zone {name!r})" if isinstance(name, str) and name.strip()
+                     and name != cls.name else "")
+        return f"rule {cls.name!r}{zone_name}"
+
     def apply(self, layers: ZoningLayers) -> BaseGeometry:
         """Return the area this rule claims (before earlier rules are taken out)."""
         raise NotImplementedError

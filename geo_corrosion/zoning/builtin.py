@@ -8,6 +8,10 @@ galvanic anodes or a corrosion inhibitor); protection of low-cover areas
 
 from __future__ import annotations
 
+import difflib
+from collections.abc import Mapping
+from typing import Any, ClassVar
+
 import shapely
 from shapely.geometry import Polygon
 from shapely.geometry.base import BaseGeometry
@@ -47,6 +51,15 @@ class RepairRule(ZoningRule):
         super().__init__(name=name, treatment=treatment, bid_item=bid_item)
         self.include_repairs = include_repairs
 
+    @classmethod
+    def check_parameters(cls, params: Mapping[str, Any], *, where: str) -> None:
+        """Check the common parameters and that ``include_repairs`` is true or false."""
+        super().check_parameters(params, where=where)
+        v = params.get("include_repairs", True)
+        if not isinstance(v, bool):
+            raise ZoningError(f"{where}.include_repairs: {cls._label(params)}: expected true or "
+                              f"false, got {v!r}")
+
     def apply(self, layers: ZoningLayers) -> BaseGeometry:
         """Return the delaminated, spalled and (optionally) repaired areas."""
         extra = [layers.repairs] if self.include_repairs else []
@@ -67,6 +80,10 @@ class ActiveCorrosionRule(ZoningRule):
     treatment = "embedded galvanic anodes or corrosion inhibitor"
     bid_item = "TREAT-ACTIVE"
     description = "active corrosion (probability of corrosion or condition class) in sound concrete"
+    #: The measurement kind whose classes ``classes`` names: the pipeline fills
+    #: :attr:`ZoningLayers.classes` with the class areas of this kind's surface, keyed by the
+    #: keys of the kind's class set (``planning.plan_level``).
+    class_kind: ClassVar[str] = "potential"
 
     def __init__(self, *, classes: tuple[str, ...] = ("high",), name: str | None = None,
                  treatment: str | None = None, bid_item: str | None = "") -> None:
@@ -75,6 +92,56 @@ class ActiveCorrosionRule(ZoningRule):
             raise ZoningError("active_corrosion: 'classes' is a list of class names, "
                               f"not the string {classes!r}")
         self.classes = tuple(classes)
+
+    @classmethod
+    def class_keys(cls) -> tuple[str, tuple[str, ...]]:
+        """Return the class set of :attr:`class_kind` and its keys (what ``classes`` may name).
+
+        Examples
+        --------
+        >>> ActiveCorrosionRule.class_keys()
+        ('c876', ('high', 'uncertain', 'low'))
+        """
+        from geo_corrosion.condition.classes import get_class_set
+        from geo_corrosion.measurements import get_kind
+
+        kind = get_kind(cls.class_kind)
+        if kind.class_set is None:
+            return "", ()
+        cs = get_class_set(kind.class_set)
+        return cs.name, tuple(cs.keys)
+
+    @classmethod
+    def check_parameters(cls, params: Mapping[str, Any], *, where: str) -> None:
+        """Check the common parameters and that ``classes`` lists keys of the potential classes.
+
+        Raises
+        ------
+        ZoningError
+            ``classes`` is not a list of strings, is empty, or names a key that the class set
+            of :attr:`class_kind` does not have (the message lists the valid keys).
+        """
+        super().check_parameters(params, where=where)
+        if "classes" not in params:
+            return
+        v, w, label = params["classes"], f"{where}.classes", cls._label(params)
+        set_name, keys = cls.class_keys()
+        valid = f"the {cls.class_kind} class set {set_name!r} has the keys: {', '.join(keys)}"
+        if isinstance(v, str):
+            raise ZoningError(f"{w}: {label}: expected a list of class keys, not the string "
+                              f"{v!r}; write classes = [{v!r}] ({valid})")
+        if not isinstance(v, list | tuple) or not all(isinstance(c, str) for c in v):
+            raise ZoningError(f"{w}: {label}: expected a list of class keys such as "
+                              f"[\"high\"], got {v!r} ({valid})")
+        if not v:
+            raise ZoningError(f"{w}: {label}: the list is empty, so the rule would claim "
+                              f"nothing; name at least one class ({valid}) or remove the rule")
+        bad = [c for c in v if c not in keys]
+        if bad:
+            close = difflib.get_close_matches(bad[0], keys, n=1)
+            hint = f" (did you mean {close[0]!r}?)" if close else ""
+            raise ZoningError(f"{w}: {label}: unknown class key(s) "
+                              f"{', '.join(map(repr, bad))}{hint}; {valid}")
 
     def apply(self, layers: ZoningLayers) -> BaseGeometry:
         """Return the active layer and the chosen condition classes."""

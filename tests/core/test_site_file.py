@@ -264,3 +264,188 @@ def test_decimal_comma_file_with_a_stray_point(site_dir: Path) -> None:
 
     f = open_site(site_dir).surveys[1].frame
     assert f["raw_value"].iloc[2] == 1234.5
+
+
+# --------------------------------------------------------------------------- the init template
+
+DOCS = Path(__file__).resolve().parents[2] / "docs" / "site-file.md"
+
+#: Sections of docs/site-file.md whose key tables describe site-file keys -> the table they are in.
+_DOC_SECTIONS = {
+    "`[site]`": "site",
+    "`[run]`": "run",
+    "`[run.variogram.<kind>]`": "run.variogram.<kind>",
+    "`[[levels]]`": "levels",
+    "Layer references": "levels",
+    "`[levels.grid]`": "levels.grid",
+    "`[[surveys]]`": "surveys",
+    "`[condition.combined]`": "condition.combined",
+    "`[webmap]`": "webmap",
+}
+
+
+def _template_text() -> str:
+    from importlib.resources import files
+
+    return files("geo_corrosion").joinpath("templates/site.toml").read_text(encoding="utf-8")
+
+
+def _documented() -> tuple[list[str], dict[str, set[str]]]:
+    """Top-level tables (level-2 headings) and the keys of each key table in docs/site-file.md."""
+    import re
+
+    tables: list[str] = []
+    keys: dict[str, set[str]] = {}
+    current = None
+    for line in DOCS.read_text(encoding="utf-8").splitlines():
+        if line.startswith("#"):
+            title = line.lstrip("#").strip()
+            m = re.match(r"`\[\[?([a-z_.]+)\]?\]`", title)
+            if line.startswith("## ") and m:
+                tables.append(m.group(1))
+            current = next((t for h, t in _DOC_SECTIONS.items() if title.startswith(h)), None)
+            continue
+        m = re.match(r"\| ((?:`[a-z_]+`(?:, )?)+) \|", line)
+        if current and m:
+            keys.setdefault(current, set()).update(re.findall(r"`([a-z_]+)`", m.group(1)))
+    return tables, keys
+
+
+def test_template_shows_every_documented_key() -> None:
+    # common practice, no source: `geo-corrosion init` shows every key the reference documents
+    import re
+
+    text = _template_text()
+    tables, keys = _documented()
+    assert {"site", "run", "levels", "surveys", "zoning", "condition.combined",
+            "webmap"} <= set(tables)
+    assert {"bar_diameter", "max_aggregate", "slab_thickness", "sawcut_depth", "axis_angle_deg",
+            "anode_spacing", "min_zone_area", "zone_smoothing"} <= keys["run"]
+    for table in tables:  # as a table header, commented out or not
+        assert re.search(rf"(?m)^(# )?\[\[?{re.escape(table)}[\].]", text), table
+    assert re.search(r"(?m)^(# )?\[run\.variogram\.[a-z_]+\]", text)
+    missing = []
+    for table, names in keys.items():
+        prefix = table.removesuffix(".<kind>").replace(".variogram", ".variogram.[a-z_]+")
+        for key in sorted(names):
+            as_key = re.search(rf"(?m)(^(# )?|[{{,] |\(or ){key} = ", text)
+            as_table = re.search(rf"(?m)^(# )?\[\[?{prefix}\.{key}\]", text)
+            if not (as_key or as_table):
+                missing.append(f"[{table}] {key}")
+    assert not missing, f"documented in docs/site-file.md but not in the template: {missing}"
+
+
+def test_template_shows_every_plugin_parameter() -> None:
+    # common practice, no source: every zoning-rule parameter and kind option is shown
+    import re
+
+    from geo_corrosion.measurements import BUILTIN_KINDS
+    from geo_corrosion.zoning import BUILTIN_ZONING_RULES
+
+    text = _template_text()
+    for name, rule in BUILTIN_ZONING_RULES.items():
+        assert f'rule = "{name}"' in text, name
+        for p in rule.parameters():
+            assert re.search(rf"\b{p} = ", text), (name, p)
+    for kind in BUILTIN_KINDS.values():
+        for opt in kind.option_keys:
+            assert re.search(rf"\b{opt} = ", text), (kind.name, opt)
+
+
+def test_template_is_read_as_is_and_with_every_key_uncommented(tmp_path: Path) -> None:
+    # common practice, no source: the template's own values, and every commented example, are valid
+    import re
+
+    text = _template_text()
+    (tmp_path / "site.toml").write_text(text)
+    cfg = read_site(tmp_path)  # notes = "" used to be refused by read_site itself
+    assert cfg.notes == "" and cfg.run.basemap_url is None and cfg.zoning == ()
+    full = re.sub(r"(?m)^# (\[.*|[a-z_]+ = .*)$", r"\1", text)
+    assert full.count("\n[") > text.count("\n[") + 5  # the commented tables did come in
+    (tmp_path / "site.toml").write_text(full)
+    try:
+        cfg = read_site(tmp_path)
+    except GeoCorrosionError as err:
+        pytest.fail(f"an example in the template is refused: {err}")
+    # 0.75 in = 19.05 mm exactly (1 in = 25.4 mm by definition)
+    assert cfg.run.sawcut_depth_mm == 19.05
+    assert cfg.run.min_zone_area_m2 == 0.5 and cfg.run.slab_thickness_mm == pytest.approx(152.4)
+    assert set(cfg.run.variogram) == {"potential"}
+    assert cfg.run.basemap_url == "https://tile.example.org/{z}/{x}/{y}.png"
+    assert [r for r, _ in cfg.zoning] == ["repair", "active_corrosion", "low_cover", "no_action"]
+    assert cfg.combined_rules is not None and len(cfg.combined_rules["rules"]) == 4
+    assert [s.kind for s in cfg.surveys] == ["potential", "resistivity", "corrosion_rate"]
+    assert cfg.surveys[1].options["probe_spacing_mm"] == 50.0
+
+
+# ----------------------------------------------------------------------- messages that say where
+
+
+def test_unknown_variogram_kind_is_refused(site_dir: Path) -> None:
+    # common practice, no source: a misspelt table name must not be ignored silently
+    p = site_dir / "site.toml"
+    p.write_text(p.read_text() + '\n[run.variogram.potentail]\nmodel = "spherical"\n')
+    out = _fails(site_dir, "site.toml: [run.variogram.potentail]: unknown measurement kind",
+                 "did you mean 'potential'?", "corrosion_rate, cover, potential, resistivity")
+    assert "Traceback" not in out
+
+
+def test_variogram_kind_comes_from_the_registry(site_dir: Path) -> None:
+    # common practice, no source: a kind added by a plugin may have its own variogram table
+    from geo_corrosion.measurements import MeasurementKind
+    from geo_corrosion.plugins import MEASUREMENTS
+
+    class Chloride(MeasurementKind):
+        name = "chloride"
+
+    p = site_dir / "site.toml"
+    p.write_text(p.read_text() + '\n[run.variogram.chloride]\nrange = "20 ft"\n')
+    with pytest.raises(GeoCorrosionError, match="unknown measurement kind 'chloride'"):
+        read_site(site_dir)
+    MEASUREMENTS.register("chloride", Chloride)
+    try:
+        assert read_site(site_dir).run.variogram["chloride"]["range_m"] == pytest.approx(6.096)
+    finally:
+        MEASUREMENTS._extra.pop("chloride")
+        MEASUREMENTS.refresh()
+
+
+@pytest.mark.parametrize(("table", "pattern"), [
+    ("sill = 100", "[run.variogram.potential]: unknown key 'sill'; did you mean 'psill'?"),
+    ("nugget = -100", "[run.variogram.potential].nugget: expected a number of 0 or more"),
+    ("psill = nan", "[run.variogram.potential].psill: expected a number, got nan"),
+    ("nugget = 0\npsill = 0", "[run.variogram.potential]: nugget and psill are both 0"),
+    ("anisotropy_ratio = 2.0",
+     "[run.variogram.potential].anisotropy_ratio: expected the minor/major"),
+    ('model = "gaussian"\nshape = 1.5', "[run.variogram.potential].shape: shape is the Matern"),
+    ("shape = 9.0", "[run.variogram.potential].shape: expected a Matern shape from 0.2 to 5"),
+    ("range = 30", "[run.variogram.potential].range: expected a length with its unit"),
+])
+def test_bad_variogram_parameters_name_the_key(site_dir: Path, table: str, pattern: str) -> None:
+    # ranges as in surfaces.variogram.VariogramModel (nugget, psill >= 0; ratio in (0, 1]; Matern
+    # shape bounds); before, values out of range only dropped the surface at run time
+    p = site_dir / "site.toml"
+    p.write_text(p.read_text() + f"\n[run.variogram.potential]\n{table}\n")
+    with pytest.raises(GeoCorrosionError) as err:
+        read_site(site_dir)
+    assert "site.toml: " in str(err.value) and pattern in str(err.value)
+
+
+def test_zoning_written_as_a_table_is_named(site_dir: Path) -> None:
+    # common practice, no source: [zoning] for [[zoning]] is the likely slip
+    p = site_dir / "site.toml"
+    p.write_text(p.read_text() + '\n[zoning]\nrule = "repair"\n')
+    _fails(site_dir, "site.toml: [[zoning]]: expected an array of tables",
+           "got a table [zoning]", "double brackets")
+
+
+@pytest.mark.parametrize("text", ['cell_size = "1e999 m"', "cse_reference_c = nan",
+                                  "resistivity_reference_c = inf"])
+def test_non_finite_run_values_refused(site_dir: Path, text: str) -> None:
+    # common practice, no source: nan and inf are valid TOML but no usable parameter
+    key = text.split(" =")[0]
+    edit(site_dir / "site.toml", "[run]\n", f"[run]\n{text}\n")
+    if key == "cell_size":
+        edit(site_dir / "site.toml", 'cell_size = "1 ft"\n', "")
+    with pytest.raises(GeoCorrosionError, match=rf"site.toml: \[run\]\.{key}: "):
+        read_site(site_dir)
