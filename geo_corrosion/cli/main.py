@@ -2,53 +2,23 @@
 
 from __future__ import annotations
 
-import functools
 import json
 import sys
 from collections.abc import Callable
 from pathlib import Path
-from typing import Any, TypeVar
 
 import click
 
-from geo_corrosion.cli.options import out_opt, overwrite_opt, quiet_opt, run_dir_arg, site_arg
-from geo_corrosion.errors import GeoCorrosionError
-
-F = TypeVar("F", bound=Callable[..., Any])
-
-
-def errors_handler(f: F) -> F:
-    """Turn our errors into one clear message and a non-zero exit, never a traceback."""
-
-    @functools.wraps(f)
-    def wrapper(*args: Any, **kwargs: Any) -> Any:
-        import warnings
-
-        from geo_corrosion.errors import GeoCorrosionWarning
-
-        def show(message: Any, category: Any, *_a: Any, **_k: Any) -> None:
-            click.echo(f"note: {message}", err=True)
-
-        try:
-            with warnings.catch_warnings():
-                warnings.simplefilter("always", GeoCorrosionWarning)
-                warnings.showwarning = show
-                return f(*args, **kwargs)
-        except (click.ClickException, click.exceptions.Exit, click.exceptions.Abort):
-            raise
-        except GeoCorrosionError as err:
-            raise click.ClickException(str(err)) from err
-        except KeyboardInterrupt:
-            raise click.ClickException("interrupted; nothing was written") from None
-        except Exception as err:  # noqa: BLE001 - last line of defence for users
-            if click.get_current_context().find_root().params.get("debug"):
-                raise
-            raise click.ClickException(
-                f"internal error: {type(err).__name__}: {err}\n"
-                "Nothing was written. Re-run with --debug for the details and report it."
-            ) from err
-
-    return wrapper  # type: ignore[return-value]
+from geo_corrosion.cli.handlers import errors_handler
+from geo_corrosion.cli.options import (
+    out_opt,
+    overwrite_opt,
+    quiet_opt,
+    resolve_run_dir,
+    run_dir_arg,
+    site_arg,
+)
+from geo_corrosion.cli.rebuild import map_cmd, report_cmd
 
 
 def _progress(quiet: bool) -> Callable[[str], None] | None:
@@ -121,7 +91,8 @@ def check(site: Path, quiet: bool, max_rows: int) -> None:
     flags = check_site(s)
     for lv in s.levels.values():
         g = lv.grid
-        click.echo(f"level {lv.id}: grid tie rotation {g.rotation_deg:.4f} deg, scale {g.scale:.6f}, "
+        click.echo(f"level {lv.id}: grid tie rotation {g.rotation_deg:.4f} deg, "
+                   f"scale {g.scale:.6f}, "
                    f"RMS control-point residual {g.rms_residual:.4f} {g.crs_unit}")
     for sv in s.surveys:
         click.echo(f"survey {sv.id}: {len(sv.frame)} {sv.kind.name} readings "
@@ -169,11 +140,7 @@ def quantities(run_dir: Path) -> None:
     RUN_DIR is a run's output folder, or a site folder whose run went to its default
     output folder (SITE/out).
     """
-    if not (run_dir / "run.json").is_file() and (run_dir / "site.toml").is_file():
-        run_dir = run_dir / "out"
-    man = run_dir / "run.json"
-    if not man.is_file():
-        raise click.ClickException(f"{run_dir} holds no run.json; is it the output of `geo-corrosion run`?")
+    man = resolve_run_dir(run_dir) / "run.json"
     data = json.loads(man.read_text(encoding="utf-8"))
     rows = data.get("schedule", [])
     if not rows:
@@ -204,9 +171,15 @@ def plugins() -> None:
                 click.echo(f"  {name:<18} {desc}")
 
 
+cli.add_command(map_cmd)
+cli.add_command(report_cmd)
+
+
 def main() -> None:  # pragma: no cover
+    """Entry point of ``python -m geo_corrosion.cli.main``."""
     cli()
 
 
 if __name__ == "__main__":  # pragma: no cover
     main()
+

@@ -14,8 +14,26 @@ out_opt = click.option(
     help="Output folder (default: SITE/out). Never overwritten unless --overwrite.",
 )
 overwrite_opt = click.option(
-    "--overwrite", is_flag=True, help="Replace an existing output folder once the new one is complete.",
+    "--overwrite", is_flag=True,
+    help="Replace an existing output folder once the new one is complete.",
 )
 quiet_opt = click.option("-q", "--quiet", is_flag=True, help="No progress messages.")
 run_dir_arg = click.argument("run_dir", type=click.Path(exists=False, path_type=Path),
                              metavar="RUN_DIR")
+
+
+def resolve_run_dir(run_dir: Path) -> Path:
+    """Return the output folder named by RUN_DIR: itself, or SITE/out for a site folder.
+
+    Raises
+    ------
+    click.ClickException
+        Neither holds a ``run.json``.
+    """
+    if not (run_dir / "run.json").is_file() and (run_dir / "site.toml").is_file():
+        run_dir = run_dir / "out"
+    if not (run_dir / "run.json").is_file():
+        raise click.ClickException(
+            f"{run_dir} holds no run.json; is it the output folder of `geo-corrosion run`? "
+            "Run `geo-corrosion run SITE` first.")
+    return run_dir
