@@ -441,6 +441,7 @@ def run(
             progress(f"note: {n}")
     out.parent.mkdir(parents=True, exist_ok=True)
     tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=out.parent))
+    before = len(result.warnings)
     try:
         write_outputs(result, tmp, exporters=exporters, progress=progress, started=started)
         if out.exists():
@@ -453,4 +454,7 @@ def run(
     except BaseException:
         shutil.rmtree(tmp, ignore_errors=True)
         raise
+    if progress:  # notes of the exporters (e.g. a PDF that could not be made)
+        for n in result.warnings[before:]:
+            progress(f"note: {n}")
     return result

@@ -34,5 +34,9 @@ def report_cmd(run_dir: Path, no_pdf: bool) -> None:
     """Rebuild report.html and report.pdf of an existing run (RUN_DIR) from its files."""
     from geo_corrosion.exporters.report import write_report
 
-    for p in write_report(resolve_run_dir(run_dir), pdf=not no_pdf):
+    folder = resolve_run_dir(run_dir)
+    for p in write_report(folder, pdf=not no_pdf):
         click.echo(f"wrote {p}")
+    if no_pdf and (folder / "report.pdf").is_file():
+        click.echo(f"note: {folder / 'report.pdf'} is from an earlier build and may not match "
+                   "report.html; rebuild it without --no-pdf or delete it", err=True)

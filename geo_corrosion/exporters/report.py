@@ -402,7 +402,7 @@ def _repair_layout_png(gpkg: _Gpkg, lid: str) -> str | None:
     slab, rep = gpkg.get(f"{lid}_slab"), gpkg.get(f"{lid}_repairs")
     if slab is None:
         return None
-    fig, ax = plt.subplots(figsize=(7.5, 5.0), dpi=110)
+    fig, ax = plt.subplots(figsize=(7.5, 5.0), dpi=150)
     slab.boundary.plot(ax=ax, color="#303030", linewidth=1.2)
     for what, kw in (("exclusions", {"color": "#BBBBBB"}),
                      ("delaminations", {"color": "#D55E00", "alpha": 0.6}),
@@ -414,7 +414,7 @@ def _repair_layout_png(gpkg: _Gpkg, lid: str) -> str | None:
         rep.boundary.plot(ax=ax, color="#0072B2", linewidth=1.0)
         for rid, geom in zip(rep["repair_id"], rep.geometry, strict=True):
             c = geom.centroid
-            ax.annotate(str(rid).split("-")[-1], (c.x, c.y), fontsize=5, color="#0072B2",
+            ax.annotate(str(rid).split("-")[-1], (c.x, c.y), fontsize=7, color="#0072B2",
                         ha="center", va="bottom", xytext=(0, 4), textcoords="offset points")
     ax.set_aspect("equal")
     unit = slab.crs.axis_info[0].unit_name if slab.crs is not None else ""
@@ -424,7 +424,7 @@ def _repair_layout_png(gpkg: _Gpkg, lid: str) -> str | None:
     ax.tick_params(labelsize=6)
     ax.set_title("repair layout: saw-cut outlines (blue, numbered as in the repair list), "
                  "delaminations (vermillion), spalls (pink)", fontsize=7)
-    fig.text(0.01, 0.005, SHORT_CAUTION, fontsize=5, wrap=True)
+    fig.text(0.01, 0.005, SHORT_CAUTION, fontsize=6, wrap=True)
     buf = io.BytesIO()
     fig.savefig(buf, format="png", bbox_inches="tight")
     plt.close(fig)

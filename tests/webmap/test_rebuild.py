@@ -82,3 +82,13 @@ def test_broken_run_json_is_named(xss_run: Path, tmp_path: Path) -> None:
         res = CliRunner().invoke(cli, [command, str(out)])
         assert res.exit_code == 1
         assert "run.json" in res.output and "internal error" not in res.output
+
+
+def test_no_pdf_says_an_older_pdf_is_stale(xss_run: Path, tmp_path: Path) -> None:
+    out = tmp_path / "run"
+    shutil.copytree(xss_run, out)
+    (out / "report.pdf").write_bytes(b"%PDF-1.4 older build")
+    res = CliRunner().invoke(cli, ["report", str(out), "--no-pdf"])
+    assert res.exit_code == 0, res.output
+    assert "earlier build" in res.output  # common practice, no source
+    assert (out / "report.pdf").read_bytes() == b"%PDF-1.4 older build"  # not ours to delete

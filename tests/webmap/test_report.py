@@ -338,7 +338,8 @@ def test_run_without_pango_writes_the_html_and_a_note(tmp_path: Path, no_pango: 
 
     site = make_synthetic_site(tmp_path / "site")
     out = tmp_path / "out"
-    result = run(site, out, exporters=("geopackage", "plots", "report"))
+    said: list[str] = []
+    result = run(site, out, exporters=("geopackage", "plots", "report"), progress=said.append)
     # the run does not fail for a missing system library: report.html is written, the PDF
     # is not, and the note says what to install and how to rebuild (common practice)
     assert (out / "report.html").is_file()
@@ -347,6 +348,7 @@ def test_run_without_pango_writes_the_html_and_a_note(tmp_path: Path, no_pango: 
     assert len(notes) == 1
     for what in ("libpango-1.0-0", "pip install weasyprint", "geo-corrosion report RUN_DIR"):
         assert what in notes[0], what
+    assert f"note: {notes[0]}" in said  # shown to the user at the end of the run
     man = _manifest(out)
     assert notes[0] in man["warnings"]
     assert "report.html" in man["files"] and "report.pdf" not in man["files"]
