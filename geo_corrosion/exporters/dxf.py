@@ -19,8 +19,8 @@ import geopandas as gpd
 from shapely.geometry import LineString, Polygon
 from shapely.geometry.base import BaseGeometry
 
-from geo_corrosion.errors import ExportError
 from geo_corrosion._io import atomic_write
+from geo_corrosion.errors import ExportError
 from geo_corrosion.repair import polygon_parts
 from geo_corrosion.units import ReportUnits, report_units
 

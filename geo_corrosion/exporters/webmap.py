@@ -31,6 +31,7 @@ from geo_corrosion._io import atomic_write
 from geo_corrosion.cautions import CAUTIONS
 from geo_corrosion.errors import ExportError
 from geo_corrosion.exporters.base import Exporter
+from geo_corrosion.exporters.runfiles import RunLayers, read_run, result_manifest
 
 if TYPE_CHECKING:
     import folium
@@ -38,7 +39,7 @@ if TYPE_CHECKING:
 
     from geo_corrosion.results import RunResult
 
-__all__ = ["WebMapExporter", "build_webmap", "write_webmap", "read_run", "MAP_NAME",
+__all__ = ["WebMapExporter", "build_webmap", "write_webmap", "MAP_NAME",
            "SEVERITY_RAMP", "ramp_colors"]
 
 log = logging.getLogger(__name__)
@@ -80,55 +81,6 @@ def ramp_colors(t: np.ndarray) -> np.ndarray:
 
 def _hex(rgb: np.ndarray) -> str:
     return "#" + "".join(f"{int(round(v * 255)):02X}" for v in rgb)
-
-
-def read_run(run_dir: Path) -> dict[str, Any]:
-    """Read ``run.json`` of an output folder.
-
-    Raises
-    ------
-    ExportError
-        If the folder holds no readable ``run.json``.
-    """
-    man = Path(run_dir) / "run.json"
-    if not man.is_file():
-        raise ExportError(f"{run_dir} holds no run.json; is it the output folder of "
-                          "`geo-corrosion run`?")
-    try:
-        return json.loads(man.read_text(encoding="utf-8"))
-    except (OSError, ValueError) as err:
-        raise ExportError(f"{man}: cannot be read ({err}); re-run `geo-corrosion run`") from err
-
-
-class _Layers:
-    """Layers of ``survey.gpkg`` read on demand (missing layers are ``None``)."""
-
-    def __init__(self, path: Path) -> None:
-        import pyogrio
-
-        self.path = path
-        self.names: set[str] = set()
-        if path.is_file():
-            try:
-                self.names = {str(n) for n, _t in pyogrio.list_layers(path)}
-            except Exception as err:  # noqa: BLE001 - GDAL's errors vary by driver
-                raise ExportError(f"{path}: cannot be read as a GeoPackage ({err}); "
-                                  "re-run `geo-corrosion run` to rewrite the output folder"
-                                  ) from err
-        else:
-            log.warning("%s is missing: the web map has no vector layers", path)
-
-    def get(self, name: str) -> gpd.GeoDataFrame | None:
-        import geopandas as gpd
-
-        if name not in self.names:
-            return None
-        try:
-            g = gpd.read_file(self.path, layer=name)
-        except Exception as err:  # noqa: BLE001 - GDAL's errors vary by driver
-            raise ExportError(f"{self.path}: layer {name!r} cannot be read ({err}); "
-                              "re-run `geo-corrosion run`") from err
-        return g if len(g) else None
 
 
 def _surface_overlay(tif: Path, direction: int) -> tuple[str, list[list[float]], float, float] | None:
@@ -284,7 +236,7 @@ class _Builder:
             self.legends[layer.get_name()] = legend
 
 
-def _level(b: _Builder, run_dir: Path, lid: str, info: dict[str, Any], layers: _Layers,
+def _level(b: _Builder, run_dir: Path, lid: str, info: dict[str, Any], layers: RunLayers,
            units: Any, first: bool) -> None:
     """Add one level's base layer and overlays."""
     import folium
@@ -401,7 +353,7 @@ CLASS_LABELS = {
 }
 
 
-def _class_layers(lid: str, kinds: dict[str, Any], layers: _Layers) -> list[tuple[str, str, str]]:
+def _class_layers(lid: str, kinds: dict[str, Any], layers: RunLayers) -> list[tuple[str, str, str]]:
     """(GeoPackage layer, layer-control label, legend title) of a level's class layers."""
     out = []
     for kind in kinds:
@@ -450,7 +402,7 @@ def _value_column(kind: str) -> str | None:
         return None
 
 
-def _readings(b: _Builder, lid: str, lname: str, layers: _Layers, kinds: dict[str, Any]) -> None:
+def _readings(b: _Builder, lid: str, lname: str, layers: RunLayers, kinds: dict[str, Any]) -> None:
     """One circle-marker layer per kind: value, unit and QA flags; flagged readings outlined."""
     import folium
 
@@ -517,7 +469,7 @@ def build_webmap(run_dir: str | Path, manifest: dict[str, Any] | None = None) ->
         raise ExportError(f"{run_dir}: run.json lists no levels; nothing to map")
     site = man.get("site") or {}
     units = report_units(str(site.get("report_units", "metric")))
-    layers = _Layers(run_dir / "survey.gpkg")
+    layers = RunLayers(run_dir)
     fmap = folium.Map(location=[0, 0], zoom_start=19, max_zoom=23, tiles=None,
                       control_scale=True, prefer_canvas=True)
     fmap.default_js = []
@@ -637,15 +589,6 @@ def write_webmap(run_dir: str | Path, manifest: dict[str, Any] | None = None) ->
     text = build_webmap(run_dir, manifest)
     return atomic_write(run_dir / MAP_NAME, lambda tmp: tmp.write_text(text, encoding="utf-8"),
                         what="web map")
-
-
-def result_manifest(result: RunResult) -> dict[str, Any]:
-    """The manifest of an in-memory run, as ``run.json`` will hold it (JSON types only)."""
-    import time
-
-    from geo_corrosion.pipeline import _json_default, manifest
-
-    return json.loads(json.dumps(manifest(result, time.perf_counter()), default=_json_default))
 
 
 class WebMapExporter(Exporter):

@@ -1,0 +1,381 @@
+"""Text of the report: tables, units of run.json keys, corrections and condition statements.
+
+Pure functions from run.json entries to escaped HTML fragments, used by
+:mod:`geo_corrosion.exporters.report`.  Every text that may come from an input file goes
+through :func:`_e` (HTML escape); fragments built here from escaped parts are marked
+:class:`_Raw` so they are not escaped twice.
+"""
+
+from __future__ import annotations
+
+import html
+from collections.abc import Mapping
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from geo_corrosion.units import M_PER_FT, MM_PER_INCH
+
+if TYPE_CHECKING:
+    from geo_corrosion.units import ReportUnits
+
+__all__ = ["parameter_unit", "summarize_correction"]
+
+_NBSP = "\u00a0"  # between a number and its unit, so a line never starts with the unit
+
+
+class _Raw(str):
+    """Text that is HTML already (built here from escaped parts): not escaped again."""
+
+
+def _e(v: Any) -> str:
+    if isinstance(v, _Raw):
+        return str(v)
+    if isinstance(v, float | np.floating):
+        return "" if not np.isfinite(v) else f"{float(v):,.2f}"
+    return html.escape("" if v is None else str(v), quote=True)
+
+
+def _g(v: float, digits: int = 6) -> str:
+    """Format a number with ``digits`` significant digits, no trailing zeros."""
+    return f"{float(v):.{digits}g}"
+
+
+def _table(rows: list[dict[str, Any]], cols: list[tuple[str, str]], cls: str = "",
+           num: tuple[str, ...] = ()) -> str:
+    """Build an HTML table; numbers (and the columns in ``num``) are right-aligned."""
+    if not rows:
+        return '<p class="none">none</p>'
+
+    def cell(r: dict[str, Any], c: str) -> str:
+        n = " num" if c in num or isinstance(r.get(c), int | float) else ""
+        return f'<td class="c-{_e(c)}{n}">{_e(r.get(c))}</td>'
+
+    head = "".join(f'<th class="c-{_e(c)}">{_e(label)}</th>' for c, label in cols)
+    body = "".join("<tr>" + "".join(cell(r, c) for c, _l in cols) + "</tr>" for r in rows)
+    return f'<table class="{cls}"><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>'
+
+
+# --------------------------------------------------------------------------- units of keys
+
+#: Unit of a run.json key from its suffix (longest first; "_mm" before "_m").
+_SUFFIX_UNITS: tuple[tuple[str, str], ...] = (
+    ("_kj_mol", "kJ/mol"), ("_m2", "m2"), ("_mm", "mm"), ("_mv", "mV"), ("_deg", "deg"),
+    ("_c", "degC"), ("_m", "m"))
+#: US customary unit of a metric length or area, and the factor to it
+#: (1 ft = 0.3048 m, 1 in = 25.4 mm exactly; REFERENCE.md §0).
+_US_UNITS: dict[str, tuple[str, float]] = {
+    "m": ("ft", 1.0 / M_PER_FT), "mm": ("in", 1.0 / MM_PER_INCH),
+    "m2": ("ft2", 1.0 / M_PER_FT**2)}
+
+
+def parameter_unit(key: str) -> str:
+    """Return the unit of a run.json parameter from its key's suffix (``cell_size_m``: m).
+
+    Examples
+    --------
+    >>> [parameter_unit(k) for k in ("sawcut_depth_mm", "min_zone_area_m2", "n_neighbors")]
+    ['mm', 'm2', '']
+    """
+    for suffix, unit in _SUFFIX_UNITS:
+        if key.endswith(suffix):
+            return unit
+    return ""
+
+
+def _strip_unit(key: str) -> str:
+    for suffix, _u in _SUFFIX_UNITS:
+        if key.endswith(suffix):
+            return key[: -len(suffix)]
+    return key
+
+
+def _param(key: str, v: Any, system: str) -> tuple[str, str, str]:
+    """(value, unit, value in US units or "") of a parameter."""
+    if v is None:
+        return "none", "", ""
+    if isinstance(v, bool):
+        return ("true" if v else "false"), "", ""
+    if isinstance(v, Mapping):
+        return _nested(v, system) or "none", "", ""
+    if isinstance(v, list | tuple):
+        return ", ".join(map(str, v)) or "none", "", ""
+    unit = parameter_unit(key)
+    if isinstance(v, int | float | np.number):
+        us = ""
+        if system == "us" and unit in _US_UNITS:
+            u, f = _US_UNITS[unit]
+            us = f"{_g(float(v) * f, 4)} {u}"
+        return _g(v), unit, us
+    return str(v), unit, ""
+
+
+def _nested(d: Mapping[str, Any], system: str) -> str:
+    """Write a nested parameter table as text (``potential: model spherical, range 3 m``)."""
+    parts = []
+    for k, v in d.items():
+        if isinstance(v, Mapping):
+            parts.append(f"{k}: {_nested(v, system) or 'none'}")
+            continue
+        val, unit, us = _param(str(k), v, system)
+        parts.append(f"{_strip_unit(str(k)).replace('_', ' ')} {val}"
+                     f"{' ' + unit if unit else ''}{f' ({us})' if us else ''}")
+    return ("; " if any(isinstance(v, Mapping) for v in d.values()) else ", ").join(parts)
+
+
+# --------------------------------------------------------------------------- corrections
+
+
+def _plural(n: Any, word: str) -> str:
+    return f"{n} {word}{'' if n == 1 else 's'}"
+
+
+def _generic_correction(rec: Mapping[str, Any]) -> str:
+    name = str(rec.get("correction", "correction"))
+    rest = []
+    for k, v in rec.items():
+        if k in ("correction", "source"):
+            continue
+        val, unit, _us = _param(str(k), v, "metric")
+        rest.append(f"{_strip_unit(str(k)).replace('_', ' ')} {val}{' ' + unit if unit else ''}")
+    return f"{name}: {', '.join(rest)}" if rest else name
+
+
+def summarize_correction(rec: Mapping[str, Any]) -> str:
+    """One readable line for a correction record of run.json ``surveys[].corrections``.
+
+    Known records (the built-in kinds') get a sentence; others list their keys.  The
+    ``source`` is not included (the report prints it beside the line).
+
+    Examples
+    --------
+    >>> summarize_correction({"correction": "reference electrode to CSE",
+    ...                       "electrode": "Ag/AgCl in saturated KCl", "offset_mv": -119.0})
+    'reference electrode Ag/AgCl in saturated KCl to CSE (-119 mV)'
+    >>> summarize_correction({"correction": "Arrhenius temperature correction",
+    ...                       "t_ref_c": 20.0, "activation_energy_kj_mol": 25.0})
+    'Arrhenius to 20 degC, Ea 25 kJ/mol'
+    """
+    name = str(rec.get("correction", ""))
+    r = rec
+    try:
+        if name == "reference electrode to CSE":
+            off = float(r["offset_mv"])
+            if off == 0:
+                return f"reference electrode {r['electrode']}: already CSE (0 mV)"
+            return f"reference electrode {r['electrode']} to CSE ({off:+g} mV)"
+        if name == "electrode temperature to reference":
+            k = float(r["k_mv_per_c"])
+            if k == 0:
+                return ("electrode temperature: not corrected (no temperature coefficient for "
+                        "this electrode)")
+            s = f"electrode temperature, {k:g} mV/degC to {float(r['t_ref_c']):g} degC"
+            if r.get("only_outside_band"):
+                s += ", only for readings outside 0 to 49 degC"
+            n = int(r.get("readings_outside_0_49_c") or 0)
+            if n:
+                s += f"; {_plural(n, 'reading')} outside 0 to 49 degC"
+            return s
+        if name == "Arrhenius temperature correction":
+            return (f"Arrhenius to {float(r['t_ref_c']):g} degC, "
+                    f"Ea {float(r['activation_energy_kj_mol']):g} kJ/mol")
+        if name == "Wenner resistivity from raw voltage and current":
+            return (f"Wenner rho = 2 pi a V / I from raw readings, a = {float(r['spacing_cm']):g} "
+                    f"cm: {_plural(r['readings'], 'reading')}, {r['readings_not_derived']} not "
+                    "derived")
+        if name == "Wenner geometry check":
+            return f"Wenner geometry check: {r['warning']}"
+        if name.startswith("finite-thickness correction"):
+            return (f"finite-thickness correction, element {float(r['thickness_mm']):g} mm, "
+                    f"probe spacing {float(r['spacing_mm']):g} mm, "
+                    f"F = {float(r['thickness_factor']):.3g}")
+        if name == "class set":
+            return f"class set {r['class_set']}"
+        if name == "transients not used":
+            return f"transients not used: {r['reason']}"
+        if name.startswith("R_p from galvanostatic pulse transients"):
+            s = (f"R_p from galvanostatic pulse transients ({r['file']}): "
+                 f"{_plural(r['locations_fitted'], 'location')} fitted, "
+                 f"{r['locations_failed']} failed")
+            extra = int(r.get("locations_in_file_not_in_survey") or 0)
+            return s + (f", {extra} in the file but not in the survey" if extra else "")
+        if name.startswith("R_p from potentiostatic sweeps"):
+            return (f"R_p from potentiostatic sweeps ({r['file']}, "
+                    f"{_plural(r['locations'], 'location')})")
+        if name.startswith("corrosion rate from polarization resistance"):
+            b = (f"B {float(r['b_mv']):g} mV ({r.get('b_source')})" if r.get("b_mv") is not None
+                 else "B per reading")
+            a = (f"A {float(r['polarized_area_cm2']):g} cm2 ({r.get('area_source')})"
+                 if r.get("polarized_area_cm2") is not None else "A per reading")
+            return (f"Stern-Geary i_corr = B / (R_p A): {_plural(r['readings'], 'reading')}, "
+                    f"{r['readings_not_derived']} not derived; {b}; {a}")
+    except (KeyError, TypeError, ValueError):
+        pass
+    return _generic_correction(rec)
+
+
+def _corrections_cell(records: list[Any]) -> str:
+    if not records:
+        return _Raw('<span class="none">none</span>')
+    items = []
+    for rec in records:
+        if not isinstance(rec, Mapping):
+            items.append(f"<li>{_e(rec)}</li>")
+            continue
+        src = rec.get("source")
+        items.append(f"<li>{_e(summarize_correction(rec))}"
+                     + (f' <span class="src">(source: {_e(src)})</span>' if src else "")
+                     + "</li>")
+    return _Raw(f'<ul class="corr">{"".join(items)}</ul>')
+
+
+def _surveys_table(surveys: list[dict[str, Any]]) -> str:
+    """Build the table of surveys: one row per survey, its corrections on the row below."""
+    if not surveys:
+        return '<p class="none">none</p>'
+    cols = (("id", "survey"), ("level", "level"), ("kind", "kind"), ("file", "file"),
+            ("readings", "readings"), ("unit", "unit (as read, used)"))
+    head = "".join(f'<th class="c-{c}">{_e(label)}</th>' for c, label in cols)
+    body = []
+    for sv in surveys:
+        unit_in, unit = sv.get("unit_in"), sv.get("unit")
+        cells = {**sv, "unit": unit if not unit_in or unit_in == unit else f"{unit_in} to {unit}"}
+        row = "".join(f'<td class="c-{c}{" num" if c == "readings" else ""}">{_e(cells.get(c))}'
+                      "</td>" for c, _l in cols)
+        corr = _corrections_cell(list(sv.get("corrections") or []))
+        body.append(f'<tbody><tr class="survey">{row}</tr><tr class="corr">'
+                    f'<td colspan="{len(cols)}">corrections: {corr}</td></tr></tbody>')
+    return (f'<table class="surveys"><thead><tr>{head}</tr></thead>{"".join(body)}</table>')
+
+
+# --------------------------------------------------------------------------- condition
+
+
+def _area(a_m2: Any, units: ReportUnits) -> str:
+    """Format an area as the statements print it: whole ft2, or m2 to one decimal."""
+    v = float(units.area_from_m2(float(a_m2)))
+    return f"{v:,.0f}" if units.system == "us" else f"{v:,.1f}"
+
+
+def _pct(f: Any) -> str:
+    return f"{100.0 * float(f):.0f}{_NBSP}%"
+
+
+def _beyond_statement(kind: str, st: Mapping[str, Any], units: ReportUnits) -> str:
+    label = kind.replace("_", " ")
+    meaning = str(st.get("meaning") or "beyond the threshold")
+    if kind == "potential":
+        lead = f"The area likely to be corroding ({label} {meaning})"
+    elif meaning.startswith(label):
+        lead = f"The area with {meaning}"
+    else:
+        lead = f"The area with {label} {meaning}"
+    u = _NBSP + units.area
+    text = f"{lead} is {_area(st.get('expected_m2', np.nan), units)}{u}"
+    if st.get("lower_m2") is not None and st.get("upper_m2") is not None:
+        text += (f" ({_pct(st.get('interval_level', 0.9))} interval "
+                 f"{_area(st['lower_m2'], units)} to {_area(st['upper_m2'], units)}{u})")
+    if st.get("mapped_area_m2") is not None:
+        text += f" of {_area(st['mapped_area_m2'], units)}{u} mapped"
+    src = st.get("source")
+    return (f'<li class="statement">{_e(text + ".")}'
+            + (f' <span class="src">Threshold after {_e(src)}.</span>' if src else "") + "</li>")
+
+
+def _threshold_statement(st: Mapping[str, Any], units: ReportUnits) -> str:
+    if "not_available" in st:
+        return (f'<li class="statement">No site-specific threshold: '
+                f"{_e(st['not_available'])}</li>")
+    thr = st.get("threshold_mv")
+    if thr is None:
+        return ""
+    u = _NBSP + units.area
+    text = (f"The site-specific threshold between active and passive potentials is "
+            f"{float(thr):.0f}{_NBSP}mV CSE.")
+    for side, word in (("below", "More negative"), ("above", "Less negative")):
+        fr, fa, a = (st.get(f"fraction_readings_{side}"), st.get(f"fraction_area_{side}"),
+                     st.get(f"area_{side}"))
+        if fr is None:
+            continue
+        text += f" {word}: {_pct(fr)} of the readings"
+        if a is not None:
+            text += f" and {_area(a, units)}{u}"
+            if fa is not None:
+                text += f" ({_pct(fa)} of the mapped area)"
+        text += "."
+    d = st.get("ashman_d")
+    if d is not None:
+        text += f" Ashman's D = {float(d):.2f}"
+        text += (" (below 2: the two populations are not clearly separated, so the threshold "
+                 "is weakly defined)." if float(d) < 2 else ".")
+    method = st.get("method")
+    return (f'<li class="statement">{_e(text)}'
+            + (f' <span class="src">Method: {_e(method)}.</span>' if method else "") + "</li>")
+
+
+def _condition_block(info: Mapping[str, Any], units: ReportUnits) -> str:
+    cond = info.get("condition") or {}
+    parts = ['<h3 class="condition">Condition statements</h3>']
+    items = [_beyond_statement(k[: -len("_area_beyond_threshold")], v, units)
+             for k, v in cond.items()
+             if k.endswith("_area_beyond_threshold") and isinstance(v, Mapping)]
+    if isinstance(cond.get("site_threshold"), Mapping):
+        items.append(_threshold_statement(cond["site_threshold"], units))
+    items = [i for i in items if i]
+    if items:
+        parts.append(f'<ul class="statements">{"".join(items)}</ul>')
+        assumptions = sorted({str(v["assumption"]) for k, v in cond.items()
+                              if k.endswith("_area_beyond_threshold")
+                              and isinstance(v, Mapping) and v.get("assumption")})
+        if assumptions:
+            parts.append(f'<p class="src">Expected areas and intervals from the probability '
+                         f"maps; assumption: {_e('; '.join(assumptions))}.</p>")
+    else:
+        parts.append('<p class="none">no condition statements (no kriged surfaces)</p>')
+    deck = float(info.get("deck_area_m2") or 0.0)
+    combined = cond.get("combined_classes") or []
+    if combined:
+        parts.append("<h4>Combined condition classes</h4>")
+        rows = [{"class": c.get("class"), "area": float(units.area_from_m2(c.get("area_m2") or 0)),
+                 "share": 100.0 * float(c.get("area_m2") or 0) / deck if deck > 0 else None}
+                for c in combined]
+        parts.append(_table(rows, [("class", "class"), ("area", f"area ({units.area})"),
+                                   ("share", "share of deck (%)")], cls="combined"))
+    life = cond.get("life") or {}
+    if life:
+        parts.append("<h4>Life summary (corrosion-rate surveys)</h4>")
+        rows, notes = [], []
+        for sid, v in life.items():
+            med = v.get("median_time_to_cracking_yr")
+            rows.append({"survey": sid, "readings": v.get("readings"),
+                         "review": v.get("readings_needing_bar_review"),
+                         "median": "n/a" if med is None else f"{float(med):.1f}"})
+            for key in ("time_to_cracking_meaning",):
+                if v.get(key):
+                    notes.append(f"Time to cracking: {v[key]}.")
+            if v.get("horizon_years") is not None and v.get("bar_diameter_mm") is not None:
+                d = float(v["bar_diameter_mm"])
+                dtxt = (f"{d:g} mm ({float(units.small_from_mm(d)):.3g} in)"
+                        if units.system == "us" else f"{d:g} mm")
+                notes.append(f"Bar review: more than 25 % section loss within "
+                             f"{float(v['horizon_years']):g} years at the measured rate, bar "
+                             f"diameter {dtxt}.")
+            if v.get("sources"):
+                notes.append("Sources: " + "; ".join(map(str, v["sources"])) + ".")
+        parts.append(_table(rows, [("survey", "survey"), ("readings", "readings"),
+                                   ("review", "readings needing bar review"),
+                                   ("median", "median time to cracking (years)")],
+                            cls="life", num=("median",)))
+        parts.append("".join(f'<p class="src">{_e(n)}</p>' for n in dict.fromkeys(notes)))
+    return "\n".join(parts)
+
+
+def _parameters(params: Mapping[str, Any], system: str) -> str:
+    rows = []
+    for k, v in params.items():
+        val, unit, us = _param(str(k), v, system)
+        rows.append({"k": k, "v": val, "u": unit, "us": us})
+    cols = [("k", "parameter"), ("v", "value"), ("u", "unit")]
+    if system == "us":
+        cols.append(("us", "US units"))
+    return _table(rows, cols, cls="params", num=("us",))
