@@ -54,6 +54,7 @@ SEVERITY_RAMP: tuple[str, ...] = ("#F7F3E3", "#F0E442", "#E69F00", "#D55E00", "#
 COLORS = {"slab": "#303030", "delamination": "#D55E00", "spall": "#CC79A7",
           "repair": "#0072B2", "exclusion": "#999999", "contour": "#000000",
           "flag": "#000000"}
+NO_ACTION_COLOR = "#AAAAAA"
 ZONE_COLORS = ("#0072B2", "#009E73", "#56B4E9", "#E69F00", "#CC79A7", "#F0E442", "#D55E00")
 #: +1: larger values are more severe; -1: smaller (more negative) values are.
 SEVERITY_DIRECTION = {"potential": -1, "resistivity": -1, "corrosion_rate": 1, "cover": -1}
@@ -321,13 +322,18 @@ def _level(b: _Builder, run_dir: Path, lid: str, info: dict[str, Any], layers: R
     zones = layers.get(f"{lid}_zones")
     if zones is not None:
         zones = zones.reset_index(drop=True)
-        zc = {z: ZONE_COLORS[i % len(ZONE_COLORS)] for i, z in enumerate(dict.fromkeys(zones["zone"]))}
+        named = [z for z in dict.fromkeys(zones["zone"]) if z != "no_action"]
+        zc = {z: ZONE_COLORS[i % len(ZONE_COLORS)] for i, z in enumerate(named)}
+        if "no_action" in set(zones["zone"]):
+            zc["no_action"] = NO_ACTION_COLOR  # outline only: the rest of the slab
         zones["_c"] = [zc[z] for z in zones["zone"]]
         zones["area_rep"] = units.area_from_m2(zones["area_m2"].to_numpy(float))
         b.add(lid, _styled(zones, f"{lname}: zones", {"zone": "zone", "treatment": "treatment",
                            "bid_item": "bid item", "area_rep": f"area ({units.area})"},
-                           lambda c: {"color": c, "weight": 1, "fillColor": c, "fillOpacity": 0.3}),
-              False, _swatch_legend(f"{lname}: zones", [(c, _e(z)) for z, c in zc.items()]))
+                           lambda c: {"color": c, "weight": 1, "fillColor": c,
+                                      "fillOpacity": 0.0 if c == NO_ACTION_COLOR else 0.3}),
+              False, _swatch_legend(f"{lname}: zones", [(c, _e(z) + (" (outline only)" if
+                                    c == NO_ACTION_COLOR else "")) for z, c in zc.items()]))
     rep = layers.get(f"{lid}_repairs")
     if rep is not None:
         rep = rep.reset_index(drop=True)

@@ -90,6 +90,10 @@ class ZoningRule:
     api_version: ClassVar[int] = 1
     #: Whether the rule takes everything it is offered (ends the rule list).
     catch_all: ClassVar[bool] = False
+    #: Whether the zone follows its shape exactly: no smoothing and no minimum zone size
+    #: (laid-out repair outlines are priced as drawn; a part of one left to a later
+    #: rule would be priced twice).
+    exact: ClassVar[bool] = False
 
     def __init__(self, *, name: str | None = None, treatment: str | None = None,
                  bid_item: str | None = "") -> None:
@@ -211,10 +215,11 @@ def zone(slab: Polygon, exclusions: Sequence[Polygon], layers: ZoningLayers,
     rules : sequence of ZoningRule
         Applied in order; each takes only what earlier rules left.
     min_zone_area_m2 : float
-        Parts of a zone smaller than this (m2) are left to later rules.
+        Parts of a zone smaller than this (m2) are left to later rules (not for
+        rules marked :attr:`ZoningRule.exact`, such as the repair rule).
     smoothing_m : float
         Half-width of the square used to close small gaps and open thin
-        slivers of each zone, m.
+        slivers of each zone, m (not for exact rules).
     unit : {"m", "ft"}
         Plan length unit.
     level_id : str
@@ -264,6 +269,8 @@ def zone(slab: Polygon, exclusions: Sequence[Polygon], layers: ZoningLayers,
         with np.errstate(all="ignore"):
             if rule.catch_all:
                 claimed = remaining
+            elif rule.exact:
+                claimed = _polygonal(_polygonal(got).intersection(remaining))
             else:
                 g = _smooth(_polygonal(got).intersection(remaining), s)
                 claimed = _drop_small(_polygonal(g.intersection(remaining)), min_area)

@@ -45,6 +45,8 @@ class RepairRule(ZoningRule):
     treatment = "concrete repair: saw-cut, remove, clean and undercut bars, patch"
     bid_item = None
     description = "delaminated and spalled concrete (and the laid-out repairs)"
+    #: the repair outlines are priced as laid out: never smoothed, never dropped as small
+    exact = True
 
     def __init__(self, *, include_repairs: bool = True, name: str | None = None,
                  treatment: str | None = None, bid_item: str | None = "") -> None:

@@ -112,3 +112,23 @@ def test_life_summary_is_given_per_corrosion_rate_survey(sample_result) -> None:
             n = len(next(s for s in site.surveys if s.id == sid).frame)
             assert summary["readings"] == n
             assert "initiation" in summary["time_to_cracking_meaning"]
+
+
+@pytest.mark.slow
+def test_no_area_is_priced_twice(sample_result) -> None:  # type: ignore[no-untyped-def]
+    # issue 5: "no area counted twice where repairs or zones overlap": the zones priced by
+    # area (treatment, protection) never overlap a repair, which is priced by its own items
+    import shapely
+
+    checked = 0
+    for lid, lr in sample_result.levels.items():
+        if lr.repairs is None or lr.zones is None:
+            continue
+        reps = shapely.union_all(list(lr.repairs.geometry))
+        priced = lr.zones[lr.zones["bid_item"].notna() & (lr.zones["bid_item"] != "")]
+        for name, g in zip(priced["zone"], priced.geometry, strict=True):
+            assert g.intersection(reps).area < 1e-9 * reps.area, (lid, name)
+            checked += 1
+        rz = lr.zones[lr.zones["zone"] == "repair"].geometry.iloc[0]
+        assert reps.difference(rz).area < 1e-9 * reps.area, lid  # every repair in its zone
+    assert checked

@@ -99,3 +99,21 @@ def test_failing_rule_reported() -> None:
         zone(SLAB, [], ZoningLayers(), [Broken()], unit="m")
     with pytest.raises(ZoningError, match="smoothing_m"):
         zone(SLAB, [], ZoningLayers(), [], unit="m", smoothing_m=-1.0)
+
+
+def test_small_and_thin_repairs_stay_whole_in_the_repair_zone() -> None:
+    # issue 5: "no area counted twice where repairs or zones overlap". A repair smaller than
+    # the minimum zone size, and a thin one that smoothing would open away, are priced by the
+    # repair items; if a part went to the active-corrosion zone it would be priced twice.
+    # Hand-worked (common practice, no source): 0.4 x 0.4 = 0.16 m2 and 3 x 0.15 = 0.45 m2.
+    small, thin = box(1, 1, 1.4, 1.4), box(5, 5, 8, 5.15)
+    layers = ZoningLayers(repairs=small.union(thin), active=box(0, 0, 10, 10))
+    z = zone(SLAB, [], layers, default_rules(), unit="m", min_zone_area_m2=0.5,
+             smoothing_m=0.2)
+    a = areas(z)
+    assert a["repair"] == pytest.approx(0.16 + 0.45)
+    rep = z.geometry[list(z.zone).index("repair")]
+    assert rep.symmetric_difference(small.union(thin)).area == pytest.approx(0.0, abs=1e-12)
+    act = z.geometry[list(z.zone).index("active_corrosion")]
+    assert act.intersection(rep).area == pytest.approx(0.0, abs=1e-12)
+    assert sum(a.values()) == pytest.approx(100.0)  # still a partition of the slab
