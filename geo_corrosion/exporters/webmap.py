@@ -22,6 +22,7 @@ import io
 import json
 import logging
 import re
+from importlib.metadata import version as dist_version
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, ClassVar
 
@@ -131,8 +132,8 @@ def _surface_overlay(tif: Path, direction: int) -> tuple[str, list[list[float]],
     return url, [[south, west], [north, east]], lo, hi
 
 
-def _leaflet_assets() -> tuple[str, str]:
-    """Leaflet's script and stylesheet, from the ``django-js-lib-leaflet`` distribution.
+def _leaflet_assets() -> tuple[str, str, str]:
+    """Leaflet's script, stylesheet and licence, from the ``django-js-lib-leaflet`` distribution.
 
     That PyPI package ships Leaflet's own release files (BSD-2-Clause licence) with no
     Django dependency; we read the files without importing anything.  The stylesheet's
@@ -157,7 +158,14 @@ def _leaflet_assets() -> tuple[str, str]:
 
     css = re.sub(r"url\((images/[^)]+\.png)\)", inline, css)
     js = js.replace("//# sourceMappingURL=leaflet.js.map", "")
-    return js, css
+    licence = ""
+    for f in dist.files or ():
+        if f.name.upper().startswith("LICENSE"):
+            licence = Path(str(dist.locate_file(f))).read_text(encoding="utf-8")
+            break
+    # BSD-2-Clause: a redistribution reproduces the notice; it goes in the page as a comment
+    licence = licence.replace("--", "- -") or "Leaflet: BSD 2-Clause License"
+    return js, css, licence
 
 
 def _geojson(gdf: gpd.GeoDataFrame, name: str, style: Any, fields: dict[str, str], *,
@@ -480,11 +488,14 @@ def build_webmap(run_dir: str | Path, manifest: dict[str, Any] | None = None) ->
                       control_scale=True, prefer_canvas=True)
     fmap.default_js = []
     fmap.default_css = []
-    js, css = _leaflet_assets()
+    js, css, licence = _leaflet_assets()
     root = fmap.get_root()
     root.header.add_child(folium.Element(f"<style>{css}</style><style>{_CSS}</style>"),
                           name="leaflet_css")
     root.header.add_child(folium.Element(f"<script>{js}</script>"), name="leaflet_js")
+    root.header.add_child(folium.Element(
+        f"<!-- Leaflet {_e(dist_version('django-js-lib-leaflet'))}, inlined from the PyPI "
+        f"package django-js-lib-leaflet. Its licence:\n{licence}\n-->"), name="leaflet_licence")
     root.title = _e(site.get("name", "survey"))
     tile_url = (man.get("parameters") or {}).get("basemap_url")
     if isinstance(tile_url, str) and tile_url.startswith("https://"):

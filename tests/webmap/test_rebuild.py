@@ -92,3 +92,13 @@ def test_no_pdf_says_an_older_pdf_is_stale(xss_run: Path, tmp_path: Path) -> Non
     assert res.exit_code == 0, res.output
     assert "earlier build" in res.output  # common practice, no source
     assert (out / "report.pdf").read_bytes() == b"%PDF-1.4 older build"  # not ours to delete
+
+
+def test_the_page_carries_leaflet_licence(run_copy: Path) -> None:
+    # Leaflet is BSD-2-Clause (the LICENSE file of the django-js-lib-leaflet distribution):
+    # a redistribution must reproduce the copyright notice and the conditions
+    res = CliRunner().invoke(cli, ["map", str(run_copy)])
+    assert res.exit_code == 0, res.output
+    text = (run_copy / "webmap.html").read_text(encoding="utf-8")
+    assert "BSD 2-Clause License" in text and "Agafonkin" in text
+    assert "Redistributions in binary form must reproduce" in text
