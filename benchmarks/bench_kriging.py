@@ -21,6 +21,7 @@ from __future__ import annotations
 
 import argparse
 import math
+import os
 import resource
 import statistics
 import time
@@ -69,6 +70,8 @@ def main() -> None:
     ap.add_argument("--pykrige-repeat", type=int, default=1)
     ap.add_argument("--backend", default="C", choices=["C", "loop"], help="pykrige backend")
     ap.add_argument("--skip-pykrige", action="store_true")
+    ap.add_argument("--numpy-path", action="store_true",
+                    help="use the engine's numpy path, not the compiled kernel")
     a = ap.parse_args()
 
     width, height = 200.0, 120.0  # plan metres
@@ -76,6 +79,12 @@ def main() -> None:
     grid = GridSpec(0.0, 0.0, cell, nx=max(1, round(width / cell)), ny=max(1, round(height / cell)))
     x, y, z = synthetic_deck(a.n_readings, width, height)
     model = VariogramModel("spherical", nugget=100.0, psill=6400.0, range=30.0)
+    if a.numpy_path:
+        os.environ["GEO_CORROSION_NO_JIT"] = "1"
+    from geo_corrosion.surfaces._kernel import kernel_for
+
+    path = "compiled kernel (numba)" if kernel_for(model) is not None else "numpy path"
+    print(f"our engine: {path}")
     print(f"readings {a.n_readings}, cells {grid.size} ({grid.ny} x {grid.nx}), "
           f"neighbours {a.n_neighbors}, model {model.name}")
 

@@ -15,8 +15,11 @@ with Γ_ii = 0 and γ0_i = 0 where the point coincides with reading i
 (distance <= 1e-10), so kriging is exact at the readings.  The estimate is
 w·z and the kriging variance σ² = w·γ0 + ν, both in the kriged space.
 
-Speed: points are processed in chunks on a thread pool (numpy, LAPACK and the
-k-d tree release the GIL).  Within a chunk, points with the identical
+Speed: points are processed in chunks on a thread pool (the k-d tree, the
+compiled kernel, numpy and LAPACK release the GIL).  With numba, each point's
+system is built and solved in compiled code (:mod:`geo_corrosion.surfaces._kernel`;
+spherical, exponential, Gaussian and stable models).  Otherwise, and for the Matérn
+model, the numpy path is used: within a chunk, points with the identical
 neighbour set are grouped (an order-independent 64-bit hash of the set,
 verified exactly), the left-hand matrix is built once per set and up to four
 points of a set share one batched ``np.linalg.solve`` call as right-hand-side
@@ -57,6 +60,7 @@ from scipy.sparse.csgraph import connected_components
 from scipy.spatial import cKDTree
 
 from geo_corrosion.errors import KrigingError, KrigingWarning
+from geo_corrosion.surfaces._kernel import kernel_for, solve_points
 from geo_corrosion.surfaces.variogram import VariogramModel, as_xyz
 
 __all__ = ["krige", "cross_validate", "CrossValidation", "KrigingEngine", "EXACT_EPS"]
@@ -139,6 +143,9 @@ class KrigingEngine:
         Readings per local system; more than the data gives all the data with a warning.
     radius : float, optional
         Search radius in the model's isotropic space, plan length units.
+    use_kernel : bool
+        Solve with the compiled kernel (:mod:`geo_corrosion.surfaces._kernel`) when the
+        model allows it; ``False`` forces the numpy path (the reference).
     """
 
     def __init__(
@@ -152,6 +159,7 @@ class KrigingEngine:
         radius: float | None = None,
         what: str = "kriging",
         merge: bool = True,
+        use_kernel: bool = True,
     ) -> None:
         if not isinstance(model, VariogramModel):
             raise KrigingError(f"model must be a VariogramModel, got {type(model).__name__}")
@@ -189,6 +197,8 @@ class KrigingEngine:
         self._lo = iu1 * kk + iu0
         self._border = np.concatenate([np.arange(k) * kk + k, k * kk + np.arange(k)])
         self.singular_fallbacks = 0
+        #: kernel code of the model (compiled path), or None for the numpy path
+        self._kernel = kernel_for(model) if use_kernel else None
 
     # ------------------------------------------------------------------ neighbours
     def query(
@@ -218,7 +228,16 @@ class KrigingEngine:
         if m == 0:
             return mean, var, nu
         n = self.n
-        has = (idx < n).any(axis=1)
+        if self._kernel is not None:
+            mean, var, nu, bad = solve_points(self.px, self.py, self.z, idx, dist, n=n,
+                                              code=self._kernel, model=self.model,
+                                              eps=EXACT_EPS)
+            if not bad.any():
+                return mean, var, nu
+            # singular systems: the numpy path, with its pseudo-inverse fallback
+            has = bad
+        else:
+            has = (idx < n).any(axis=1)
         if not has.all():
             idx, dist = idx[has], dist[has]
         mv, vv, nv = self._solve(idx, dist)
