@@ -297,6 +297,8 @@ class RunParams:
     activation_energy_kj_mol: float = 25.0
     cse_reference_c: float = 22.2
     correct_only_outside_band: bool = False
+    #: scale each fitted variogram so that the leave-one-out MSSE is 1 (mapping stage)
+    calibrate_variance: bool = True
     bar_diameter_mm: float = 16.0
     max_aggregate_mm: float = 9.5
     slab_thickness_mm: float | None = None
@@ -468,6 +470,7 @@ _RUN_KEYS = (
     "resistivity_reference_c", "activation_energy_kj_mol", "cse_reference_c",
     "correct_only_outside_band", "variogram", "bar_diameter", "max_aggregate", "slab_thickness",
     "sawcut_depth", "axis_angle_deg", "anode_spacing", "min_zone_area", "zone_smoothing",
+    "calibrate_variance",
 )
 _VARIOGRAM_KEYS = ("model", "nugget", "psill", "range", "shape", "anisotropy_ratio",
                    "anisotropy_angle_deg")
@@ -731,6 +734,9 @@ def _run(data: object, where: str) -> RunParams:
     flag = t.data.get("correct_only_outside_band", d.correct_only_outside_band)
     if not isinstance(flag, bool):
         raise SiteFileError(f"{t.key('correct_only_outside_band')}: expected true or false")
+    calibrate = t.data.get("calibrate_variance", d.calibrate_variance)
+    if not isinstance(calibrate, bool):
+        raise SiteFileError(f"{t.key('calibrate_variance')}: expected true or false")
     fixed = _variogram(t)
 
     def _mm(name: str, default: float | None) -> float | None:
@@ -775,7 +781,7 @@ def _run(data: object, where: str) -> RunParams:
             "activation_energy_kj_mol", d.activation_energy_kj_mol, positive=True, finite=True
         ),
         cse_reference_c=t.num("cse_reference_c", d.cse_reference_c, finite=True),
-        correct_only_outside_band=flag,
+        correct_only_outside_band=flag, calibrate_variance=calibrate,
     )
 
 

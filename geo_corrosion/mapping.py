@@ -11,7 +11,9 @@ coordinates; exporters transform it to the site CRS.
 
 from __future__ import annotations
 
+import dataclasses
 import logging
+import math
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
@@ -29,6 +31,7 @@ from geo_corrosion.errors import KrigingError
 from geo_corrosion.measurements import MeasurementKind
 from geo_corrosion.model import Level, Survey
 from geo_corrosion.surfaces import (
+    CrossValidation,
     GridSpec,
     VariogramFit,
     check_contour_interval,
@@ -179,6 +182,36 @@ def _class_polygons(
     return pd.DataFrame(rows)
 
 
+def calibrate_variance(fit: VariogramFit, cv: CrossValidation
+                       ) -> tuple[VariogramFit, CrossValidation]:
+    """Scale the variogram so that the leave-one-out MSSE of its kriging variance is 1.
+
+    Ordinary kriging weights do not change when the variogram is multiplied by a constant;
+    the kriging variance and the Lagrange multiplier are multiplied by it.  Scaling nugget
+    and partial sill by the MSSE therefore keeps every estimate in the kriged space (for
+    lognormal kinds the back-transform then uses the calibrated variance) and makes the
+    mean standardized squared error exactly 1,
+    so the probability maps and area intervals use an honest variance (common practice:
+    the MSSE, or mean squared deviation ratio, should be close to 1; from memory, Webster &
+    Oliver 2007, *Geostatistics for Environmental Scientists*, §8.3).  The factor and the
+    MSSE before calibration are kept in the notes of the fit and in the cross-validation
+    record.  No change when the MSSE is not a positive finite number.
+    """
+    f = float(cv.msse)
+    if not (math.isfinite(f) and f > 0) or fit.fallback:
+        return fit, cv
+    m = fit.model
+    model = dataclasses.replace(m, nugget=m.nugget * f, psill=m.psill * f)
+    note = (f"kriging variance calibrated: nugget and partial sill multiplied by {f:.4g}, the "
+            "leave-one-out MSSE of the fitted model, so that the MSSE is 1 (kriged-space estimates "
+            "unchanged)")
+    fit = dataclasses.replace(fit, model=model, notes=(*fit.notes, note),
+                              variance_factor=f)
+    cv = dataclasses.replace(cv, variance=np.asarray(cv.variance) * f, msse=1.0,
+                             msse_before_calibration=f)
+    return fit, cv
+
+
 def build_surface(
     level: Level,
     kind: MeasurementKind,
@@ -215,14 +248,16 @@ def build_surface(
               else (chosen,))
     fit = fit_variogram(x, y, z, models=models, transform=kind.krige_transform,
                         n_neighbors=params.n_neighbors, fixed=fixed or None)
+    cv = cross_validate(x, y, z, fit.model, n_neighbors=params.n_neighbors,
+                        transform=kind.krige_transform)
+    if params.calibrate_variance and not ({"nugget", "psill"} & set(fixed)):
+        fit, cv = calibrate_variance(fit, cv)
     directional = directional_variograms(x, y, z, kind, fit)
     deck = level.deck
     grid = grid_for_polygon(deck, cell)
     mask = surface_mask(grid, deck, x, y, max_distance=max_d)
     mean, var = krige_grid(x, y, z, grid, fit.model, mask=mask, n_neighbors=params.n_neighbors,
                            transform=kind.krige_transform, progress=progress)
-    cv = cross_validate(x, y, z, fit.model, n_neighbors=params.n_neighbors,
-                        transform=kind.krige_transform)
     res = pd.DataFrame({"reading_id": readings["reading_id"], "x_local": x, "y_local": y,
                         "residual": np.asarray(cv.residuals, float)})
     interval = params.contour_interval_mv if kind.name == "potential" else kind.contour_interval

@@ -96,6 +96,9 @@ class VariogramFit:
         True when the documented fallback model was used (too few readings).
     notes : tuple of str
         Warnings and caveats, for run.json.
+    variance_factor : float, optional
+        Factor applied to nugget and partial sill by the variance calibration of the
+        mapping stage (None: not calibrated).
     """
 
     model: VariogramModel
@@ -104,6 +107,7 @@ class VariogramFit:
     criterion: str
     fallback: bool = False
     notes: tuple[str, ...] = field(default=())
+    variance_factor: float | None = None
 
     def to_dict(self, *, value_unit: str = "", length_unit: str = "") -> dict[str, Any]:
         """JSON-ready description with units, for run.json."""
@@ -111,6 +115,7 @@ class VariogramFit:
             "model": self.model.to_dict(value_unit=value_unit, length_unit=length_unit),
             "criterion": self.criterion,
             "fallback": self.fallback,
+            "variance_factor": self.variance_factor,
             "notes": list(self.notes),
             "candidates": {
                 k: c.to_dict(value_unit=value_unit, length_unit=length_unit)

@@ -475,6 +475,8 @@ class CrossValidation:
         Kriging variance at each tested reading, kriged-space units squared.
     n_tested : int
         Readings tested.
+    msse_before_calibration : float, optional
+        MSSE of the model before :func:`geo_corrosion.mapping.calibrate_variance`.
     """
 
     method: str
@@ -484,10 +486,11 @@ class CrossValidation:
     residuals: NDArray[np.float64]
     variance: NDArray[np.float64]
     n_tested: int
+    msse_before_calibration: float | None = None
 
     def to_dict(self, *, value_unit: str = "") -> dict[str, Any]:
         """JSON-ready summary (without the residual array)."""
-        return {
+        out = {
             "method": self.method,
             "mean_error": self.mean_error,
             "rmse": self.rmse,
@@ -495,6 +498,9 @@ class CrossValidation:
             "value_unit": value_unit,
             "n_tested": self.n_tested,
         }
+        if self.msse_before_calibration is not None:
+            out["msse_before_calibration"] = self.msse_before_calibration
+        return out
 
 
 def _loo(

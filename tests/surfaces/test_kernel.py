@@ -76,3 +76,23 @@ def test_singular_systems_fall_back_to_the_numpy_path() -> None:
         eng = KrigingEngine(x, y, z, model, n_neighbors=6, merge=False)
         m, v, _ = eng.predict(np.array([1.0, 4.0]), np.array([1.0, 4.0]))
     assert np.isfinite(m).all() and np.isfinite(v).all()
+
+
+def test_variance_calibration_keeps_estimates_and_gives_msse_one() -> None:
+    # Ordinary kriging weights are invariant to multiplying the variogram by a constant
+    # (the factor cancels in the system; Cressie 1993 §3.2, from memory), so the estimate is
+    # unchanged and the variance scales. Checked by re-running the cross-validation with the
+    # calibrated model, independently of the value calibrate_variance sets.
+    from geo_corrosion.mapping import calibrate_variance
+    from geo_corrosion.surfaces import cross_validate, fit_variogram
+
+    x, y, z = _deck(800)
+    fit = fit_variogram(x, y, z, models=("spherical",))
+    cv = cross_validate(x, y, z, fit.model, n_neighbors=12)
+    assert abs(cv.msse - 1) > 0.05  # the case worth calibrating
+    fit2, cv2 = calibrate_variance(fit, cv)
+    assert fit2.variance_factor == pytest.approx(cv.msse)
+    again = cross_validate(x, y, z, fit2.model, n_neighbors=12)
+    assert again.msse == pytest.approx(1.0, rel=1e-9)
+    np.testing.assert_allclose(again.residuals, cv.residuals, rtol=1e-9, atol=1e-9)
+    np.testing.assert_allclose(again.variance, cv2.variance, rtol=1e-9)
