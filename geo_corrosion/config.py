@@ -1037,6 +1037,11 @@ def read_site(path: str | Path) -> SiteConfig:
     ids = [lv.id for lv in levels]
     if len(set(ids)) != len(ids):
         raise SiteFileError(f"{p}: level ids must be unique; got {ids}")
+    names = [lv.name for lv in levels]
+    if len(set(names)) != len(names):
+        dup = sorted({n for n in names if names.count(n) > 1})
+        raise SiteFileError(f"{p}: [[levels]] names must differ (maps, drawings and the report "
+                            f"name each level); repeated: {', '.join(map(repr, dup))}")
     surveys = tuple(
         _survey(s, f"{p}: [[surveys]][{i}]", root, set(ids))
         for i, s in enumerate(_array(top, "surveys"))

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import json
 import sys
 from collections.abc import Callable
 from pathlib import Path
@@ -140,8 +139,9 @@ def quantities(run_dir: Path) -> None:
     RUN_DIR is a run's output folder, or a site folder whose run went to its default
     output folder (SITE/out).
     """
-    man = resolve_run_dir(run_dir) / "run.json"
-    data = json.loads(man.read_text(encoding="utf-8"))
+    from geo_corrosion.exporters.runfiles import read_run
+
+    data = read_run(resolve_run_dir(run_dir))
     rows = data.get("schedule", [])
     if not rows:
         click.echo("no quantities in this run")
@@ -182,4 +182,3 @@ def main() -> None:  # pragma: no cover
 
 if __name__ == "__main__":  # pragma: no cover
     main()
-

@@ -15,7 +15,6 @@ reporting units and A4 for ``metric``.  Every text from input files is HTML-esca
 
 from __future__ import annotations
 
-import base64
 import io
 import logging
 from pathlib import Path
@@ -27,6 +26,7 @@ import numpy as np
 from geo_corrosion._io import atomic_write
 from geo_corrosion.cautions import CAUTIONS, SHORT_CAUTION
 from geo_corrosion.errors import ExportError
+from geo_corrosion.exporters._html import png_data_url
 from geo_corrosion.exporters.base import Exporter
 from geo_corrosion.exporters.report_text import (
     _condition_block,
@@ -89,7 +89,6 @@ METHODS: tuple[tuple[str, str, str], ...] = (
 )
 
 
-
 class PdfUnavailableError(ExportError):
     """WeasyPrint, or its system library pango, cannot be loaded: no PDF can be made.
 
@@ -127,12 +126,8 @@ def page_size(system: str) -> str:
     return "letter" if system == "us" else "A4"
 
 
-
-
 def _data_url(path: Path) -> str:
-    return "data:image/png;base64," + base64.b64encode(path.read_bytes()).decode()
-
-
+    return png_data_url(path.read_bytes())
 
 
 def _figure(path: Path, caption: str) -> str:
@@ -140,8 +135,6 @@ def _figure(path: Path, caption: str) -> str:
         return ""
     return (f'<figure><img src="{_data_url(path)}" alt="{_e(caption)}">'
             f"<figcaption>{_e(caption)}</figcaption></figure>")
-
-
 
 
 # --------------------------------------------------------------------------- survey.gpkg
@@ -183,7 +176,7 @@ def _repair_layout_png(gpkg: RunLayers, lid: str) -> str | None:
     buf = io.BytesIO()
     fig.savefig(buf, format="png", bbox_inches="tight")
     plt.close(fig)
-    return "data:image/png;base64," + base64.b64encode(buf.getvalue()).decode()
+    return png_data_url(buf.getvalue())
 
 
 def _repair_list(rep: gpd.GeoDataFrame | None, units: ReportUnits) -> str:
@@ -235,8 +228,6 @@ def _quantities(schedule: list[dict[str, Any]], lid: str | None) -> str:
                          ("unit", "unit"), ("base", "base"), ("contingency", "contingency"),
                          ("total", "total")], cls="quantities",
                   num=("base", "contingency", "total"))
-
-
 
 
 # --------------------------------------------------------------------------- sections
@@ -307,8 +298,6 @@ def _level_section(run_dir: Path, lid: str, info: dict[str, Any], man: dict[str,
                                 ("severity", "severity"), ("count", "findings")]))
     parts.append("</section>")
     return "\n".join(parts)
-
-
 
 
 _CSS = """
@@ -429,17 +418,20 @@ def _write(run_dir: Path, man: dict[str, Any], weasyprint: ModuleType | None) ->
         man = {**man, "warnings": [w for w in man["warnings"]
                                    if not str(w).startswith(_NO_PDF_NOTE)]}
     text = build_report_html(run_dir, man)
-    out = [atomic_write(run_dir / REPORT_HTML,
-                        lambda tmp: tmp.write_text(text, encoding="utf-8"), what="report")]
+    pdf: Path | None = None
     if weasyprint is not None:
+        # the PDF first: if it fails, report.html is not replaced either, so the two
+        # never disagree
         logging.getLogger("weasyprint").setLevel(logging.ERROR)
         logging.getLogger("fontTools").setLevel(logging.ERROR)
 
         def _pdf(tmp: Path) -> None:
             weasyprint.HTML(string=text, base_url=str(run_dir)).write_pdf(str(tmp))
 
-        out.append(atomic_write(run_dir / REPORT_PDF, _pdf, what="PDF report"))
-    return out
+        pdf = atomic_write(run_dir / REPORT_PDF, _pdf, what="PDF report")
+    out = [atomic_write(run_dir / REPORT_HTML,
+                        lambda tmp: tmp.write_text(text, encoding="utf-8"), what="report")]
+    return out + ([pdf] if pdf is not None else [])
 
 
 def write_report(run_dir: str | Path, manifest: dict[str, Any] | None = None, *,

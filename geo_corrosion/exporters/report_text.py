@@ -8,12 +8,12 @@ through :func:`_e` (HTML escape); fragments built here from escaped parts are ma
 
 from __future__ import annotations
 
-import html
 from collections.abc import Mapping
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
+from geo_corrosion.exporters._html import Raw, escape
 from geo_corrosion.units import M_PER_FT, MM_PER_INCH
 
 if TYPE_CHECKING:
@@ -24,16 +24,12 @@ __all__ = ["parameter_unit", "summarize_correction"]
 _NBSP = "\u00a0"  # between a number and its unit, so a line never starts with the unit
 
 
-class _Raw(str):
-    """Text that is HTML already (built here from escaped parts): not escaped again."""
+_Raw = Raw
 
 
 def _e(v: Any) -> str:
-    if isinstance(v, _Raw):
-        return str(v)
-    if isinstance(v, float | np.floating):
-        return "" if not np.isfinite(v) else f"{float(v):,.2f}"
-    return html.escape("" if v is None else str(v), quote=True)
+    """Escape for the report: floats with thousands separators."""
+    return escape(v, thousands=True)
 
 
 def _g(v: float, digits: int = 6) -> str:

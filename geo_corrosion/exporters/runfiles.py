@@ -39,9 +39,13 @@ def read_run(run_dir: str | Path) -> dict[str, Any]:
         raise ExportError(f"{run_dir} holds no run.json; is it the output folder of "
                           "`geo-corrosion run`?")
     try:
-        return json.loads(man.read_text(encoding="utf-8"))
+        data = json.loads(man.read_text(encoding="utf-8"))
     except (OSError, ValueError) as err:
         raise ExportError(f"{man}: cannot be read ({err}); re-run `geo-corrosion run`") from err
+    if not isinstance(data, dict) or "levels" not in data:
+        raise ExportError(f"{man}: not the manifest of a run (no 'levels'); re-run "
+                          "`geo-corrosion run`")
+    return data
 
 
 def result_manifest(result: RunResult) -> dict[str, Any]:

@@ -16,7 +16,6 @@ that comes from input files is HTML-escaped before it reaches the page.
 
 from __future__ import annotations
 
-import base64
 import html
 import io
 import json
@@ -31,6 +30,7 @@ import numpy as np
 from geo_corrosion._io import atomic_write
 from geo_corrosion.cautions import CAUTIONS
 from geo_corrosion.errors import ExportError
+from geo_corrosion.exporters._html import escape, png_data_url
 from geo_corrosion.exporters.base import Exporter
 from geo_corrosion.exporters.runfiles import RunLayers, read_run, result_manifest
 
@@ -62,11 +62,12 @@ SEVERITY_DIRECTION = {"potential": -1, "resistivity": -1, "corrosion_rate": 1, "
 _HEX = re.compile(r"^#[0-9A-Fa-f]{6}$")
 
 
-def _e(value: Any) -> str:
-    """HTML-escape any value (numbers with 2 decimals)."""
-    if isinstance(value, float | np.floating):
-        return "" if not np.isfinite(value) else f"{float(value):.2f}"
-    return html.escape("" if value is None else str(value), quote=True)
+_e = escape
+
+
+def _num(x: float) -> str:
+    """A reading's value: 1 decimal from 10 up (mV, mm, kOhm.cm), else 3 significant digits."""
+    return f"{x:.1f}" if abs(x) >= 10 else f"{x:.3g}"
 
 
 def _safe_color(c: Any, default: str) -> str:
@@ -128,8 +129,7 @@ def _surface_overlay(tif: Path, direction: int) -> tuple[str, list[list[float]],
     Image.fromarray((rgba * 255).round().astype(np.uint8)).save(buf, format="PNG")
     west, north = tr.c, tr.f
     east, south = tr.c + tr.a * w, tr.f + tr.e * h
-    url = "data:image/png;base64," + base64.b64encode(buf.getvalue()).decode()
-    return url, [[south, west], [north, east]], lo, hi
+    return png_data_url(buf.getvalue()), [[south, west], [north, east]], lo, hi
 
 
 def _leaflet_assets() -> tuple[str, str, str]:
@@ -154,7 +154,7 @@ def _leaflet_assets() -> tuple[str, str, str]:
         img = base / m.group(1)
         if not img.is_file():
             return m.group(0)
-        return "url(data:image/png;base64," + base64.b64encode(img.read_bytes()).decode() + ")"
+        return f"url({png_data_url(img.read_bytes())})"
 
     css = re.sub(r"url\((images/[^)]+\.png)\)", inline, css)
     js = js.replace("//# sourceMappingURL=leaflet.js.map", "")
@@ -256,8 +256,10 @@ def _level(b: _Builder, run_dir: Path, lid: str, info: dict[str, Any], layers: R
     base = folium.FeatureGroup(name=f"{lname} ({_e(lid)})", overlay=False, show=first)
     slab = layers.get(f"{lid}_slab")
     if slab is not None:
+        slab["area_rep"] = [f"{a:,.0f} {units.area}"
+                            for a in units.area_from_m2(slab["area_m2"].to_numpy(float))]
         _geojson(slab, "slab", {"color": COLORS["slab"], "weight": 2, "fillOpacity": 0.0},
-                 {"name": "level", "area_m2": "area (m2)"}, show=True).add_to(base)
+                 {"name": "level", "area_rep": "slab area"}, show=True).add_to(base)
     exc = layers.get(f"{lid}_exclusions")
     if exc is not None:
         _geojson(exc, "exclusions", {"color": COLORS["exclusion"], "weight": 1,
@@ -437,7 +439,7 @@ def _readings(b: _Builder, lid: str, lname: str, layers: RunLayers, kinds: dict[
         t = np.clip((np.nan_to_num(v, nan=lo) - lo) / max(hi - lo, 1e-9), 0, 1)
         t = np.round((1 - t if d < 0 else t) * 8) / 8  # 9 colours: compact page
         g["_c"] = [_hex(c) for c in ramp_colors(t)]
-        g["value"] = [f"{x:.1f} {unit}" if np.isfinite(x) else "no value" for x in v]
+        g["value"] = [f"{_num(x)} {unit}" if np.isfinite(x) else "no value" for x in v]
         flags = g["qa_flags"].fillna("").astype(str) if "qa_flags" in g else [""] * len(g)
         g["qa"] = list(flags)
         g["_f"] = ["1" if f else "" for f in flags]

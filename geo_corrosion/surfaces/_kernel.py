@@ -38,7 +38,8 @@ except ImportError:  # pragma: no cover - exercised only on installs without num
 
 def kernel_for(model: Any) -> int | None:
     """Return the kernel's code of a variogram model, or None when the numpy path is used."""
-    if _nb is None or os.environ.get("GEO_CORROSION_NO_JIT"):
+    off = os.environ.get("GEO_CORROSION_NO_JIT", "").strip().lower()
+    if _nb is None or off not in ("", "0", "false", "no"):
         return None
     return KERNEL_MODELS.get(model.name)
 

@@ -92,7 +92,7 @@ def test_low_cover_reaches_the_combined_classes(sample_result) -> None:  # type:
         # and no high-priority cell without a reason for it (rules 1-3 of the default table)
         rate = lr.surfaces.get("corrosion_rate")
         res = lr.surfaces.get("resistivity")
-        reason = both | (low & (res.mean < 10.0) if res is not None else False)
+        reason = both | ((low & (res.mean < 10.0)) if res is not None else False)
         if rate is not None:
             reason |= rate.mean > 1.0
         assert not (codes == hp)[~reason].any(), lid

@@ -449,3 +449,13 @@ def test_non_finite_run_values_refused(site_dir: Path, text: str) -> None:
         edit(site_dir / "site.toml", 'cell_size = "1 ft"\n', "")
     with pytest.raises(GeoCorrosionError, match=rf"site.toml: \[run\]\.{key}: "):
         read_site(site_dir)
+
+
+def test_two_levels_with_one_name_are_refused(site_dir: Path) -> None:
+    # every map, drawing and report section is named after its level (common practice)
+    text = (site_dir / "site.toml").read_text()
+    start = text.index("[[levels]]")
+    end = text.index("[[surveys]]")
+    copy = text[start:end].replace('id = "D1"', 'id = "D2"')
+    (site_dir / "site.toml").write_text(text[:end] + copy + text[end:])
+    _fails(site_dir, "names must differ")

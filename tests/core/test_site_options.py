@@ -242,8 +242,7 @@ def test_sawcut_depth_default_is_three_quarter_inch_exactly(site_dir: Path) -> N
 
 
 def test_library_sawcut_depth_defaults_are_three_quarter_inch() -> None:
-    # ICRI 310.1R (REFERENCE §6.2 [S]): 3/4 in = 19.05 mm; the site file passes 19.05 explicitly,
-    # so only direct library calls see 19.0
+    # ICRI 310.1R (REFERENCE §6.2 [S]): 3/4 in = 19.05 mm, for direct library calls too
     import inspect
 
     from geo_corrosion.repair import LayoutParams, depth_class

@@ -30,8 +30,8 @@ def test_undercut_bad_input() -> None:
 
 def test_depth_classes() -> None:
     # REFERENCE.md §6.3 (M/P): plane above the bars -> partial above, at least the saw-cut depth
-    # (the saw cut is 3/4 in = 19.05 mm, ICRI 310.1R via §6.2; given here, as the pipeline does,
-    # because the library default is still 19.0 mm: see tests/core/test_site_options.py)
+    # (the saw cut is 3/4 in = 19.05 mm, ICRI 310.1R via §6.2; the library default since
+    # tests/core/test_site_options.py::test_library_sawcut_depth_defaults_are_three_quarter_inch)
     assert depth_class(cover_mm=50, bar_diameter_mm=16, delam_depth_mm=10,
                        sawcut_depth_mm=19.05) == ("partial_above_bars", 19.05)
     # bars exposed: cover + bar + ICRI clearance = 38.1 + 15.9 + 19.05 = 73.05 mm (D)

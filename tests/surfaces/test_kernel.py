@@ -76,6 +76,16 @@ def test_singular_systems_fall_back_to_the_numpy_path() -> None:
         eng = KrigingEngine(x, y, z, model, n_neighbors=6, merge=False)
         m, v, _ = eng.predict(np.array([1.0, 4.0]), np.array([1.0, 4.0]))
     assert np.isfinite(m).all() and np.isfinite(v).all()
+    from geo_corrosion.surfaces._kernel import solve_points
+
+    d, i = eng.query(*eng.model.transform_coords(np.array([1.0, 4.0]), np.array([1.0, 4.0])))
+    assert solve_points(eng.px, eng.py, eng.z, i, d, n=eng.n, code=0, model=model,
+                        eps=1e-10)[3].all()  # both points were left to the numpy path
+    with pytest.warns(KrigingWarning, match="pseudo-inverse"):
+        ref = KrigingEngine(x, y, z, model, n_neighbors=6, merge=False, use_kernel=False)
+        m0, v0, _ = ref.predict(np.array([1.0, 4.0]), np.array([1.0, 4.0]))
+    np.testing.assert_allclose(m, m0, rtol=1e-12)
+    np.testing.assert_allclose(v, v0, rtol=1e-12)
 
 
 def test_variance_calibration_keeps_estimates_and_gives_msse_one() -> None:

@@ -22,18 +22,22 @@ REPO = Path(__file__).resolve().parents[2]
 SAMPLE = REPO / "sample_sites" / "millbrook_garage"
 CHROMIUM = Path("/usr/bin/chromium")
 XSS = "<script>alert(1)</script>"
+#: in the site name and the owner: an attribute-borne script (OWASP XSS filter evasion)
+XSS_IMG = "<img src=x onerror=alert(2)>"
 CHROMIUM_ARGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic",
                  "--no-first-run", "--disable-background-networking",
                  "--disable-component-update", "--disable-sync"]
 
 
 def _xss_site(root: Path) -> Path:
-    """The synthetic site, metric, with a script tag in the level name and an overlay label."""
+    """The synthetic site, metric, with script in the site name, owner, level name and a label."""
     from geo_corrosion.testing import make_synthetic_site
 
     site = make_synthetic_site(root)
     text = site.read_text()
     for old, new in (('units = "us"', 'units = "metric"'),
+                     ('name = "Synthetic test deck"',
+                      f'name = "Deck {XSS_IMG}"\nowner = "Owner {XSS_IMG}"'),
                      ('name = "Test deck"', f'name = "{XSS}"'),
                      ('{ kind = "spall", path = "sounding/sounding.dxf", layer = "SPALL" } ]',
                       '{ kind = "spall", path = "sounding/sounding.dxf", layer = "SPALL" },\n'

@@ -15,7 +15,7 @@ from typing import Any
 import numpy as np
 import pytest
 
-from tests.webmap.conftest import XSS, open_page
+from tests.webmap.conftest import XSS, XSS_IMG, open_page
 
 pytestmark = pytest.mark.browser
 
@@ -99,6 +99,10 @@ def test_script_tag_in_input_is_shown_as_text(xss_page: Any, xss_run: Path) -> N
     assert log.dialogs == []  # nothing ran alert()
     labels = _labels(page)
     assert f"{XSS} (D1)" in labels  # the level name, shown literally
+    # the site name and owner in the title panel: text, no <img> element was made
+    assert f"Deck {XSS_IMG}" in page.inner_text("#gc-title")
+    assert f"Owner {XSS_IMG}" in page.inner_text("#gc-title")
+    assert page.evaluate("document.querySelectorAll('#gc-title img').length") == 0
     scripts = page.eval_on_selector_all("script", "els => els.map(e => e.textContent.trim())")
     assert not any(s.startswith("alert(") for s in scripts)
     # the overlay label of the GeoJSON delamination, in its tooltip
