@@ -214,6 +214,20 @@ def _fallback_model(
     return VariogramModel(**p)
 
 
+def _median_spacing(x: NDArray[np.float64], y: NDArray[np.float64]) -> float:
+    """Median distance from a reading to its nearest other reading (a sample of 5,000)."""
+    from scipy.spatial import cKDTree
+
+    pts = np.column_stack([x, y])
+    tree = cKDTree(pts)
+    q = pts if len(pts) <= 5000 else pts[np.random.default_rng(0).choice(len(pts), 5000,
+                                                                          replace=False)]
+    d, _ = tree.query(q, k=2)
+    d = d[:, 1]
+    d = d[np.isfinite(d) & (d > 0)]
+    return float(np.median(d)) if d.size else 0.0
+
+
 def fit_variogram(
     x: ArrayLike,
     y: ArrayLike,
@@ -325,6 +339,20 @@ def fit_variogram(
     )
     ml = float(ev.bin_edges[-1])
     var = float(np.var(zt))
+    if max_lag is None:
+        # the structure lies inside the first lag bin (its semivariance is already over half
+        # the variance): no model can be fitted to the bins, so zoom in on the short lags,
+        # at most three times and not below the reading spacing
+        spacing = _median_spacing(xa, ya)
+        for _ in range(3):
+            if not (ev.gamma[0] > 0.5 * var and ml / n_lags > 2.0 * spacing):
+                break
+            ml = max(ml / 4.0, 2.0 * spacing * n_lags)
+            ev = experimental_variogram(
+                xa, ya, zt, max_lag=ml, n_lags=n_lags, max_pairs=max_pairs, seed=seed
+            )
+            notes.append(f"experimental variogram re-binned to max_lag={ml:g}: the first lag "
+                         "bin already held most of the variance")
     wls = {name: _fit_one(name, ev, fx, var, ml) for name in cands}
     short = float(np.median([m.range for m, _ in wls.values()]))
     if max_lag is None and short < ml / 2.5:

@@ -365,6 +365,29 @@ def _default_max_lag(x: NDArray[np.float64], y: NDArray[np.float64]) -> float:
     return diag / 3.0
 
 
+#: Above this many readings the pair count is estimated from a sample of query points.
+_EXACT_COUNT_MAX = 20_000
+_COUNT_SAMPLE = 5_000
+
+
+def _pair_count(tree: cKDTree, pts: NDArray[np.float64], max_lag: float,
+                rng: np.random.Generator) -> int:
+    """Number of pairs closer than ``max_lag``: exact up to 20,000 readings, else estimated.
+
+    The estimate counts the neighbours of 5,000 random readings in the full tree and
+    scales by n / 5,000 (its relative error is about 1/sqrt(5,000 x neighbours)); it only
+    sets the size of the reading subsample, and the pairs actually used are counted
+    exactly.  Counting every pair of 100,000 readings took about 1.5 s of the 1.7 s of an
+    estimation on the benchmark deck.
+    """
+    n = pts.shape[0]
+    if n <= _EXACT_COUNT_MAX:
+        return (int(tree.count_neighbors(tree, max_lag)) - n) // 2
+    sample = rng.choice(n, size=_COUNT_SAMPLE, replace=False)
+    c = int(cKDTree(pts[sample]).count_neighbors(tree, max_lag)) - _COUNT_SAMPLE
+    return int(round(c * n / _COUNT_SAMPLE / 2))
+
+
 def experimental_variogram(
     x: ArrayLike,
     y: ArrayLike,
@@ -424,10 +447,10 @@ def experimental_variogram(
         raise KrigingError(f"tolerance_deg must be in (0, 90], got {tolerance_deg}")
     pts = np.column_stack([xa, ya])
     tree = cKDTree(pts)
-    total = (int(tree.count_neighbors(tree, max_lag)) - n) // 2
+    rng = np.random.default_rng(seed)
+    total = _pair_count(tree, pts, max_lag, rng)
     use = np.arange(n)
     if total > max_pairs:
-        rng = np.random.default_rng(seed)
         m = max(2, int(n * math.sqrt(max_pairs / total) * 0.98))
         use = np.sort(rng.choice(n, size=m, replace=False))
         tree = cKDTree(pts[use])

@@ -89,3 +89,28 @@ def test_collinear_readings_warn():
     with pytest.warns(KrigingWarning, match="straight line"):
         fit = fit_variogram(x, 0.5 * x, z, models=("spherical",))
     assert np.isfinite(fit.model.range)
+
+
+@pytest.mark.parametrize("seed", [0, 1, 2])
+def test_short_range_structure_is_found_inside_the_default_first_bin(seed: int) -> None:
+    # A field of 40 random Fourier features with wave numbers ~ N(0, (1/15 per m)^2) has the
+    # Gaussian covariance exp(-2 pi^2 s^2 h^2) (Rahimi & Recht 2007, random features; from
+    # memory), practical range sqrt(ln 20 / (2 pi^2 s^2)) = 5.84 m and variance 80^2 mV^2,
+    # plus a 10 mV white-noise nugget. Its structure lies inside the first 5 m bin of the
+    # default lags (max lag = diagonal / 3 = 78 m), where a fit used to find ranges of
+    # 75-230 m for some subsamples.
+    import math
+
+    rng = np.random.default_rng(100 + seed)
+    n = 30_000
+    x, y = rng.uniform(0, 200, n), rng.uniform(0, 120, n)
+    z = np.zeros(n)
+    for _ in range(40):
+        kx, ky = rng.normal(0, 1 / 15.0, 2)
+        z += math.sqrt(2 / 40) * np.cos(2 * math.pi * (kx * x + ky * y) + rng.uniform(0, 6.3))
+    z = -250 + 80 * z + rng.normal(0, 10, n)
+    fit = fit_variogram(x, y, z, seed=seed)
+    practical = math.sqrt(math.log(20) / (2 * math.pi**2 / 15.0**2))
+    assert fit.model.name in ("gaussian", "matern")  # smooth at the origin
+    assert fit.model.range == pytest.approx(practical, rel=0.25)
+    assert any("first lag bin" in note for note in fit.notes)
