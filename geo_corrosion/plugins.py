@@ -11,10 +11,11 @@ raises only when used.  On a name clash the built-in wins, with a
 
 from __future__ import annotations
 
+import contextlib
 import importlib
 import traceback
 import warnings
-from collections.abc import Callable, Iterable
+from collections.abc import Callable, Iterable, Iterator
 from dataclasses import dataclass, field
 from importlib.metadata import EntryPoint, entry_points
 from typing import Any, Generic, TypeVar
@@ -108,6 +109,20 @@ class Registry(Generic[T]):
         """Register a plugin in this process (tests, notebooks)."""
         self._extra[name] = plugin
         self._cache = None
+
+    def unregister(self, name: str) -> None:
+        """Remove a plugin registered with :meth:`register` (no error if absent)."""
+        self._extra.pop(name, None)
+        self._cache = None
+
+    @contextlib.contextmanager
+    def registered(self, name: str, plugin: T) -> Iterator[T]:
+        """Register a plugin for the duration of a ``with`` block (tests, notebooks)."""
+        self.register(name, plugin)
+        try:
+            yield plugin
+        finally:
+            self.unregister(name)
 
     def names(self) -> list[str]:
         """Names of the usable plugins."""

@@ -57,12 +57,10 @@ def test_unknown_name_and_class_pass_through() -> None:
     with pytest.raises(PluginError, match="unknown measurement kind 'chlorid'"):
         get_kind("chlorid")
     assert isinstance(get_kind(ChlorideAtBar), ChlorideAtBar)
-    MEASUREMENTS.register("chloride", ChlorideAtBar)
-    try:
+    with MEASUREMENTS.registered("chloride", ChlorideAtBar):
         assert get_kind("chloride").to_canonical(np.array([1.0]), "mm")[0] == 1.0
-    finally:
-        MEASUREMENTS._extra.clear()
-        MEASUREMENTS.refresh()
+    with pytest.raises(PluginError, match="unknown measurement kind 'chloride'"):
+        get_kind("chloride")  # gone again after the block
 
 
 def test_import_is_light() -> None:

@@ -402,12 +402,8 @@ def test_variogram_kind_comes_from_the_registry(site_dir: Path) -> None:
     p.write_text(p.read_text() + '\n[run.variogram.chloride]\nrange = "20 ft"\n')
     with pytest.raises(GeoCorrosionError, match="unknown measurement kind 'chloride'"):
         read_site(site_dir)
-    MEASUREMENTS.register("chloride", Chloride)
-    try:
+    with MEASUREMENTS.registered("chloride", Chloride):
         assert read_site(site_dir).run.variogram["chloride"]["range_m"] == pytest.approx(6.096)
-    finally:
-        MEASUREMENTS._extra.pop("chloride")
-        MEASUREMENTS.refresh()
 
 
 @pytest.mark.parametrize(("table", "pattern"), [

@@ -199,13 +199,9 @@ def test_plugin_rule_constructor_errors_name_the_rule(site_dir: Path) -> None:
             if not width > 0:
                 raise ZoningError(f"width must be > 0, got {width}")
 
-    ZONING_RULES.register("strip", Strip)
-    try:
+    with ZONING_RULES.registered("strip", Strip):
         _append(site_dir, '[[zoning]]\nrule = "strip"\nwidth = -1.0')
         _refused(site_dir, "[[zoning]][0]: rule 'strip': width must be > 0")
-    finally:
-        ZONING_RULES._extra.pop("strip")
-        ZONING_RULES.refresh()
 
 
 # --------------------------------------------------------------------------- layout keys of [run]
