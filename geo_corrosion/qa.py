@@ -112,6 +112,11 @@ QA_RULES: dict[str, QARule] = {
                "tolerance (or kind without tolerance); difference reported", _C876_PREC),
         QARule("QA-REPEATABILITY", "warning",
                "repeat readings of a point in one survey differ by more than 10 mV", _C876_PREC),
+        QARule("QA-DRIFT", "warning",
+               "a point read at the start and the end of the survey drifted by more than "
+               "20 mV: the reference electrode or its contact changed during the shift",
+               "REFERENCE.md §1.6 (tool behaviour; 20 mV after the C876 stability and "
+               "reproducibility limits, from memory)"),
         QARule("QA-POINT-MOVED", "warning",
                "one point_id at locations more than half a grid spacing apart", _P),
         QARule("QA-REPRO", "info", "a point read in several surveys of a level, within the "
@@ -524,6 +529,8 @@ def _repeat_flags(r: _Readings, potential: bool, unit: str, repeat_mv: float, re
         r, df, d, heads, ("QA-REPEATABILITY", "QA-REPEAT"), potential, repeat_mv,
         "repeatability", lambda dd: f" ({'within' if dd <= repro_mv else 'also beyond'} the "
                                     f"{repro_mv:g} mV reproducibility)")]
+    if potential:
+        out.append(_drift_flag(r, df, repro_mv))
     if spacing is not None:
         moved = np.isfinite(spread) & (spread > 0.5 * spacing)
         sub = df[moved]
@@ -532,6 +539,29 @@ def _repeat_flags(r: _Readings, potential: bool, unit: str, repeat_mv: float, re
             f"apart (more than half the {spacing:g} spacing); check the point_id"
             for p, pid, sp in zip(sub["pos"], sub["pid"], spread[moved], strict=True)]))
     return _concat(out)
+
+
+def _drift_flag(r: _Readings, df: pd.DataFrame, limit_mv: float) -> pd.DataFrame:
+    """One survey flag when a point's first and last readings (file order) differ > limit.
+
+    Control points are read at the start and the end of a shift; a change beyond the
+    limit means the electrode or its contact changed, so the whole survey may be shifted
+    (REFERENCE.md §1.6).  Reported once per survey, listing the points.
+    """
+    g = df.sort_values("pos").groupby("pid", sort=False)
+    first, last = g.first(), g.last()
+    drift = (last["v"] - first["v"]).to_numpy(dtype=float)
+    bad = np.abs(drift) > limit_mv
+    if not bad.any():
+        return _empty_flags()
+    items = [f"{pid!r} {_fmt(dv)} mV ({r.where[a]} to {r.where[b]})"
+             for pid, dv, a, b in zip(first.index[bad], drift[bad], first["pos"][bad],
+                                      last["pos"][bad], strict=True)]
+    worst = float(drift[bad][np.argmax(np.abs(drift[bad]))])
+    return r.survey_flag(
+        "QA-DRIFT", f"{len(items)} point(s) read at the start and the end drifted by more "
+        f"than {limit_mv:g} mV: {'; '.join(items)}. Check the reference electrode (against a "
+        "master electrode) and its contact; the survey's potentials may be offset", worst)
 
 
 def _adjacent_flags(r: _Readings, sel: NDArray[np.bool_], spacing: float, tol: float,

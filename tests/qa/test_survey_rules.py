@@ -397,3 +397,25 @@ def test_bad_parameters(make_frame: Any, kw: dict[str, Any], match: str) -> None
     # common practice, no source
     with pytest.raises(QAError, match=match):
         check(make_frame([-300.0, -310.0]), **kw)
+
+
+def test_control_point_drift_over_the_shift(make_frame: Any) -> None:
+    # REFERENCE.md §1.6 tool behaviour: flag a survey when a control point drifts by more than
+    # 20 mV between the start and the end of a shift (20 mV: C876 stability/reproducibility,
+    # from memory). CP1 is read first, in the middle and last: -300 ... -322 is 22 mV of drift
+    # (the middle reading does not count); CP2 drifts 20 mV exactly, which is within.
+    f = make_frame([-300.0, -250.0, -290.0, -240.0, -322.0, -260.0],
+                   xy=[(0, 0), (5, 5), (0, 0), (1, 1), (0, 0), (5, 5)],
+                   point_ids=["CP1", "CP2", "CP1", "", "CP1", "CP2"])
+    flags = check(f, spacing=1.0)
+    drift = flags[flags["rule"] == "QA-DRIFT"]
+    assert len(drift) == 1  # one flag for the survey
+    row = drift.iloc[0]
+    assert row["reading_id"] == "" and row["severity"] == "warning"
+    assert "'CP1' -22.0 mV" in row["message"] and "CP2" not in row["message"]
+    assert "line 2 to readings/L1_east.csv line 6" in row["message"]
+    assert row["value"] == pytest.approx(-22.0)
+    assert qa.runnable(flags)
+    # within 20 mV everywhere: no flag
+    f = make_frame([-300.0, -319.0], xy=[(0, 0), (0, 0)], point_ids=["CP1", "CP1"])
+    assert check(f, spacing=1.0)["rule"].eq("QA-DRIFT").sum() == 0
