@@ -27,12 +27,15 @@ from __future__ import annotations
 
 import csv
 import io
+import re
 from pathlib import Path
+from typing import Any
 
 import geopandas as gpd
 import numpy as np
 import pandas as pd
 import pyproj
+from numpy.typing import NDArray
 
 from geo_corrosion.config import SurveyConfig
 from geo_corrosion.crs import LocalGrid
@@ -43,7 +46,7 @@ __all__ = ["read_readings", "OUR_COLUMNS", "READING_COLUMNS"]
 
 #: Our column names and whether each is required.
 OUR_COLUMNS = {"point_id": False, "x": True, "y": True, "value": True, "temperature_c": False,
-               "note": False}
+               "note": False, "stability": False}
 READING_COLUMNS = ["reading_id", "survey_id", "level_id", "row", "where", "point_id",
                    "x_local", "y_local", "raw_value", "raw_unit"]
 
@@ -127,6 +130,30 @@ def _numbers(series: pd.Series, col: str, decimal: str, name: str, rows: list[in
         i = int(np.flatnonzero(blank.to_numpy())[0])
         raise SchemaError(f"{name} {unit_row} {rows[i]}: column {col!r} is empty; a value is required")
     return vals.to_numpy(float)
+
+
+def _stability_ranges(col: pd.Series, kind: MeasurementKind, unit: str, dec: str, name: str,
+                      rows: Any, row_word: str) -> NDArray[np.float64]:
+    """Range (max - min, canonical unit) of each reading's stability series.
+
+    A cell holds the readings taken while the value settled, separated by spaces or ``|``
+    (e.g. ``"-250 -262 -271"``), in the survey's unit; an empty cell gives NaN.
+    """
+    out = np.full(len(col), np.nan)
+    for k, (cell, r) in enumerate(zip(col.astype(str), rows, strict=True)):
+        text = cell.strip()
+        if not text or text.lower() == "nan":
+            continue
+        parts = [p for p in re.split(r"[\s|]+", text) if p]
+        try:
+            vals = np.array([float(p.replace(",", ".") if dec == "," else p) for p in parts])
+        except ValueError:
+            raise SchemaError(
+                f"{name} {row_word} {r}: stability series {cell!r} is not numbers separated by "
+                "spaces or '|' (e.g. \"-250 -262 -271\")") from None
+        canon = kind.to_canonical(vals, unit, where=f"{name} {row_word} {r}: ")
+        out[k] = float(np.max(canon) - np.min(canon))
+    return out
 
 
 def read_readings(
@@ -235,4 +262,7 @@ def read_readings(
                                         name, rows, row_word, False)
     if mapping["note"] in df.columns:
         out["note"] = df[mapping["note"]].astype(str).to_numpy()
+    if mapping["stability"] in df.columns:
+        out["stability_range"] = _stability_ranges(df[mapping["stability"]], kind, cfg.unit,
+                                                   dec, name, rows, row_word)
     return gpd.GeoDataFrame(out, geometry=gpd.points_from_xy(X, Y), crs=site_crs)

@@ -86,6 +86,10 @@ class QARule:
 _C876_PREC = "ASTM C876 precision section (from memory; REFERENCE.md §1.6 HCP-08)"
 _P = "common practice, no source"
 
+#: A potential that changes by more than this while it settles (about 5 min) needs pre-wetting
+#: (ASTM C876 procedure, from memory; REFERENCE.md §1.6).
+STABILITY_LIMIT_MV = 20.0
+
 QA_RULES: dict[str, QARule] = {
     r.code: r
     for r in (
@@ -117,6 +121,10 @@ QA_RULES: dict[str, QARule] = {
                "20 mV: the reference electrode or its contact changed during the shift",
                "REFERENCE.md §1.6 (tool behaviour; 20 mV after the C876 stability and "
                "reproducibility limits, from memory)"),
+        QARule("QA-UNSTABLE", "warning",
+               "potentials: the reading's stability series spans more than 20 mV: the "
+               "concrete was not pre-wetted enough; pre-wet and read again",
+               "ASTM C876 procedure, from memory (REFERENCE.md §1.6, HCP-09)"),
         QARule("QA-POINT-MOVED", "warning",
                "one point_id at locations more than half a grid spacing apart", _P),
         QARule("QA-REPRO", "info", "a point read in several surveys of a level, within the "
@@ -406,6 +414,15 @@ def check_survey(
         f"{w}: {value_column} = {_fmt(v)} {unit} is above the plausible range {rng}: "
         f"implausible, check connection, electrode or units"
         for w, v in zip(r.where[idx], r.v[idx], strict=True)]))
+
+    # -- stability during the reading (ASTM C876 procedure, from memory; REFERENCE §1.6 HCP-09)
+    if potential and "stability_range" in frame.columns:
+        span = frame["stability_range"].to_numpy(dtype=float)
+        idx = np.flatnonzero(np.isfinite(span) & (span > STABILITY_LIMIT_MV))
+        out.append(r.flags(idx, "QA-UNSTABLE", [
+            f"{w}: the reading changed by {_fmt(d)} mV while it settled (more than "
+            f"{STABILITY_LIMIT_MV:g} mV): unstable, pre-wet required; pre-wet and read again"
+            for w, d in zip(r.where[idx], span[idx], strict=True)]))
 
     # -- slab and exclusions (common practice)
     all_outside = False

@@ -455,3 +455,31 @@ def test_two_levels_with_one_name_are_refused(site_dir: Path) -> None:
     copy = text[start:end].replace('id = "D1"', 'id = "D2"')
     (site_dir / "site.toml").write_text(text[:end] + copy + text[end:])
     _fails(site_dir, "names must differ")
+
+
+def test_stability_series_flags_unstable_readings(site_dir: Path) -> None:
+    # REFERENCE.md HCP-09 (ASTM C876 procedure, from memory): [-250, -262, -271] over 5 min
+    # spans 21 mV > 20 mV -> unstable, "pre-wet required"; [-250, -255, -270] spans 20: stable
+    p = site_dir / "readings" / "potential.csv"
+    lines = p.read_text().splitlines()
+    lines[0] += ",stability"
+    lines[1:] = [ln + "," for ln in lines[1:]]
+    lines[5] = lines[5][:-1] + ",-250 -262 -271"
+    lines[6] = lines[6][:-1] + ",-250|-255|-270"
+    p.write_text("\n".join(lines) + "\n")
+    from geo_corrosion.pipeline import check_site
+
+    site = open_site(site_dir)
+    frame = site.surveys[0].frame
+    assert frame["stability_range"].iloc[4] == pytest.approx(21.0)
+    assert frame["stability_range"].iloc[5] == pytest.approx(20.0)
+    assert frame["stability_range"].iloc[6:].isna().all()  # empty cells: no series
+    flags = check_site(site)
+    hit = flags[flags["rule"] == "QA-UNSTABLE"]
+    assert list(hit["reading_id"]) == ["D1-hcp:6"]  # ids carry the file line
+    assert "potential.csv line 6" in hit["message"].iloc[0]
+    assert "pre-wet required" in hit["message"].iloc[0]
+    # a series that is not numbers is refused with its line
+    lines[7] = lines[7][:-1] + ",-250 abc"
+    p.write_text("\n".join(lines) + "\n")
+    _fails(site_dir, "line 8: stability series")
