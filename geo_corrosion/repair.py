@@ -23,7 +23,11 @@ built on ICRI 310.1R-2008 and agency specifications]:
    notch or step smaller than ``min_reentrant_mm`` (narrow strips are filled,
    never cut, so no sounded area is lost) and with small or narrow sound islands
    inside it filled;
-6. clip to the panel and subtract exclusions.
+6. clip to the panel and subtract exclusions;
+7. apply the minimum size again to the pieces the clip left (common practice, see
+   :func:`_settle_slivers`): a piece narrower than it is dropped if it is margin
+   only, else widened away from the cut edge inside its panel, else kept with a
+   :class:`~geo_corrosion.errors.GeometryWarning` naming the repair.
 """
 
 from __future__ import annotations
@@ -89,7 +93,7 @@ class LayoutParams:
         Largest area increase, as a fraction of the group's own area, accepted to
         replace a merged group by its bounding rectangle (default 0.25 [P]).
     min_size_mm : float
-        Smallest repair side, mm (default 300 mm [P]).
+        Smallest repair side, mm (default 300 mm [P]); applied again after clipping.
     min_reentrant_mm : float
         Smallest notch, step or strip kept in an L/T-shaped repair, mm (default 300 mm [P]).
     axis_angle_deg : float
@@ -600,6 +604,108 @@ def _min_size(r: Polygon, size: float) -> Polygon:
     return box(x0, y0, x1, y1)
 
 
+# ----------------------------------------------------------------------------- slivers
+#
+# Minimum size after clipping (common practice, no source).  Step 4 makes every
+# rectangle at least ``min_size`` on a side, but the clip to the panel (a joint or
+# the slab edge) and the cut-out of exclusions come after it and can leave a piece
+# a few inches wide that no contractor would saw-cut, break out and form.  What a
+# repair contractor expects, and what is done here, for each piece in which no
+# ``min_size`` square fits (for a rectangle: its short side is below ``min_size``):
+#
+# - a piece that holds no sounded area (it is margin only: the sounded area is on
+#   the other side of the joint or the exclusion) is dropped: the margin is there
+#   to reach sound concrete around a delamination, and the joint or the exclusion
+#   already bounds the repair on that side;
+# - a piece that holds sounded area is widened, away from the edge it was cut at,
+#   to ``min_size``, as a rectangle that stays inside its panel (inside the slab,
+#   on its side of the joint), outside every exclusion and clear of every other
+#   repair;
+# - if it cannot be widened so, it is kept as it is (sounded area is never left
+#   unrepaired) and reported with a GeometryWarning naming the repair.
+
+
+@dataclass
+class _Piece:
+    """One repair outline in the saw-cut frame, as clipped to its panel and exclusions."""
+
+    geom: BaseGeometry
+    ids: frozenset[int]
+    panel: Polygon
+    clipped: BaseGeometry  # as clipped, before any widening: numbering uses it
+    narrow_mm: float | None = None  # kept below the minimum size: its short side, mm (nan if
+    #                                 not a rectangle); warned once it has an id
+
+
+def _fits_square(g: BaseGeometry, size: float, tol: float) -> bool:
+    """Tell whether a ``size`` square (on the saw-cut axes) fits inside ``g``.
+
+    A rectangle is measured exactly (its short side).  Any other outline is eroded by
+    the square (a mitred inward buffer, exact on a rectilinear outline) less 0.1 % of
+    ``size``: GEOS drops an erosion much thinner than that.
+    """
+    x0, y0, x1, y1 = g.bounds
+    if abs((x1 - x0) * (y1 - y0) - g.area) <= tol:
+        return min(x1 - x0, y1 - y0) >= size - tol
+    d = size / 2.0 - max(tol, 1e-3 * size)
+    return d <= 0 or not g.buffer(-d, join_style="mitre", mitre_limit=5.0).is_empty
+
+
+def _widen(g: BaseGeometry, panel: Polygon, excl: BaseGeometry, others: Sequence[BaseGeometry],
+           size: float, tiny: float) -> Polygon | None:
+    """A rectangle over ``g`` with both sides >= ``size`` that fits there, or None.
+
+    Each short side is extended from one end of the piece's bounds: first keeping
+    the low end (growing up / right), then keeping the high end.  The edge a piece
+    was cut at (a joint, an exclusion, the slab edge) blocks growth across it, so
+    the rectangle that fits grows away from it.  It must stay inside ``panel``,
+    outside ``excl`` and clear of ``others``.
+    """
+    x0, y0, x1, y1 = g.bounds
+
+    def spans(lo: float, hi: float) -> list[tuple[float, float]]:
+        return [(lo, hi)] if hi - lo >= size else [(lo, lo + size), (hi - size, hi)]
+
+    for ax0, ax1 in spans(x0, x1):
+        for ay0, ay1 in spans(y0, y1):
+            c = box(ax0, ay0, ax1, ay1)
+            if c.difference(panel).area > tiny:
+                continue
+            if not excl.is_empty and c.intersection(excl).area > tiny:
+                continue
+            if any(c.intersection(o).area > tiny for o in others):
+                continue
+            return c
+    return None
+
+
+def _settle_slivers(pieces: list[_Piece], parts_r: Sequence[BaseGeometry], excl: BaseGeometry,
+                    size: float, tol: float, per_mm: float) -> list[_Piece]:
+    """Apply the minimum size again after clipping (see the comment above)."""
+    if size <= 0:
+        return pieces
+    tiny = tol * 1e-3  # area: above GEOS noise, far below any sounded area
+    kept: list[tuple[_Piece, bool]] = []
+    for pc in pieces:
+        narrow = not _fits_square(pc.geom, size, tol)
+        if narrow and not any(parts_r[k].intersection(pc.geom).area > tiny for k in pc.ids):
+            continue  # margin only: dropped
+        kept.append((pc, narrow))
+    out = [pc for pc, _ in kept]
+    for i, (pc, narrow) in enumerate(kept):
+        if not narrow:
+            continue
+        others = [q.geom for j, q in enumerate(out) if j != i]
+        grown = _widen(pc.geom, pc.panel, excl, others, size, tiny)
+        if grown is not None:
+            pc.geom = grown
+            continue
+        x0, y0, x1, y1 = pc.geom.bounds
+        rect = abs((x1 - x0) * (y1 - y0) - pc.geom.area) <= tol
+        pc.narrow_mm = min(x1 - x0, y1 - y0) / per_mm if rect else math.nan  # for the warning
+    return out
+
+
 # ----------------------------------------------------------------------------- layout
 
 
@@ -668,7 +774,8 @@ def layout_repairs(sources: gpd.GeoDataFrame, *, slab: Polygon,
     GeoDataFrame
         One row per repair, columns :data:`REPAIR_COLUMNS`: ``repair_id``
         (``f"{level_id}-R{n:03d}"`` numbered from the top row of the plan down, then
-        left to right, by centroid), ``source_ids`` (comma-joined), ``area_m2``,
+        left to right, by the centroid of the outline as clipped, before a sliver is
+        widened), ``source_ids`` (comma-joined), ``area_m2``,
         ``perimeter_m`` (saw-cut length: the outline less the parts on the slab
         edge, on an exclusion's boundary or on a joint, none of which are cut),
         ``outline_m`` (whole outline), ``n_reentrant_corners``, ``depth_class``,
@@ -683,7 +790,9 @@ def layout_repairs(sources: gpd.GeoDataFrame, *, slab: Polygon,
     Warns
     -----
     GeometryWarning
-        For outlines repaired by :func:`clean_outlines` and sources wholly outside the slab.
+        For outlines repaired by :func:`clean_outlines`, sources wholly outside the slab,
+        and a repair left narrower than ``min_size_mm`` by a joint, an exclusion or the
+        slab edge that holds sounded area and has no room to widen (named by its id).
 
     Notes
     -----
@@ -731,7 +840,7 @@ def _layout(sources: gpd.GeoDataFrame, slab: Polygon, exclusions: Sequence[Polyg
                                     if g.intersects(slab_r)}):
         warnings.warn(f"level {level_id}: {rows.loc[k, 'kind']} {rows.loc[k, 'source_id']!r} "
                       "lies wholly outside the slab; it is ignored", GeometryWarning, stacklevel=2)
-    found: list[tuple[BaseGeometry, frozenset[int]]] = []
+    found: list[_Piece] = []
     for panel in _panels(slab_r, [rot(j) for j in jts], tol):
         shapes: list[_Shape] = []
         for k, g in enumerate(parts_r):
@@ -755,7 +864,8 @@ def _layout(sources: gpd.GeoDataFrame, slab: Polygon, exclusions: Sequence[Polyg
                 if pc.area <= tol:
                     continue
                 ks = frozenset(k for k in s.ids if parts_r[k].intersects(pc)) or s.ids
-                found.append((pc, ks))
+                found.append(_Piece(pc, ks, panel, pc))
+    found = _settle_slivers(found, parts_r, excl_r, min_size, tol, per_mm)
     return _attributes(found, rows, row_of, slab, excl, jts, rot, unit, p, level_id, tol)
 
 
@@ -769,18 +879,22 @@ def _tidy(g: BaseGeometry, tol: float) -> BaseGeometry:
     return parts[0] if len(parts) == 1 else MultiPolygon(parts)
 
 
-def _attributes(found: Iterable[tuple[BaseGeometry, frozenset[int]]], rows: pd.DataFrame,
+def _attributes(found: Iterable[_Piece], rows: pd.DataFrame,
                 row_of: list[int], slab: Polygon, excl: list[Polygon], jts: list[LineString],
                 rot: object, unit: str, p: LayoutParams, level_id: str, tol: float
                 ) -> gpd.GeoDataFrame:
     f = LENGTH_TO_M[unit]
     nocut = shapely.union_all([slab.boundary, *[e.boundary for e in excl], *jts]).buffer(tol * 10)
     recs = []
-    for g_r, ks in found:
-        g = _tidy(rot(g_r, 1.0), tol)  # type: ignore[operator]
+    for pc in found:
+        g = _tidy(rot(pc.geom, 1.0), tol)  # type: ignore[operator]
         if g.is_empty:
             continue
-        srows = sorted({row_of[k] for k in ks})
+        # numbered by the outline as clipped, so widening a sliver renumbers no other repair
+        at = g if pc.clipped is pc.geom else _tidy(rot(pc.clipped, 1.0),  # type: ignore[operator]
+                                                   tol)
+        c = at.centroid
+        srows = sorted({row_of[k] for k in pc.ids})
         best: tuple[int, float, str] = (-1, 0.0, "")
         for r in srows:
             cover = _finite(rows.loc[r, "cover_mm"]) if "cover_mm" in rows else None
@@ -794,9 +908,9 @@ def _attributes(found: Iterable[tuple[BaseGeometry, frozenset[int]]], rows: pd.D
             best = max(best, key)
         area_m2 = g.area * f * f
         ids = list(dict.fromkeys(str(rows.loc[r, "source_id"]) for r in srows))
-        c = g.centroid
         recs.append({
-            "_y": round(-c.y, 6), "_x": round(c.x, 6),
+            "_y": round(-c.y, 6), "_x": round(c.x, 6), "_narrow": pc.narrow_mm is not None,
+            "_width_mm": math.nan if pc.narrow_mm is None else pc.narrow_mm,
             "level_id": level_id, "source_ids": ",".join(ids), "area_m2": area_m2,
             "perimeter_m": g.boundary.difference(nocut).length * f,
             "outline_m": g.boundary.length * f,
@@ -808,5 +922,16 @@ def _attributes(found: Iterable[tuple[BaseGeometry, frozenset[int]]], rows: pd.D
         return _empty_frame()
     df = pd.DataFrame(recs).sort_values(["_y", "_x"], kind="stable").reset_index(drop=True)
     df.insert(0, "repair_id", [f"{level_id}-R{n:03d}" for n in range(1, len(df) + 1)])
-    df = df.drop(columns=["_y", "_x"])
+    for rid, sids, narrow, w in zip(df["repair_id"], df["source_ids"], df["_narrow"],
+                                    df["_width_mm"], strict=True):
+        if not narrow:
+            continue
+        wide = (f"only {w:.0f} mm ({w / MM_PER_INCH:.1f} in) wide" if math.isfinite(w)
+                else f"nowhere {p.min_size_mm:g} mm wide")
+        warnings.warn(
+            f"level {level_id}: repair {rid} is {wide} after the cut at a joint, an exclusion "
+            f"or the slab edge, below the minimum repair size ({p.min_size_mm:g} mm), and cannot "
+            f"be widened on its side of the cut; it holds sounded area ({sids}), so it is kept: "
+            "check it on the drawing", GeometryWarning, stacklevel=3)
+    df = df.drop(columns=["_y", "_x", "_narrow", "_width_mm"])
     return gpd.GeoDataFrame(df[list(REPAIR_COLUMNS)], geometry="geometry")

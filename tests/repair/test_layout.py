@@ -230,3 +230,83 @@ def test_sound_islands_inside_a_repair_filled_when_small_or_narrow() -> None:
     assert _fill_holes(outer.difference(box(4, 4, 4.2, 6)), 0.25, 0.3).area == 100.0
     assert _fill_holes(outer.difference(box(2, 2, 5, 5)), 0.25, 0.3).area == 100.0
     assert _fill_holes(outer.difference(box(1, 1, 8, 8)), 0.25, 0.3).area == 51.0
+
+
+# Minimum size after clipping.  Sources: ICRI 310.1R via REFERENCE.md §6 for the margin;
+# minimum size: common practice, no source.  In feet: 6 in margin = 152.4 mm, 12 in minimum
+# = 304.8 mm (the template's values); in metres: the defaults, 150 mm and 300 mm.
+
+def test_sliver_across_joint_widened_away_from_it_other_side_unchanged() -> None:
+    # hand-worked, feet, joint at x = 5 ft 10 in (5.8333 ft):
+    # (i) 1 x 1 ft delamination at x 5..6 ft with the joint at x = 6 ft 4 in: the 6 in margin
+    #     crosses the joint by 2 in, but the far panel holds no sounded area, so no piece is
+    #     laid out there; the repair stops at the joint: (6.3333 - 4.5) x 2 = 1.8333 x 2 ft
+    #     = 3.6667 ft2, saw cut 1.8333 + 2 + 1.8333 = 5.6667 LF (none on the joint).
+    joint = 6 + 4 / 12
+    r = run([box(5, 5, 6, 6)], slab=box(0, 0, 40, 40), unit="ft", margin_mm=152.4,
+            min_size_mm=304.8, joints=[LineString([(joint, 0), (joint, 40)])])
+    assert len(r) == 1
+    assert r.area_m2.iloc[0] / FT2 == pytest.approx(11 / 6 * 2, abs=1e-6)
+    assert r.perimeter_m.iloc[0] / M_PER_FT == pytest.approx(2 * 11 / 6 + 2, abs=1e-6)
+    # (ii) joint at x = 5 ft 10 in: the delamination itself crosses it by 2 in.  Near side:
+    #     4.5 .. 5.8333 = 1 ft 4 in x 2 ft = 2.6667 ft2, cut 1.3333 + 2 + 1.3333 = 4.6667 LF.
+    #     Far side: 2 in of delamination + 6 in margin = 8 in (203 mm < 12 in), 2 in x 1 ft of
+    #     it sounded; was kept 8 in wide (1.3333 ft2).  Now widened away from the joint to
+    #     12 in: x 5.8333 .. 6.8333, 1 x 2 ft = 2.0 ft2, cut 1 + 2 + 1 = 4.0 LF.
+    joint = 6 - 2 / 12
+    jl = LineString([(joint, 0), (joint, 40)])
+    r = run([box(5, 5, 6, 6)], slab=box(0, 0, 40, 40), unit="ft", margin_mm=152.4,
+            min_size_mm=304.8, joints=[jl])
+    assert list(r.repair_id) == ["P1-R001", "P1-R002"]
+    near, far = r.geometry.iloc[0], r.geometry.iloc[1]
+    assert near.bounds == pytest.approx((4.5, 4.5, joint, 6.5), abs=1e-9)  # unchanged
+    assert r.area_m2.iloc[0] / FT2 == pytest.approx(4 / 3 * 2, abs=1e-6)
+    assert r.perimeter_m.iloc[0] / M_PER_FT == pytest.approx(2 * 4 / 3 + 2, abs=1e-6)
+    assert far.bounds == pytest.approx((joint, 4.5, joint + 1, 6.5), abs=1e-9)
+    assert r.area_m2.iloc[1] / FT2 == pytest.approx(2.0, abs=1e-6)
+    assert r.perimeter_m.iloc[1] / M_PER_FT == pytest.approx(4.0, abs=1e-6)
+    assert far.intersection(box(0, 0, joint, 40)).area == pytest.approx(0.0, abs=1e-9)  # its side
+
+
+def test_margin_only_sliver_beyond_exclusion_dropped_other_side_unchanged() -> None:
+    # hand-worked, metres: 1 x 1 m delamination at x 5..6, grown by 150 mm to x 4.85..6.15;
+    # a 100 mm trench drain (exclusion) at x 6.03..6.13 cuts off x 6.13..6.15: a 20 mm x 1.3 m
+    # strip (0.026 m2) of margin only, which was priced as a repair; now dropped.  The main
+    # piece is unchanged: 1.18 x 1.3 = 1.534 m2, cut 1.18 + 1.3 + 1.18 = 3.66 m (none on the
+    # drain edge).
+    drain = box(6.03, 0, 6.13, 20)
+    r = run([box(5, 5, 6, 6)], exclusions=[drain])
+    assert list(r.repair_id) == ["P1-R001"]
+    assert r.geometry.iloc[0].bounds == pytest.approx((4.85, 4.85, 6.03, 6.15), abs=1e-9)
+    assert r.area_m2.sum() == pytest.approx(1.534, abs=1e-9)
+    assert r.perimeter_m.iloc[0] == pytest.approx(3.66, abs=1e-6)
+
+
+def test_sounded_sliver_past_column_widened_to_minimum() -> None:
+    # hand-worked, metres: 1.9 x 1 m delamination at x 5..6.9 sounded past a column at
+    # x 6.0..6.8 (the column is an exclusion): the repair x 4.85..7.05 is cut in two.  West
+    # piece 1.15 x 1.3 = 1.495 m2 (unchanged); east piece x 6.8..7.05 = 250 mm < 300 mm, holding
+    # 0.1 x 1 m of delamination: widened away from the column face to x 6.8..7.1,
+    # 0.3 x 1.3 = 0.39 m2 (was 0.325 m2), cut 0.3 + 1.3 + 0.3 = 1.9 m (none on the column face)
+    column = box(6.0, 4, 6.8, 7)
+    r = run([box(5, 5, 6.9, 6)], exclusions=[column])
+    assert list(r.repair_id) == ["P1-R001", "P1-R002"]
+    assert r.area_m2.tolist() == pytest.approx([1.495, 0.39], abs=1e-9)
+    assert r.geometry.iloc[1].bounds == pytest.approx((6.8, 4.85, 7.1, 6.15), abs=1e-9)
+    assert r.perimeter_m.iloc[1] == pytest.approx(1.9, abs=1e-6)
+    assert all(g.intersection(column).area == pytest.approx(0.0, abs=1e-12) for g in r.geometry)
+
+
+def test_sounded_sliver_between_column_and_slab_edge_kept_with_warning() -> None:
+    # hand-worked, metres: 1.9 x 1 m delamination at x 18..19.9 past a column at x 19.0..19.8,
+    # 0.2 m from the slab edge at x = 20: the east piece x 19.8..20.0 is 200 mm < 300 mm and
+    # holds 0.1 x 1 m of delamination; it cannot widen (column on one side, slab edge on the
+    # other), so it is kept, 0.2 x 1.3 = 0.26 m2, cut only at its two ends 2 x 0.2 = 0.4 m,
+    # and reported by id
+    column = box(19.0, 4, 19.8, 7)
+    with pytest.warns(GeometryWarning, match=r"repair P1-R002 is only 200 mm .*minimum repair"):
+        r = run([box(18, 5, 19.9, 6)], exclusions=[column])
+    assert list(r.repair_id) == ["P1-R001", "P1-R002"]
+    assert r.area_m2.tolist() == pytest.approx([1.495, 0.26], abs=1e-9)
+    assert r.perimeter_m.iloc[1] == pytest.approx(0.4, abs=1e-6)
+    assert r.geometry.iloc[1].covers(box(19.8, 5, 19.9, 6))
