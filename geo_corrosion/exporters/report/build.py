@@ -28,7 +28,7 @@ from geo_corrosion.cautions import CAUTIONS, SHORT_CAUTION
 from geo_corrosion.errors import ExportError
 from geo_corrosion.exporters._html import png_data_url
 from geo_corrosion.exporters.base import Exporter
-from geo_corrosion.exporters.report_text import (
+from geo_corrosion.exporters.report.text import (
     _condition_block,
     _e,
     _parameters,
