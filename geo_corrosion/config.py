@@ -668,7 +668,7 @@ def _check_layout(t: _Table, values: dict[str, float | None]) -> None:
 def _variogram(t: _Table) -> dict[str, dict[str, Any]]:
     """Read the [run.variogram.<kind>] tables; the kinds are those of the kind registry."""
     from geo_corrosion.errors import PluginError
-    from geo_corrosion.plugins import MEASUREMENTS
+    from geo_corrosion.measurements import MEASUREMENTS
 
     vt = t.data.get("variogram", {})
     if not isinstance(vt, dict):
@@ -829,7 +829,7 @@ def _zoning(rules: list[Any], where: str) -> tuple[tuple[str, dict[str, Any]], .
     registry (built-ins and plugins).
     """
     from geo_corrosion.errors import PluginError, ZoningError
-    from geo_corrosion.plugins import ZONING_RULES
+    from geo_corrosion.zoning import ZONING_RULES
 
     out = []
     for i, r in enumerate(rules):

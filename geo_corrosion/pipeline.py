@@ -153,7 +153,7 @@ def _stats(values: np.ndarray) -> dict[str, float]:
 
 def planning_params(cfg: SiteConfig) -> PlanningParams:
     """Layout and zoning parameters of a site (validated: absurd values raise RepairError)."""
-    from geo_corrosion.plugins import ZONING_RULES
+    from geo_corrosion.zoning import ZONING_RULES
 
     p = cfg.run
     rules = tuple(ZONING_RULES.get(name)(**kw) for name, kw in cfg.zoning) or None
@@ -366,7 +366,7 @@ def manifest(result: RunResult, started: float) -> dict[str, Any]:
 def write_outputs(result: RunResult, out_dir: Path, *, exporters: tuple[str, ...] = DEFAULT_EXPORTERS,
                   progress: Progress | None = None, started: float | None = None) -> None:
     """Run the exporters into ``out_dir`` (an empty folder) and write run.json last."""
-    from geo_corrosion.plugins import EXPORTERS
+    from geo_corrosion.exporters import EXPORTERS
 
     say = progress or (lambda _m: None)
     t0 = started or time.perf_counter()

@@ -1,9 +1,13 @@
-"""Registries of plugins: measurement kinds, zoning rules and exporters.
+"""The plugin mechanism: a :class:`Registry` of built-ins extended by an entry-point group.
 
-Built-ins live in code so they work from a source tree; third-party plugins come
-from the Python entry-point groups ``geo_corrosion.measurements``,
-``geo_corrosion.zoning_rules`` and ``geo_corrosion.exporters``.  Discovery is lazy
-and cached; :func:`refresh_plugins` forgets the cache.  A plugin that fails to
+This module knows no plugin family.  Each family owns its registry in its package's
+``__init__``: :data:`geo_corrosion.measurements.MEASUREMENTS`,
+:data:`geo_corrosion.zoning.ZONING_RULES` and :data:`geo_corrosion.exporters.EXPORTERS`;
+:mod:`geo_corrosion.registries` lists them by group.  Built-ins live in code so they
+work from a source tree; third-party plugins come from the Python entry-point groups
+``geo_corrosion.measurements``, ``geo_corrosion.zoning_rules`` and
+``geo_corrosion.exporters``.  Discovery is lazy and cached; ``Registry.refresh`` forgets
+the cache.  A plugin that fails to
 load becomes a :class:`BrokenPlugin` that shows in ``geo-corrosion plugins`` and
 raises only when used.  On a name clash the built-in wins, with a
 :class:`~geo_corrosion.errors.PluginConflictWarning`.
@@ -22,7 +26,7 @@ from typing import Any, Generic, TypeVar
 
 from geo_corrosion.errors import PluginConflictWarning, PluginError
 
-__all__ = ["BrokenPlugin", "Registry", "refresh_plugins", "REGISTRIES"]
+__all__ = ["BrokenPlugin", "Registry"]
 
 T = TypeVar("T")
 
@@ -151,43 +155,3 @@ class Registry(Generic[T]):
     def refresh(self) -> None:
         """Forget cached discovery."""
         self._cache = None
-
-
-def _builtin_measurements() -> dict[str, Any]:
-    from geo_corrosion.measurements import BUILTIN_KINDS
-
-    return dict(BUILTIN_KINDS)
-
-
-def _builtin_exporters() -> dict[str, Any]:
-    from geo_corrosion.exporters import BUILTIN_EXPORTERS
-
-    return dict(BUILTIN_EXPORTERS)
-
-
-def _builtin_zoning_rules() -> dict[str, Any]:
-    try:
-        mod = importlib.import_module("geo_corrosion.zoning")
-    except ImportError:  # pragma: no cover
-        return {}
-    return dict(getattr(mod, "BUILTIN_ZONING_RULES", {}))
-
-
-MEASUREMENTS: Registry[Any] = Registry(
-    "geo_corrosion.measurements", "measurement kind", _builtin_measurements
-)
-EXPORTERS: Registry[Any] = Registry("geo_corrosion.exporters", "exporter", _builtin_exporters)
-ZONING_RULES: Registry[Any] = Registry(
-    "geo_corrosion.zoning_rules", "zoning rule", _builtin_zoning_rules
-)
-REGISTRIES: dict[str, Registry[Any]] = {
-    "measurements": MEASUREMENTS,
-    "zoning_rules": ZONING_RULES,
-    "exporters": EXPORTERS,
-}
-
-
-def refresh_plugins() -> None:
-    """Forget every cached discovery, so newly installed plugins are found."""
-    for reg in REGISTRIES.values():
-        reg.refresh()

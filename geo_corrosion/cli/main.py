@@ -158,7 +158,8 @@ def quantities(run_dir: Path) -> None:
 @errors_handler
 def plugins() -> None:
     """List measurement kinds, zoning rules and exporters, with broken plugins."""
-    from geo_corrosion.plugins import REGISTRIES, BrokenPlugin
+    from geo_corrosion.plugins import BrokenPlugin
+    from geo_corrosion.registries import REGISTRIES
 
     for group, reg in REGISTRIES.items():
         click.echo(f"{group}:")

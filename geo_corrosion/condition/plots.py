@@ -27,9 +27,9 @@ from matplotlib.patches import Patch
 from numpy.typing import ArrayLike
 from scipy import stats
 
+from geo_corrosion._io import atomic_write
 from geo_corrosion.condition.classes import POTENTIAL_C876, RESISTIVITY_RILEM, ClassSet
 from geo_corrosion.condition.potential import MixtureThreshold, cumulative_frequency
-from geo_corrosion._io import atomic_write
 from geo_corrosion.errors import ConditionError, ExportError
 
 __all__ = [

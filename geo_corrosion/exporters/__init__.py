@@ -7,6 +7,7 @@ from geo_corrosion.exporters.plots import PlotsExporter
 from geo_corrosion.exporters.rasters import GeoTiffExporter
 from geo_corrosion.exporters.report import ReportExporter
 from geo_corrosion.exporters.webmap import WebMapExporter
+from geo_corrosion.plugins import Registry
 
 BUILTIN_EXPORTERS: dict[str, type[Exporter]] = {
     e.name: e
@@ -14,4 +15,9 @@ BUILTIN_EXPORTERS: dict[str, type[Exporter]] = {
               PlotsExporter, WebMapExporter, ReportExporter)
 }
 
-__all__ = ["Exporter", "BUILTIN_EXPORTERS"]
+#: The exporter registry: built-ins plus the ``geo_corrosion.exporters`` group.
+EXPORTERS: Registry[type[Exporter]] = Registry(
+    "geo_corrosion.exporters", "exporter", lambda: dict(BUILTIN_EXPORTERS)
+)
+
+__all__ = ["Exporter", "BUILTIN_EXPORTERS", "EXPORTERS"]

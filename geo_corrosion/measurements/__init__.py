@@ -7,10 +7,16 @@ from geo_corrosion.measurements.builtin import (
     HalfCellPotential,
     Resistivity,
 )
+from geo_corrosion.plugins import Registry
 
 BUILTIN_KINDS: dict[str, type[MeasurementKind]] = {
     k.name: k for k in (HalfCellPotential, Resistivity, CorrosionRate, CoverDepth)
 }
+
+#: The measurement-kind registry: built-ins plus the ``geo_corrosion.measurements`` group.
+MEASUREMENTS: Registry[type[MeasurementKind]] = Registry(
+    "geo_corrosion.measurements", "measurement kind", lambda: dict(BUILTIN_KINDS)
+)
 
 __all__ = [
     "MeasurementKind",
@@ -19,13 +25,12 @@ __all__ = [
     "CorrosionRate",
     "CoverDepth",
     "BUILTIN_KINDS",
+    "MEASUREMENTS",
     "get_kind",
 ]
 
 
 def get_kind(name_or_kind: "str | type[MeasurementKind] | MeasurementKind", *, where: str = "") -> MeasurementKind:
     """Return an instance of a measurement kind by registry name or class."""
-    from geo_corrosion.plugins import MEASUREMENTS
-
     k = MEASUREMENTS.get(name_or_kind, where=where) if isinstance(name_or_kind, str) else name_or_kind
     return k() if isinstance(k, type) else k

@@ -1,5 +1,6 @@
 """Zoning: ordered rules that split each level's slab into treatment zones."""
 
+from geo_corrosion.plugins import Registry
 from geo_corrosion.zoning.base import ZONE_COLUMNS, ZoningLayers, ZoningRule, zone
 from geo_corrosion.zoning.builtin import (
     BUILTIN_ZONING_RULES,
@@ -10,8 +11,14 @@ from geo_corrosion.zoning.builtin import (
     default_rules,
 )
 
+#: The zoning-rule registry: built-ins plus the ``geo_corrosion.zoning_rules`` group.
+ZONING_RULES: Registry[type[ZoningRule]] = Registry(
+    "geo_corrosion.zoning_rules", "zoning rule", lambda: dict(BUILTIN_ZONING_RULES)
+)
+
 __all__ = [
     "BUILTIN_ZONING_RULES",
+    "ZONING_RULES",
     "ZONE_COLUMNS",
     "ActiveCorrosionRule",
     "LowCoverRule",

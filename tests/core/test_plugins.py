@@ -9,8 +9,9 @@ import numpy as np
 import pytest
 
 from geo_corrosion.errors import PluginConflictWarning, PluginError
-from geo_corrosion.measurements import BUILTIN_KINDS, MeasurementKind, get_kind
-from geo_corrosion.plugins import EXPORTERS, MEASUREMENTS, BrokenPlugin, Registry
+from geo_corrosion.exporters import EXPORTERS
+from geo_corrosion.measurements import BUILTIN_KINDS, MEASUREMENTS, MeasurementKind, get_kind
+from geo_corrosion.plugins import BrokenPlugin, Registry
 
 
 class ChlorideAtBar(MeasurementKind):

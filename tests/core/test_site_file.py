@@ -392,8 +392,7 @@ def test_unknown_variogram_kind_is_refused(site_dir: Path) -> None:
 
 def test_variogram_kind_comes_from_the_registry(site_dir: Path) -> None:
     # common practice, no source: a kind added by a plugin may have its own variogram table
-    from geo_corrosion.measurements import MeasurementKind
-    from geo_corrosion.plugins import MEASUREMENTS
+    from geo_corrosion.measurements import MEASUREMENTS, MeasurementKind
 
     class Chloride(MeasurementKind):
         name = "chloride"

@@ -187,8 +187,7 @@ def test_bad_zoning_parameter_values_name_file_rule_and_key(site_dir: Path, rule
 def test_plugin_rule_constructor_errors_name_the_rule(site_dir: Path) -> None:
     # common practice, no source: a plugin rule that refuses its values in __init__
     from geo_corrosion.errors import ZoningError
-    from geo_corrosion.plugins import ZONING_RULES
-    from geo_corrosion.zoning import ZoningRule
+    from geo_corrosion.zoning import ZONING_RULES, ZoningRule
 
     class Strip(ZoningRule):
         name = "strip"

@@ -409,7 +409,7 @@ def _zone_of(rep: gpd.GeoDataFrame, zones: gpd.GeoDataFrame | None) -> list[str]
 
 def _value_column(kind: str) -> str | None:
     """The value column of a measurement kind (from the plugin registry)."""
-    from geo_corrosion.plugins import MEASUREMENTS
+    from geo_corrosion.measurements import MEASUREMENTS
 
     try:
         k = MEASUREMENTS.get(kind)
