@@ -15,15 +15,16 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
+import pyproj
 import shapely
 from numpy.typing import ArrayLike, NDArray
 from shapely.geometry.base import BaseGeometry
 
 from geo_corrosion.config import ControlPoint, GridConfig
-from geo_corrosion.errors import GeoreferenceError
+from geo_corrosion.errors import CRSError, GeoreferenceError
 from geo_corrosion.units import LENGTH_TO_M
 
-__all__ = ["LocalGrid", "fit_similarity"]
+__all__ = ["LocalGrid", "fit_similarity", "site_crs"]
 
 #: Largest accepted departure of the fitted scale from the unit ratio (1 %): more
 #: means the control points are in the wrong unit or mislabelled.
@@ -190,4 +191,36 @@ def fit_similarity(
         tx=float(tx),
         ty=float(ty),
         residuals=tuple((p.id, float(r[0]), float(r[1])) for p, r in zip(points, res, strict=True)),
+    )
+
+
+def site_crs(text: object, *, where: str) -> tuple[pyproj.CRS, str]:
+    """Parse and check the site CRS: known, projected, in metres or feet.
+
+    Returns
+    -------
+    crs : pyproj.CRS
+    unit : str
+        ``"m"``, ``"ft"`` or ``"us-ft"``: the CRS's linear unit.
+    """
+    if not isinstance(text, str | int) or isinstance(text, bool):
+        raise CRSError(f"{where}: expected a CRS such as \"EPSG:26918\"; got {text!r}")
+    try:
+        crs = pyproj.CRS.from_user_input(text)
+    except pyproj.exceptions.CRSError as err:
+        raise CRSError(
+            f"{where}: unknown CRS {text!r}; give an EPSG code of a projected CRS, "
+            "such as \"EPSG:26918\""
+        ) from err
+    if not crs.is_projected:
+        raise CRSError(
+            f"{where}: CRS {text!r} ({crs.name}) is geographic (degrees); areas and kriging need "
+            "a projected CRS in metres or feet, e.g. the UTM zone or State Plane zone of the site"
+        )
+    factor = crs.axis_info[0].unit_conversion_factor
+    for unit, f in (("m", 1.0), ("ft", LENGTH_TO_M["ft"]), ("us-ft", LENGTH_TO_M["us-ft"])):
+        if abs(factor - f) < 1e-9:
+            return crs, unit
+    raise CRSError(
+        f"{where}: CRS {text!r} uses unit {crs.axis_info[0].unit_name!r}; use a CRS in metres or feet"
     )

@@ -29,17 +29,18 @@ import pandas as pd
 
 from geo_corrosion import qa
 from geo_corrosion._io import atomic_write
-from geo_corrosion.assessment import assess_level, life_estimates
 from geo_corrosion.cautions import CAUTIONS
-from geo_corrosion.config import SiteConfig, read_site
+from geo_corrosion.config import SiteConfig
 from geo_corrosion.errors import ExportError, GeoCorrosionWarning, KrigingError, QAError
-from geo_corrosion.mapping import build_surface, mappable_readings
-from geo_corrosion.model import Site
-from geo_corrosion.planning import PlanningParams, low_cover_threshold_mm, plan_level
+from geo_corrosion.model.results import LevelResult, RunResult
+from geo_corrosion.model.site import Site
 from geo_corrosion.quantities import bid_schedule
 from geo_corrosion.repair import LayoutParams
-from geo_corrosion.results import LevelResult, RunResult
-from geo_corrosion.site import open_site
+from geo_corrosion.stages.assess_condition import assess_level, life_estimates
+from geo_corrosion.stages.map_surfaces import build_surface, mappable_readings
+from geo_corrosion.stages.open_site import open_site
+from geo_corrosion.stages.plan_repairs import PlanningParams, low_cover_threshold_mm, plan_level
+from geo_corrosion.stages.read_site import read_site
 from geo_corrosion.units import LENGTH_TO_M, report_units
 
 __all__ = ["check_site", "run", "process", "write_outputs", "file_sha256", "MANIFEST_NAME"]

@@ -9,6 +9,7 @@ areas and lengths are converted to the reporting system here and nowhere else.
 
 from __future__ import annotations
 
+import math
 import re
 from dataclasses import dataclass
 from typing import Literal
@@ -16,9 +17,12 @@ from typing import Literal
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from geo_corrosion.errors import UnitError
+from geo_corrosion.errors import SiteFileError, UnitError
 
 __all__ = [
+    "parse_length",
+    "parse_area",
+    "AREA_TO_M2",
     "MM_PER_INCH",
     "M_PER_FT",
     "M_PER_US_SURVEY_FT",
@@ -212,3 +216,93 @@ def report_units(system: str) -> ReportUnits:
         return _REPORT[system]
     except KeyError as err:
         raise UnitError(f"unknown unit system {system!r}; expected 'metric' or 'us'") from err
+
+
+def parse_length(value: object, *, where: str) -> float:
+    """Parse a length with its unit (``"150 mm"``, ``"6 in"``) into metres.
+
+    Examples
+    --------
+    >>> parse_length("6 in", where="")
+    0.1524
+    >>> parse_length("1 ft", where="")
+    0.3048
+    """
+    if isinstance(value, bool) or not isinstance(value, str):
+        raise SiteFileError(
+            f"{where}: expected a length with its unit as a string, such as \"150 mm\" or "
+            f"\"6 in\"; got {value!r}"
+        )
+    m = re.fullmatch(r"\s*([-+]?\d+(?:\.\d*)?(?:[eE][-+]?\d+)?)\s*([A-Za-z\-_]+)\s*", value)
+    if not m:
+        raise SiteFileError(f"{where}: cannot read {value!r} as a length such as \"150 mm\"")
+    try:
+        unit = normalize_unit(m.group(2), accepted=tuple(LENGTH_TO_M))
+    except UnitError as err:
+        raise SiteFileError(f"{where}: {err}") from err
+    number = float(m.group(1))
+    if not math.isfinite(number):
+        raise SiteFileError(f"{where}: {value!r} is not a finite length; give a length such as "
+                            "\"150 mm\"")
+    return round(number * LENGTH_TO_M[unit], 12)
+
+
+#: Area units accepted in the site file (``<length unit>2``), in m2 per unit.
+AREA_TO_M2: dict[str, float] = {f"{u}2": f * f for u, f in LENGTH_TO_M.items()}
+
+_AREA_EXAMPLE = "such as \"5 ft2\" or \"0.5 m2\""
+
+
+def parse_area(value: object, *, where: str) -> float:
+    """Parse an area with its unit (``"5 ft2"``, ``"0.5 m2"``) into m2.
+
+    The unit is a length unit of :data:`~geo_corrosion.units.LENGTH_TO_M` followed by ``2``
+    (``m2``, ``cm2``, ``mm2``, ``ft2``, ``us-ft2``, ``in2``), case-insensitive; ``"²"`` and
+    ``"^2"`` may stand for the ``2``.  A bare number is refused, as for lengths, and so are
+    ``"sq ft"`` and ``"sqft"`` (:mod:`geo_corrosion.units` has no such unit).
+
+    Parameters
+    ----------
+    value : object
+        The value as read from TOML.
+    where : str
+        The file and key, for messages.
+
+    Returns
+    -------
+    float
+        The area in m2 (0 or more).
+
+    Raises
+    ------
+    SiteFileError
+        Naming ``where``, for anything else, a negative or a non-finite area.
+
+    Examples
+    --------
+    >>> round(parse_area("5 ft2", where=""), 6)
+    0.464515
+    >>> parse_area("0.5 m²", where="")
+    0.5
+    """
+    if isinstance(value, bool) or not isinstance(value, str):
+        hint = (f" (a bare number is refused: write \"{value} m2\" or \"{value} ft2\")"
+                if isinstance(value, int | float) and not isinstance(value, bool) else "")
+        raise SiteFileError(f"{where}: expected an area with its unit as a string, "
+                            f"{_AREA_EXAMPLE}; got {value!r}{hint}")
+    m = re.fullmatch(r"\s*([-+]?\d+(?:\.\d*)?(?:[eE][-+]?\d+)?)\s*([A-Za-z\-_]+)(?:2|²|\^2)\s*",
+                     value)
+    units = ", ".join(AREA_TO_M2)
+    if not m:
+        raise SiteFileError(f"{where}: cannot read {value!r} as an area {_AREA_EXAMPLE}; "
+                            f"write a number and one of the units {units}")
+    try:
+        base = normalize_unit(m.group(2), accepted=tuple(LENGTH_TO_M))
+    except UnitError as err:
+        raise SiteFileError(f"{where}: unknown area unit in {value!r}; expected one of: "
+                            f"{units}") from err
+    number = float(m.group(1))
+    if not math.isfinite(number) or number < 0:
+        raise SiteFileError(f"{where}: expected an area of 0 or more, {_AREA_EXAMPLE}; "
+                            f"got {value!r}")
+    return round(number * AREA_TO_M2[f"{base}2"], 12)

@@ -80,9 +80,9 @@ def check(site: Path, quiet: bool, max_rows: int) -> None:
     Exits 0 when the site can be run, 1 when it cannot.
     """
     from geo_corrosion import qa
-    from geo_corrosion.config import read_site
     from geo_corrosion.pipeline import check_parameters, check_site
-    from geo_corrosion.site import open_site
+    from geo_corrosion.stages.open_site import open_site
+    from geo_corrosion.stages.read_site import read_site
 
     cfg = read_site(site)
     check_parameters(cfg)
@@ -114,8 +114,8 @@ def check(site: Path, quiet: bool, max_rows: int) -> None:
 @errors_handler
 def run(site: Path, out: Path | None, overwrite: bool, quiet: bool) -> None:
     """Run the whole job on SITE and write the output folder."""
-    from geo_corrosion.config import read_site
     from geo_corrosion.pipeline import run as run_site
+    from geo_corrosion.stages.read_site import read_site
 
     cfg = read_site(site)
     out = out or (cfg.root / "out")

@@ -1,6 +1,6 @@
 """The exporter plugin interface.
 
-An exporter writes part of a :class:`~geo_corrosion.results.RunResult` into the
+An exporter writes part of a :class:`~geo_corrosion.model.results.RunResult` into the
 run's output folder (a temporary folder that becomes the output only when the
 whole run succeeds).  Register third-party exporters under the entry-point
 group ``geo_corrosion.exporters``.
@@ -12,7 +12,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING, ClassVar
 
 if TYPE_CHECKING:
-    from geo_corrosion.results import RunResult
+    from geo_corrosion.model.results import RunResult
 
 __all__ = ["Exporter"]
 

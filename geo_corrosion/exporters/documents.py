@@ -12,7 +12,7 @@ from geo_corrosion.exporters.base import Exporter
 from geo_corrosion.units import report_units
 
 if TYPE_CHECKING:
-    from geo_corrosion.results import RunResult
+    from geo_corrosion.model.results import RunResult
 
 __all__ = ["QuantitiesExporter", "DrawingsExporter", "QUANTITIES_CSV", "QUANTITIES_XLSX"]
 

@@ -12,7 +12,7 @@ from geo_corrosion.exporters.base import Exporter
 from geo_corrosion.exporters.layers import site_layers
 
 if TYPE_CHECKING:
-    from geo_corrosion.results import RunResult
+    from geo_corrosion.model.results import RunResult
 
 __all__ = ["GeoPackageExporter", "GPKG_NAME"]
 

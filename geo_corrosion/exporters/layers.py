@@ -15,7 +15,7 @@ import numpy as np
 import pandas as pd
 from shapely.geometry.base import BaseGeometry
 
-from geo_corrosion.results import LevelResult, RunResult
+from geo_corrosion.model.results import LevelResult, RunResult
 from geo_corrosion.units import LENGTH_TO_M
 
 __all__ = ["level_layers", "site_layers", "to_site_frame"]

@@ -14,7 +14,7 @@ import numpy as np
 from geo_corrosion.exporters.base import Exporter
 
 if TYPE_CHECKING:
-    from geo_corrosion.results import RunResult
+    from geo_corrosion.model.results import RunResult
 
 __all__ = ["PlotsExporter"]
 

@@ -16,9 +16,9 @@ from geo_corrosion.exporters.base import Exporter
 from geo_corrosion.exporters.geotiff import write_geotiff
 
 if TYPE_CHECKING:
-    from geo_corrosion.mapping import KindSurface
-    from geo_corrosion.model import Level
-    from geo_corrosion.results import RunResult
+    from geo_corrosion.model.results import RunResult
+    from geo_corrosion.model.site import Level
+    from geo_corrosion.model.surface import KindSurface
 
 __all__ = ["GeoTiffExporter", "surface_transform"]
 

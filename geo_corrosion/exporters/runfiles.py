@@ -18,7 +18,7 @@ from geo_corrosion.errors import ExportError
 if TYPE_CHECKING:
     import geopandas as gpd
 
-    from geo_corrosion.results import RunResult
+    from geo_corrosion.model.results import RunResult
 
 __all__ = ["read_run", "result_manifest", "RunLayers", "GPKG_NAME"]
 

@@ -107,7 +107,7 @@ class MeasurementKind:
         SiteFileError
             An unknown key (the message lists the allowed ones) or a bad value.
         """
-        from geo_corrosion.config import OptionsTable
+        from geo_corrosion._toml import OptionsTable
         from geo_corrosion.errors import SiteFileError
 
         if options and not self.option_keys:

@@ -133,8 +133,8 @@ class Resistivity(MeasurementKind):
             Unknown key, bad length, a geometry length without ``probe_spacing``,
             or an unknown or laboratory class set (refused for field readings).
         """
+        from geo_corrosion._toml import OptionsTable
         from geo_corrosion.condition.classes import get_class_set
-        from geo_corrosion.config import OptionsTable
 
         t = OptionsTable(dict(options), where, self.option_keys)
         out: dict[str, Any] = {}
@@ -151,7 +151,7 @@ class Resistivity(MeasurementKind):
             )
         if t.has("class_set"):
             try:
-                cs = get_class_set(t.str("class_set"), field=True)
+                cs = get_class_set(t.string("class_set"), field=True)
             except ConditionError as err:
                 raise SiteFileError(f"{t.key('class_set')}: {err}") from err
             if cs.variable != self.value_column:
@@ -329,12 +329,12 @@ class CorrosionRate(MeasurementKind):
             Unknown key; B given twice or not positive; one Tafel slope without
             the other or slopes out of range; area given twice or not positive.
         """
+        from geo_corrosion._toml import OptionsTable
         from geo_corrosion.condition.corrosion_rate import (
             polarized_area_cm2,
             resolve_b_mv,
             stern_geary_b_mv,
         )
-        from geo_corrosion.config import OptionsTable
 
         t = OptionsTable(dict(options), where, self.option_keys)
         out: dict[str, Any] = {}
@@ -385,9 +385,9 @@ class CorrosionRate(MeasurementKind):
             out["area_source"] = (f"pi x bar diameter {d:g} mm x confined length {length:g} mm "
                                   "(REFERENCE.md CR-04)")
         if t.has("transients"):
-            out["transients_path"] = (root / t.str("transients")).resolve()
+            out["transients_path"] = (root / t.string("transients")).resolve()
         if t.has("sweeps"):
-            out["sweeps_path"] = (root / t.str("sweeps")).resolve()
+            out["sweeps_path"] = (root / t.string("sweeps")).resolve()
         if t.has("strict_linearity"):
             out["strict_linearity"] = t.flag("strict_linearity")
         return out

@@ -476,7 +476,7 @@ class CrossValidation:
     n_tested : int
         Readings tested.
     msse_before_calibration : float, optional
-        MSSE of the model before :func:`geo_corrosion.mapping.calibrate_variance`.
+        MSSE of the model before :func:`geo_corrosion.stages.map_surfaces.calibrate_variance`.
     """
 
     method: str

@@ -14,10 +14,10 @@ import pandas as pd
 import pytest
 
 from geo_corrosion.condition.transient import randles_response_mv
-from geo_corrosion.config import read_site
 from geo_corrosion.errors import IngestError, SchemaError, SiteFileError
-from geo_corrosion.model import Survey
-from geo_corrosion.site import open_site
+from geo_corrosion.model.site import Survey
+from geo_corrosion.stages.open_site import open_site
+from geo_corrosion.stages.read_site import read_site
 
 
 def _add_survey(site_dir: Path, sid: str, kind: str, unit: str, csv_text: str,

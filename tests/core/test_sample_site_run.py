@@ -27,7 +27,7 @@ def test_check_finds_the_planted_flaws() -> None:
 
 def test_semicolon_decimal_comma_volts_file_reads() -> None:
     # RF-hcp-north is written with ';', decimal commas and volts (sample README)
-    from geo_corrosion.site import open_site
+    from geo_corrosion.stages.open_site import open_site
 
     site = open_site(SAMPLE)
     sv = next(s for s in site.surveys if s.config.separator == ";")
@@ -64,7 +64,7 @@ def test_broken_copy_fails_cleanly(tmp_path: Path) -> None:
 def sample_result():  # type: ignore[no-untyped-def]
     """The sample site processed in memory (no outputs written)."""
     from geo_corrosion.pipeline import check_site, process
-    from geo_corrosion.site import open_site
+    from geo_corrosion.stages.open_site import open_site
 
     site = open_site(SAMPLE)
     return process(site, check_site(site))

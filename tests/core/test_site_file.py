@@ -8,10 +8,10 @@ import pytest
 from click.testing import CliRunner
 
 from geo_corrosion.cli.main import cli
-from geo_corrosion.config import read_site
 from geo_corrosion.errors import GeoCorrosionError
 from geo_corrosion.pipeline import run
-from geo_corrosion.site import open_site
+from geo_corrosion.stages.open_site import open_site
+from geo_corrosion.stages.read_site import read_site
 
 from .conftest import edit
 
@@ -260,7 +260,7 @@ def test_decimal_comma_file_with_a_stray_point(site_dir: Path) -> None:
     _fails(site_dir, "resistivity.csv line 4", "'12.5'", "decimal separator is ','")
     out[3] = out[3].rsplit(";", 1)[0] + ";1.234,5"  # a thousands mark is fine
     p.write_text("\n".join(out) + "\n")
-    from geo_corrosion.site import open_site
+    from geo_corrosion.stages.open_site import open_site
 
     f = open_site(site_dir).surveys[1].frame
     assert f["raw_value"].iloc[2] == 1234.5

@@ -7,9 +7,9 @@ from pathlib import Path
 import pandas as pd
 import pytest
 
-from geo_corrosion.config import read_site
 from geo_corrosion.errors import GeoCorrosionError, SiteFileError
 from geo_corrosion.pipeline import run
+from geo_corrosion.stages.read_site import read_site
 
 from .conftest import edit
 
@@ -89,7 +89,7 @@ def test_life_estimates_at_readings() -> None:
 
     import numpy as np
 
-    from geo_corrosion.assessment import life_estimates
+    from geo_corrosion.stages.assess_condition import life_estimates
     from geo_corrosion.surfaces import GridSpec
 
     grid = GridSpec(0.0, 0.0, 1.0, nx=4, ny=4)
@@ -108,7 +108,7 @@ def test_life_estimates_at_readings() -> None:
 def test_cse_temperature_outside_valid_range_flagged(tmp_path: Path) -> None:
     # ASTM C876-22a §5.1.1.2: the 0.9 mV/degC coefficient holds from 0 to 49 degC (sourced)
     from geo_corrosion.pipeline import check_site
-    from geo_corrosion.site import open_site
+    from geo_corrosion.stages.open_site import open_site
     from geo_corrosion.testing import make_synthetic_site
 
     site = open_site(make_synthetic_site(tmp_path / "s", temperature_c=52.0))

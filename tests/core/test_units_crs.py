@@ -7,10 +7,10 @@ import math
 import numpy as np
 import pytest
 
-from geo_corrosion.config import ControlPoint, parse_length, site_crs
-from geo_corrosion.crs import LocalGrid, fit_similarity
+from geo_corrosion.config import ControlPoint
+from geo_corrosion.crs import LocalGrid, fit_similarity, site_crs
 from geo_corrosion.errors import CRSError, GeoreferenceError, SiteFileError, UnitError
-from geo_corrosion.units import convert, report_units
+from geo_corrosion.units import convert, parse_length, report_units
 
 
 def test_res02_resistivity_units() -> None:

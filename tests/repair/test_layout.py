@@ -224,7 +224,7 @@ def test_cheap_pair_merged_first_then_l_shape() -> None:
 def test_sound_islands_inside_a_repair_filled_when_small_or_narrow() -> None:
     # common practice, no source: a narrow (0.2 m < 0.3 m) or small (9 m2 <= 25 % of 100 m2)
     # island is removed with the repair; a large one (49 m2) stays
-    from geo_corrosion.repair import _fill_holes
+    from geo_corrosion.repair.layout import _fill_holes
 
     outer = box(0, 0, 10, 10)
     assert _fill_holes(outer.difference(box(4, 4, 4.2, 6)), 0.25, 0.3).area == 100.0

@@ -17,8 +17,8 @@ import pytest
 from click.testing import CliRunner
 
 from geo_corrosion.cli.main import cli
-from geo_corrosion.model import Site
-from geo_corrosion.site import open_site
+from geo_corrosion.model.site import Site
+from geo_corrosion.stages.open_site import open_site
 
 REPO = Path(__file__).resolve().parents[2]
 SITE = REPO / "sample_sites" / "millbrook_garage"

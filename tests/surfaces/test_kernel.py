@@ -93,7 +93,7 @@ def test_variance_calibration_keeps_estimates_and_gives_msse_one() -> None:
     # (the factor cancels in the system; Cressie 1993 §3.2, from memory), so the estimate is
     # unchanged and the variance scales. Checked by re-running the cross-validation with the
     # calibrated model, independently of the value calibrate_variance sets.
-    from geo_corrosion.mapping import calibrate_variance
+    from geo_corrosion.stages.map_surfaces import calibrate_variance
     from geo_corrosion.surfaces import cross_validate, fit_variogram
 
     x, y, z = _deck(800)

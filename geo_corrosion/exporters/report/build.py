@@ -43,7 +43,7 @@ if TYPE_CHECKING:
     import geopandas as gpd
     import pandas as pd
 
-    from geo_corrosion.results import RunResult
+    from geo_corrosion.model.results import RunResult
     from geo_corrosion.units import ReportUnits
 
 __all__ = ["ReportExporter", "PdfUnavailableError", "build_report_html", "write_report",

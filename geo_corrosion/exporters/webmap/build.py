@@ -38,7 +38,7 @@ if TYPE_CHECKING:
     import folium
     import geopandas as gpd
 
-    from geo_corrosion.results import RunResult
+    from geo_corrosion.model.results import RunResult
 
 __all__ = ["WebMapExporter", "build_webmap", "write_webmap", "MAP_NAME",
            "SEVERITY_RAMP", "ramp_colors"]

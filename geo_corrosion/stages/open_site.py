@@ -12,13 +12,14 @@ from pathlib import Path
 import shapely
 from shapely.geometry import MultiPolygon, Polygon
 
-from geo_corrosion.config import LevelConfig, RunParams, SiteConfig, SurveyConfig, read_site
+from geo_corrosion.config import LevelConfig, RunParams, SiteConfig, SurveyConfig
 from geo_corrosion.crs import LocalGrid
 from geo_corrosion.errors import IngestError, SiteFileError
-from geo_corrosion.ingest import read_readings
+from geo_corrosion.io.plans import read_lines, read_polygons
+from geo_corrosion.io.readings import read_readings
 from geo_corrosion.measurements import get_kind
-from geo_corrosion.model import Level, Site, Survey
-from geo_corrosion.vector_io import read_lines, read_polygons
+from geo_corrosion.model.site import Level, Site, Survey
+from geo_corrosion.stages.read_site import read_site
 
 __all__ = ["open_site", "read_level", "read_survey", "correct"]
 

@@ -29,7 +29,8 @@ from shapely.geometry.base import BaseGeometry
 from geo_corrosion.config import RunParams
 from geo_corrosion.errors import KrigingError
 from geo_corrosion.measurements import MeasurementKind
-from geo_corrosion.model import Level, Survey
+from geo_corrosion.model.site import Level, Survey
+from geo_corrosion.model.surface import KindSurface
 from geo_corrosion.surfaces import (
     CrossValidation,
     GridSpec,
@@ -55,46 +56,6 @@ EXCLUDING_SEVERITIES = ("error",)
 #: QA rules whose readings are left out of surfaces even at warning level.
 EXCLUDING_RULES = ("QA-RANGE-LOW", "QA-RANGE-HIGH", "QA-OUTSIDE-SLAB", "QA-IN-EXCLUSION",
                    "QA-NAN-VALUE", "QA-NAN-XY")
-
-
-@dataclass(frozen=True)
-class KindSurface:
-    """The kriged surface of one kind on one level (local grid coordinates).
-
-    Attributes
-    ----------
-    kind : MeasurementKind
-    grid : GridSpec
-        Prediction grid (local grid units).
-    mean, variance : ndarray
-        ``(ny, nx)``, NaN outside the mask; mean in the kind's canonical unit and
-        variance in its square (lognormal kinds are kriged in log space and both are
-        back-transformed; see :func:`geo_corrosion.surfaces.kriging.back_transform`).
-    fit : VariogramFit
-    cv : dict
-        Cross-validation statistics.
-    residuals : DataFrame
-        Per-reading cross-validation residuals (reading_id, x_local, y_local, residual).
-    n_readings : int
-    lines, bands : list
-        Contour lines ``(level, geometry)`` and bands ``(lo, hi, geometry)``.
-    classes : DataFrame
-        Class polygons with ``class``, ``color``, ``area_local`` (local units squared).
-    """
-
-    kind: MeasurementKind
-    grid: GridSpec
-    mean: NDArray[np.float64]
-    variance: NDArray[np.float64]
-    fit: VariogramFit
-    cv: dict[str, Any]
-    residuals: pd.DataFrame
-    n_readings: int
-    interval: float
-    lines: list[tuple[float, BaseGeometry]] = field(default_factory=list)
-    bands: list[tuple[float, float, BaseGeometry]] = field(default_factory=list)
-    classes: pd.DataFrame | None = None
-    directional: dict[str, Any] = field(default_factory=dict)
 
 
 def mappable_readings(surveys: list[Survey], flags: pd.DataFrame) -> pd.DataFrame:

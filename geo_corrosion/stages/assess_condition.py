@@ -1,6 +1,6 @@
 """The condition stage of the pipeline: probability maps, area intervals, site threshold, combined classes.
 
-For each level, from the kriged surfaces of :mod:`geo_corrosion.mapping`:
+For each level, from the kriged surfaces of :mod:`geo_corrosion.stages.map_surfaces`:
 
 * the probability per cell that the potential is more negative than -350 mV CSE
   (ASTM C876's "high" bound), that the corrosion rate exceeds 1 uA/cm2 (RILEM
@@ -33,7 +33,7 @@ from geo_corrosion.condition.combined import DEFAULT_RULES, RuleTable, combine
 from geo_corrosion.condition.potential import fit_mixture_threshold
 from geo_corrosion.condition.probability import area_interval, exceedance_probability
 from geo_corrosion.errors import ConditionError
-from geo_corrosion.mapping import KindSurface
+from geo_corrosion.model.surface import KindSurface, LevelCondition
 from geo_corrosion.units import LENGTH_TO_M
 
 __all__ = ["THRESHOLDS", "LevelCondition", "assess_level", "log_space_moments", "life_estimates",
@@ -52,17 +52,6 @@ THRESHOLDS: dict[str, tuple[float, str, str, str]] = {
                     "RILEM TC 154 (Polder 2001), REFERENCE.md §2.4(a), from memory"),
 }
 INTERVAL_LEVEL = 0.90
-
-
-@dataclass
-class LevelCondition:
-    """Condition results of one level (arrays on the level's kriging grid)."""
-
-    probability: dict[str, NDArray[np.float64]] = field(default_factory=dict)
-    combined_codes: NDArray[np.int64] | None = None
-    combined_polygons: pd.DataFrame | None = None
-    stats: dict[str, Any] = field(default_factory=dict)
-    mixture: Any = None
 
 
 def log_space_moments(

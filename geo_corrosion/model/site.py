@@ -19,8 +19,8 @@ from shapely.geometry.base import BaseGeometry
 
 from geo_corrosion.config import LevelConfig, SiteConfig, SurveyConfig
 from geo_corrosion.crs import LocalGrid
+from geo_corrosion.io.plans import Feature
 from geo_corrosion.measurements import MeasurementKind
-from geo_corrosion.vector_io import Feature
 
 __all__ = ["Level", "Survey", "Site"]
 

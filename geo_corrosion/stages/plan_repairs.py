@@ -23,8 +23,8 @@ from shapely.geometry import shape
 from shapely.geometry.base import BaseGeometry
 
 from geo_corrosion.errors import GeometryWarning
-from geo_corrosion.mapping import KindSurface
-from geo_corrosion.model import Level
+from geo_corrosion.model.site import Level
+from geo_corrosion.model.surface import KindSurface
 from geo_corrosion.repair import LayoutParams, layout_repairs
 from geo_corrosion.zoning import ZoningLayers, default_rules, zone
 

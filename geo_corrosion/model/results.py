@@ -8,8 +8,8 @@ from typing import Any
 import geopandas as gpd
 import pandas as pd
 
-from geo_corrosion.mapping import KindSurface
-from geo_corrosion.model import Level, Site
+from geo_corrosion.model.site import Level, Site
+from geo_corrosion.model.surface import KindSurface
 
 __all__ = ["LevelResult", "RunResult"]
 

@@ -1,0 +1,1 @@
+"""Reading input files: survey readings (CSV, GeoJSON, GeoPackage) and plan layers."""

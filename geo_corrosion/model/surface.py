@@ -1,0 +1,72 @@
+"""Results of the surfaces and condition stages for one level, on the level's kriging grid.
+
+:class:`KindSurface` is one kind's kriged surface with its variogram, cross-validation,
+contours and class polygons; :class:`LevelCondition` the level's probability maps,
+combined classes and condition statistics.  Geometry is in the level's local grid.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import pandas as pd
+from numpy.typing import NDArray
+from shapely.geometry.base import BaseGeometry
+
+from geo_corrosion.measurements import MeasurementKind
+from geo_corrosion.surfaces import GridSpec, VariogramFit
+
+__all__ = ["KindSurface", "LevelCondition"]
+
+
+@dataclass(frozen=True)
+class KindSurface:
+    """The kriged surface of one kind on one level (local grid coordinates).
+
+    Attributes
+    ----------
+    kind : MeasurementKind
+    grid : GridSpec
+        Prediction grid (local grid units).
+    mean, variance : ndarray
+        ``(ny, nx)``, NaN outside the mask; mean in the kind's canonical unit and
+        variance in its square (lognormal kinds are kriged in log space and both are
+        back-transformed; see :func:`geo_corrosion.surfaces.kriging.back_transform`).
+    fit : VariogramFit
+    cv : dict
+        Cross-validation statistics.
+    residuals : DataFrame
+        Per-reading cross-validation residuals (reading_id, x_local, y_local, residual).
+    n_readings : int
+    lines, bands : list
+        Contour lines ``(level, geometry)`` and bands ``(lo, hi, geometry)``.
+    classes : DataFrame
+        Class polygons with ``class``, ``color``, ``area_local`` (local units squared).
+    """
+
+    kind: MeasurementKind
+    grid: GridSpec
+    mean: NDArray[np.float64]
+    variance: NDArray[np.float64]
+    fit: VariogramFit
+    cv: dict[str, Any]
+    residuals: pd.DataFrame
+    n_readings: int
+    interval: float
+    lines: list[tuple[float, BaseGeometry]] = field(default_factory=list)
+    bands: list[tuple[float, float, BaseGeometry]] = field(default_factory=list)
+    classes: pd.DataFrame | None = None
+    directional: dict[str, Any] = field(default_factory=dict)
+
+
+@dataclass
+class LevelCondition:
+    """Condition results of one level (arrays on the level's kriging grid)."""
+
+    probability: dict[str, NDArray[np.float64]] = field(default_factory=dict)
+    combined_codes: NDArray[np.int64] | None = None
+    combined_polygons: pd.DataFrame | None = None
+    stats: dict[str, Any] = field(default_factory=dict)
+    mixture: Any = None
