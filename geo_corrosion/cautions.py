@@ -5,7 +5,7 @@ Wording is the project's own, informed by the sources in REFERENCE.md §7.
 
 from __future__ import annotations
 
-__all__ = ["CAUTIONS", "SHORT_CAUTION"]
+__all__ = ["CAUTIONS", "SHORT_CAUTION", "QUANTITIES_CAUTION"]
 
 CAUTIONS: tuple[str, ...] = (
     "Survey data only, not a structural assessment. Evaluation and repair design must be "
@@ -37,3 +37,6 @@ SHORT_CAUTION = (
     "Survey data, not a structural assessment; a licensed engineer decides. Local codes and "
     "agency specifications govern. Never cut into tendons or reinforcement."
 )
+
+#: The caution printed under every schedule of quantities (one of :data:`CAUTIONS`).
+QUANTITIES_CAUTION = CAUTIONS[3]

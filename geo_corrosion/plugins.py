@@ -16,7 +16,6 @@ raises only when used.  On a name clash the built-in wins, with a
 from __future__ import annotations
 
 import contextlib
-import importlib
 import traceback
 import warnings
 from collections.abc import Callable, Iterable, Iterator

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from pathlib import Path
 
 import click
@@ -37,3 +38,10 @@ def resolve_run_dir(run_dir: Path) -> Path:
             f"{run_dir} holds no run.json; is it the output folder of `geo-corrosion run`? "
             "Run `geo-corrosion run SITE` first.")
     return run_dir
+
+
+def progress_printer(quiet: bool) -> Callable[[str], None] | None:
+    """Return a progress callback printing each step to stderr, or None when ``quiet``."""
+    if quiet:
+        return None
+    return lambda msg: click.echo(f"  {msg}", err=True)

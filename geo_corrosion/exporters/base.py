@@ -27,13 +27,15 @@ class Exporter:
     description : str
     default : bool
         Whether ``geo-corrosion run`` uses it without being asked.
-    api_version : int
+    run_last : bool
+        Whether it reads the run folder the other exporters wrote (the web map and the
+        report): such exporters run after the others.
     """
 
     name: ClassVar[str] = ""
     description: ClassVar[str] = ""
     default: ClassVar[bool] = True
-    api_version: ClassVar[int] = 1
+    run_last: ClassVar[bool] = False
 
     def export(self, result: RunResult, out_dir: Path) -> list[Path]:
         """Write files into ``out_dir``; return the paths written."""

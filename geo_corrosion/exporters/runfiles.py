@@ -8,7 +8,6 @@ that name the file and say what to do.
 
 from __future__ import annotations
 
-import json
 import logging
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
@@ -18,43 +17,11 @@ from geo_corrosion.errors import ExportError
 if TYPE_CHECKING:
     import geopandas as gpd
 
-    from geo_corrosion.model.results import RunResult
 
-__all__ = ["read_run", "result_manifest", "RunLayers", "GPKG_NAME"]
+__all__ = ["RunLayers", "GPKG_NAME"]
 
 log = logging.getLogger(__name__)
 GPKG_NAME = "survey.gpkg"
-
-
-def read_run(run_dir: str | Path) -> dict[str, Any]:
-    """Read ``run.json`` of an output folder.
-
-    Raises
-    ------
-    ExportError
-        If the folder holds no readable ``run.json``.
-    """
-    man = Path(run_dir) / "run.json"
-    if not man.is_file():
-        raise ExportError(f"{run_dir} holds no run.json; is it the output folder of "
-                          "`geo-corrosion run`?")
-    try:
-        data = json.loads(man.read_text(encoding="utf-8"))
-    except (OSError, ValueError) as err:
-        raise ExportError(f"{man}: cannot be read ({err}); re-run `geo-corrosion run`") from err
-    if not isinstance(data, dict) or "levels" not in data:
-        raise ExportError(f"{man}: not the manifest of a run (no 'levels'); re-run "
-                          "`geo-corrosion run`")
-    return data
-
-
-def result_manifest(result: RunResult) -> dict[str, Any]:
-    """Return the manifest of an in-memory run as ``run.json`` will hold it (JSON types only)."""
-    import time
-
-    from geo_corrosion.pipeline import _json_default, manifest
-
-    return json.loads(json.dumps(manifest(result, time.perf_counter()), default=_json_default))
 
 
 class RunLayers:

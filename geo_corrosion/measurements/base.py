@@ -55,7 +55,6 @@ class MeasurementKind:
         when the file has no value column (see ``docs/raw-readings.md``).
     option_keys : tuple of str
         Keys accepted in the survey's ``[surveys.options]`` table.
-    api_version : int
     """
 
     name: ClassVar[str] = ""
@@ -69,7 +68,6 @@ class MeasurementKind:
     class_set: ClassVar[str | None] = None
     raw_columns: ClassVar[tuple[str, ...]] = ()
     option_keys: ClassVar[tuple[str, ...]] = ()
-    api_version: ClassVar[int] = 1
 
     def to_canonical(self, values: ArrayLike, unit: str, *, where: str = "") -> NDArray[np.float64]:
         """Convert raw values from ``unit`` to the canonical unit.

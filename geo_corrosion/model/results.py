@@ -9,7 +9,7 @@ import geopandas as gpd
 import pandas as pd
 
 from geo_corrosion.model.site import Level, Site
-from geo_corrosion.model.surface import KindSurface
+from geo_corrosion.model.surface import KindSurface, LevelCondition
 
 __all__ = ["LevelResult", "RunResult"]
 
@@ -23,10 +23,19 @@ class LevelResult:
     level : Level
     surfaces : dict of str to KindSurface
         By measurement kind name.
-    repairs : GeoDataFrame
+    repairs : GeoDataFrame or None
         Repair areas in local grid coordinates (``unit`` of the level grid).
+    zones : GeoDataFrame or None
+        Zones that partition the slab minus exclusions (local grid coordinates).
     stats : dict
-        Counts, statistics, class areas and quantities for run.json.
+        The level's record for ``run.json``: per kind (counts, statistics, surface, class
+        areas), ``condition`` and ``planning``.
+    skipped : dict of str to str
+        Kinds with readings but no surface, with the reason.
+    condition : LevelCondition or None
+        Probability maps, combined classes and condition statistics (None without surfaces).
+    readings : dict of str to DataFrame
+        The readings each surface was kriged from, by kind.
     """
 
     level: Level
@@ -35,8 +44,8 @@ class LevelResult:
     zones: gpd.GeoDataFrame | None = None
     stats: dict[str, Any] = field(default_factory=dict)
     skipped: dict[str, str] = field(default_factory=dict)
-    condition: Any = None  # assessment.LevelCondition
-    readings: dict[str, Any] = field(default_factory=dict)  # mapped readings by kind
+    condition: LevelCondition | None = None
+    readings: dict[str, pd.DataFrame] = field(default_factory=dict)
 
 
 @dataclass

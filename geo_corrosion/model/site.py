@@ -14,7 +14,7 @@ from typing import Any
 import geopandas as gpd
 import pyproj
 import shapely
-from shapely.geometry import MultiPolygon, Polygon
+from shapely.geometry import Polygon
 from shapely.geometry.base import BaseGeometry
 
 from geo_corrosion.config import LevelConfig, SiteConfig, SurveyConfig
@@ -34,8 +34,9 @@ class Level:
     config : LevelConfig
     grid : LocalGrid
         Tie of the local grid to the site CRS.
-    slab : Polygon or MultiPolygon
-        Slab outline (local grid units).
+    slab : Polygon
+        The slab outline: one polygon (a slab of separate parts is refused when read).
+        Local grid units.
     exclusions : tuple of Feature
         Columns, cores, ramps and openings.
     joints : tuple of Feature
@@ -46,7 +47,7 @@ class Level:
 
     config: LevelConfig
     grid: LocalGrid
-    slab: Polygon | MultiPolygon
+    slab: Polygon
     exclusions: tuple[Feature, ...] = ()
     joints: tuple[Feature, ...] = ()
     overlays: dict[str, tuple[Feature, ...]] = field(default_factory=dict)

@@ -18,7 +18,7 @@ from shapely.geometry.base import BaseGeometry
 from geo_corrosion.measurements import MeasurementKind
 from geo_corrosion.surfaces import GridSpec, VariogramFit
 
-__all__ = ["KindSurface", "LevelCondition"]
+__all__ = ["KindSurface", "LevelCondition", "LevelSurfaces"]
 
 
 @dataclass(frozen=True)
@@ -70,3 +70,27 @@ class LevelCondition:
     combined_polygons: pd.DataFrame | None = None
     stats: dict[str, Any] = field(default_factory=dict)
     mixture: Any = None
+
+
+@dataclass(frozen=True)
+class LevelSurfaces:
+    """What the surfaces stage made of one level.
+
+    Attributes
+    ----------
+    surfaces : dict of str to KindSurface
+        By kind name, for the kinds that got a surface.
+    readings : dict of str to DataFrame
+        The readings each surface was kriged from (after QA exclusions), by kind name.
+    kinds : dict of str to dict
+        Per kind, the record that ``run.json`` keeps under ``levels.<id>.kinds``: reading
+        counts, unit, statistics, class shares, and the surface's grid, variogram,
+        cross-validation and class areas (or why there is no surface).
+    skipped : dict of str to str
+        Kinds with readings but no surface, with the reason.
+    """
+
+    surfaces: dict[str, KindSurface] = field(default_factory=dict)
+    readings: dict[str, pd.DataFrame] = field(default_factory=dict)
+    kinds: dict[str, dict[str, Any]] = field(default_factory=dict)
+    skipped: dict[str, str] = field(default_factory=dict)

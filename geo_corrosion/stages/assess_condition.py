@@ -1,4 +1,4 @@
-"""The condition stage of the pipeline: probability maps, area intervals, site threshold, combined classes.
+"""The condition stage: probability maps, area intervals, site threshold, combined classes.
 
 For each level, from the kriged surfaces of :mod:`geo_corrosion.stages.map_surfaces`:
 
@@ -19,7 +19,7 @@ For each level, from the kriged surfaces of :mod:`geo_corrosion.stages.map_surfa
 from __future__ import annotations
 
 import dataclasses
-from dataclasses import dataclass, field
+from collections.abc import Sequence
 from typing import Any
 
 import numpy as np
@@ -33,10 +33,11 @@ from geo_corrosion.condition.combined import DEFAULT_RULES, RuleTable, combine
 from geo_corrosion.condition.potential import fit_mixture_threshold
 from geo_corrosion.condition.probability import area_interval, exceedance_probability
 from geo_corrosion.errors import ConditionError
-from geo_corrosion.model.surface import KindSurface, LevelCondition
+from geo_corrosion.model.site import Level, Survey
+from geo_corrosion.model.surface import KindSurface, LevelCondition, LevelSurfaces
 from geo_corrosion.units import LENGTH_TO_M
 
-__all__ = ["THRESHOLDS", "LevelCondition", "assess_level", "log_space_moments", "life_estimates",
+__all__ = ["THRESHOLDS", "assess_condition", "assess_level", "log_space_moments", "life_estimates",
            "SERVICE_HORIZON_YEARS"]
 
 #: Horizon of the section-loss estimate at today's rate, years (common practice, no source).
@@ -74,6 +75,8 @@ def life_estimates(frame: pd.DataFrame, cover: KindSurface | None, *,
                    bar_diameter_mm: float) -> tuple[pd.DataFrame, dict[str, Any]]:
     """Section loss and time to cover cracking at each corrosion-rate reading.
 
+    Returns a new frame with the columns added, and the summary for ``run.json``.
+
     * Section loss of the bar after :data:`SERVICE_HORIZON_YEARS` at the measured
       rate (uniform attack, Faraday's law; REFERENCE.md §4.1), with the 25 %
       engineer-review trigger (UFGS 03931, LIFE-03).
@@ -86,6 +89,7 @@ def life_estimates(frame: pd.DataFrame, cover: KindSurface | None, *,
     """
     from geo_corrosion.condition.life import section_loss, time_to_cracking_years
 
+    frame = frame.copy()  # the caller's frame is never changed
     col = "icorr_ua_cm2"
     i = frame[col].to_numpy(float)
     loss = np.full(i.shape, np.nan)
@@ -213,3 +217,32 @@ def assess_level(surfaces: dict[str, KindSurface], readings: dict[str, NDArray[n
             for r in out.combined_polygons.to_dict("records")] if len(out.combined_polygons) else []
         out.stats["combined_rules"] = table.to_dict()
     return out
+
+
+def assess_condition(level: Level, mapped: LevelSurfaces, rate_surveys: Sequence[Survey], *,
+                     rules: dict[str, Any] | None, bar_diameter_mm: float,
+                     low_cover: NDArray[np.bool_] | None
+                     ) -> tuple[LevelCondition, dict[str, pd.DataFrame]]:
+    """Assess the condition of one level that has at least one surface.
+
+    Returns
+    -------
+    condition : LevelCondition
+        Probability maps, area intervals, site threshold, combined classes; its ``stats``
+        carry the life summary per corrosion-rate survey under ``"life"``.
+    frames : dict of str to DataFrame
+        By survey id, the corrosion-rate surveys' frames with the section-loss and
+        time-to-cracking columns added (new frames; the surveys are not changed).
+    """
+    condition = assess_level(
+        mapped.surfaces, {k: r[mapped.surfaces[k].kind.value_column].to_numpy(float)
+                          for k, r in mapped.readings.items()},
+        deck=level.deck, unit=level.unit, rules=rules, low_cover=low_cover)
+    frames: dict[str, pd.DataFrame] = {}
+    life: dict[str, Any] = {}
+    for sv in rate_surveys:
+        frames[sv.id], life[sv.id] = life_estimates(sv.frame, mapped.surfaces.get("cover"),
+                                                    bar_diameter_mm=bar_diameter_mm)
+    if life:
+        condition.stats["life"] = life
+    return condition, frames

@@ -14,8 +14,7 @@ from __future__ import annotations
 import dataclasses
 import logging
 import math
-from collections.abc import Callable
-from dataclasses import dataclass, field
+from collections.abc import Callable, Sequence
 from typing import Any
 
 import numpy as np
@@ -30,7 +29,7 @@ from geo_corrosion.config import RunParams
 from geo_corrosion.errors import KrigingError
 from geo_corrosion.measurements import MeasurementKind
 from geo_corrosion.model.site import Level, Survey
-from geo_corrosion.model.surface import KindSurface
+from geo_corrosion.model.surface import KindSurface, LevelSurfaces
 from geo_corrosion.surfaces import (
     CrossValidation,
     GridSpec,
@@ -45,9 +44,10 @@ from geo_corrosion.surfaces import (
     krige_grid,
     surface_mask,
 )
-from geo_corrosion.units import LENGTH_TO_M
+from geo_corrosion.units import LENGTH_TO_M, ReportUnits
 
-__all__ = ["KindSurface", "mappable_readings", "build_surface", "EXCLUDING_RULES"]
+__all__ = ["map_level", "mappable_readings", "build_surface", "reading_statistics",
+           "EXCLUDING_RULES", "MIN_READINGS_FOR_SURFACE"]
 
 log = logging.getLogger(__name__)
 
@@ -59,7 +59,7 @@ EXCLUDING_RULES = ("QA-RANGE-LOW", "QA-RANGE-HIGH", "QA-OUTSIDE-SLAB", "QA-IN-EX
 
 
 def mappable_readings(surveys: list[Survey], flags: pd.DataFrame) -> pd.DataFrame:
-    """Readings of these surveys fit for a surface, with the reason others were left out."""
+    """Return the readings of these surveys fit for a surface (QA exclusions applied)."""
     frames = [s.frame for s in surveys]
     if not frames:
         return pd.DataFrame()
@@ -229,3 +229,98 @@ def build_surface(
     classes = _class_polygons(kind, mean, grid, deck, class_set)
     return KindSurface(kind, grid, mean, var, fit, cv.to_dict(value_unit=kind.canonical_unit),
                        res, len(z), interval, lines, bands, classes, directional)
+
+
+#: Fewest usable readings for which a kind is kriged on a level.
+MIN_READINGS_FOR_SURFACE = 30
+
+
+def reading_statistics(values: NDArray[np.float64]) -> dict[str, float]:
+    """Count, mean, standard deviation, extremes and percentiles of the finite values."""
+    v = values[np.isfinite(values)]
+    if not v.size:
+        return {"n": 0}
+    p = np.percentile(v, [5, 10, 50, 90, 95])
+    return {"n": int(v.size), "mean": float(v.mean()), "std": float(v.std(ddof=1)) if v.size > 1
+            else 0.0, "min": float(v.min()), "p5": float(p[0]), "p10": float(p[1]),
+            "median": float(p[2]), "p90": float(p[3]), "p95": float(p[4]), "max": float(v.max())}
+
+
+def map_level(level: Level, surveys: Sequence[Survey], flags: pd.DataFrame, params: RunParams,
+              *, units: ReportUnits, progress: Callable[[str], None] | None = None
+              ) -> LevelSurfaces:
+    """Krige every kind surveyed on a level, with the statistics ``run.json`` keeps.
+
+    A kind with fewer than :data:`MIN_READINGS_FOR_SURFACE` usable readings, or whose
+    kriging fails, gets no surface; the reason is kept in ``skipped``.
+
+    Parameters
+    ----------
+    level : Level
+    surveys : sequence of Survey
+        The level's surveys (every kind).
+    flags : DataFrame
+        The QA flag table; flagged readings are left out of the surfaces.
+    params : RunParams
+    units : ReportUnits
+        Reporting units, for the areas given beside m2.
+    progress : callable, optional
+        Receives a line of text per kind.
+    """
+    say = progress or (lambda _m: None)
+    a2 = LENGTH_TO_M[level.unit] ** 2
+    out = LevelSurfaces()
+    kinds = {s.kind.name: s.kind for s in surveys}
+    for name, kind in kinds.items():
+        of_kind = [s for s in surveys if s.kind.name == name]
+        readings = mappable_readings(of_kind, flags)
+        values = readings[kind.value_column].to_numpy(float) if len(readings) else np.array([])
+        entry: dict[str, Any] = {"readings": sum(len(s.frame) for s in of_kind),
+                                 "readings_mapped": len(readings),
+                                 "unit": kind.canonical_unit,
+                                 "statistics": reading_statistics(values)}
+        if kind.class_set and len(readings):
+            vc = pd.Series(kind.classify(values)).value_counts()
+            entry["class_share_of_readings"] = {str(k): float(v / len(readings))
+                                                for k, v in vc.items()}
+        out.kinds[name] = entry
+        if len(readings) < MIN_READINGS_FOR_SURFACE:
+            out.skipped[name] = (f"{len(readings)} usable readings; a kriged surface needs at "
+                                 f"least {MIN_READINGS_FOR_SURFACE}")
+            entry["surface"] = None
+            entry["surface_skipped"] = out.skipped[name]
+            say(f"level {level.id}: {name}: no surface ({out.skipped[name]})")
+            continue
+        say(f"level {level.id}: kriging {len(readings)} {name} readings")
+        class_set = next((sv.config.options.get("class_set") for sv in of_kind
+                          if sv.config.options.get("class_set")), None)
+        try:
+            s = build_surface(level, kind, readings, params, class_set=class_set)
+        except KrigingError as err:
+            out.skipped[name] = str(err)
+            entry["surface_skipped"] = str(err)
+            say(f"level {level.id}: {name}: no surface: {err}")
+            continue
+        out.surfaces[name] = s
+        out.readings[name] = readings
+        vunit = (kind.canonical_unit if kind.krige_transform is None
+                 else f"ln({kind.canonical_unit})")
+        mapped_area = float(np.isfinite(s.mean).sum()) * (s.grid.cell**2) * a2
+        entry["surface"] = {
+            "cell_size": s.grid.cell, "cell_unit": level.unit, "shape": list(s.grid.shape),
+            "mapped_area_m2": mapped_area,
+            "mapped_area_" + units.area: float(units.area_from_m2(mapped_area)),
+            "variogram": s.fit.to_dict(value_unit=vunit, length_unit=level.unit),
+            "cross_validation": s.cv,
+            "directional_variograms": s.directional,
+            "contour_interval": s.interval, "kriged_in": s.kind.krige_transform or "linear",
+        }
+        if s.classes is not None and len(s.classes):
+            deck_area = level.deck.area * a2
+            entry["class_areas"] = [
+                {"class": r["class"], "area_m2": r["area_local"] * a2,
+                 "area_" + units.area: float(units.area_from_m2(r["area_local"] * a2)),
+                 "share_of_mapped_area": r["area_local"] * a2 / mapped_area if mapped_area else 0,
+                 "share_of_deck": r["area_local"] * a2 / deck_area}
+                for r in s.classes.to_dict("records")]
+    return out

@@ -26,13 +26,28 @@ __all__ = ["open_site", "read_level", "read_survey", "correct"]
 Progress = Callable[[str], None]
 
 
+def _multipart_message(cfg: LevelConfig, slab: MultiPolygon, unit: str) -> str:
+    """Say why a slab of separate parts is refused and what to draw instead."""
+    parts = sorted(slab.geoms, key=lambda g: -g.area)
+    listed = "; ".join(
+        f"part {i + 1}: {g.area:,.0f} {unit}2 around ({g.centroid.x:,.1f}, {g.centroid.y:,.1f})"
+        for i, g in enumerate(parts[:5]))
+    more = f"; and {len(parts) - 5} more" if len(parts) > 5 else ""
+    return (f"{cfg.slab.where}: the slab outline of level {cfg.id!r} has {len(parts)} separate "
+            f"parts ({listed}{more}, local grid). A level is zoned and laid out as one "
+            "continuous slab: if the parts are separate decks, give each its own level "
+            "([[levels]] with its own slab outline); if they are one deck, close the gaps so "
+            "the outline is one polygon (drawing slivers between parts often cause this)")
+
+
 def read_level(cfg: LevelConfig, site: SiteConfig) -> Level:
     """Read a level's grid tie, slab, exclusions, joints and overlays.
 
     Raises
     ------
     IngestError
-        Missing files or layers, an invalid slab outline, a DXF with no closed shapes.
+        Missing files or layers, an invalid slab outline, a slab of separate parts, a DXF
+        with no closed shapes.
     GeoreferenceError
         Fewer control points than needed, or inconsistent ones.
     """
@@ -43,6 +58,8 @@ def read_level(cfg: LevelConfig, site: SiteConfig) -> Level:
     slab = shapely.union_all([f.geometry for f in slab_feats])
     if not isinstance(slab, Polygon | MultiPolygon) or slab.area <= 0 or not slab.is_valid:
         raise IngestError(f"{cfg.slab.where}: the slab outline is not a valid polygon")
+    if isinstance(slab, MultiPolygon):
+        raise IngestError(_multipart_message(cfg, slab, grid.unit))
     exclusions = tuple(
         f for ref in cfg.exclusions for f in read_polygons(ref, grid, site_crs=site.crs,
                                                            what="exclusions")

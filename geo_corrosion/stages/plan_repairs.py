@@ -11,24 +11,31 @@ zoning rules then partition the slab.  All geometry is in local grid units.
 from __future__ import annotations
 
 import warnings
+from collections.abc import Iterable
 from dataclasses import dataclass
 from typing import Any
 
 import geopandas as gpd
 import numpy as np
+import pandas as pd
 import rasterio.features
 import shapely
 from numpy.typing import NDArray
 from shapely.geometry import shape
 from shapely.geometry.base import BaseGeometry
 
+from geo_corrosion.config import SiteConfig
 from geo_corrosion.errors import GeometryWarning
+from geo_corrosion.model.results import LevelResult
 from geo_corrosion.model.site import Level
 from geo_corrosion.model.surface import KindSurface
+from geo_corrosion.quantities import bid_schedule
 from geo_corrosion.repair import LayoutParams, layout_repairs
-from geo_corrosion.zoning import ZoningLayers, default_rules, zone
+from geo_corrosion.units import ReportUnits
+from geo_corrosion.zoning import ZONING_RULES, ZoningLayers, default_rules, zone
 
-__all__ = ["PlanningParams", "low_cover_threshold_mm", "plan_level", "raster_region"]
+__all__ = ["PlanningParams", "low_cover_mask", "low_cover_threshold_mm", "plan_level",
+           "planning_params", "raster_region"]
 
 #: Default low-cover threshold when the level gives no specified cover, mm
 #: (REFERENCE.md §5.3 item 1: 25 mm / 1 in, common practice).
@@ -58,6 +65,17 @@ def low_cover_threshold_mm(level: Level) -> tuple[float, str]:
     return DEFAULT_LOW_COVER_MM, "default 25 mm (REFERENCE.md §5.3, common practice)"
 
 
+def low_cover_mask(level: Level, cover: KindSurface | None) -> NDArray[np.bool_] | None:
+    """Cells of the cover surface below the level's low-cover threshold (None: no cover surface).
+
+    Cells without a kriged cover are ``False``.
+    """
+    if cover is None:
+        return None
+    thr, _src = low_cover_threshold_mm(level)
+    return np.asarray(np.nan_to_num(cover.mean, nan=np.inf) < thr)
+
+
 def raster_region(mask: NDArray[np.bool_], s: KindSurface, clip: BaseGeometry) -> BaseGeometry:
     """Polygon (local grid) of the True cells of a mask on a surface's grid, clipped."""
     if not mask.any():
@@ -82,9 +100,12 @@ def _cover_at(geoms: list[BaseGeometry], cover: KindSurface | None) -> list[floa
     return out
 
 
-def plan_level(level: Level, surfaces: dict[str, KindSurface], params: PlanningParams
+def plan_level(level: Level, surfaces: dict[str, KindSurface], params: PlanningParams,
+               *, low_cover: NDArray[np.bool_] | None = None
                ) -> tuple[gpd.GeoDataFrame | None, gpd.GeoDataFrame, dict[str, Any]]:
     """Repairs, zones and their notes for one level.
+
+    ``low_cover`` is :func:`low_cover_mask` of the level (computed here when not given).
 
     Returns
     -------
@@ -114,8 +135,10 @@ def plan_level(level: Level, surfaces: dict[str, KindSurface], params: PlanningP
                                  joints=[j.geometry for j in level.joints], unit=level.unit,
                                  params=params.layout, level_id=level.id)
     thr, thr_src = low_cover_threshold_mm(level)
-    low = (raster_region(np.nan_to_num(cover.mean, nan=np.inf) < thr, cover, deck)
-           if cover is not None else shapely.Polygon())
+    if low_cover is None:
+        low_cover = low_cover_mask(level, cover)
+    low = (raster_region(low_cover, cover, deck)
+           if cover is not None and low_cover is not None else shapely.Polygon())
     classes: dict[str, BaseGeometry] = {}
     pot = surfaces.get("potential")
     if pot is not None and pot.classes is not None and len(pot.classes):
@@ -133,8 +156,7 @@ def plan_level(level: Level, surfaces: dict[str, KindSurface], params: PlanningP
         delaminated=_u("delamination"), spalled=_u("spall"), classes=classes, low_cover=low,
         repairs=(shapely.union_all(list(repairs.geometry)) if repairs is not None and len(repairs)
                  else shapely.Polygon()))
-    slab = level.slab if isinstance(level.slab, shapely.Polygon) else max(
-        level.slab.geoms, key=lambda g: g.area)
+    slab = level.slab  # one polygon: a slab of separate parts is refused when read
     rules = list(params.rules) if params.rules else default_rules()
     zones = zone(slab, level.exclusion_polygons(), layers, rules,
                  min_zone_area_m2=params.min_zone_area_m2, smoothing_m=params.smoothing_m,
@@ -146,3 +168,33 @@ def plan_level(level: Level, surfaces: dict[str, KindSurface], params: PlanningP
              "zoning_rules": [{"rule": r.name, "treatment": r.treatment, "bid_item": r.bid_item}
                               for r in rules]}
     return repairs, zones, notes
+
+
+def planning_params(cfg: SiteConfig) -> PlanningParams:
+    """Layout and zoning parameters of a site (validated: absurd values raise RepairError)."""
+    p = cfg.run
+    rules = tuple(ZONING_RULES.get(name)(**kw) for name, kw in cfg.zoning) or None
+    return PlanningParams(
+        layout=LayoutParams(
+            margin_mm=p.repair_margin_m * 1000, merge_gap_mm=p.merge_gap_m * 1000,
+            min_size_mm=p.min_repair_size_m * 1000, axis_angle_deg=p.axis_angle_deg,
+            sawcut_depth_mm=p.sawcut_depth_mm, bar_diameter_mm=p.bar_diameter_mm,
+            max_aggregate_mm=p.max_aggregate_mm, slab_thickness_mm=p.slab_thickness_mm),
+        min_zone_area_m2=p.min_zone_area_m2, smoothing_m=p.zone_smoothing_m, rules=rules)
+
+
+def schedule_quantities(levels: Iterable[LevelResult], *, units: ReportUnits, contingency: float,
+                        anode_spacing_mm: float | None) -> pd.DataFrame:
+    """Return the bid schedule of every level's repairs and zones (empty when neither)."""
+    def _cat(frames: list[gpd.GeoDataFrame | None]) -> gpd.GeoDataFrame | None:
+        kept = [f for f in frames if f is not None and len(f)]
+        return (gpd.GeoDataFrame(pd.concat(kept, ignore_index=True), geometry="geometry")
+                if kept else None)
+
+    levels = list(levels)
+    repairs = _cat([lr.repairs for lr in levels])
+    zones = _cat([lr.zones for lr in levels])
+    if repairs is None and zones is None:
+        return pd.DataFrame()
+    return bid_schedule(repairs, zones, units=units, contingency=contingency,
+                        anode_spacing_mm=anode_spacing_mm)

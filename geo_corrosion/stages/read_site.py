@@ -13,17 +13,13 @@ from __future__ import annotations
 
 import dataclasses
 import difflib
-import math
 import re
 import tomllib
 from collections.abc import Mapping
-from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-import pyproj
-
-from geo_corrosion._toml import OptionsTable, Table
+from geo_corrosion._toml import Table
 from geo_corrosion.config import (
     COORDS,
     OVERLAY_KINDS,
@@ -37,7 +33,7 @@ from geo_corrosion.config import (
     SurveyConfig,
 )
 from geo_corrosion.crs import site_crs
-from geo_corrosion.errors import CRSError, SiteFileError, UnitError
+from geo_corrosion.errors import SiteFileError, UnitError
 from geo_corrosion.units import LENGTH_TO_M, normalize_unit, parse_area, parse_length
 
 __all__ = ["read_site"]
@@ -93,7 +89,8 @@ def _layer(data: object, where: str, root: Path, default_coords: str = "local") 
 def _grid(data: object, where: str) -> GridConfig:
     t = Table(data, where, _GRID_KEYS)
     try:
-        unit = normalize_unit(t.string("unit"), accepted=("m", "ft", "us-ft"), where=f"{t.key('unit')}: ")
+        unit = normalize_unit(t.string("unit"), accepted=("m", "ft", "us-ft"),
+                              where=f"{t.key('unit')}: ")
     except UnitError as err:
         raise SiteFileError(str(err)) from err
     cps = []
@@ -144,7 +141,8 @@ def _level(data: object, where: str, root: Path) -> LevelConfig:
         name=t.string("name", lid),
         slab=_layer(t.data["slab"], t.key("slab"), root),
         exclusions=tuple(
-            _layer(e, f"{t.key('exclusions')}[{i}]", root) for i, e in enumerate(t.array("exclusions"))
+            _layer(e, f"{t.key('exclusions')}[{i}]", root)
+            for i, e in enumerate(t.array("exclusions"))
         ),
         joints=_layer(t.data["joints"], t.key("joints"), root) if t.has("joints") else None,
         overlays=tuple(overlays),

@@ -1,7 +1,8 @@
 """Zoning: ordered rules that split each level's slab into treatment zones."""
 
 from geo_corrosion.plugins import Registry
-from geo_corrosion.zoning.base import ZONE_COLUMNS, ZoningLayers, ZoningRule, zone
+from geo_corrosion.zoning.apply import zone
+from geo_corrosion.zoning.base import ZONE_COLUMNS, ZoningLayers, ZoningRule
 from geo_corrosion.zoning.builtin import (
     BUILTIN_ZONING_RULES,
     ActiveCorrosionRule,

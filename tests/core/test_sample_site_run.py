@@ -63,11 +63,9 @@ def test_broken_copy_fails_cleanly(tmp_path: Path) -> None:
 @pytest.fixture(scope="module")
 def sample_result():  # type: ignore[no-untyped-def]
     """The sample site processed in memory (no outputs written)."""
-    from geo_corrosion.pipeline import check_site, process
-    from geo_corrosion.stages.open_site import open_site
+    from geo_corrosion.pipeline import check, process
 
-    site = open_site(SAMPLE)
-    return process(site, check_site(site))
+    return process(*check(SAMPLE))
 
 
 @pytest.mark.slow

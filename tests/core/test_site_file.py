@@ -101,6 +101,25 @@ def test_invalid_slab_outline(site_dir: Path) -> None:
     _fails(site_dir, "slab", "outline is not a valid polygon", "Self-intersection")
 
 
+def test_slab_of_two_parts_refused_at_check(site_dir: Path) -> None:
+    """A slab of two separate polygons is refused by `check`, naming the parts and what to draw.
+
+    Before, it passed `check` and was zoned on its largest part only (a latent bug: a level is
+    laid out as one continuous slab).  Two 30 x 40 ft decks 2 ft apart; the readings cover both.
+    """
+    import json
+
+    parts = [[[0, 0], [29, 0], [29, 40], [0, 40], [0, 0]],
+             [[31, 0], [60, 0], [60, 40], [31, 40], [31, 0]]]
+    (site_dir / "plans" / "slab.geojson").write_text(json.dumps({
+        "type": "FeatureCollection", "features": [
+            {"type": "Feature", "properties": {}, "geometry": {"type": "Polygon",
+                                                                "coordinates": [ring]}}
+            for ring in parts]}))
+    msg = _fails(site_dir, "slab", "2 separate parts", "its own level", "1,160 ft2")
+    assert "part 2: 1,160 ft2" in msg
+
+
 def test_readings_all_outside_level(site_dir: Path) -> None:
     p = site_dir / "readings" / "resistivity.csv"
     lines = p.read_text().splitlines()
@@ -163,7 +182,7 @@ def test_suspicious_reading_is_flagged_not_dropped(site_dir: Path) -> None:
     lines[10] = ",".join([a, x, y, "-1250.0"])  # implausible (REFERENCE HCP-13 range [-1000, +200])
     p.write_text("\n".join(lines) + "\n")
     site = open_site(site_dir)
-    from geo_corrosion.pipeline import check_site
+    from geo_corrosion.stages.check_site import check_site
 
     flags = check_site(site)
     hit = flags[flags["reading_id"] == "D1-hcp:11"]
@@ -466,7 +485,7 @@ def test_stability_series_flags_unstable_readings(site_dir: Path) -> None:
     lines[5] = lines[5][:-1] + ",-250 -262 -271"
     lines[6] = lines[6][:-1] + ",-250|-255|-270"
     p.write_text("\n".join(lines) + "\n")
-    from geo_corrosion.pipeline import check_site
+    from geo_corrosion.stages.check_site import check_site
 
     site = open_site(site_dir)
     frame = site.surveys[0].frame

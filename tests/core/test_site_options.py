@@ -70,15 +70,14 @@ rules = [ { name = "r1", potential = ["high"], class = "act" },
 
 
 def test_underivable_readings_become_qa_flags() -> None:
-    from types import SimpleNamespace
-
-    from geo_corrosion.pipeline import _derive_flags
+    from geo_corrosion.qa.derived import derived_flags
 
     frame = pd.DataFrame({"reading_id": ["s:2", "s:3"], "survey_id": "s", "level_id": "D1",
                           "where": ["r.csv line 2", "r.csv line 3"],
                           "derive_message": ["", "point P3 (r.csv line 3): current is zero"],
                           "derive_warning": ["polarization 25 mV beyond 20 mV", ""]})
-    flags = _derive_flags(SimpleNamespace(frame=frame))
+    flags = derived_flags(frame, survey_id="s", level_id="D1", file_name="r.csv",
+                          electrode_temperature=False)
     assert list(flags["rule"]) == ["QA-DERIVE", "QA-DERIVE-NOTE"]
     assert list(flags["severity"]) == ["warning", "info"]
     assert "current is zero" in flags["message"].iloc[0]
@@ -103,11 +102,14 @@ def test_life_estimates_at_readings() -> None:
     # 10 years at 1 uA/cm2: 0.116 mm off the radius of a 12 mm bar -> 1 - (11.768/12)^2 = 3.83 %
     assert out["section_loss_10yr_pct"].iloc[0] == pytest.approx(100 * (1 - (11.768 / 12) ** 2), rel=5e-3)
     assert summary["readings_needing_bar_review"] == 0
+    # a stage never changes its input (DEVELOPERS.md, "Stages"): the columns are on the copy
+    assert "time_to_cracking_yr" not in frame and list(frame.columns) == ["x_local", "y_local",
+                                                                          "icorr_ua_cm2"]
 
 
 def test_cse_temperature_outside_valid_range_flagged(tmp_path: Path) -> None:
     # ASTM C876-22a §5.1.1.2: the 0.9 mV/degC coefficient holds from 0 to 49 degC (sourced)
-    from geo_corrosion.pipeline import check_site
+    from geo_corrosion.stages.check_site import check_site
     from geo_corrosion.stages.open_site import open_site
     from geo_corrosion.testing import make_synthetic_site
 

@@ -37,7 +37,8 @@ from geo_corrosion.exporters.report.text import (
     parameter_unit,
     summarize_correction,
 )
-from geo_corrosion.exporters.runfiles import RunLayers, read_run, result_manifest
+from geo_corrosion.exporters.runfiles import RunLayers
+from geo_corrosion.model.manifest import read_run, result_manifest
 
 if TYPE_CHECKING:
     import geopandas as gpd
@@ -468,6 +469,7 @@ class ReportExporter(Exporter):
     """
 
     name: ClassVar[str] = "report"
+    run_last: ClassVar[bool] = True
     description: ClassVar[str] = "the survey report as HTML and PDF (report.html, report.pdf)"
 
     def export(self, result: RunResult, out_dir: Path) -> list[Path]:

@@ -32,7 +32,8 @@ from geo_corrosion.cautions import CAUTIONS
 from geo_corrosion.errors import ExportError
 from geo_corrosion.exporters._html import escape, png_data_url
 from geo_corrosion.exporters.base import Exporter
-from geo_corrosion.exporters.runfiles import RunLayers, read_run, result_manifest
+from geo_corrosion.exporters.runfiles import RunLayers
+from geo_corrosion.model.manifest import read_run, result_manifest
 
 if TYPE_CHECKING:
     import folium
@@ -614,6 +615,7 @@ class WebMapExporter(Exporter):
     """Write ``webmap.html`` from the files the other exporters wrote."""
 
     name: ClassVar[str] = "webmap"
+    run_last: ClassVar[bool] = True
     description: ClassVar[str] = "a self-contained HTML web map for the owner (webmap.html)"
 
     def export(self, result: RunResult, out_dir: Path) -> list[Path]:

@@ -1,0 +1,45 @@
+"""``geo-corrosion check``: read every file of a site, apply corrections, print QA findings."""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+import click
+
+from geo_corrosion.cli.handlers import errors_handler
+from geo_corrosion.cli.options import progress_printer, quiet_opt, site_arg
+
+__all__ = ["check"]
+
+
+@click.command()
+@site_arg
+@quiet_opt
+@click.option("--max-rows", default=50, show_default=True, help="Findings listed at most.")
+@errors_handler
+def check(site: Path, quiet: bool, max_rows: int) -> None:
+    """Check a site: read every file, apply corrections, print the QA findings.
+
+    Exits 0 when the site can be run, 1 when it cannot.
+    """
+    from geo_corrosion import qa
+    from geo_corrosion.pipeline import check as check_site
+
+    s, flags = check_site(site, progress=progress_printer(quiet))
+    for lv in s.levels.values():
+        g = lv.grid
+        click.echo(f"level {lv.id}: grid tie rotation {g.rotation_deg:.4f} deg, "
+                   f"scale {g.scale:.6f}, "
+                   f"RMS control-point residual {g.rms_residual:.4f} {g.crs_unit}")
+    for sv in s.surveys:
+        click.echo(f"survey {sv.id}: {len(sv.frame)} {sv.kind.name} readings "
+                   f"({sv.kind.canonical_unit})")
+    if len(flags):
+        click.echo(f"\nQA findings ({len(flags)}; all of them are in the qa_flags layer of a run):")
+        click.echo(qa.format_flags(flags, max_rows=max_rows))
+        click.echo("")
+        click.echo(qa.summarize(flags).to_string(index=False))
+    ok = not len(flags) or qa.runnable(flags)
+    click.echo("\nthe site can be run" if ok else "\nthe site cannot be run: fix the errors above")
+    sys.exit(0 if ok else 1)

@@ -1,0 +1,36 @@
+"""``geo-corrosion run``: run the whole job on SITE and write the output folder."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import click
+
+from geo_corrosion.cli.handlers import errors_handler
+from geo_corrosion.cli.options import out_opt, overwrite_opt, progress_printer, quiet_opt, site_arg
+
+__all__ = ["run"]
+
+
+@click.command()
+@site_arg
+@out_opt
+@overwrite_opt
+@quiet_opt
+@errors_handler
+def run(site: Path, out: Path | None, overwrite: bool, quiet: bool) -> None:
+    """Run the whole job on SITE and write the output folder."""
+    from geo_corrosion.pipeline import run as run_site
+    from geo_corrosion.stages.read_site import read_site
+
+    cfg = read_site(site)
+    out = out or (cfg.root / "out")
+    result = run_site(cfg, out, overwrite=overwrite, progress=progress_printer(quiet))
+    click.echo(f"wrote {out}")
+    for f in sorted(result.files) + ["run.json"]:
+        click.echo(f"  {f}")
+    if len(result.schedule):
+        from geo_corrosion.quantities import schedule_table
+
+        click.echo("\nschedule of quantities (estimates for bidding):")
+        click.echo(schedule_table(result.schedule).round(1).to_string(index=False))
