@@ -131,7 +131,7 @@ def convert(values: ArrayLike, unit: str, to: str) -> NDArray[np.float64]:
     --------
     >>> float(convert(800.0, "ohm.m", "kohm.cm"))
     80.0
-    >>> float(convert(6.0, "in", "mm"))
+    >>> round(float(convert(6.0, "in", "mm")), 9)  # 6 in = 152.4 mm exactly, up to float rounding
     152.4
     """
     src = normalize_unit(unit)
