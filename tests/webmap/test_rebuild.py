@@ -95,7 +95,7 @@ def test_no_pdf_says_an_older_pdf_is_stale(xss_run: Path, tmp_path: Path) -> Non
 
 
 def test_the_page_carries_leaflet_licence(run_copy: Path) -> None:
-    # Leaflet is BSD-2-Clause (the LICENSE file of the django-js-lib-leaflet distribution):
+    # Leaflet is BSD-2-Clause (its LICENSE file, vendored in exporters/webmap/_vendor/leaflet):
     # a redistribution must reproduce the copyright notice and the conditions
     res = CliRunner().invoke(cli, ["map", str(run_copy)])
     assert res.exit_code == 0, res.output

@@ -9,9 +9,10 @@ drawn) with its own overlays: kriged surfaces and probability maps as image over
 contour lines, ASTM C876 classes, delaminations and spalls, zones, repairs (popup with
 id, zone, depth class, area in the reporting unit and bid item) and readings (value and
 QA flags).  Legends follow the overlays shown; a scale bar and a cautions panel are
-always there.  Leaflet is inlined from the ``django-js-lib-leaflet`` distribution
-(Leaflet's release files, BSD-2-Clause); nothing is fetched from a CDN.  Every text
-that comes from input files is HTML-escaped before it reaches the page.
+always there.  Leaflet is inlined from its release files vendored in this package
+(:mod:`~geo_corrosion.exporters.webmap.assets`, BSD-2-Clause), at the version folium
+declares; nothing is fetched from a CDN.  Every text that comes from input files is
+HTML-escaped before it reaches the page.
 """
 
 from __future__ import annotations
@@ -21,7 +22,6 @@ import io
 import json
 import logging
 import re
-from importlib.metadata import version as dist_version
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, ClassVar
 
@@ -33,6 +33,7 @@ from geo_corrosion.errors import ExportError
 from geo_corrosion.exporters._html import escape, png_data_url
 from geo_corrosion.exporters.base import Exporter
 from geo_corrosion.exporters.runfiles import RunLayers
+from geo_corrosion.exporters.webmap.assets import LEAFLET_VERSION, leaflet_assets
 from geo_corrosion.model.manifest import read_run, result_manifest
 
 if TYPE_CHECKING:
@@ -131,42 +132,6 @@ def _surface_overlay(tif: Path, direction: int) -> tuple[str, list[list[float]],
     west, north = tr.c, tr.f
     east, south = tr.c + tr.a * w, tr.f + tr.e * h
     return png_data_url(buf.getvalue()), [[south, west], [north, east]], lo, hi
-
-
-def _leaflet_assets() -> tuple[str, str, str]:
-    """Leaflet's script, stylesheet and licence, from the ``django-js-lib-leaflet`` distribution.
-
-    That PyPI package ships Leaflet's own release files (BSD-2-Clause licence) with no
-    Django dependency; we read the files without importing anything.  The stylesheet's
-    images are inlined as data URLs so the page needs no network at all.
-    """
-    from importlib.metadata import PackageNotFoundError, distribution
-
-    try:
-        dist = distribution("django-js-lib-leaflet")
-    except PackageNotFoundError as err:  # pragma: no cover - a declared dependency
-        raise ExportError("the web map needs the package django-js-lib-leaflet "
-                          "(pip install django-js-lib-leaflet)") from err
-    base = Path(str(dist.locate_file("js_lib_leaflet/static/js_lib_leaflet")))
-    js = (base / "leaflet.js").read_text(encoding="utf-8")
-    css = (base / "leaflet.css").read_text(encoding="utf-8")
-
-    def inline(m: re.Match[str]) -> str:
-        img = base / m.group(1)
-        if not img.is_file():
-            return m.group(0)
-        return f"url({png_data_url(img.read_bytes())})"
-
-    css = re.sub(r"url\((images/[^)]+\.png)\)", inline, css)
-    js = js.replace("//# sourceMappingURL=leaflet.js.map", "")
-    licence = ""
-    for f in dist.files or ():
-        if f.name.upper().startswith("LICENSE"):
-            licence = Path(str(dist.locate_file(f))).read_text(encoding="utf-8")
-            break
-    # BSD-2-Clause: a redistribution reproduces the notice; it goes in the page as a comment
-    licence = licence.replace("--", "- -") or "Leaflet: BSD 2-Clause License"
-    return js, css, licence
 
 
 def _geojson(gdf: gpd.GeoDataFrame, name: str, style: Any, fields: dict[str, str], *,
@@ -491,14 +456,14 @@ def build_webmap(run_dir: str | Path, manifest: dict[str, Any] | None = None) ->
                       control_scale=True, prefer_canvas=True)
     fmap.default_js = []
     fmap.default_css = []
-    js, css, licence = _leaflet_assets()
+    js, css, licence = leaflet_assets()
     root = fmap.get_root()
     root.header.add_child(folium.Element(f"<style>{css}</style><style>{_CSS}</style>"),
                           name="leaflet_css")
     root.header.add_child(folium.Element(f"<script>{js}</script>"), name="leaflet_js")
     root.header.add_child(folium.Element(
-        f"<!-- Leaflet {_e(dist_version('django-js-lib-leaflet'))}, inlined from the PyPI "
-        f"package django-js-lib-leaflet. Its licence:\n{licence}\n-->"), name="leaflet_licence")
+        f"<!-- Leaflet {LEAFLET_VERSION}, inlined from its release files. Its licence:\n"
+        f"{licence}\n-->"), name="leaflet_licence")
     root.title = _e(site.get("name", "survey"))
     tile_url = (man.get("parameters") or {}).get("basemap_url")
     if isinstance(tile_url, str) and tile_url.startswith("https://"):
