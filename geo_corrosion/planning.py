@@ -31,7 +31,7 @@ from geo_corrosion.zoning import ZoningLayers, default_rules, zone
 __all__ = ["PlanningParams", "low_cover_threshold_mm", "plan_level", "raster_region"]
 
 #: Default low-cover threshold when the level gives no specified cover, mm
-#: (REFERENCE.md §5.3 item 1: 25 mm / 1 in, common practice).
+#: (25 mm / 1 in, common practice).
 DEFAULT_LOW_COVER_MM = 25.0
 
 
@@ -49,13 +49,13 @@ def low_cover_threshold_mm(level: Level) -> tuple[float, str]:
     """Low-cover threshold of a level and where it comes from.
 
     ``specified - tolerance`` when the site file gives the level's specified
-    cover (REFERENCE.md COV-01, common practice), else 25 mm.
+    cover (common practice), else 25 mm.
     """
     spec, tol = level.config.specified_cover_mm, level.config.cover_tolerance_mm
     if spec is not None:
         t = tol if tol is not None else 0.0
         return spec - t, f"specified cover {spec:.1f} mm minus tolerance {t:.1f} mm"
-    return DEFAULT_LOW_COVER_MM, "default 25 mm (REFERENCE.md §5.3, common practice)"
+    return DEFAULT_LOW_COVER_MM, "default 25 mm (common practice)"
 
 
 def raster_region(mask: NDArray[np.bool_], s: KindSurface, clip: BaseGeometry) -> BaseGeometry:
