@@ -1,13 +1,13 @@
 """Corrections applied once, at ingest, and recorded per reading.
 
 * Reference electrode conversion to CSE from the electrodes' potentials vs SHE
-  (REFERENCE.md §1.4, sourced): ``E_vs_B = E_vs_A + (E_A/SHE - E_B/SHE)``.
-* CSE temperature correction after ASTM C876-22a §5.1.1.2 (sourced): the CSE
+  [IJCorros-2010 Table 2; Ives-Janz-1961]: ``E_vs_B = E_vs_A + (E_A/SHE - E_B/SHE)``.
+* CSE temperature correction [ASTM-C876-22a §5.1.1.2]: the CSE
   reads about 0.5 mV/°F = 0.9 mV/°C more negative per degree of warming, valid
   0 to 49 °C; corrected to the reference temperature 22.2 °C (72 °F):
   ``E(T_ref) = E + k (T - T_ref)``.
-* Arrhenius correction of resistivity to a reference temperature (REFERENCE.md
-  §2.3): ``rho(T_ref) = rho(T) exp[(Ea/R)(1/T_ref - 1/T)]``.
+* Arrhenius correction of resistivity to a reference temperature
+  [Coyle-Spragg-2019]: ``rho(T_ref) = rho(T) exp[(Ea/R)(1/T_ref - 1/T)]``.
 """
 
 from __future__ import annotations
@@ -49,21 +49,21 @@ ELECTRODES: dict[str, Electrode] = {
     e.code: e
     for e in (
         Electrode("cse", "Cu/CuSO4, saturated (CSE)", 316.0,
-                  "Hindawi Int. J. Corrosion 2010, Table 2 (REFERENCE.md §1.4)"),
+                  "[IJCorros-2010 Table 2]"),
         Electrode("ag_agcl_sat_kcl", "Ag/AgCl in saturated KCl", 197.0,
-                  "consultrsr.net; Hindawi 2010 (REFERENCE.md §1.4)"),
+                  "[IJCorros-2010 Table 2]"),
         Electrode("ag_agcl_3m_kcl", "Ag/AgCl in 3 M KCl", 210.0,
-                  "consultrsr.net (REFERENCE.md §1.4)"),
+                  "[Ives-Janz-1961], value to confirm"),
         Electrode("sce", "Saturated calomel (SCE)", 241.0,
-                  "consultrsr.net; Hindawi 2010 (REFERENCE.md §1.4)"),
+                  "[IJCorros-2010 Table 2]"),
         Electrode("she", "Standard hydrogen electrode (SHE)", 0.0, "definition"),
     )
 }
 
-CSE_K_MV_PER_C = 0.9  # ASTM C876-22a §5.1.1.2: 0.0005 V/°F = 0.9 mV/°C (sourced)
-CSE_T_REF_C = 22.2  # ASTM C876-22a §4.7: 72 °F
-CSE_BAND_C = 5.5  # ASTM C876-22a §4.7: ±10 °F within which temperature may be neglected
-CSE_VALID_C = (0.0, 49.0)  # ASTM C876-22a §5.1.1.2: 32 °F to 120 °F
+CSE_K_MV_PER_C = 0.9  # [ASTM-C876-22a §5.1.1.2]: 0.0005 V/°F = 0.9 mV/°C
+CSE_T_REF_C = 22.2  # [ASTM-C876-22a §4.7]: 72 °F
+CSE_BAND_C = 5.5  # [ASTM-C876-22a §4.7]: ±10 °F within which temperature may be neglected
+CSE_VALID_C = (0.0, 49.0)  # [ASTM-C876-22a §5.1.1.2]: 32 °F to 120 °F
 
 
 def electrode(code: str, *, where: str = "") -> Electrode:
@@ -72,7 +72,7 @@ def electrode(code: str, *, where: str = "") -> Electrode:
     Raises
     ------
     UnitError
-        If the code is unknown (REFERENCE.md REF-05).
+        If the code is unknown (common practice: never a silent default).
     """
     key = str(code).strip().lower().replace("-", "_").replace("/", "_")
     if key not in ELECTRODES:
@@ -88,7 +88,7 @@ def electrode_offset_mv(from_code: str, to_code: str = "cse") -> float:
 
     Examples
     --------
-    >>> electrode_offset_mv("ag_agcl_sat_kcl")  # REFERENCE.md §1.4: -119 mV
+    >>> electrode_offset_mv("ag_agcl_sat_kcl")  # 197 - 316 [IJCorros-2010 Table 2]
     -119.0
     """
     return electrode(from_code).e_vs_she_mv - electrode(to_code).e_vs_she_mv
@@ -115,19 +115,19 @@ def cse_temperature_correction_mv(
     temperature_c : float, °C
         Electrode temperature during the readings.
     k_mv_per_c : float, mV/°C
-        Temperature coefficient of the CSE (ASTM C876: 0.9).
+        Temperature coefficient of the CSE (0.9 [ASTM-C876-22a §5.1.1.2]).
     t_ref_c : float, °C
-        Reference temperature (ASTM C876: 22.2).
+        Reference temperature (22.2 [ASTM-C876-22a §4.7]).
     only_outside_band : bool
-        If true, no correction within ``t_ref_c ± band_c`` (C876 §4.7 allows neglecting it).
+        If true, no correction within ``t_ref_c ± band_c`` ([ASTM-C876-22a §4.7] allows it).
     unit : {"C", "F"}
         Unit of ``temperature_c``.  With ``"F"`` the temperature is in °F and the
         correction uses C876's own figures, 0.5 mV/°F about 72 °F (± 10 °F), so that
-        the °F path reproduces the standard exactly (REFERENCE.md HCP-06).
+        the °F path reproduces the standard exactly [ASTM-C876-22a §5.1.1.2].
 
     Examples
     --------
-    >>> round(-350 + cse_temperature_correction_mv(32.2), 6)  # REFERENCE.md HCP-03
+    >>> round(-350 + cse_temperature_correction_mv(32.2), 6)  # [ASTM-C876-22a §5.1.1.2]
     -341.0
     """
     if unit == "F":

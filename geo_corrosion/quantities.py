@@ -1,6 +1,6 @@
 """Bid items and the schedule of quantities, per level and in total.
 
-Quantities follow ``../shared/REFERENCE.md`` §6.4 [P unless noted]: repair areas by
+Quantities follow common practice (no published source): repair areas by
 depth class, saw-cut length, an estimated removal volume, galvanic anodes counted
 along repair perimeters, and zone treatments by area.  Areas are measured on the
 union of each item's polygons, so no area is counted twice where shapes overlap.
@@ -85,7 +85,7 @@ class BidItem:
                 "count": "EA", "lump_sum": "LS"}[self.unit_kind]
 
 
-#: Built-in items (REFERENCE §6.4 [P]).
+#: Built-in items (common practice).
 DEFAULT_BID_ITEMS: dict[str, BidItem] = {b.code: b for b in (
     BidItem("REP-PD-SURF", "Partial-depth repair, above the bars", "area"),
     BidItem("REP-PD-BARS", "Partial-depth repair, to below the top mat (bars undercut)", "area"),
@@ -175,7 +175,7 @@ def roll_up(lines: pd.DataFrame, *, units: ReportUnits, items: Mapping[str, BidI
     items : mapping of str to BidItem
         Every item code in ``lines``.
     contingency : float
-        Allowance as a fraction of the base quantity (REFERENCE §6.4 [P], default 0.20).
+        Allowance as a fraction of the base quantity (default 0.20, common practice).
     levels : list of str, optional
         Order of the levels in the schedule (default: as met).
 
@@ -187,7 +187,7 @@ def roll_up(lines: pd.DataFrame, *, units: ReportUnits, items: Mapping[str, BidI
     Raises
     ------
     RepairError
-        If one item gets quantities of two unit kinds (REFERENCE BID-03), or an
+        If one item gets quantities of two unit kinds (common practice), or an
         item code is unknown.
 
     Examples
@@ -196,7 +196,7 @@ def roll_up(lines: pd.DataFrame, *, units: ReportUnits, items: Mapping[str, BidI
     >>> li = pd.DataFrame({"level_id": ["P1"], "item": ["REP-FD"], "unit_kind": ["area"],
     ...                    "q": [500 * 0.09290304]})
     >>> s = roll_up(li, units=report_units("us"), items=DEFAULT_BID_ITEMS)
-    >>> [round(q, 6) for q in s.loc[s.level_id == "ALL", "quantity"]]  # REFERENCE BID-01
+    >>> [round(q, 6) for q in s.loc[s.level_id == "ALL", "quantity"]]  # 500 + 20 %
     [500.0, 100.0]
     """
     if not (0.0 <= contingency <= 1.0) or not math.isfinite(contingency):
@@ -259,10 +259,10 @@ def bid_schedule(repairs: gpd.GeoDataFrame | None, zones: gpd.GeoDataFrame | Non
     units : ReportUnits
         Reporting system.
     contingency : float
-        Allowance as a fraction of base quantities (default 0.20 [P]).
+        Allowance as a fraction of base quantities (default 0.20, common practice).
     anode_spacing_mm : float, optional
         Spacing of galvanic anodes along repair perimeters, mm; count per repair =
-        ceil(perimeter / spacing) (REFERENCE §6.4 [P]).  None: no anode item.
+        ceil(perimeter / spacing) (common practice).  None: no anode item.
     items : mapping of str to BidItem, optional
         Items added to or replacing :data:`DEFAULT_BID_ITEMS`.
 

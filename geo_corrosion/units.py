@@ -1,7 +1,7 @@
 """Units: parsing unit strings and converting to the canonical ones.
 
-Canonical units inside geo_corrosion (common practice, no source; see
-``../shared/REFERENCE.md`` section 0): potential in mV vs CSE, resistivity in
+Canonical units inside geo_corrosion (common practice, no source): potential
+in mV vs CSE, resistivity in
 kOhm.cm, corrosion current density in uA/cm2, cover and other small lengths in
 mm.  Plan geometry is held in the site CRS's linear unit (metre or foot);
 areas and lengths are converted to the reporting system here and nowhere else.
@@ -80,7 +80,7 @@ _TO_CANONICAL: dict[str, tuple[str, float]] = {
     "mV": ("mV", 1.0),
     "V": ("mV", 1000.0),
     "kohm.cm": ("kohm.cm", 1.0),
-    "ohm.m": ("kohm.cm", 0.1),  # 1 ohm.m = 100 ohm.cm = 0.1 kohm.cm (REFERENCE RES-02)
+    "ohm.m": ("kohm.cm", 0.1),  # 1 ohm.m = 100 ohm.cm = 0.1 kohm.cm (exact)
     "ohm.cm": ("kohm.cm", 0.001),
     "uA/cm2": ("uA/cm2", 1.0),
     "mA/m2": ("uA/cm2", 0.1),  # 1 mA/m2 = 1000 uA / 10000 cm2
@@ -209,7 +209,7 @@ def report_units(system: str) -> ReportUnits:
 
     Examples
     --------
-    >>> round(float(report_units("us").area_from_m2(0.5574)), 2)  # REFERENCE BID-01
+    >>> round(float(report_units("us").area_from_m2(0.5574)), 2)  # [NIST-SP811-2008 App. B]
     6.0
     """
     try:

@@ -16,13 +16,13 @@ How the data are made (per level):
   low cover.  The roof (RF) is more exposed than the supported level (L2).
 * Half-cell potentials ``E = -150 - 380 a`` mV vs CSE plus 5 mV measurement noise,
   written *as measured*: shifted by the reference electrode (Ag/AgCl in
-  saturated KCl reads 119 mV more positive than the CSE, REFERENCE.md §1.4) and by
+  saturated KCl reads 119 mV more positive than the CSE [IJCorros-2010 Table 2]) and by
   the electrode temperature (0.9 mV/degC more negative per degree above 22.2 degC,
-  ASTM C876-22a §5.1.1.2, REFERENCE.md §1.3), so that the corrections recover it.
+  [ASTM-C876-22a §5.1.1.2]), so that the corrections recover it.
 * Delaminations (irregular closed polygons, 2-40 sq ft) around the spots of
   highest activity, spalls (smaller) some of them inside delaminations.
 * Resistivity (lognormal, low where active or wet) on an 8 ft grid, written at the
-  concrete temperature of the survey (Arrhenius, Ea = 25 kJ/mol, REFERENCE.md §2.3);
+  concrete temperature of the survey (Arrhenius [Coyle-Spragg-2019], Ea = 25 kJ/mol);
   corrosion rate (lognormal, high where active) at some 50 points; cover (normal
   about 50 mm, lower in the low-cover patches) on an 8 ft grid, as a GeoJSON point
   layer in the site CRS (EPSG:26918) with cover in inches.
@@ -68,10 +68,10 @@ CONTROL_NOISE_M = 0.004  # survey noise on the control points, metres (standard 
 SPACING_FT = 2.0
 LEVEL_IDS = ("L2", "RF")
 NOISE_MV = 5.0  # measurement noise of the potentials, mV (standard deviation)
-CSE_T_REF_C = 22.2  # ASTM C876-22a §4.7 (REFERENCE.md §1.3)
-CSE_K_MV_PER_C = 0.9  # ASTM C876-22a §5.1.1.2, applied as "more negative when warmer"
-AG_AGCL_SAT_KCL_MINUS_CSE_MV = 119.0  # 316 - 197 mV vs SHE (REFERENCE.md §1.4)
-EA_KJ_MOL = 25.0  # activation energy for the resistivity temperature effect (REFERENCE.md §2.3)
+CSE_T_REF_C = 22.2  # [ASTM-C876-22a §4.7]
+CSE_K_MV_PER_C = 0.9  # [ASTM-C876-22a §5.1.1.2], applied as "more negative when warmer"
+AG_AGCL_SAT_KCL_MINUS_CSE_MV = 119.0  # 316 - 197 mV vs SHE [IJCorros-2010 Table 2]
+EA_KJ_MOL = 25.0  # activation energy of the resistivity temperature effect (common practice)
 RHO_T_REF_C = 20.0
 DEFAULT_OUT = Path(__file__).resolve().parent / "millbrook_garage"
 MARKER = "sample_sites/make_sample_sites.py"
@@ -351,7 +351,7 @@ def _cse_as_measured(e_cse: NDArray[np.float64], electrode: str, temp_c: float
 
 
 def _arrhenius_factor(temp_c: float) -> float:
-    """Factor that brings a resistivity at ``temp_c`` to 20 degC (REFERENCE.md §2.3)."""
+    """Factor that brings a resistivity at ``temp_c`` to 20 degC [Coyle-Spragg-2019]."""
     inv = 1.0 / (RHO_T_REF_C + 273.15) - 1.0 / (temp_c + 273.15)
     return math.exp(EA_KJ_MOL * 1000.0 / 8.314 * inv)
 
@@ -420,7 +420,8 @@ def _potentials(out: Path, models: dict[str, LevelModel], seed: int) -> list[Fla
                           "control station, end of shift"])
             flaws.append(Flaw(rel, ids[i], "repeat readings at a control station",
                               "same point_id twice, 15 mV apart: fails the 10 mV repeatability, "
-                              "passes the 20 mV reproducibility (REFERENCE.md HCP-08)"))
+                              "passes the 20 mV reproducibility "
+                              "[ASTM-C876-15 precision section, from memory]"))
             cx, cy = 120.0, 60.0  # the centre of the column at grid lines x = 120, y = 60
             extra.append([f"{prefix}-{n + 2:04d}", cx, cy,
                           float(_cse_as_measured(model.potential_cse_mv(cx, cy), el, temp)), ""])
@@ -621,8 +622,8 @@ def _site_toml(seed: int) -> str:
             f'overlays = [ {{ kind = "delamination", path = "sounding/{lid}.dxf", '
             f'layer = "DELAM" }}, '
             f'{{ kind = "spall", path = "sounding/{lid}.dxf", layer = "SPALL" }} ]',
-            "# design cover of the top bars and its placement tolerance (the low-cover",
-            "# threshold is their difference; ACI 318 tolerance for members over 8 in)",
+            "# design cover of the top bars and its placement tolerance for members over",
+            "# 8 in [ACI-318-19 §26.6.2.1, from memory]; the low-cover threshold: their difference",
             'specified_cover = "2 in"',
             'cover_tolerance = "0.5 in"',
             "[levels.grid]",
@@ -698,7 +699,7 @@ noise, so the least-squares fit has small residuals.
 |---|---|
 | `site.toml` | the site file |
 | `plans/L2.dxf`, `plans/RF.dxf` | layers SLAB, COLUMNS, OPENINGS, JOINTS, DRAINS; feet |
-| `sounding/L2.dxf`, `sounding/RF.dxf` | chain-drag sounding (ASTM D4580): DELAM, SPALL; \
+| `sounding/L2.dxf`, `sounding/RF.dxf` | chain-drag sounding [ASTM-D4580-23]: DELAM, SPALL; \
 one RF delamination is a CIRCLE |
 | `readings/L2_potential_east.csv` | CSE, 24 degC, mV, with a `note` column |
 | `readings/L2_potential_west.csv` | Ag/AgCl in saturated KCl, 34 degC, mV as measured |
@@ -722,8 +723,8 @@ A latent corrosion-activity field per level combines a smooth correlated random 
 bumps around the floor drains, bands along the joints and patches of low cover.
 Potentials are E = -150 - 380 a mV vs CSE plus 5 mV noise, written as each electrode
 would read them. Ag/AgCl (saturated KCl) reads 119 mV more positive than the CSE
-(REFERENCE.md §1.4). The electrode reads 0.9 mV/degC more negative per degree above
-22.2 degC (ASTM C876; REFERENCE.md §1.3). Applying the corrections recovers the field.
+[IJCorros-2010 Table 2]. The electrode reads 0.9 mV/degC more negative per degree above
+22.2 degC [ASTM-C876-22a §5.1.1.2]. Applying the corrections recovers the field.
 Delaminations sit on the most negative potentials.
 
 The Ag/AgCl survey sets `temperature_coefficient_mv_per_c = 0.9` in `site.toml`. ASTM C876

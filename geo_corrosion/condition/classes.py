@@ -7,38 +7,37 @@ limits in ascending order, and ``on_edge`` says, for every edge, whether a value
 exactly on it goes to the class ``"above"`` or ``"below"`` the edge.  The prose
 field ``inclusive`` states the same convention for reports.
 
-Class sets and their sources (``../shared/REFERENCE.md``):
+Class sets and their sources (keys of :mod:`geo_corrosion.bibliography`):
 
-* ``c876`` -- ASTM C876 numeric-magnitude criteria, mV vs CSE (REFERENCE §1.2;
-  criteria from secondary pages restating C876 and ASTM C876-91 Appendix X1,
-  from memory): E > -200 "low (>90 % no corrosion)"; -350 <= E <= -200
+* ``c876`` -- ASTM C876 numeric-magnitude criteria, mV vs CSE
+  [ASTM-C876-91 App. X1, from memory]: E > -200 "low (>90 % no corrosion)"; -350 <= E <= -200
   "uncertain"; E < -350 "high (>90 % corrosion)".  The sources do not say how a
-  value on a bound is classed; here **both bounds are "uncertain"** (REFERENCE
-  HCP-02, common practice).
+  value on a bound is classed; here **both bounds are "uncertain"** (common
+  practice).
 * ``c876_severe`` -- the same with an extra class E < -500 mV "severe" (common
-  practice, not an ASTM class; REFERENCE §1.2).
+  practice, not an ASTM class).
 * ``rilem_resistivity`` -- RILEM TC 154 / Polder (2000, 2001) corrosion risk of
-  depassivated steel, kOhm.cm, OPC at 20 °C (REFERENCE §2.4(a), from memory):
+  depassivated steel, kOhm.cm, OPC at 20 °C [RILEM-TC154-2000; Polder-2001, from memory]:
   < 10 high, 10-50 moderate, 50-100 low, > 100 negligible.  The lower bound is
-  inclusive in the higher-resistivity class (REFERENCE §2.4, common practice).
+  inclusive in the higher-resistivity class (common practice).
 * ``langford_broomfield`` -- Langford & Broomfield (1987) after Broomfield,
-  *Corrosion of Steel in Concrete* (REFERENCE §2.4(b), from memory): < 5 very
+  *Corrosion of Steel in Concrete* [Broomfield-2007, from memory]: < 5 very
   high, 5-10 high, 10-20 low to moderate, > 20 low; same boundary convention.
 * ``aashto_t358`` / ``aashto_t358_150x300`` -- AASHTO T 358 surface resistivity
   as an indication of chloride-ion penetration of *water-saturated laboratory
-  cylinders* (REFERENCE §2.4(c), class limits from memory).  Scope
+  cylinders* [AASHTO-T358-15 Table 1, from memory].  Scope
   ``"laboratory"``: :func:`get_class_set` refuses it for field readings.
 * ``rilem_rate`` -- RILEM TC 154 (Andrade, Alonso et al. 2004) corrosion-rate
-  levels, uA/cm2 (REFERENCE §3.3, from memory, high confidence): < 0.1
+  levels, uA/cm2 [Andrade-Alonso-2004, from memory] (high confidence): < 0.1
   negligible, 0.1-0.5 low, 0.5-1.0 moderate, > 1.0 high.  Boundary convention
-  (REFERENCE CR-07, common practice): 0.1 -> low, 0.5 -> moderate, 1.0 ->
+  (common practice): 0.1 -> low, 0.5 -> moderate, 1.0 ->
   moderate.
-* ``clear_rate`` -- Clear (1989) three-electrode (3LP) levels (REFERENCE §3.3,
-  from memory), offered as an option only; lower bound inclusive in the higher
+* ``clear_rate`` -- Clear (1989) three-electrode (3LP) levels
+  [Clear-1989, from memory], offered as an option only; lower bound inclusive in the higher
   class (our choice).
 
 Colours are the project's own colour-blind-safe palette, built from the
-Okabe & Ito (2008) "Color Universal Design" set: blue / sky blue / bluish green
+"Color Universal Design" set [Okabe-Ito-2008]: blue / sky blue / bluish green
 for the benign end, yellow / orange / vermillion for the severe end.
 """
 
@@ -253,15 +252,14 @@ POTENTIAL_C876 = ClassSet(
     name="c876",
     variable="potential_mv",
     unit="mV vs CSE",
-    source="ASTM C876 numeric-magnitude criteria (REFERENCE.md §1.2: secondary public pages "
-    "restating C876 [S]; C876-91 Appendix X1 [M])",
+    source="ASTM C876 numeric-magnitude criteria [ASTM-C876-91 App. X1, from memory]",
     scope="field",
     edges=(-350.0, -200.0),
     labels=("high (>90 % corrosion)", "uncertain", "low (>90 % no corrosion)"),
     keys=("high", "uncertain", "low"),
     colors=(_VERMILLION, _YELLOW, _GREEN),
     inclusive="both bounds are 'uncertain': -350 and -200 mV are classed uncertain; only values "
-    "strictly beyond a bound change class (REFERENCE.md HCP-02, common practice)",
+    "strictly beyond a bound change class (common practice)",
     on_edge=("above", "below"),
     higher_is_worse=False,
     caveat="Probability of corrosion at the time of measurement, not its rate; criteria developed "
@@ -272,8 +270,8 @@ POTENTIAL_C876_SEVERE = ClassSet(
     name="c876_severe",
     variable="potential_mv",
     unit="mV vs CSE",
-    source="ASTM C876 criteria (REFERENCE.md §1.2) plus a 'severe' class below -500 mV "
-    "(common practice, not an ASTM class [P])",
+    source="ASTM C876 criteria [ASTM-C876-91 App. X1, from memory] plus a 'severe' class "
+    "below -500 mV (common practice, not an ASTM class)",
     scope="field",
     edges=(-500.0, -350.0, -200.0),
     labels=(
@@ -289,15 +287,15 @@ POTENTIAL_C876_SEVERE = ClassSet(
 
 _LOWER_IN_HIGHER = (
     "the lower bound is inclusive in the higher-resistivity class: a value equal to an edge "
-    "takes the class above it (REFERENCE.md §2.4, common practice)"
+    "takes the class above it (common practice)"
 )
 
 RESISTIVITY_RILEM = ClassSet(
     name="rilem_resistivity",
     variable="resistivity_kohm_cm",
     unit="kohm.cm",
-    source="RILEM TC 154-EMC, Polder (2000, 2001): corrosion risk of depassivated steel "
-    "(REFERENCE.md §2.4(a) [M])",
+    source="RILEM TC 154-EMC: corrosion risk of depassivated steel "
+    "[RILEM-TC154-2000; Polder-2001, from memory]",
     scope="field",
     edges=(10.0, 50.0, 100.0),
     labels=("high", "moderate", "low", "negligible"),
@@ -313,8 +311,8 @@ RESISTIVITY_LANGFORD_BROOMFIELD = ClassSet(
     name="langford_broomfield",
     variable="resistivity_kohm_cm",
     unit="kohm.cm",
-    source="Langford & Broomfield (1987), after Broomfield, Corrosion of Steel in Concrete, "
-    "2nd ed.; Wenner four-probe, depassivated steel (REFERENCE.md §2.4(b) [M])",
+    source="Langford & Broomfield (1987), Wenner four-probe, depassivated steel "
+    "[Broomfield-2007, from memory]",
     scope="field",
     edges=(5.0, 10.0, 20.0),
     labels=("very high", "high", "low to moderate", "low"),
@@ -334,8 +332,8 @@ RESISTIVITY_AASHTO_T358 = ClassSet(
     name="aashto_t358",
     variable="resistivity_kohm_cm",
     unit="kohm.cm",
-    source="AASHTO T 358 Table 1, 100 x 200 mm (4 x 8 in) cylinders, a = 38 mm "
-    "(REFERENCE.md §2.4(c); scope [S], limits [M])",
+    source="AASHTO T 358, 100 x 200 mm (4 x 8 in) cylinders, a = 38 mm "
+    "[AASHTO-T358-15 Table 1, from memory]",
     scope="laboratory",
     edges=(12.0, 21.0, 37.0, 254.0),
     labels=("High", "Moderate", "Low", "Very low", "Negligible"),
@@ -351,8 +349,8 @@ RESISTIVITY_AASHTO_T358_150X300 = ClassSet(
     name="aashto_t358_150x300",
     variable="resistivity_kohm_cm",
     unit="kohm.cm",
-    source="AASHTO T 358 Table 1, 150 x 300 mm (6 x 12 in) cylinders, a = 38 mm "
-    "(REFERENCE.md §2.4(c); scope [S], limits [M])",
+    source="AASHTO T 358, 150 x 300 mm (6 x 12 in) cylinders, a = 38 mm "
+    "[AASHTO-T358-15 Table 1, from memory]",
     scope="laboratory",
     edges=(9.5, 16.5, 29.0, 199.0),
     labels=("High", "Moderate", "Low", "Very low", "Negligible"),
@@ -368,14 +366,14 @@ RATE_RILEM = ClassSet(
     name="rilem_rate",
     variable="icorr_ua_cm2",
     unit="uA/cm2",
-    source="RILEM TC 154-EMC, Andrade, Alonso et al., Materials and Structures 37 (2004) 623-643 "
-    "(REFERENCE.md §3.3 [M], high confidence)",
+    source="RILEM TC 154-EMC corrosion-rate levels [Andrade-Alonso-2004, from memory] "
+    "(high confidence)",
     scope="field",
     edges=(0.1, 0.5, 1.0),
     labels=("negligible", "low", "moderate", "high"),
     colors=(_BLUE, _GREEN, _ORANGE, _VERMILLION),
     inclusive="0.1 -> low, 0.5 -> moderate, 1.0 -> moderate (only > 1.0 is high) "
-    "(REFERENCE.md CR-07, common practice)",
+    "(common practice)",
     on_edge=("above", "above", "below"),
     higher_is_worse=True,
     caveat="Instantaneous rate at the time of measurement; depends on moisture and temperature; "
@@ -386,7 +384,7 @@ RATE_CLEAR = ClassSet(
     name="clear_rate",
     variable="icorr_ua_cm2",
     unit="uA/cm2",
-    source="Clear (1989), three-electrode (3LP) interpretation (REFERENCE.md §3.3 [M]); "
+    source="Clear (1989), three-electrode (3LP) interpretation [Clear-1989, from memory]; "
     "optional alternative",
     scope="field",
     edges=(0.2, 1.0, 10.0),

@@ -18,7 +18,7 @@ with no value at that cell does not hold.  The **first** matching rule wins;
 cells matched by no rule get ``default`` (``no_data`` when the cell has no value
 of any kind, else ``unclassified``).
 
-The default table (common practice [P], built on REFERENCE.md §5.3 item 2:
+The default table (common practice, built on the class sets:
 low cover with E < -350 mV CSE or rho < 10 kOhm.cm is "high priority") is
 :data:`DEFAULT_RULES`; print it with :meth:`RuleTable.to_dict`.  A site file
 overrides it with the same structure::
@@ -255,9 +255,9 @@ DEFAULT_RULES = RuleTable(
         CombinedClass(_NO_DATA, "No data", "#BBBBBB"),
     ),
     rules=(
-        Rule("low cover and high corrosion probability (REFERENCE §5.3)", "high_priority",
+        Rule("low cover and high corrosion probability (common practice)", "high_priority",
              potential=("high",), low_cover=True),
-        Rule("low cover and low resistivity (REFERENCE §5.3)", "high_priority",
+        Rule("low cover and low resistivity (common practice)", "high_priority",
              resistivity=("high",), low_cover=True),
         Rule("high corrosion rate", "high_priority", rate=("high",)),
         Rule("high corrosion probability", "corrosion_likely", potential=("high",)),

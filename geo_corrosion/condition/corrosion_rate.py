@@ -4,29 +4,29 @@ Methods
 -------
 Stern-Geary
     ``i_corr = B / R_p`` with ``B = beta_a beta_c / [ln(10) (beta_a + beta_c)]``
-    (Tafel slopes in mV/decade; Roberge, *Corrosion Engineering*, eqs. 5.22-5.23,
-    which writes 2.303 for ln 10; REFERENCE.md §3.1 [S]).  A passive anodic
+    (Tafel slopes in mV/decade; [Roberge-2008 eqs. 5.22-5.23; Stern-Geary-1957],
+    which write 2.303 for ln 10).  A passive anodic
     branch is ``beta_a = inf`` giving ``B = beta_c / ln 10``.  Conventional
-    constants for steel in concrete: B = 26 mV active, 52 mV passive (Andrade &
-    González 1978; RILEM TC 154 2004; from memory).  Tafel slopes below
+    constants for steel in concrete: B = 26 mV active, 52 mV passive
+    [Andrade-Gonzalez-1978; Andrade-Alonso-2004, from memory].  Tafel slopes below
     30 mV/decade are refused (a configurable plausibility bound, common
     practice).
 
 Area normalisation and ohmic drop
     ``i_corr [uA/cm2] = 1000 B [mV] / (R_p [ohm] A_pol [cm2])``, with the
-    confined polarized area ``A_pol = pi d L`` per bar (RILEM 2004, from memory)
-    and ``R_p = dE/dI - R_ohm`` (REFERENCE.md §3.1, CR-09).  i_corr is never
-    computed without A_pol (REFERENCE.md §3.4).
+    confined polarized area ``A_pol = pi d L`` per bar [Andrade-Alonso-2004, from memory]
+    and ``R_p = dE/dI - R_ohm`` [Andrade-Alonso-2004, from memory].  i_corr is never
+    computed without A_pol (common practice).
 
 Faraday's law
     Penetration ``v = i M / (n F rho_Fe)``: M = 55.845 g/mol, n = 2, F =
     96 485.33 C/mol, rho_Fe = 7.874 g/cm3, Julian year 3.15576e7 s gives
-    11.598 um/year per uA/cm2 (REFERENCE.md §3.2 [D]); all are parameters.
+    11.598 um/year per uA/cm2 (derived); all are parameters.
 
 Linear polarization sweep
     R_p is the slope dE/dI of a straight line fitted to the points within
-    +-``window_mv`` of E_corr (ASTM G59 idea, [S] abstract); polarization
-    beyond 20 mV leaves the linear range (RILEM 2004, from memory, CR-08).
+    +-``window_mv`` of E_corr (the idea of [ASTM-G59]); polarization
+    beyond 20 mV leaves the linear range [Andrade-Alonso-2004, from memory].
 
 Section loss and time to cover cracking are in :mod:`geo_corrosion.condition.life`.
 """
@@ -58,9 +58,9 @@ __all__ = [
     "rp_from_sweep",
 ]
 
-B_ACTIVE_MV = 26.0  # mV, active steel in concrete (Andrade & González 1978; RILEM 2004) [M]
-B_PASSIVE_MV = 52.0  # mV, passive steel [M]
-LINEAR_LIMIT_MV = 20.0  # mV, RILEM 2004 linear range [M]
+B_ACTIVE_MV = 26.0  # mV, active steel [Andrade-Gonzalez-1978; Andrade-Alonso-2004, from memory]
+B_PASSIVE_MV = 52.0  # mV, passive steel [Andrade-Alonso-2004, from memory]
+LINEAR_LIMIT_MV = 20.0  # mV, linear range [Andrade-Alonso-2004, from memory]
 
 
 def _arr(x: ArrayLike, what: str) -> NDArray[np.float64]:
@@ -176,7 +176,7 @@ def icorr_ua_cm2(rp_ohm: ArrayLike, area_cm2: ArrayLike, b_mv: ArrayLike) -> NDA
 
     Examples
     --------
-    >>> float(icorr_ua_cm2(1000.0, 26.0, 26.0))  # REFERENCE CR-02
+    >>> float(icorr_ua_cm2(1000.0, 26.0, 26.0))  # [Stern-Geary-1957], derived
     1.0
     """
     rp = _arr(rp_ohm, "polarization resistance")
@@ -202,7 +202,7 @@ def icorr_from_specific_rp(rp_ohm_cm2: ArrayLike, b_mv: ArrayLike) -> NDArray[np
 
     Examples
     --------
-    >>> float(icorr_from_specific_rp(52_000.0, 52.0))  # REFERENCE CR-03
+    >>> float(icorr_from_specific_rp(52_000.0, 52.0))  # [Stern-Geary-1957], derived
     1.0
     """
     return icorr_ua_cm2(rp_ohm_cm2, 1.0, b_mv)
@@ -229,7 +229,7 @@ def ohmic_corrected_rp_ohm(
 
     Examples
     --------
-    >>> float(ohmic_corrected_rp_ohm(10.0, 8.0, 250.0))  # REFERENCE CR-09
+    >>> float(ohmic_corrected_rp_ohm(10.0, 8.0, 250.0))  # 1250 - 250, derived
     1000.0
     """
     de = _arr(delta_e_mv, "potential shift")
@@ -253,7 +253,7 @@ def polarized_area_cm2(
 
     Examples
     --------
-    >>> round(float(polarized_area_cm2(16.0, 105.0)), 2)  # REFERENCE CR-04
+    >>> round(float(polarized_area_cm2(16.0, 105.0)), 2)  # pi x 1.6 x 10.5, derived
     52.78
     """
     d = _arr(bar_diameter_mm, "bar diameter")
@@ -292,7 +292,7 @@ def faraday_um_per_year(
 
     Examples
     --------
-    >>> round(float(faraday_um_per_year(1.0)), 2)  # REFERENCE CR-05
+    >>> round(float(faraday_um_per_year(1.0)), 2)  # Faraday's law, derived
     11.6
     """
     i = _arr(icorr_ua_cm2, "corrosion current density")
@@ -307,7 +307,7 @@ def faraday_mpy(icorr_ua_cm2: ArrayLike, **kwargs: float) -> NDArray[np.float64]
 
     Examples
     --------
-    >>> round(float(faraday_mpy(1.0)), 3)  # REFERENCE CR-06
+    >>> round(float(faraday_mpy(1.0)), 3)  # Faraday's law, derived
     0.457
     """
     return faraday_um_per_year(icorr_ua_cm2, **kwargs) / 25.4
@@ -331,7 +331,7 @@ def check_linearity(delta_e_mv: float, *, limit_mv: float = LINEAR_LIMIT_MV) -> 
 
     Examples
     --------
-    >>> check_linearity(15.0) is None, check_linearity(25.0) is not None  # REFERENCE CR-08
+    >>> check_linearity(15.0) is None, check_linearity(25.0) is not None  # 20 mV limit
     (True, True)
     """
     if abs(delta_e_mv) > limit_mv:
@@ -390,7 +390,7 @@ def rp_from_sweep(
     window_mv : float
         Half-width of the fitting window around E_corr, mV.
     linear_limit_mv : float
-        A window reaching beyond this adds a linearity warning (CR-08).
+        A window reaching beyond this adds a linearity warning [Andrade-Alonso-2004, from memory].
     min_r2 : float
         A worse straight-line fit adds a warning.
 

@@ -6,17 +6,16 @@ Section loss
     Uniform attack all round: ``d = d0 - 2 P``, loss ``1 - (d/d0)^2``, with the
     penetration ``P = v t`` from Faraday's law
     (:func:`geo_corrosion.condition.corrosion_rate.faraday_um_per_year`,
-    REFERENCE.md §4.1 [D]).  Pitting: pit depth ``p = R P`` with pitting factor
-    R (4-8 for natural chloride attack, González et al. 1995, from memory) and
-    the hemispherical pit area of Val & Melchers (1997) (from memory;
-    REFERENCE.md §4.1, verify against the paper).  Bars with more than 25 %
+    derived).  Pitting: pit depth ``p = R P`` with pitting factor
+    R (4-8 for natural chloride attack, [Gonzalez-Andrade-1995, from memory]) and
+    the hemispherical pit area of Val & Melchers [Val-Melchers-1997, from memory]
+    (verify against the paper).  Bars with more than 25 %
     section loss, or adjacent bars with more than 20 %, need an engineering
-    decision on replacement or supplementing (UFGS 03931 §3.3.1.4 [S];
-    REFERENCE.md LIFE-03).
+    decision on replacement or supplementing [UFGS-03931 §3.3.1.4].
 
 Time to cover cracking
-    Alonso, Andrade, Rodriguez & Diez (1998), *Materials and Structures* 31
-    435-441 (from memory, REFERENCE.md §4.2): penetration to first visible
+    Alonso, Andrade, Rodriguez & Diez (1998)
+    [Alonso-Andrade-1998, from memory]: penetration to first visible
     crack ``x_crit [um] = 7.53 + 9.32 c/phi``; time from initiation
     ``x_crit / (11.6 i_corr)`` years.
 """
@@ -43,8 +42,8 @@ __all__ = [
     "time_to_cracking_years",
 ]
 
-REVIEW_LOSS = 0.25  # UFGS 03931 §3.3.1.4 [S]
-REVIEW_ADJACENT_LOSS = 0.20  # UFGS 03931 §3.3.1.4 [S]
+REVIEW_LOSS = 0.25  # [UFGS-03931 §3.3.1.4]
+REVIEW_ADJACENT_LOSS = 0.20  # [UFGS-03931 §3.3.1.4]
 
 
 def _arr(x: ArrayLike, what: str) -> NDArray[np.float64]:
@@ -55,7 +54,7 @@ def _arr(x: ArrayLike, what: str) -> NDArray[np.float64]:
 
 
 def pit_area_mm2(pit_depth_mm: ArrayLike, bar_diameter_mm: float) -> NDArray[np.float64]:
-    """Return the cross-section area lost to a hemispherical pit, mm2 (Val & Melchers 1997, [M]).
+    """Return the cross-section lost to a hemispherical pit, mm2 [Val-Melchers-1997, from memory].
 
     Parameters
     ----------
@@ -85,11 +84,11 @@ def bar_review_required(
     loss_fraction: float, *, adjacent_loss_fraction: float | None = None,
     loss_limit: float = REVIEW_LOSS, adjacent_limit: float = REVIEW_ADJACENT_LOSS,
 ) -> bool:
-    """Return True when loss > 25 % (or adjacent bars > 20 %): engineer review (LIFE-03).
+    """Return True when loss > 25 % (adjacent bars > 20 %): engineer review [UFGS-03931 §3.3.1.4].
 
     Examples
     --------
-    >>> bar_review_required(0.26), bar_review_required(0.24)  # REFERENCE LIFE-03
+    >>> bar_review_required(0.26), bar_review_required(0.24)  # [UFGS-03931 §3.3.1.4]
     (True, False)
     """
     if loss_fraction > loss_limit:
@@ -114,7 +113,7 @@ class SectionLoss:
     loss_fraction : float
         Lost share of the original cross-section (0..1).
     review_required : bool
-        LIFE-03 trigger (> 25 %).
+        Engineer-review trigger (> 25 %) [UFGS-03931 §3.3.1.4].
     message : str
     """
 
@@ -146,7 +145,7 @@ def section_loss(
         Propagation time, years.
     pitting_factor : float, optional
         Ratio of maximum pit depth to average penetration (4-8 natural chloride
-        attack, [M]); None for uniform attack.
+        attack [Gonzalez-Andrade-1995, from memory]); None for uniform attack.
     um_per_year_per_ua_cm2 : float, optional
         Faraday factor; default from :func:`faraday_um_per_year` (11.6).
     """
@@ -176,11 +175,11 @@ def section_loss(
 
 
 def critical_penetration_um(cover_mm: ArrayLike, bar_diameter_mm: ArrayLike) -> NDArray[np.float64]:
-    """Return ``x_crit = 7.53 + 9.32 c/phi`` in um (Alonso et al. 1998, from memory).
+    """Return ``x_crit = 7.53 + 9.32 c/phi`` in um [Alonso-Andrade-1998, from memory].
 
     Examples
     --------
-    >>> round(float(critical_penetration_um(50.0, 12.0)), 2)  # REFERENCE LIFE-05
+    >>> round(float(critical_penetration_um(50.0, 12.0)), 2)  # 7.53 + 9.32 x 50/12
     46.36
     """
     c = _arr(cover_mm, "cover")

@@ -7,7 +7,7 @@ target folder, then moved into place with :func:`os.replace`.  Each function
 returns the path written.
 
 The cumulative-frequency plot uses the plotting position r/(n+1) on a
-normal-probability axis (ASTM C876-91 §6.3, from memory; REFERENCE.md §1.8),
+normal-probability axis [ASTM-C876-91 §6.3, from memory],
 with the C876 limits at -200 and -350 mV CSE and, when given, the site-specific
 mixture threshold (:mod:`geo_corrosion.condition.potential`).
 """
@@ -40,7 +40,7 @@ __all__ = [
     "plot_potential_vs_resistivity",
 ]
 
-#: Footer printed on every figure (REFERENCE.md §7 item 1, wording ours).
+#: Footer printed on every figure (wording ours, after [ASTM-C876-22a §4.8]).
 CAUTION = "Survey data, not a structural assessment; a licensed engineer decides."
 
 _UNIT_LABEL = {"mV vs CSE": "mV vs CSE", "kohm.cm": "kΩ·cm", "uA/cm2": "µA/cm²"}

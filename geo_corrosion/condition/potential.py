@@ -4,11 +4,11 @@ Methods
 -------
 Cumulative frequency distribution
     Readings are sorted ascending; reading of rank ``r`` (1-based) of ``n`` gets
-    the plotting position ``f = r / (n + 1)`` (ASTM C876-91 §6.3, from memory;
-    REFERENCE.md §1.8 item 2, test HCP-10).  On a normal-probability scale the
+    the plotting position ``f = r / (n + 1)`` [ASTM-C876-91 §6.3, from memory].
+    On a normal-probability scale the
     ordinate is ``z = Phi^-1(f)`` (``scipy.stats.norm.ppf``), so a normal
     population plots as a straight line and an active and a passive population
-    appear as two segments (RILEM TC 154-EMC, Elsener et al. 2003, from memory).
+    appear as two segments [RILEM-TC154-2003, from memory].
 
 Site-specific threshold
     A two-component Gaussian mixture is fitted to the readings by our own
@@ -21,15 +21,15 @@ Site-specific threshold
     probability of "active" is 0.5; :meth:`MixtureThreshold.threshold_at`
     gives the crossing for any other posterior probability.  This follows the
     idea of Gulikers & Elsener (2008), who model active and passive steel with
-    normal distributions (REFERENCE.md §1.8, [S] abstract); the crossing rule is
-    common practice [P].  Ashman's D = sqrt(2)|mu_a - mu_p| / sqrt(s_a^2 + s_p^2)
+    normal distributions [Gulikers-Elsener-2008]; the crossing rule is
+    common practice.  Ashman's D = sqrt(2)|mu_a - mu_p| / sqrt(s_a^2 + s_p^2)
     is reported; D < 2 means the populations are not clearly separated, and a
     warning is attached.
 
 Gradient map
     ``|grad E|`` by central differences (``numpy.gradient``) on a regular grid,
     in mV per plan unit.  Steep gradients next to the most negative zones point
-    to anodes (RILEM 2003, from memory; REFERENCE.md §1.8 item 4).
+    to anodes [RILEM-TC154-2003, from memory].
 """
 
 from __future__ import annotations
@@ -51,7 +51,7 @@ __all__ = [
     "gradient_magnitude",
 ]
 
-_VAR_FLOOR_MV2 = 1.0  # 1 mV^2: below the repeatability of a reading (10 mV, REFERENCE §1.6)
+_VAR_FLOOR_MV2 = 1.0  # 1 mV^2: below the 10 mV repeatability [ASTM-C876-15, from memory]
 
 
 def _finite_1d(values: ArrayLike, what: str) -> NDArray[np.float64]:
@@ -105,7 +105,7 @@ def cumulative_frequency(potential_mv: ArrayLike) -> CumulativeFrequency:
 
     Examples
     --------
-    >>> cumulative_frequency([-150, -250, -300, -400]).percent.tolist()  # REFERENCE HCP-10
+    >>> cumulative_frequency([-150, -250, -300, -400]).percent.tolist()  # r/(n+1)
     [20.0, 40.0, 60.0, 80.0]
     """
     v = np.sort(_finite_1d(potential_mv, "potentials"))
@@ -122,7 +122,7 @@ def fraction_below(values: ArrayLike, threshold: float, *, inclusive: bool = Fal
 
     Examples
     --------
-    >>> fraction_below([-150, -250, -300, -400], -350.0)  # REFERENCE HCP-10
+    >>> fraction_below([-150, -250, -300, -400], -350.0)  # one of four
     0.25
     """
     v = _finite_1d(values, "values")

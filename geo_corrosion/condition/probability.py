@@ -8,8 +8,8 @@ variance of that cell.  For lognormal kinds (resistivity, corrosion rate) the
 kriging is done in log space; the mean and variance given here must then be
 those of ``log(Z)`` and the threshold is transformed by the same logarithm
 (``log_space=True``, natural log unless ``log_base`` is given).  This is the
-usual multi-Gaussian reading of kriging output (e.g. Goovaerts 1997,
-*Geostatistics for Natural Resources Evaluation*, ch. 7; from memory) and is an
+usual multi-Gaussian reading of kriging output
+[Goovaerts-1997 ch. 7, from memory] and is an
 assumption, not a property of the data: the probabilities are only as good as
 the variogram and the Gaussian model.
 

@@ -4,13 +4,12 @@ Methods
 -------
 Wenner four-point formula
     ``rho = 2 pi a V / I`` for four equally spaced collinear surface electrodes on
-    a semi-infinite homogeneous medium (REFERENCE.md §2.1: Taylor & Francis
-    chapter "R = 2 pi A E / I" with A in cm, E in V, I in A giving ohm.cm [S];
-    Wikipedia (de) "Wenner-Verfahren" [S]).  Returned in kOhm.cm.
+    a semi-infinite homogeneous medium [Wenner-1916; Polder-2001]: with a in cm,
+    V in V and I in A it gives ohm.cm.  Returned in kOhm.cm.
 
 Finite-thickness factor
     For a homogeneous layer of thickness ``h`` over an insulating base, infinite
-    in plan, the method of images gives (REFERENCE.md §2.2, derived [D])
+    in plan, the method of images gives (derived; cf. [Robles-Yee-2021])
     ``rho_apparent / rho_true = F(h/a) = 1 + 4 sum_{n>=1} [(1 + (2nh/a)^2)^-1/2
     - (4 + (2nh/a)^2)^-1/2]``.  The series converges like ``n^-3``; we sum
     ``n_terms`` terms exactly and add the tail as the integral of the summand
@@ -23,19 +22,19 @@ Finite-thickness factor
 Geometry check
     Keep the array at least about 2a from free edges and the element thickness
     at least about 4a; spacing at least 1.5 x the maximum aggregate size
-    (Gowers & Millard 1999; RILEM / Polder; REFERENCE.md §2.2, from memory).
+    [Gowers-Millard-1999; Polder-2001, from memory].
     All three factors are parameters.
 
 Temperature correction (Arrhenius)
     ``rho(T_ref) = rho(T) exp[(E_a / R)(1/T_ref - 1/T)]``, T in K,
-    R = 8.314 J/(mol K); E_a 9 to 39 kJ/mol reported (Coyle et al., [S]
-    abstract; REFERENCE.md §2.3).  Defaults T_ref = 20 °C, E_a = 25 kJ/mol
-    (REFERENCE.md §2.3, common practice).  :func:`arrhenius_factor` here is meant
+    R = 8.314 J/(mol K); E_a 9 to 39 kJ/mol reported
+    [Coyle-Spragg-2019].  Defaults T_ref = 20 °C, E_a = 25 kJ/mol
+    (common practice).  :func:`arrhenius_factor` here is meant
     to be the single implementation in the package.
 
 Resistivity-rate estimator
-    ``i_corr ~ k / rho`` with k about 26-30 uA/cm2 kOhm.cm (Alonso, Andrade &
-    González 1988, from memory, low confidence; REFERENCE.md §2.4(d)); offered
+    ``i_corr ~ k / rho`` with k about 26-30 uA/cm2 kOhm.cm
+    [Alonso-Andrade-1988, from memory] (low confidence); offered
     only as a clearly labelled, optional estimate.
 """
 
@@ -57,7 +56,7 @@ __all__ = [
     "icorr_estimate_from_resistivity",
 ]
 
-GAS_CONSTANT_J_MOL_K = 8.314  # J/(mol K), as in REFERENCE.md §2.3
+GAS_CONSTANT_J_MOL_K = 8.314  # J/(mol K), as in [Coyle-Spragg-2019]
 
 
 def _as_float(x: ArrayLike, what: str) -> NDArray[np.float64]:
@@ -93,11 +92,11 @@ def wenner_resistivity_kohm_cm(
     ------
     ConditionError
         If a current is zero or negative, a voltage negative, or a spacing not
-        positive (REFERENCE.md RES-03).  NaN inputs give NaN.
+        positive (common practice).  NaN inputs give NaN.
 
     Examples
     --------
-    >>> round(float(wenner_resistivity_kohm_cm(5.0, 0.100, 100e-6)), 2)  # REFERENCE RES-01
+    >>> round(float(wenner_resistivity_kohm_cm(5.0, 0.100, 100e-6)), 2)  # [Wenner-1916]
     31.42
     """
     a = _as_float(spacing_cm, "electrode spacing")
@@ -140,7 +139,7 @@ def thickness_factor(h_over_a: ArrayLike, *, n_terms: int = 2000) -> NDArray[np.
 
     Examples
     --------
-    >>> [round(float(thickness_factor(r)), 4) for r in (1.0, 2.0, 4.0)]  # REFERENCE RES-04
+    >>> [round(float(thickness_factor(r)), 4) for r in (1.0, 2.0, 4.0)]  # derived
     [1.5045, 1.0939, 1.0134]
     """
     r = _as_float(h_over_a, "h/a")
@@ -213,7 +212,7 @@ def check_wenner_geometry(
     max_aggregate_mm : float, optional
         Maximum aggregate size, mm; warned when ``a < min_aggregate_factor * D_max``.
     min_edge_factor, min_thickness_factor, min_aggregate_factor : float
-        Rules of REFERENCE.md §2.2 (Gowers & Millard 1999; Polder; from memory).
+        Rules of [Gowers-Millard-1999; Polder-2001, from memory].
 
     Raises
     ------
@@ -264,7 +263,7 @@ def arrhenius_factor(
     temperature_c : array_like
         Concrete temperature at the reading, °C.
     t_ref_c : float
-        Reference temperature, °C (default 20, REFERENCE.md §2.3 [P]).
+        Reference temperature, °C (default 20, common practice).
     ea_kj_mol : float
         Activation energy of conduction, kJ/mol (default 25; published 9-39).
 
@@ -275,13 +274,13 @@ def arrhenius_factor(
 
     Examples
     --------
-    >>> round(10.0 * float(arrhenius_factor(10.0)), 3)  # REFERENCE RES-07
+    >>> round(10.0 * float(arrhenius_factor(10.0)), 3)  # Arrhenius, derived
     6.961
     """
     if not (np.isfinite(ea_kj_mol) and 0.0 < ea_kj_mol <= 100.0):
         raise ConditionError(
             f"activation energy {ea_kj_mol} kJ/mol is outside (0, 100]; published values are "
-            "9 to 39 kJ/mol (REFERENCE.md §2.3)"
+            "9 to 39 kJ/mol [Coyle-Spragg-2019]"
         )
     t = _as_float(temperature_c, "temperature") + 273.15
     t_ref = float(t_ref_c) + 273.15
@@ -309,7 +308,7 @@ def icorr_estimate_from_resistivity(
 ) -> NDArray[np.float64]:
     """Return an indicative ``i_corr ~ k / rho`` in uA/cm2 (low confidence; label it so).
 
-    After Alonso, Andrade & González (1988), from memory (REFERENCE.md §2.4(d)).
+    After [Alonso-Andrade-1988, from memory].
     Valid only for depassivated steel.
     """
     r = _as_float(rho_kohm_cm, "resistivity")

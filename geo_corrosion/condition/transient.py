@@ -3,8 +3,8 @@
 Method
 ------
 For a constant current step ``I`` applied at ``t = 0``, a Randles circuit
-without diffusion responds as (Newton & Sykes 1988; Elsener et al. 1997; RILEM
-TC 154 2004; from memory, REFERENCE.md §3.6)::
+without diffusion responds as
+[Newton-Sykes-1988; Andrade-Alonso-2004, from memory]::
 
     E(t) = I R_ohm + I R_p (1 - exp(-t / (R_p C_dl)))
 
@@ -25,7 +25,8 @@ Units: ``E`` in mV and ``I`` in uA give resistances in kOhm, reported in ohm;
 ``i_corr = B / (R_p A_pol)`` (:func:`geo_corrosion.condition.corrosion_rate.icorr_ua_cm2`).
 
 Checks: the polarization ``|I R_p|`` should stay within the linear range;
-more than 30 mV (20 mV in strict RILEM mode) adds a warning (REFERENCE.md CR-13).
+more than 30 mV (common practice; 20 mV in strict RILEM mode [Andrade-Alonso-2004, from memory])
+adds a warning.
 A pulse shorter than one fitted time constant, a fit with r2 below ``min_r2``
 (too noisy), zero current, a negative R_p or a missing polarized area raise
 :class:`~geo_corrosion.errors.ConditionError`.

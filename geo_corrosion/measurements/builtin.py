@@ -32,14 +32,14 @@ __all__ = ["HalfCellPotential", "Resistivity", "CorrosionRate", "CoverDepth"]
 
 
 class HalfCellPotential(MeasurementKind):
-    """Half-cell (corrosion) potential, mV vs CSE (ASTM C876; RILEM TC 154-EMC 2003)."""
+    """Half-cell (corrosion) potential, mV vs CSE [ASTM-C876-22a; RILEM-TC154-2003]."""
 
     name: ClassVar[str] = "potential"
     label: ClassVar[str] = "Half-cell potential (mV vs CSE)"
     value_column: ClassVar[str] = "potential_mv"
     canonical_unit: ClassVar[str] = "mV"
     accepted_units: ClassVar[tuple[str, ...]] = ("mV", "V")
-    # REFERENCE.md §1.9 [P]: outside [-1000, +200] mV CSE is implausible
+    # common practice: outside [-1000, +200] mV CSE is implausible
     plausible_range: ClassVar[tuple[float, float]] = (-1000.0, 200.0)
     contour_interval: ClassVar[float] = 50.0
     class_set: ClassVar[str | None] = "c876"
@@ -77,7 +77,7 @@ class HalfCellPotential(MeasurementKind):
         k = survey.temperature_coefficient_mv_per_c
         if k is None:
             # ASTM C876 gives a coefficient for the CSE only; other electrodes are not
-            # corrected unless the site file gives their coefficient (REFERENCE.md §1.4)
+            # corrected unless the site file gives their coefficient
             k = CSE_K_MV_PER_C if el.code == "cse" else 0.0
         temps = frame["temperature_c"].to_numpy(float)
         # a survey temperature given in degF is corrected on C876's own degF figures
@@ -100,13 +100,13 @@ class HalfCellPotential(MeasurementKind):
                 "t_ref_c": params.cse_reference_c,
                 "only_outside_band": params.correct_only_outside_band,
                 "readings_outside_0_49_c": int(np.sum(out)),
-                "source": "ASTM C876-22a §5.1.1.2 and §4.7 (REFERENCE.md §1.3)",
+                "source": "[ASTM-C876-22a §5.1.1.2, §4.7]",
             })
         return frame, records
 
 
 class Resistivity(MeasurementKind):
-    """Concrete surface resistivity (Wenner four-point), kOhm.cm (RILEM TC 154-EMC)."""
+    """Concrete surface resistivity (Wenner four-point), kOhm.cm [Polder-2001]."""
 
     name: ClassVar[str] = "resistivity"
     label: ClassVar[str] = "Resistivity (kOhm.cm)"
@@ -230,7 +230,7 @@ class Resistivity(MeasurementKind):
                 "spacing_cm": a_mm / 10.0,
                 "readings": int(raw.sum()),
                 "readings_not_derived": int(sum(1 for i in np.flatnonzero(raw) if msgs[i])),
-                "source": "REFERENCE.md §2.1 (RES-01)",
+                "source": "[Wenner-1916; Polder-2001]",
             })
         frame["wenner_spacing_cm"] = np.nan if a_mm is None else a_mm / 10.0
         frame["apparent_resistivity_kohm_cm"] = apparent
@@ -243,7 +243,7 @@ class Resistivity(MeasurementKind):
                 records.append({
                     "correction": "Wenner geometry check",
                     "warning": text,
-                    "source": "REFERENCE.md §2.2 (Gowers & Millard 1999; Polder; from memory)",
+                    "source": "[Gowers-Millard-1999; Polder-2001, from memory]",
                 })
         if h_mm is not None and a_mm is not None:
             f = float(thickness_factor(h_mm / a_mm))
@@ -254,7 +254,7 @@ class Resistivity(MeasurementKind):
                 "thickness_mm": h_mm,
                 "spacing_mm": a_mm,
                 "thickness_factor": f,
-                "source": "REFERENCE.md §2.2, method of images (RES-04)",
+                "source": "method of images, derived",
             })
         else:
             frame["thickness_factor"] = 1.0
@@ -268,7 +268,7 @@ class Resistivity(MeasurementKind):
     def correct(
         self, frame: pd.DataFrame, survey: SurveyConfig, params: RunParams
     ) -> tuple[pd.DataFrame, list[dict[str, Any]]]:
-        """Arrhenius correction to the reference temperature (REFERENCE.md §2.3)."""
+        """Arrhenius correction to the reference temperature [Coyle-Spragg-2019]."""
         t = survey.temperature_c if survey.temperature_c is not None else np.nan
         frame["temperature_c"] = frame["temperature_c"].fillna(t) if "temperature_c" in frame else t
         temps = frame["temperature_c"].to_numpy(float)
@@ -289,12 +289,12 @@ class Resistivity(MeasurementKind):
             "correction": "Arrhenius temperature correction",
             "t_ref_c": params.resistivity_reference_c,
             "activation_energy_kj_mol": params.activation_energy_kj_mol,
-            "source": "Coyle et al., activation energy of conduction (REFERENCE.md §2.3)",
+            "source": "activation energy of conduction [Coyle-Spragg-2019]",
         }]
 
 
 class CorrosionRate(MeasurementKind):
-    """Corrosion current density from polarization resistance, uA/cm2 (RILEM TC 154, 2004)."""
+    """Corrosion current density from polarization resistance, uA/cm2 [Andrade-Alonso-2004]."""
 
     name: ClassVar[str] = "corrosion_rate"
     label: ClassVar[str] = "Corrosion rate (uA/cm2)"
@@ -363,7 +363,7 @@ class CorrosionRate(MeasurementKind):
             except ConditionError as err:
                 raise SiteFileError(f"{where}: {err}") from err
             out["b_source"] = (f"Stern-Geary from Tafel slopes {ba:g} / {bc:g} mV/decade "
-                               "(REFERENCE.md §3.1)")
+                               "[Roberge-2008 eqs. 5.22-5.23]")
         geometric = [t.has("bar_diameter"), t.has("confinement_length")]
         if t.has("polarized_area_cm2") and any(geometric):
             raise SiteFileError(
@@ -383,7 +383,7 @@ class CorrosionRate(MeasurementKind):
             assert d is not None and length is not None
             out["polarized_area_cm2"] = float(polarized_area_cm2(d, length))
             out["area_source"] = (f"pi x bar diameter {d:g} mm x confined length {length:g} mm "
-                                  "(REFERENCE.md CR-04)")
+                                  "[Andrade-Alonso-2004, from memory]")
         if t.has("transients"):
             out["transients_path"] = (root / t.string("transients")).resolve()
         if t.has("sweeps"):
@@ -491,7 +491,7 @@ def _b_and_area(
             problems[i].append(
                 "no polarized area: give an area_cm2 column, or polarized_area_cm2 or "
                 "bar_diameter with confinement_length under [surveys.options]; i_corr is never "
-                "computed without it (REFERENCE.md §3.4)"
+                "computed without it (common practice)"
             )
     return b, area, problems
 
@@ -524,7 +524,7 @@ def _fit_survey_transients(
         "locations_failed": int((fits["flag"] == "error").sum()),
         "locations_in_file_not_in_survey": int(len(set(tr["location_id"]) - wanted)),
         "linear_limit_mv": 20.0 if strict else 30.0,
-        "source": "REFERENCE.md §3.6 (Newton & Sykes 1988; RILEM TC 154 2004; from memory), CR-13",
+        "source": "[Newton-Sykes-1988; Andrade-Alonso-2004, from memory]",
     }
     return by_loc, record
 
@@ -547,7 +547,7 @@ def _read_survey_sweeps(survey: SurveyConfig) -> tuple[dict[str, pd.DataFrame], 
     return groups, {
         "correction": "R_p from potentiostatic sweeps (slope of E(I) near the open-circuit potential)",
         "file": path.name, "locations": len(groups),
-        "source": "ASTM G59 slope at E_corr (REFERENCE.md §3.5), CR-08 linearity",
+        "source": "slope at E_corr [ASTM-G59]; linearity [Andrade-Alonso-2004, from memory]",
     }
 
 
@@ -666,6 +666,6 @@ def _derive_rate(
         "b_source": opts.get("b_source", "per reading"),
         "polarized_area_cm2": opts.get("polarized_area_cm2"),
         "area_source": opts.get("area_source", "per reading"),
-        "source": "REFERENCE.md §3.1 (CR-02, CR-09), RILEM TC 154 (2004)",
+        "source": "[Stern-Geary-1957; Andrade-Alonso-2004, from memory]",
     })
     return records

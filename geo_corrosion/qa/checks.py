@@ -8,21 +8,21 @@ for the map and the GeoPackage.
 
 Each flag is one row of a table with the columns :data:`FLAG_COLUMNS`; its
 ``rule`` is a code of the catalogue :data:`QA_RULES`, which names the source of
-every check (``../shared/REFERENCE.md``).  Survey-level flags have
+every check (keys of :mod:`geo_corrosion.bibliography`).  Survey-level flags have
 ``reading_id == ""``.
 
 Rules (codes of :data:`QA_RULES`, which holds each rule's severity, description
 and source): missing value or location; value outside the kind's plausible range
-(REFERENCE §1.9 HCP-13, bounds plausible); duplicate or near-duplicate location
+(common practice, bounds plausible); duplicate or near-duplicate location
 with a different point_id (tolerance 0.1 x spacing, or 1e-6); outside the slab
 (outline counts as inside) or strictly inside an exclusion; for potentials,
 adjacent grid readings (within 1.5 x spacing along a grid axis, lateral offset
-<= 0.25 x spacing) differing by more than 150 mV (ASTM C876-91 §5.1, from memory,
-REFERENCE §1.5) -- info, or a warning when the reading differs from all of its
+<= 0.25 x spacing) differing by more than 150 mV [ASTM-C876-91 §5.1, from memory]
+-- info, or a warning when the reading differs from all of its
 two or more axis neighbours (a local spike); repeat readings of one point_id in
 one survey against the 10 mV repeatability and, across the surveys of a level,
-against the 20 mV reproducibility (ASTM C876 precision, from memory, REFERENCE
-HCP-08), the difference reported in either case; and the survey-level errors:
+against the 20 mV reproducibility [ASTM-C876-15 precision section, from memory],
+the difference reported in either case; and the survey-level errors:
 every potential within +-5 mV of 0 (open lead or short circuit), median above
 +100 mV with more than 90 % positive (leads reversed), every reading outside the
 slab, no usable reading; fewer than ``min_readings`` readings is a warning.
@@ -83,11 +83,11 @@ class QARule:
     source: str
 
 
-_C876_PREC = "ASTM C876 precision section (from memory; REFERENCE.md §1.6 HCP-08)"
+_C876_PREC = "ASTM C876 precision [ASTM-C876-15 precision section, from memory]"
 _P = "common practice, no source"
 
 #: A potential that changes by more than this while it settles (about 5 min) needs pre-wetting
-#: (ASTM C876 procedure, from memory; REFERENCE.md §1.6).
+#: [ASTM-C876-15 procedure, from memory].
 STABILITY_LIMIT_MV = 20.0
 
 QA_RULES: dict[str, QARule] = {
@@ -96,21 +96,21 @@ QA_RULES: dict[str, QARule] = {
         QARule("QA-NAN-VALUE", "warning", "reading has no value", _P),
         QARule("QA-NAN-XY", "warning", "reading has no location", _P),
         QARule("QA-RANGE-LOW", "warning", "value below the plausible range",
-               "REFERENCE.md §1.9 HCP-13 (common practice; ranges after RILEM TC 154 2003 "
-               "Table 1, from memory)"),
+               "common practice, after the ranges of "
+               "[RILEM-TC154-2003 Table 1, from memory]"),
         QARule("QA-RANGE-HIGH", "warning", "value above the plausible range",
-               "REFERENCE.md §1.9 HCP-13 (common practice; ranges after RILEM TC 154 2003 "
-               "Table 1, from memory)"),
+               "common practice, after the ranges of "
+               "[RILEM-TC154-2003 Table 1, from memory]"),
         QARule("QA-DUPLICATE", "warning",
                "duplicate or near-duplicate location with a different point_id", _P),
         QARule("QA-OUTSIDE-SLAB", "warning", "reading outside the slab outline", _P),
         QARule("QA-IN-EXCLUSION", "warning", "reading inside an exclusion area", _P),
         QARule("QA-ADJ-150", "info",
                "adjacent grid readings differ by more than the limit (150 mV): grid too "
-               "coarse here", "ASTM C876-91 §5.1 (from memory; REFERENCE.md §1.5)"),
+               "coarse here", "[ASTM-C876-91 §5.1, from memory]"),
         QARule("QA-ADJ-SPIKE", "warning",
                "reading differs by more than the limit from all its grid neighbours: "
-               "local spike", "ASTM C876-91 §5.1 (from memory; REFERENCE.md §1.5); spike "
+               "local spike", "[ASTM-C876-91 §5.1, from memory]; spike "
                "criterion common practice"),
         QARule("QA-REPEAT", "info", "repeat readings of a point within the repeatability "
                "tolerance (or kind without tolerance); difference reported", _C876_PREC),
@@ -119,12 +119,12 @@ QA_RULES: dict[str, QARule] = {
         QARule("QA-DRIFT", "warning",
                "a point read at the start and the end of the survey drifted by more than "
                "20 mV: the reference electrode or its contact changed during the shift",
-               "REFERENCE.md §1.6 (tool behaviour; 20 mV after the C876 stability and "
-               "reproducibility limits, from memory)"),
+               "common practice; 20 mV after the C876 stability and reproducibility limits "
+               "[ASTM-C876-15 precision section, from memory]"),
         QARule("QA-UNSTABLE", "warning",
                "potentials: the reading's stability series spans more than 20 mV: the "
                "concrete was not pre-wetted enough; pre-wet and read again",
-               "ASTM C876 procedure, from memory (REFERENCE.md §1.6, HCP-09)"),
+               "ASTM C876 procedure [ASTM-C876-15 procedure, from memory]"),
         QARule("QA-POINT-MOVED", "warning",
                "one point_id at locations more than half a grid spacing apart", _P),
         QARule("QA-REPRO", "info", "a point read in several surveys of a level, within the "
@@ -136,10 +136,10 @@ QA_RULES: dict[str, QARule] = {
                "two surveys of one level read the same location", _P),
         QARule("QA-OPEN-LEAD", "error",
                "every potential within +-5 mV of 0: open lead or short circuit?",
-               "REFERENCE.md §1.9 HCP-13 (common practice)"),
+               "common practice"),
         QARule("QA-INVERTED", "error",
                "median potential > +100 mV with > 90 % positive: leads reversed?",
-               "REFERENCE.md §1.9 (common practice; thresholds chosen here)"),
+               "common practice; thresholds chosen here"),
         QARule("QA-ALL-OUTSIDE", "error", "every reading is outside the slab", _P),
         QARule("QA-NO-VALUES", "error", "no reading has both a value and a location", _P),
         QARule("QA-FEW-READINGS", "warning", "fewer usable readings than needed", _P),
@@ -333,7 +333,7 @@ def check_survey(
         Column holding the canonical value, e.g. ``"potential_mv"``.
     plausible_range : (float, float)
         Lowest and highest plausible value, canonical unit of the kind (mV vs
-        CSE for potentials: ``(-1000, 200)``, REFERENCE §1.9).  Bounds are plausible.
+        CSE for potentials: ``(-1000, 200)``, common practice).  Bounds are plausible.
     slab_local : shapely Polygon or MultiPolygon or None
         Slab outline in local grid coordinates; ``None`` skips the slab checks.
     exclusions_local : sequence of Polygon
@@ -347,7 +347,7 @@ def check_survey(
         Distance, local grid units, under which two readings share a location;
         default 0.1 x ``spacing``, or 1e-6 without a spacing.
     adjacent_limit_mv : float, mV
-        Largest difference between adjacent grid readings (ASTM C876, 150 mV).
+        Largest difference of adjacent grid readings, 150 mV [ASTM-C876-91 §5.1, from memory].
     repeatability_mv : float, mV
         Largest range of repeat readings of one point in one survey (10 mV).
     reproducibility_mv : float, mV
@@ -400,7 +400,7 @@ def check_survey(
     idx = np.flatnonzero(~ok_xy)
     out.append(r.flags(idx, "QA-NAN-XY", [f"{w}: no local x/y location" for w in r.where[idx]]))
 
-    # -- plausible range (REFERENCE §1.9 HCP-13)
+    # -- plausible range (common practice)
     rng = f"[{lo:g}, {hi:g}] {unit}".rstrip()
     idx = np.flatnonzero(ok_v & (r.v < lo))
     extra = ("; more negative than the range: possible cathodic protection or stray current"
@@ -415,7 +415,7 @@ def check_survey(
         f"implausible, check connection, electrode or units"
         for w, v in zip(r.where[idx], r.v[idx], strict=True)]))
 
-    # -- stability during the reading (ASTM C876 procedure, from memory; REFERENCE §1.6 HCP-09)
+    # -- stability during the reading [ASTM-C876-15 procedure, from memory]
     if potential and "stability_range" in frame.columns:
         span = frame["stability_range"].to_numpy(dtype=float)
         idx = np.flatnonzero(np.isfinite(span) & (span > STABILITY_LIMIT_MV))
@@ -456,14 +456,14 @@ def check_survey(
                                  f"{min_readings}); the surface will be unreliable", n_ok))
     vals = r.v[ok_v]
     if potential and len(vals) >= _MIN_FOR_SURVEY_STATS:
-        if np.all(np.abs(vals) <= open_lead_mv):  # REFERENCE §1.9 HCP-13
+        if np.all(np.abs(vals) <= open_lead_mv):  # common practice
             out.append(r.survey_flag(
                 "QA-OPEN-LEAD", f"every reading is within +-{open_lead_mv:g} mV of 0 "
                 f"(max |E| = {_fmt(float(np.max(np.abs(vals))))} mV): open lead or short "
                 "circuit? The survey cannot be used; check the lead and the connection to the "
                 "reinforcement", float(np.median(vals))))
         med, frac = float(np.median(vals)), float(np.mean(vals > 0))
-        if med > inverted_median_mv and frac > inverted_fraction:  # REFERENCE §1.9
+        if med > inverted_median_mv and frac > inverted_fraction:  # common practice
             out.append(r.survey_flag(
                 "QA-INVERTED", f"median potential {_fmt(med)} mV with {frac:.0%} of readings "
                 "positive: leads reversed (inverted sign)? Steel goes to the positive terminal; "
@@ -526,7 +526,7 @@ def _diff_flags(r: _Readings, df: pd.DataFrame, d: NDArray[np.float64], heads: l
 
 def _repeat_flags(r: _Readings, potential: bool, unit: str, repeat_mv: float, repro_mv: float,
                   spacing: float | None) -> pd.DataFrame:
-    """Repeat readings of one point_id in one survey (ASTM C876 precision, from memory)."""
+    """Repeats of one point_id in one survey [ASTM-C876-15 precision section, from memory]."""
     pos = np.flatnonzero((r.pid != "") & r.ok_v)
     df = pd.DataFrame({"pos": pos, "pid": r.pid[pos], "v": r.v[pos], "x": r.x[pos],
                        "y": r.y[pos]})
@@ -563,7 +563,7 @@ def _drift_flag(r: _Readings, df: pd.DataFrame, limit_mv: float) -> pd.DataFrame
 
     Control points are read at the start and the end of a shift; a change beyond the
     limit means the electrode or its contact changed, so the whole survey may be shifted
-    (REFERENCE.md §1.6).  Reported once per survey, listing the points.
+    (common practice).  Reported once per survey, listing the points.
     """
     g = df.sort_values("pos").groupby("pid", sort=False)
     first, last = g.first(), g.last()
@@ -583,7 +583,7 @@ def _drift_flag(r: _Readings, df: pd.DataFrame, limit_mv: float) -> pd.DataFrame
 
 def _adjacent_flags(r: _Readings, sel: NDArray[np.bool_], spacing: float, tol: float,
                     limit_mv: float) -> pd.DataFrame:
-    """Adjacent grid readings differing by more than the limit (ASTM C876-91 §5.1, from memory)."""
+    """Adjacent grid readings differing by more than the limit [ASTM-C876-91 §5.1, from memory]."""
     pos = np.flatnonzero(sel)
     if len(pos) < 2:
         return _empty_flags()
@@ -648,7 +648,7 @@ def check_level(
         location; default 0.1 x ``spacing``, or 1e-6 without a spacing.
     reproducibility_mv : float, mV
         Largest difference between the survey means of one point_id (20 mV,
-        ASTM C876 precision, from memory).
+        [ASTM-C876-15 precision section, from memory]).
 
     Returns
     -------
@@ -691,7 +691,7 @@ def check_level(
 
 
 def _repro_flags(r: _Readings, potential: bool, unit: str, repro_mv: float) -> pd.DataFrame:
-    """One point_id in several surveys: difference of the survey means (C876, from memory)."""
+    """One point_id in several surveys: difference of survey means [ASTM-C876-15, from memory]."""
     pos = np.flatnonzero((r.pid != "") & r.ok_v)
     df = pd.DataFrame({"pos": pos, "pid": r.pid[pos], "sid": r.sid[pos], "v": r.v[pos]})
     df = df[df.groupby("pid")["sid"].transform("nunique") > 1]

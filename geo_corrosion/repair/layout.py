@@ -5,8 +5,7 @@ Every function works on shapely geometries held in one level's local survey grid
 "ft").  Length parameters are given by name in millimetres and converted with
 :data:`geo_corrosion.units.LENGTH_TO_M`.
 
-The layout follows ``../shared/REFERENCE.md`` §6.2, "Delineation algorithm" [P,
-built on ICRI 310.1R-2008 and agency specifications]:
+The layout is common practice, built on [ICRI-310.1R-2008; UFGS-03931]:
 
 1. clean the sounded outlines (:func:`clean_outlines`);
 2. split the slab into panels at its joints; each panel is laid out on its own, so
@@ -66,7 +65,7 @@ __all__ = [
 
 log = logging.getLogger(__name__)
 
-#: Depth classes, shallowest first (REFERENCE.md §6.3 [M/P]).
+#: Depth classes, shallowest first (common practice; names are owner-specific).
 DEPTH_CLASSES: tuple[str, ...] = ("partial_above_bars", "partial_below_bars", "full_depth")
 
 #: Columns of the frame returned by :func:`layout_repairs`.
@@ -86,36 +85,37 @@ class LayoutParams:
     Attributes
     ----------
     margin_mm : float
-        Growth beyond the sounded limits, mm (default 150 mm / 6 in, REFERENCE §6.2 [M]).
+        Growth beyond the sounded limits, mm (150 mm / 6 in [ICRI-310.1R-2008, from memory]).
     merge_gap_mm : float
-        Repairs closer than this are considered for merging, mm (default 300 mm [P]).
+        Repairs closer than this are considered for merging, mm (300 mm, common practice).
     merge_max_extra : float
         Largest area increase, as a fraction of the group's own area, accepted to
-        replace a merged group by its bounding rectangle (default 0.25 [P]).
+        replace a merged group by its bounding rectangle (default 0.25, common practice).
     min_size_mm : float
-        Smallest repair side, mm (default 300 mm [P]); applied again after clipping.
+        Smallest repair side, mm (300 mm, common practice); applied again after clipping.
     min_reentrant_mm : float
-        Smallest notch, step or strip kept in an L/T-shaped repair, mm (default 300 mm [P]).
+        Smallest notch, step or strip kept in an L/T-shaped repair, mm (300 mm, common practice).
     axis_angle_deg : float
         Angle of the saw-cut axes from the grid x axis, degrees counter-clockwise.
     sawcut_depth_mm : float
         Perimeter saw-cut depth and least removal depth, mm (default 19.05 mm = 3/4 in,
-        REFERENCE §6.2 [S]).
+        [ICRI-310.1R-2008], to confirm).
     extend_to_edge : bool
         Extend a repair to a free slab edge that lies within the margin of it.
     cover_mm : float
         Cover to the top bars where the sources carry no ``cover_mm`` column, mm
-        (default 38 mm, about 1-1/2 in [P]).
+        (default 38 mm, about 1-1/2 in, common practice).
     bar_diameter_mm : float
-        Top-mat bar diameter, mm (default 16 mm, about a No. 5 bar [P]).
+        Top-mat bar diameter, mm (default 16 mm, about a No. 5 bar, common practice).
     max_aggregate_mm : float
         Largest aggregate of the repair material, mm (default 9.5 mm / 3/8 in).
     slab_thickness_mm : float or None
         Slab thickness, mm; needed for the full-depth class.
     undercut_rule : {"icri", "ufgs"}
-        Rule for the clearance under exposed bars (REFERENCE REP-04).
+        Rule for the clearance under exposed bars [ICRI-310.1R-2008; UFGS-03931 §3.3.1.4].
     full_depth_fraction : float
-        A removal deeper than this fraction of the slab thickness becomes full depth [P].
+        A removal deeper than this fraction of the slab thickness becomes full depth
+        (common practice).
     """
 
     margin_mm: float = 150.0
@@ -124,7 +124,7 @@ class LayoutParams:
     min_size_mm: float = 300.0
     min_reentrant_mm: float = 300.0
     axis_angle_deg: float = 0.0
-    sawcut_depth_mm: float = 19.05  # 3/4 in exactly (ICRI 310.1R)
+    sawcut_depth_mm: float = 19.05  # 3/4 in exactly [ICRI-310.1R-2008], to confirm
     extend_to_edge: bool = True
     cover_mm: float = 38.0
     bar_diameter_mm: float = 16.0
@@ -134,7 +134,7 @@ class LayoutParams:
     full_depth_fraction: float = 0.5
 
     def __post_init__(self) -> None:
-        limits = {  # name: (upper limit, unit); absurd beyond these [P]
+        limits = {  # name: (upper limit, unit); absurd beyond these (common practice)
             "margin_mm": (3000.0, "mm"), "merge_gap_mm": (10000.0, "mm"),
             "min_size_mm": (10000.0, "mm"), "min_reentrant_mm": (10000.0, "mm"),
             "sawcut_depth_mm": (300.0, "mm"), "cover_mm": (300.0, "mm"),
@@ -175,8 +175,8 @@ def undercut_clearance_mm(max_aggregate_mm: float, *, rule: Literal["icri", "ufg
         Largest aggregate in the repair material, mm.
     rule : {"icri", "ufgs"}
         ``"icri"``: the greater of 3/4 in (19 mm) and 1/4 in (6 mm) plus the largest
-        aggregate (ICRI 310.1R, REFERENCE §6.2 [S]); ``"ufgs"``: the greater of 1 in
-        (25 mm) and 1/4 in plus the largest aggregate (UFGS 03931 §3.3.1.4 [S]).
+        aggregate [ICRI-310.1R-2008], to confirm; ``"ufgs"``: the greater of 1 in
+        (25 mm) and 1/4 in plus the largest aggregate [UFGS-03931 §3.3.1.4].
         The inch values are used exactly (19.05, 6.35, 25.4 mm).
 
     Returns
@@ -191,7 +191,7 @@ def undercut_clearance_mm(max_aggregate_mm: float, *, rule: Literal["icri", "ufg
 
     Examples
     --------
-    >>> round(undercut_clearance_mm(9.525) / 25.4, 4)  # REFERENCE REP-04: 3/8 in aggregate
+    >>> round(undercut_clearance_mm(9.525) / 25.4, 4)  # 3/8 in aggregate
     0.75
     >>> round(undercut_clearance_mm(19.05) / 25.4, 4)  # 3/4 in aggregate
     1.0
@@ -210,7 +210,7 @@ def depth_class(*, cover_mm: float, bar_diameter_mm: float, delam_depth_mm: floa
                 max_aggregate_mm: float = 9.5, slab_thickness_mm: float | None = None,
                 rule: Literal["icri", "ufgs"] = "icri", sawcut_depth_mm: float = 19.05,
                 full_depth_fraction: float = 0.5) -> tuple[str, float]:
-    """Depth class of a repair and its removal depth (REFERENCE §6.3 [M/P]).
+    """Depth class of a repair and its removal depth (common practice).
 
     Parameters
     ----------
@@ -220,7 +220,7 @@ def depth_class(*, cover_mm: float, bar_diameter_mm: float, delam_depth_mm: floa
         Top-mat bar diameter, mm.
     delam_depth_mm : float, optional
         Depth of the delamination plane, mm.  Unknown: taken at the bars, as a
-        corrosion-induced delamination usually is [P].
+        corrosion-induced delamination usually is (common practice).
     max_aggregate_mm : float
         Largest aggregate of the repair material, mm.
     slab_thickness_mm : float, optional
@@ -230,7 +230,8 @@ def depth_class(*, cover_mm: float, bar_diameter_mm: float, delam_depth_mm: floa
     sawcut_depth_mm : float
         Least removal depth (the saw-cut depth), mm.
     full_depth_fraction : float
-        Removal deeper than this fraction of the slab thickness is full depth [P].
+        Removal deeper than this fraction of the slab thickness is full depth
+        (common practice).
 
     Returns
     -------

@@ -10,7 +10,7 @@ For each level, from the kriged surfaces of :mod:`geo_corrosion.stages.map_surfa
   (:func:`geo_corrosion.condition.probability.area_interval`, correlated errors
   with the variogram's range as correlation length);
 * the site-specific passive/active threshold from a two-component mixture fit
-  (RILEM TC 154 statistical evaluation), with the share of readings and of
+  [Gulikers-Elsener-2008], with the share of readings and of
   area on each side;
 * the combined condition class per cell from the available kinds (the rule
   table of :mod:`geo_corrosion.condition.combined`).
@@ -46,11 +46,11 @@ SERVICE_HORIZON_YEARS = 10.0
 #: kind -> (threshold in canonical unit, direction, what it means, source)
 THRESHOLDS: dict[str, tuple[float, str, str, str]] = {
     "potential": (-350.0, "below", "more negative than -350 mV CSE",
-                  "ASTM C876 numeric criteria (REFERENCE.md §1.2)"),
+                  "ASTM C876 numeric criteria [ASTM-C876-91 App. X1, from memory]"),
     "corrosion_rate": (1.0, "above", "corrosion rate above 1 uA/cm2 (high)",
-                       "RILEM TC 154 (Andrade et al. 2004), REFERENCE.md §3.3"),
+                       "RILEM TC 154 [Andrade-Alonso-2004, from memory]"),
     "resistivity": (10.0, "below", "resistivity below 10 kOhm.cm (high risk)",
-                    "RILEM TC 154 (Polder 2001), REFERENCE.md §2.4(a), from memory"),
+                    "RILEM TC 154 [RILEM-TC154-2000; Polder-2001, from memory]"),
 }
 INTERVAL_LEVEL = 0.90
 
@@ -78,10 +78,10 @@ def life_estimates(frame: pd.DataFrame, cover: KindSurface | None, *,
     Returns a new frame with the columns added, and the summary for ``run.json``.
 
     * Section loss of the bar after :data:`SERVICE_HORIZON_YEARS` at the measured
-      rate (uniform attack, Faraday's law; REFERENCE.md §4.1), with the 25 %
-      engineer-review trigger (UFGS 03931, LIFE-03).
+      rate (uniform attack, Faraday's law, derived), with the 25 %
+      engineer-review trigger [UFGS-03931 §3.3.1.4].
     * Propagation time to the first visible crack (0.05 mm) after Alonso et al.
-      (1998), x_crit = 7.53 + 9.32 c/phi um (from memory, REFERENCE.md §4.2), with
+      (1998), x_crit = 7.53 + 9.32 c/phi um [Alonso-Andrade-1998, from memory], with
       the cover c read off the kriged cover surface at the reading.  It is counted
       from corrosion initiation at the measured rate; it is **not** the time left from
       today (the corrosion that already took place is unknown), so it is an upper
@@ -122,8 +122,8 @@ def life_estimates(frame: pd.DataFrame, cover: KindSurface | None, *,
         "time_to_cracking_meaning": "propagation time from corrosion initiation to the first "
                                     "visible crack at the measured rate; not the time left from "
                                     "today (an upper bound of it)",
-        "sources": ["Faraday's law, REFERENCE.md §3.2/§4.1", "UFGS 03931 (25 % section loss)",
-                    "Alonso et al. 1998, Materials and Structures 31 (from memory)"],
+        "sources": ["Faraday's law, derived", "25 % section loss [UFGS-03931 §3.3.1.4]",
+                    "time to cracking [Alonso-Andrade-1998, from memory]"],
     }
 
 
@@ -197,7 +197,7 @@ def assess_level(surfaces: dict[str, KindSurface], readings: dict[str, NDArray[n
                 if np.ndim(v) == 0 and not isinstance(v, dict)}
             out.stats["site_threshold"]["method"] = (
                 "two-component Gaussian mixture, crossing of the weighted densities "
-                "(RILEM TC 154 statistical evaluation; Gulikers & Elsener 2008)")
+                "(RILEM TC 154 statistical evaluation [Gulikers-Elsener-2008])")
         except ConditionError as err:
             out.stats["site_threshold"] = {"not_available": str(err)}
     table = RuleTable.from_dict(rules) if rules else DEFAULT_RULES

@@ -25,7 +25,7 @@ def check_parameters(cfg: SiteConfig) -> None:
     Raises
     ------
     KrigingError
-        A potential contour interval above 100 mV (ASTM C876 maximum, from memory).
+        A potential contour interval above 100 mV [ASTM-C876-91 §6.2, from memory].
     RepairError
         Layout parameters that are negative or absurd.
     """

@@ -153,8 +153,8 @@ def calibrate_variance(fit: VariogramFit, cv: CrossValidation
     lognormal kinds the back-transform then uses the calibrated variance) and makes the
     mean standardized squared error exactly 1,
     so the probability maps and area intervals use an honest variance (common practice:
-    the MSSE, or mean squared deviation ratio, should be close to 1; from memory, Webster &
-    Oliver 2007, *Geostatistics for Environmental Scientists*, §8.3).  The factor and the
+    the MSSE, or mean squared deviation ratio, should be close to 1;
+    [Webster-Oliver-2007 §8.3, from memory]).  The factor and the
     MSSE before calibration are kept in the notes of the fit and in the cross-validation
     record.  No change when the MSSE is not a positive finite number.
     """

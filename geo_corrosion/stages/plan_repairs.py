@@ -38,7 +38,7 @@ __all__ = ["PlanningParams", "low_cover_mask", "low_cover_threshold_mm", "plan_l
            "planning_params", "raster_region"]
 
 #: Default low-cover threshold when the level gives no specified cover, mm
-#: (REFERENCE.md §5.3 item 1: 25 mm / 1 in, common practice).
+#: (25 mm / 1 in, common practice).
 DEFAULT_LOW_COVER_MM = 25.0
 
 
@@ -56,13 +56,13 @@ def low_cover_threshold_mm(level: Level) -> tuple[float, str]:
     """Low-cover threshold of a level and where it comes from.
 
     ``specified - tolerance`` when the site file gives the level's specified
-    cover (REFERENCE.md COV-01, common practice), else 25 mm.
+    cover (common practice), else 25 mm.
     """
     spec, tol = level.config.specified_cover_mm, level.config.cover_tolerance_mm
     if spec is not None:
         t = tol if tol is not None else 0.0
         return spec - t, f"specified cover {spec:.1f} mm minus tolerance {t:.1f} mm"
-    return DEFAULT_LOW_COVER_MM, "default 25 mm (REFERENCE.md §5.3, common practice)"
+    return DEFAULT_LOW_COVER_MM, "default 25 mm (common practice)"
 
 
 def low_cover_mask(level: Level, cover: KindSurface | None) -> NDArray[np.bool_] | None:

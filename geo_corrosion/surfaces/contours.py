@@ -22,7 +22,7 @@ from geo_corrosion.surfaces.grid import GridSpec
 
 __all__ = ["contour_levels", "contour_lines", "contour_bands", "check_contour_interval"]
 
-#: ASTM C876 maximum equipotential contour interval, mV (REFERENCE.md §1.8, [M] C876-91 §6.2).
+#: ASTM C876 maximum equipotential contour interval, mV [ASTM-C876-91 §6.2, from memory].
 MAX_POTENTIAL_INTERVAL_MV = 100.0
 _POTENTIAL_KINDS = ("potential", "half_cell", "half-cell", "hcp", "potential_mv")
 
@@ -36,7 +36,7 @@ def check_contour_interval(interval_mv: float, kind: str) -> None:
         Contour interval, in the kind's value unit (mV vs CSE for potentials).
     kind : str
         Measurement kind; potentials (``"potential"``, ``"half_cell"``, ...) may
-        not exceed 100 mV (ASTM C876, after REFERENCE.md §1.8; from memory).
+        not exceed 100 mV [ASTM-C876-91 §6.2, from memory].
 
     Raises
     ------

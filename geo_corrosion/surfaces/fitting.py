@@ -3,7 +3,7 @@
 Each candidate model (nugget plus one structure) is fitted to the isotropic
 experimental variogram by minimising Cressie's weighted least squares
 criterion Σ N_j (γ̂_j / γ(h_j) − 1)², N_j being the pair count of bin j
-(Cressie 1985, "Fitting variogram models by weighted least squares").  Each
+[Cressie-1985].  Each
 fitted candidate is then cross-validated with the local kriging engine
 (leave-one-out on at most ``cv_max_points`` readings, or k-fold) and the model
 with the smallest cross-validation RMSE is chosen.

@@ -29,7 +29,7 @@ Log transform
 -------------
 With ``transform="log"`` (lognormal kinds: resistivity, corrosion rate) the
 natural logarithm of the readings is kriged and back-transformed with the
-lognormal ordinary-kriging correction (Journel 1980)::
+lognormal ordinary-kriging correction [Journel-1980]::
 
     estimate = exp(y* + σ²/2 - ν)        (back_transform="unbiased", default)
     estimate = exp(y*)                   (back_transform="median")

@@ -1,4 +1,4 @@
-"""The built-in zoning rules (issue 5; REFERENCE.md §5.3 and §6.4 [P]).
+"""The built-in zoning rules (issue 5; common practice).
 
 Order them from the most to the least urgent treatment: repair of delaminated and
 spalled concrete; treatment of actively corroding but sound concrete (embedded
@@ -152,7 +152,7 @@ class ActiveCorrosionRule(ZoningRule):
 
 
 class LowCoverRule(ZoningRule):
-    """Protection of low-cover areas with a membrane or sealer (REFERENCE §5.3 item 5 [S])."""
+    """Protection of low-cover areas with a membrane or sealer (common practice)."""
 
     name = "low_cover"
     treatment = "traffic-bearing membrane or penetrating sealer"

@@ -11,14 +11,14 @@ from geo_corrosion.errors import ConditionError
 
 def test_c876_classes() -> None:
     """Check c876 classes."""
-    # REFERENCE.md HCP-01, ASTM C876 criteria (secondary sources [S] + C876-91 App. X1, from memory)
+    # ASTM C876 criteria -200 / -350 mV CSE [ASTM-C876-91 App. X1, from memory]
     out = C.POTENTIAL_C876.classify([-150.0, -250.0, -400.0]).tolist()
     assert out == ["low (>90 % no corrosion)", "uncertain", "high (>90 % corrosion)"]
 
 
 def test_c876_boundaries() -> None:
     """Check c876 boundaries."""
-    # REFERENCE.md HCP-02: both bounds are "uncertain" (convention chosen, common practice)
+    # both bounds are "uncertain" (convention chosen, common practice)
     out = C.POTENTIAL_C876.classify([-200.0, -350.0, -199.999, -350.001]).tolist()
     assert out == ["uncertain", "uncertain", "low (>90 % no corrosion)", "high (>90 % corrosion)"]
 
@@ -44,21 +44,21 @@ def test_classify_keeps_shape() -> None:
 
 def test_c876_severe() -> None:
     """Check c876 severe."""
-    # REFERENCE.md §1.2: -500 mV "severe" class is common practice [P], not ASTM
+    # -500 mV "severe" class is common practice, not ASTM
     out = C.POTENTIAL_C876_SEVERE.classify_keys([-600.0, -500.0, -350.0, -200.0, -100.0]).tolist()
     assert out == ["severe", "high", "uncertain", "uncertain", "low"]
 
 
 def test_rilem_resistivity() -> None:
     """Check rilem resistivity."""
-    # REFERENCE.md RES-10, RILEM TC 154 / Polder 2001 (from memory); lower bound in higher class
+    # [RILEM-TC154-2000; Polder-2001, from memory]; lower bound in higher class (common practice)
     out = C.RESISTIVITY_RILEM.classify([5.0, 10.0, 49.9, 50.0, 100.0, 150.0]).tolist()
     assert out == ["high", "moderate", "moderate", "low", "negligible", "negligible"]
 
 
 def test_rilem_resistivity_from_ohm_m() -> None:
     """Check rilem resistivity from ohm m."""
-    # REFERENCE.md RES-10: 800 ohm.m -> 80 kohm.cm -> low
+    # 800 ohm.m -> 80 kohm.cm (exact) -> low [RILEM-TC154-2000; Polder-2001, from memory]
     from geo_corrosion.units import convert
 
     assert C.RESISTIVITY_RILEM.classify(convert([800.0], "ohm.m", "kohm.cm")).tolist() == ["low"]
@@ -66,14 +66,14 @@ def test_rilem_resistivity_from_ohm_m() -> None:
 
 def test_langford_broomfield() -> None:
     """Check langford broomfield."""
-    # REFERENCE.md RES-12, Langford & Broomfield 1987 (from memory)
+    # Langford & Broomfield 1987 [Broomfield-2007, from memory]
     out = C.RESISTIVITY_LANGFORD_BROOMFIELD.classify([4.0, 7.0, 15.0, 25.0]).tolist()
     assert out == ["very high", "high", "low to moderate", "low"]
 
 
 def test_aashto_t358() -> None:
     """Check aashto t358."""
-    # REFERENCE.md RES-11, AASHTO T 358 Table 1 4x8 in (from memory)
+    # 4 x 8 in cylinders [AASHTO-T358-15 Table 1, from memory]
     cs = C.get_class_set("aashto_t358", field=False)
     out = cs.classify([11.9, 12.0, 36.9, 37.0, 254.1]).tolist()
     assert out == ["High", "Moderate", "Low", "Very low", "Negligible"]
@@ -81,7 +81,7 @@ def test_aashto_t358() -> None:
 
 def test_aashto_t358_refused_for_field() -> None:
     """Check aashto t358 refused for field."""
-    # REFERENCE.md RES-11 / §2.4(c): lab classifier refused for field readings (T 358 scope [S])
+    # lab classifier refused for field readings [AASHTO-T358-15 scope]
     with pytest.raises(ConditionError, match="laboratory"):
         C.get_class_set("aashto_t358")
     with pytest.raises(ConditionError, match="laboratory"):
@@ -90,14 +90,14 @@ def test_aashto_t358_refused_for_field() -> None:
 
 def test_rate_rilem() -> None:
     """Check rate rilem."""
-    # REFERENCE.md CR-07, RILEM TC 154 2004 levels (from memory) with the CR-07 boundary convention
+    # [Andrade-Alonso-2004, from memory] levels; boundary convention common practice
     out = C.RATE_RILEM.classify([0.05, 0.1, 0.3, 0.5, 1.0, 1.01, 5.0]).tolist()
     assert out == ["negligible", "low", "low", "moderate", "moderate", "high", "high"]
 
 
 def test_rate_clear() -> None:
     """Check rate clear."""
-    # REFERENCE.md §3.3, Clear 1989 (from memory); edge convention our choice
+    # [Clear-1989, from memory]; edge convention our choice
     out = C.RATE_CLEAR.classify_keys([0.1, 0.2, 5.0, 10.0, 20.0]).tolist()
     assert out == ["none_expected", "possible_10_15_yr", "within_2_10_yr", "within_2_yr",
                    "within_2_yr"]
@@ -159,5 +159,5 @@ def test_user_class_set() -> None:
 def test_scalar_input() -> None:
     """Check scalar input."""
     # common practice, no source: a scalar gives a 0-d result
-    assert C.RATE_RILEM.classify(1.0).item() == "moderate"  # REFERENCE CR-07
+    assert C.RATE_RILEM.classify(1.0).item() == "moderate"  # 1.0 is not > 1 (common practice)
     assert int(C.RATE_RILEM.codes(np.nan)) == -1

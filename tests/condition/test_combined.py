@@ -14,7 +14,7 @@ from geo_corrosion.errors import ConditionError
 
 def test_default_rules_cells() -> None:
     """Check default rules cells."""
-    # REFERENCE.md §5.3 item 2 [P]: low cover + E < -350 or rho < 10 -> high priority
+    # common practice: low cover + E < -350 or rho < 10 -> high priority
     r = CB.combine(
         potential_mv=[-400.0, -400.0, -250.0, -100.0, np.nan, np.nan, -250.0],
         resistivity_kohm_cm=[50.0, 5.0, 5.0, 200.0, np.nan, 200.0, 8.0],

@@ -15,7 +15,7 @@ from geo_corrosion.errors import ConditionError
 
 def test_stern_geary_b() -> None:
     """Check stern geary b."""
-    # REFERENCE.md CR-01 (S: Roberge eqs. 5.22-5.23, D)
+    # B from the Tafel slopes [Roberge-2008 eqs. 5.22-5.23], values derived
     assert float(CR.stern_geary_b_mv(120.0, 120.0)) == pytest.approx(26.05, abs=0.05)
     assert float(CR.stern_geary_b_mv(math.inf, 120.0)) == pytest.approx(52.1, abs=0.1)
     assert float(CR.stern_geary_b_mv(120.0, math.inf)) == pytest.approx(52.1, abs=0.1)
@@ -34,7 +34,7 @@ def test_stern_geary_out_of_range(ba: float, bc: float) -> None:
 
 def test_resolve_b() -> None:
     """Check resolve b."""
-    # REFERENCE.md §3.1: B = 26 mV active, 52 mV passive (from memory)
+    # B = 26 mV active, 52 mV passive [Andrade-Gonzalez-1978; Andrade-Alonso-2004, from memory]
     assert CR.resolve_b_mv(["active", "PASSIVE", 30.0]).tolist() == [26.0, 52.0, 30.0]
     with pytest.raises(ConditionError, match="active"):
         CR.resolve_b_mv(["rusty"])
@@ -44,7 +44,7 @@ def test_resolve_b() -> None:
 
 def test_icorr() -> None:
     """Check icorr."""
-    # REFERENCE.md CR-02 and CR-03 (D)
+    # i_corr = B / (R_p A) [Stern-Geary-1957], values derived
     assert float(CR.icorr_ua_cm2(1000.0, 26.0, 26.0)) == pytest.approx(1.0, abs=1e-3)
     assert float(CR.icorr_from_specific_rp(52_000.0, 52.0)) == pytest.approx(1.0, abs=1e-3)
     assert float(CR.icorr_from_specific_rp(52_000.0, 26.0)) == pytest.approx(0.5, abs=1e-3)
@@ -52,7 +52,7 @@ def test_icorr() -> None:
 
 def test_icorr_bad_input() -> None:
     """Check icorr bad input."""
-    # issue 4 bad input: missing area, negative Rp; REFERENCE §3.4 never without A_pol
+    # issue 4 bad input: missing area, negative Rp; never without A_pol (common practice)
     with pytest.raises(ConditionError, match="polarized area"):
         CR.icorr_ua_cm2(1000.0, np.nan, 26.0)
     with pytest.raises(ConditionError, match="polarized area"):
@@ -63,7 +63,7 @@ def test_icorr_bad_input() -> None:
 
 def test_ohmic_correction() -> None:
     """Check ohmic correction."""
-    # REFERENCE.md CR-09 (D)
+    # R_p = dE/dI - R_ohm [Andrade-Alonso-2004, from memory], values derived
     assert float(CR.ohmic_corrected_rp_ohm(10.0, 8.0, 250.0)) == pytest.approx(1000.0, abs=1e-6)
     with pytest.raises(ConditionError, match="not positive"):
         CR.ohmic_corrected_rp_ohm(10.0, 8.0, 2000.0)
@@ -73,7 +73,7 @@ def test_ohmic_correction() -> None:
 
 def test_polarized_area() -> None:
     """Check polarized area."""
-    # REFERENCE.md CR-04 (D)
+    # A = pi d L [Andrade-Alonso-2004, from memory], value derived
     assert float(CR.polarized_area_cm2(16.0, 105.0)) == pytest.approx(52.78, abs=0.01)
     assert float(CR.polarized_area_cm2(16.0, 105.0, n_bars=2)) == pytest.approx(105.56, abs=0.02)
     with pytest.raises(ConditionError):
@@ -82,11 +82,11 @@ def test_polarized_area() -> None:
 
 def test_faraday() -> None:
     """Check faraday."""
-    # REFERENCE.md CR-05, CR-06 (D)
+    # Faraday's law, derived: 11.60 um/yr and 0.457 mpy per uA/cm2
     assert float(CR.faraday_um_per_year(1.0)) == pytest.approx(11.60, abs=0.02)
     np.testing.assert_allclose(CR.faraday_um_per_year([0.5, 2.0]), [5.80, 23.2], atol=0.02)
     assert float(CR.faraday_mpy(1.0)) == pytest.approx(0.457, abs=0.002)
-    # REFERENCE §3.2 variants: rho 7.85 -> 11.63; 365-day year -> 11.59; mass loss 91.3 g/m2/yr
+    # derived variants: rho 7.85 -> 11.63; 365-day year -> 11.59; mass loss 91.3 g/m2/yr
     assert float(CR.faraday_um_per_year(1.0, density_g_cm3=7.85)) == pytest.approx(11.63, abs=0.01)
     assert float(CR.faraday_um_per_year(1.0, year_s=365 * 86400)) == pytest.approx(11.59, abs=0.01)
     assert float(CR.faraday_mass_loss_g_m2_year(1.0)) == pytest.approx(91.3, abs=0.1)
@@ -94,7 +94,7 @@ def test_faraday() -> None:
 
 def test_linearity_check() -> None:
     """Check linearity check."""
-    # REFERENCE.md CR-08 (RILEM 2004 20 mV limit, from memory)
+    # 20 mV linear range [Andrade-Alonso-2004, from memory]
     assert CR.check_linearity(15.0) is None
     msg = CR.check_linearity(25.0)
     assert msg is not None and "linearity" in msg
@@ -109,7 +109,7 @@ def test_sweep() -> None:
     assert res.rp_ohm == pytest.approx(1000.0, rel=1e-9)
     assert res.e_corr_mv == pytest.approx(-300.0)
     assert res.warnings == ()
-    wide = CR.rp_from_sweep(e, i, window_mv=25.0)  # CR-08: beyond 20 mV -> warning
+    wide = CR.rp_from_sweep(e, i, window_mv=25.0)  # beyond 20 mV -> warning
     assert any("linearity" in w for w in wide.warnings)
 
 
@@ -128,7 +128,7 @@ def test_sweep_curved_and_bad() -> None:
 
 def test_section_loss_uniform() -> None:
     """Check section loss uniform."""
-    # D: d = d0 - 2P; P = 0.0116 i t mm (REFERENCE §4.1)
+    # derived: d = d0 - 2P; P = 0.0116 i t mm
     s = LF.section_loss(16.0, 1.0, 50.0, um_per_year_per_ua_cm2=11.6)
     assert s.penetration_mm == pytest.approx(0.58)
     assert s.residual_diameter_mm == pytest.approx(16.0 - 1.16)
@@ -138,7 +138,7 @@ def test_section_loss_uniform() -> None:
 
 def test_review_trigger() -> None:
     """Check review trigger."""
-    # REFERENCE.md LIFE-03 (S: UFGS 03931 §3.3.1.4)
+    # 25 % section loss [UFGS-03931 §3.3.1.4]
     assert LF.bar_review_required(0.26)
     assert not LF.bar_review_required(0.24)
     assert LF.bar_review_required(0.21, adjacent_loss_fraction=0.22)
@@ -150,7 +150,7 @@ def test_review_trigger() -> None:
 
 def test_pit_area_properties() -> None:
     """Check pit area properties."""
-    # REFERENCE.md §4.1 Val & Melchers 1997 (from memory): small pit ~ half disc, continuity,
+    # [Val-Melchers-1997, from memory]: small pit ~ half disc, continuity,
     # full section at p = D0, monotone
     d0 = 16.0
     assert float(LF.pit_area_mm2(0.01, d0)) == pytest.approx(math.pi * 0.01**2 / 2, rel=0.01)
@@ -168,7 +168,7 @@ def test_pit_area_properties() -> None:
 
 def test_cracking() -> None:
     """Check cracking."""
-    # REFERENCE.md LIFE-05, Alonso et al. 1998 (from memory)
+    # x_crit = 7.53 + 9.32 c/phi [Alonso-Andrade-1998, from memory]
     assert float(LF.critical_penetration_um(50.0, 12.0)) == pytest.approx(46.36, abs=0.01)
     t = LF.time_to_cracking_years(50.0, 12.0, [1.0, 0.0])
     assert t[0] == pytest.approx(46.36 / 11.6, abs=1e-3)
@@ -179,6 +179,6 @@ def test_cracking() -> None:
 
 def test_cr12_rate_class_of_unit_rate() -> None:
     """Check cr12 rate class of unit rate."""
-    # REFERENCE.md CR-12: i_corr = 1.00 -> "moderate" (1.0 is not > 1)
+    # i_corr = 1.00 -> "moderate" (1.0 is not > 1, common practice)
     i = CR.icorr_ua_cm2(1000.0, 26.0, 26.0)
     assert RATE_RILEM.classify([i]).tolist() == ["moderate"]

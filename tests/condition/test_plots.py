@@ -46,7 +46,7 @@ def test_histogram_log(tmp_path: Path) -> None:
 
 def test_cfd(tmp_path: Path) -> None:
     """Check cfd."""
-    # REFERENCE.md §1.8: CFD on normal-probability axis with C876 lines and mixture threshold
+    # CFD on normal-probability axis [ASTM-C876-91 §6.3, from memory], mixture threshold
     v = _potentials()
     p = plots.plot_cumulative_frequency(v, tmp_path / "cfd.png", mixture=fit_mixture_threshold(v))
     _check_png(p, tmp_path)
@@ -110,5 +110,5 @@ def test_no_pyplot_state() -> None:
 
 def test_caution_footer() -> None:
     """Check caution footer."""
-    # REFERENCE.md §7 item 1 (wording ours)
+    # wording ours, after [ASTM-C876-22a §4.8]
     assert "licensed engineer" in plots.CAUTION

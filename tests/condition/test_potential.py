@@ -12,12 +12,12 @@ from geo_corrosion.errors import ConditionError
 
 def test_cfd_plotting_position() -> None:
     """Check cfd plotting position."""
-    # REFERENCE.md HCP-10, ASTM C876-91 §6.3 r/(n+1) (from memory)
+    # r/(n+1) [ASTM-C876-91 §6.3, from memory]
     cfd = P.cumulative_frequency([-150.0, -250.0, -300.0, -400.0, np.nan])
     assert cfd.potential_mv.tolist() == [-400.0, -300.0, -250.0, -150.0]
     np.testing.assert_allclose(cfd.percent, [20.0, 40.0, 60.0, 80.0])
     np.testing.assert_allclose(cfd.z, stats.norm.ppf([0.2, 0.4, 0.6, 0.8]))  # scipy as reference
-    assert P.fraction_below([-150.0, -250.0, -300.0, -400.0], -350.0) == 0.25  # HCP-10
+    assert P.fraction_below([-150.0, -250.0, -300.0, -400.0], -350.0) == 0.25  # one of four
 
 
 def test_cfd_empty() -> None:

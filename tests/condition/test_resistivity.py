@@ -11,7 +11,7 @@ from geo_corrosion.errors import ConditionError
 
 def test_wenner() -> None:
     """Check wenner."""
-    # REFERENCE.md RES-01 (S: Wenner formula + D)
+    # rho = 2 pi a V / I [Wenner-1916], value derived
     assert float(R.wenner_resistivity_kohm_cm(5.0, 0.100, 100e-6)) == pytest.approx(31.42, abs=0.01)
     out = R.wenner_resistivity_kohm_cm([5.0, 3.8], [0.1, 0.05], [1e-4, 1e-4])
     np.testing.assert_allclose(out, 2 * np.pi * np.array([5.0, 3.8]) * [0.1, 0.05] / 1e-4 / 1000)
@@ -24,7 +24,7 @@ def test_wenner() -> None:
 )
 def test_wenner_errors(a: float, v: float, i: float, match: str) -> None:
     """Check wenner errors."""
-    # REFERENCE.md RES-03: I = 0 or V < 0 -> error, no division by zero
+    # I = 0 or V < 0 -> error, no division by zero (common practice)
     with pytest.raises(ConditionError, match=match):
         R.wenner_resistivity_kohm_cm(a, v, i)
 
@@ -39,13 +39,13 @@ def test_wenner_error_names_index() -> None:
 @pytest.mark.parametrize(("ratio", "f"), [(1.0, 1.5045), (2.0, 1.0939), (4.0, 1.0134)])
 def test_thickness_factor(ratio: float, f: float) -> None:
     """Check thickness factor."""
-    # REFERENCE.md RES-04 (D, method of images), tolerance 5e-4
+    # derived (method of images), tolerance 5e-4
     assert float(R.thickness_factor(ratio)) == pytest.approx(f, abs=5e-4)
 
 
 def test_thickness_factor_table_and_direct_sum() -> None:
     """Check thickness factor table and direct sum."""
-    # REFERENCE.md §2.2 derived table (D), and a 10^6-term direct sum as independent check
+    # derived table, and a 10^6-term direct sum as independent check
     table = {0.5: 2.780, 1.5: 1.197, 2.5: 1.051, 3.0: 1.031, 5.0: 1.007}
     for r, f in table.items():
         assert float(R.thickness_factor(r)) == pytest.approx(f, abs=1e-3)
@@ -59,7 +59,7 @@ def test_thickness_factor_table_and_direct_sum() -> None:
 
 def test_thickness_factor_limits() -> None:
     """Check thickness factor limits."""
-    # D: thick element -> 1; thin element -> apparent too high (F > 1, REFERENCE §2.2)
+    # derived: thick element -> 1; thin element -> apparent too high (F > 1, cf. [Robles-Yee-2021])
     f = R.thickness_factor([np.inf, 100.0, 0.2])
     assert f[0] == 1.0
     assert f[1] == pytest.approx(1.0, abs=1e-5)
@@ -76,7 +76,7 @@ def test_correct_for_thickness() -> None:
 
 def test_geometry_check() -> None:
     """Check geometry check."""
-    # REFERENCE.md RES-06: edge distance < 2a or h < 4a -> warning (Gowers & Millard, from memory)
+    # edge distance < 2a or h < 4a -> warning [Gowers-Millard-1999, from memory]
     assert R.check_wenner_geometry(50.0, thickness_mm=200.0, edge_distance_mm=100.0) == []
     w = R.check_wenner_geometry(50.0, edge_distance_mm=99.0)
     assert len(w) == 1 and "edge" in w[0]
@@ -84,18 +84,18 @@ def test_geometry_check() -> None:
     assert len(w) == 1 and "thick" in w[0]
     w = R.check_wenner_geometry(50.0, thickness_mm=100.0, edge_distance_mm=50.0,
                                 max_aggregate_mm=40.0)
-    assert len(w) == 3  # REFERENCE §2.2: a >= 1.5 D_max (from memory)
+    assert len(w) == 3  # a >= 1.5 D_max [Polder-2001, from memory]
     # configurable factor
     assert R.check_wenner_geometry(50.0, thickness_mm=199.0, min_thickness_factor=3.0) == []
 
 
 def test_arrhenius() -> None:
     """Check arrhenius."""
-    # REFERENCE.md RES-07 (S form, D value) and RES-09
+    # Arrhenius form [Coyle-Spragg-2019], values derived
     assert 10.0 * float(R.arrhenius_factor(10.0)) == pytest.approx(6.961, abs=0.005)
     assert float(R.arrhenius_factor(20.0)) == 1.0
     assert float(R.correct_to_reference_temperature(10.0, 10.0)) == pytest.approx(6.961, abs=5e-3)
-    # D: linearised sensitivity at 20 °C is about 3.5 %/K for 25 kJ/mol (REFERENCE §2.3)
+    # D: linearised sensitivity at 20 °C is about 3.5 %/K for 25 kJ/mol (derived)
     slope = (np.log(R.arrhenius_factor(20.5)) - np.log(R.arrhenius_factor(19.5))) / 1.0
     assert float(slope) == pytest.approx(0.035, abs=0.001)
 
@@ -121,7 +121,7 @@ def test_arrhenius_bad() -> None:
 
 def test_icorr_estimate() -> None:
     """Check icorr estimate."""
-    # REFERENCE.md §2.4(d), Alonso et al. 1988 (from memory, low confidence)
+    # [Alonso-Andrade-1988, from memory] (low confidence)
     assert float(R.icorr_estimate_from_resistivity(26.0)) == pytest.approx(1.0)
     with pytest.raises(ConditionError):
         R.icorr_estimate_from_resistivity(0.0)

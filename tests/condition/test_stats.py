@@ -24,7 +24,7 @@ def test_summary() -> None:
 
 def test_class_table() -> None:
     """Check class table."""
-    # REFERENCE.md HCP-10 data: 25 % of readings below -350 mV; HCP-02 boundary convention
+    # 25 % of readings below -350 mV; both bounds 'uncertain' (common practice)
     t = class_table([-150.0, -250.0, -300.0, -400.0], POTENTIAL_C876,
                     cell_values=np.array([[-400.0, -200.0], [-100.0, np.nan]]), cell_area=2.0)
     assert t["class_key"].tolist() == ["high", "uncertain", "low"]

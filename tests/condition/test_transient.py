@@ -27,7 +27,7 @@ def _synthetic(
 @pytest.mark.parametrize("seed", [0, 1, 2, 3, 4])
 def test_recover_known_parameters(seed: int) -> None:
     """Check recover known parameters."""
-    # REFERENCE.md §3.6 Randles model (from memory); synthetic seeded transients with 0.2 mV noise
+    # Randles model [Newton-Sykes-1988, from memory]; synthetic seeded transients with 0.2 mV noise
     # (1 % of the 20 mV polarization); tolerances: R_p 2 %, R_ohm 3 %, C_dl 5 %
     t, e = _synthetic(seed=seed)
     fit = T.fit_transient(t, e, 20.0, area_cm2=26.0, b_mv=26.0)
@@ -44,7 +44,7 @@ def test_recover_known_parameters(seed: int) -> None:
 
 def test_cr12_icorr_from_fitted_rp() -> None:
     """Check cr12 icorr from fitted rp."""
-    # REFERENCE.md CR-12: A_pol 26 cm2, B 26 mV, fitted R_p ~ 1000 ohm -> i_corr 1.00, "moderate"
+    # A_pol 26 cm2, B 26 mV, fitted R_p ~ 1000 ohm -> i_corr 1.00, "moderate" (derived)
     t, e = _synthetic(noise_mv=0.01)
     fit = T.fit_transient(t, e, 20.0, area_cm2=26.0, b_mv="active")
     assert fit.icorr_ua_cm2 == pytest.approx(1.0, abs=0.005)
@@ -61,7 +61,7 @@ def test_cathodic_pulse_sign() -> None:
 
 def test_linearity_guard() -> None:
     """Check linearity guard."""
-    # REFERENCE.md CR-13: I*R_p > 30 mV warns; 20 mV in strict mode
+    # I*R_p > 30 mV warns (common practice); 20 mV in strict mode [Andrade-Alonso-2004, from memory]
     t, e = _synthetic(i_ua=25.0)  # 25 mV
     assert T.fit_transient(t, e, 25.0, area_cm2=26.0).warnings == ()
     strict = T.fit_transient(t, e, 25.0, area_cm2=26.0, strict=True)
@@ -122,7 +122,7 @@ def test_batch_flags_bad_location() -> None:
     row = out.set_index("location_id")
     assert row.loc["A1", "flag"] == "ok"
     assert row.loc["A1", "rp_ohm"] == pytest.approx(1000.0, rel=0.02)
-    # REFERENCE CR-07: class follows the fitted i_corr (here ~1.0 uA/cm2, on the moderate/high edge)
+    # [Andrade-Alonso-2004, from memory]: class follows the fitted i_corr (~1.0 uA/cm2, an edge)
     from geo_corrosion.condition.classes import RATE_RILEM
 
     assert row.loc["A1", "rate_class"] == RATE_RILEM.classify([row.loc["A1", "icorr_ua_cm2"]])[0]

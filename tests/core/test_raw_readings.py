@@ -46,7 +46,7 @@ def test_wenner_from_voltage_and_current(site_dir: Path) -> None:
                 "W3,13,5,0.2,\n",
                 'probe_spacing = "5 cm"')
     f = _survey(site_dir, "W").frame
-    # REFERENCE.md RES-01: a = 5 cm, V = 0.1 V, I = 100 uA -> 31.42 kOhm.cm (sourced + derived)
+    # a = 5 cm, V = 0.1 V, I = 100 uA -> 31.42 kOhm.cm [Wenner-1916], derived
     assert f["resistivity_kohm_cm"].iat[0] == pytest.approx(31.42, abs=0.01)
     assert f["apparent_resistivity_kohm_cm"].iat[0] == pytest.approx(31.42, abs=0.01)
     assert f["wenner_spacing_cm"].iat[0] == pytest.approx(5.0)
@@ -54,7 +54,7 @@ def test_wenner_from_voltage_and_current(site_dir: Path) -> None:
     assert f["value_source"].tolist() == ["raw"] * 3
     assert f["voltage_v"].iat[0] == pytest.approx(0.1)  # raw values kept
     assert f["derive_message"].iat[0] == ""
-    # REFERENCE.md RES-03: I = 0 -> refused, per reading, not fatal
+    # I = 0 -> refused, per reading, not fatal (common practice)
     assert np.isnan(f["resistivity_kohm_cm"].iat[1])
     msg = f["derive_message"].iat[1]
     assert "current of zero" in msg and "W.csv line 3" in msg and "point W2" in msg
@@ -69,14 +69,14 @@ def test_thickness_correction_and_geometry_warning(site_dir: Path) -> None:
                 'probe_spacing = "50 mm"\nelement_thickness = "100 mm"\nedge_distance = "60 mm"')
     s = _survey(site_dir, "W")
     f = s.frame
-    # REFERENCE.md RES-04: F(h/a = 2) = 1.0939; rho_true = rho_apparent / F
+    # F(h/a = 2) = 1.0939 (derived); rho_true = rho_apparent / F
     assert f["thickness_factor"].iat[0] == pytest.approx(1.0939, abs=5e-4)
     assert f["resistivity_kohm_cm"].iat[0] == pytest.approx(31.416 / 1.0939, rel=1e-3)
     assert f["apparent_resistivity_kohm_cm"].iat[0] == pytest.approx(31.42, abs=0.01)
-    # REFERENCE.md RES-06: h < 4a and edge distance < 2a -> geometry warnings, with source
+    # h < 4a and edge distance < 2a -> geometry warnings [Gowers-Millard-1999, from memory]
     warnings = [r for r in s.corrections if r["correction"] == "Wenner geometry check"]
     assert len(warnings) == 2
-    assert all("REFERENCE.md §2.2" in r["source"] for r in warnings)
+    assert all("[Gowers-Millard-1999" in r["source"] for r in warnings)
     assert any(r["correction"].startswith("finite-thickness") for r in s.corrections)
 
 
@@ -98,7 +98,7 @@ def test_raw_resistivity_needs_probe_spacing(site_dir: Path) -> None:
 def test_laboratory_class_set_refused(site_dir: Path) -> None:
     _add_survey(site_dir, "W", "resistivity", "kohm.cm", "point_id,x,y,value\nW1,5,5,30\n",
                 'probe_spacing = "50 mm"\nclass_set = "aashto_t358"')
-    # REFERENCE.md §2.4(c): AASHTO T 358 is a laboratory class set, refused for field readings
+    # AASHTO T 358 is a laboratory class set [AASHTO-T358-15 scope], refused for field readings
     with pytest.raises(SiteFileError, match="laboratory") as err:
         read_site(site_dir)
     assert "class_set" in str(err.value)
@@ -145,11 +145,11 @@ def test_stern_geary_from_rp(site_dir: Path) -> None:
                 "point_id,x,y,rp_ohm\nR1,5,5,1000\nR2,9,5,-50\nR3,13,5,\n", _CR_OPTS)
     s = _survey(site_dir, "R")
     f = s.frame
-    # REFERENCE.md CR-02: Rp 1000 ohm, A 26 cm2, B 26 mV -> 1.00 uA/cm2
+    # Rp 1000 ohm, A 26 cm2, B 26 mV -> 1.00 uA/cm2 [Stern-Geary-1957], derived
     assert f["icorr_ua_cm2"].iat[0] == pytest.approx(1.00, abs=1e-3)
     assert f["b_mv"].iat[0] == 26.0 and f["polarized_area_cm2"].iat[0] == 26.0
     assert f["rp_ohm"].iat[0] == 1000.0
-    # REFERENCE.md CR-05: 1 uA/cm2 -> 11.60 um/year; CR-07/CR-12: 1.0 is 'moderate'
+    # 1 uA/cm2 -> 11.60 um/year (Faraday, derived); 1.0 is 'moderate' (common practice)
     assert f["penetration_um_yr"].iat[0] == pytest.approx(11.60, abs=0.02)
     assert f["rate_level"].iat[0] == "moderate"
     assert f["derive_message"].iat[0] == ""
@@ -168,15 +168,15 @@ def test_ohmic_drop(site_dir: Path) -> None:
                 "R1,5,5,10,8,250,\nR2,9,5,,,250,1250\nR3,13,5,10,8,1500,\nR4,17,5,25,20,0,\n",
                 "polarized_area_cm2 = 26.0\nb_mv = 26")
     f = _survey(site_dir, "R").frame
-    # REFERENCE.md CR-09: dE 10 mV, dI 8 uA, R_ohm 250 ohm -> R_p = 1000 ohm; with CR-02 -> 1.00
+    # dE 10 mV, dI 8 uA, R_ohm 250 ohm -> R_p = 1000 ohm -> 1.00 (derived)
     assert f["rp_ohm"].iat[0] == pytest.approx(1000.0, abs=1e-6)
     assert f["icorr_ua_cm2"].iat[0] == pytest.approx(1.00, abs=1e-3)
     assert f["rp_ohm"].iat[1] == pytest.approx(1000.0, abs=1e-6)
     assert f["rp_measured_ohm"].iat[1] == 1250.0  # the raw value is kept
     assert f["r_ohm_ohm"].iat[0] == 250.0
-    # an ohmic resistance above dE/dI leaves no positive R_p: flagged (REFERENCE.md §3.1)
+    # an ohmic resistance above dE/dI leaves no positive R_p: flagged (common practice)
     assert np.isnan(f["icorr_ua_cm2"].iat[2]) and "not positive" in f["derive_message"].iat[2]
-    # REFERENCE.md CR-08: dE = 25 mV is outside the linear range: a warning, value kept
+    # dE = 25 mV is outside the linear range [Andrade-Alonso-2004, from memory]: warning only
     assert np.isfinite(f["icorr_ua_cm2"].iat[3]) and f["derive_message"].iat[3] == ""
     assert "linearity" in f["derive_warning"].iat[3]
 
@@ -186,10 +186,10 @@ def test_missing_area_and_bad_tafel_flagged(site_dir: Path) -> None:
                 "point_id,x,y,rp_ohm,area_cm2,tafel_anodic_mv_dec,tafel_cathodic_mv_dec\n"
                 "R1,5,5,1000,26,120,120\nR2,9,5,1000,,120,120\nR3,13,5,1000,26,10,120\n")
     f = _survey(site_dir, "R").frame
-    # REFERENCE.md CR-01 (B(120,120) = 26.05 mV) with CR-02: 26.05 / 26 uA/cm2
+    # B(120,120) = 26.05 mV [Roberge-2008 eqs. 5.22-5.23] -> 26.05 / 26 uA/cm2 (derived)
     assert f["b_mv"].iat[0] == pytest.approx(26.05, abs=0.05)
     assert f["icorr_ua_cm2"].iat[0] == pytest.approx(26.05 / 26.0, abs=2e-3)
-    # REFERENCE.md §3.4: i_corr is never computed without the polarized area
+    # i_corr is never computed without the polarized area (common practice)
     assert np.isnan(f["icorr_ua_cm2"].iat[1])
     assert "no polarized area" in f["derive_message"].iat[1]
     assert "line 3" in f["derive_message"].iat[1]
@@ -201,7 +201,7 @@ def test_bar_geometry_area(site_dir: Path) -> None:
     _add_survey(site_dir, "R", "corrosion_rate", "uA/cm2", "point_id,x,y,rp_ohm\nR1,5,5,1000\n",
                 'bar_diameter = "16 mm"\nconfinement_length = "105 mm"\nb_mv = "passive"')
     f = _survey(site_dir, "R").frame
-    # REFERENCE.md CR-04: pi x 1.6 x 10.5 = 52.78 cm2; B passive = 52 mV (REFERENCE.md §3.1)
+    # pi x 1.6 x 10.5 = 52.78 cm2; B passive = 52 mV [Andrade-Alonso-2004, from memory]
     assert f["polarized_area_cm2"].iat[0] == pytest.approx(52.78, abs=0.01)
     assert f["icorr_ua_cm2"].iat[0] == pytest.approx(52.0 * 1000 / (1000 * 52.78), rel=1e-3)
 
@@ -227,7 +227,7 @@ def test_file_rate_values_get_penetration_and_level(site_dir: Path) -> None:
     _add_survey(site_dir, "R", "corrosion_rate", "uA/cm2",
                 "point_id,x,y,value\nR1,5,5,0.5\nR2,9,5,2.0\n")
     f = _survey(site_dir, "R").frame
-    # REFERENCE.md CR-06: 0.5 -> 5.80, 2.0 -> 23.2 um/year; CR-07 levels
+    # 0.5 -> 5.80, 2.0 -> 23.2 um/year (derived); levels [Andrade-Alonso-2004, from memory]
     assert f["penetration_um_yr"].tolist() == pytest.approx([5.80, 23.2], abs=0.02)
     assert f["rate_level"].tolist() == ["moderate", "high"]
 
@@ -252,7 +252,7 @@ def test_transients(site_dir: Path) -> None:
                 'transients = "readings/pulses.csv"\n' + _CR_OPTS)
     s = _survey(site_dir, "G")
     f = s.frame
-    # the Randles model recovered on a synthetic transient (REFERENCE.md §3.6, CR-12)
+    # the Randles model recovered on a synthetic transient [Newton-Sykes-1988, from memory]
     assert f["rp_ohm"].iat[0] == pytest.approx(1000.0, rel=0.02)
     assert f["r_ohm_ohm"].iat[0] == pytest.approx(200.0, rel=0.05)
     assert f["cdl_uf"].iat[0] == pytest.approx(10_000.0, rel=0.05)
@@ -282,14 +282,14 @@ def test_transient_linearity(site_dir: Path, strict: bool, warned: bool) -> None
                 f'transients = "readings/pulses.csv"\nstrict_linearity = {str(strict).lower()}\n'
                 + _CR_OPTS)
     f = _survey(site_dir, "G").frame
-    # REFERENCE.md CR-13: I R_p = 25 mV is within 30 mV, beyond the strict 20 mV: warning only
+    # I R_p = 25 mV is within 30 mV (common practice), beyond the strict 20 mV: warning only
     assert ("linear range" in f["derive_warning"].iat[0]) is warned
     assert f["derive_message"].iat[0] == "" and np.isfinite(f["icorr_ua_cm2"].iat[0])
 
 
 def test_potentiostatic_sweeps(site_dir: Path) -> None:
     # a linear sweep of +-15 mV about E_corr = -400 mV through a 1000 ohm polarization
-    # resistance: 1 uA gives 1 mV; Stern-Geary then gives 1.00 uA/cm2 (REFERENCE.md CR-02)
+    # resistance: 1 uA gives 1 mV; Stern-Geary then gives 1.00 uA/cm2 (derived)
     i_ua = np.linspace(-15, 15, 31)
     rows = ["location_id,e_mv,i_ua"] + [f"S1,{-400 + i * 1.0:.4f},{i:.4f}" for i in i_ua]
     rows += [f"S2,{-300 - i:.4f},{i:.4f}" for i in i_ua]  # negative slope (leads swapped): flagged

@@ -59,7 +59,7 @@ def test_manifest(run_out: tuple[Path, Path]) -> None:
 def test_corrections_recorded_and_recover_field(run_out: tuple[Path, Path]) -> None:
     _site, out = run_out
     df = pyogrio.read_dataframe(out / "survey.gpkg", layer="readings_potential")
-    # Ag/AgCl(sat KCl) to CSE is -119 mV (REFERENCE.md §1.4); no temperature coefficient is
+    # Ag/AgCl(sat KCl) to CSE is -119 mV [IJCorros-2010 Table 2]; no temperature coefficient is
     # applied to a non-CSE electrode by default
     assert set(df["electrode_offset_mv"].round(6)) == {-119.0}
     np.testing.assert_allclose(df["potential_mv"], df["raw_value"] - 119.0)

@@ -70,7 +70,7 @@ def sample_result():  # type: ignore[no-untyped-def]
 
 @pytest.mark.slow
 def test_low_cover_reaches_the_combined_classes(sample_result) -> None:  # type: ignore[no-untyped-def]
-    # REFERENCE.md §5.3 item 2: low cover together with a high corrosion likelihood is the
+    # common practice: low cover together with a high corrosion likelihood is the
     # highest priority.  Default rule 1: low cover and potential < -350 mV CSE (ASTM C876)
     # -> High priority.  The low-cover mask is recomputed here from the kriged cover and the
     # specified cover minus its tolerance (2 in - 0.5 in = 38.1 mm; 1 in = 25.4 mm exactly).
@@ -100,7 +100,7 @@ def test_low_cover_reaches_the_combined_classes(sample_result) -> None:  # type:
 
 @pytest.mark.slow
 def test_life_summary_is_given_per_corrosion_rate_survey(sample_result) -> None:  # type: ignore[no-untyped-def]
-    # Alonso et al. 1998 (REFERENCE.md §4.2, from memory): the time is counted from initiation
+    # [Alonso-Andrade-1998, from memory]: the time is counted from initiation
     site = sample_result.site
     for lid, lr in sample_result.levels.items():
         surveys = [s.id for s in site.surveys_of(lid, "corrosion_rate")]

@@ -179,7 +179,7 @@ def test_suspicious_reading_is_flagged_not_dropped(site_dir: Path) -> None:
     p = site_dir / "readings" / "potential.csv"
     lines = p.read_text().splitlines()
     a, x, y, _v = lines[10].split(",")
-    lines[10] = ",".join([a, x, y, "-1250.0"])  # implausible (REFERENCE HCP-13 range [-1000, +200])
+    lines[10] = ",".join([a, x, y, "-1250.0"])  # implausible (range -1000 to +200, common practice)
     p.write_text("\n".join(lines) + "\n")
     site = open_site(site_dir)
     from geo_corrosion.stages.check_site import check_site
@@ -219,7 +219,7 @@ def test_quantities_without_a_run_says_so(tmp_path: Path) -> None:
 
 
 def test_contour_interval_over_100_mv_refused(site_dir: Path) -> None:
-    # ASTM C876 maximum contour interval 0.10 V (REFERENCE.md §1.8, from memory)
+    # ASTM C876 maximum contour interval 0.10 V [ASTM-C876-91 §6.2, from memory]
     edit(site_dir / "site.toml", '[run]\n', '[run]\ncontour_interval_mv = 150\n')
     _fails(site_dir, "contour_interval_mv")
 
@@ -476,7 +476,7 @@ def test_two_levels_with_one_name_are_refused(site_dir: Path) -> None:
 
 
 def test_stability_series_flags_unstable_readings(site_dir: Path) -> None:
-    # REFERENCE.md HCP-09 (ASTM C876 procedure, from memory): [-250, -262, -271] over 5 min
+    # [ASTM-C876-15 procedure, from memory]: [-250, -262, -271] over 5 min
     # spans 21 mV > 20 mV -> unstable, "pre-wet required"; [-250, -255, -270] spans 20: stable
     p = site_dir / "readings" / "potential.csv"
     lines = p.read_text().splitlines()

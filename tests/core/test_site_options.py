@@ -26,7 +26,7 @@ def test_declared_zoning_rules_and_anodes(site_dir: Path, tmp_path: Path) -> Non
     sched = pd.read_csv(tmp_path / "out" / "quantities.csv")
     anodes = sched[(sched["unit"] == "EA") & (sched["line"] == "base") & (sched["level_id"] == "ALL")]
     assert len(anodes) == 1
-    # count = ceil(saw-cut perimeter / spacing) summed over repairs (REFERENCE §6.4, common practice)
+    # count = ceil(saw-cut perimeter / spacing) summed over repairs (common practice)
     import math
 
     reps = r.levels["D1"].repairs
@@ -95,8 +95,8 @@ def test_life_estimates_at_readings() -> None:
     cover = SimpleNamespace(grid=grid, mean=np.full((4, 4), 50.0))
     frame = pd.DataFrame({"x_local": [1.5, 2.5], "y_local": [1.5, 2.5], "icorr_ua_cm2": [1.0, 0.0]})
     out, summary = life_estimates(frame, cover, bar_diameter_mm=12.0)  # type: ignore[arg-type]
-    # LIFE-05 (Alonso et al. 1998, from memory): c 50 mm, phi 12 mm -> 46.36 um; at 1 uA/cm2
-    # (11.6 um/yr, REFERENCE §3.2) -> 46.36 / 11.6 = 4.0 years
+    # [Alonso-Andrade-1998, from memory]: c 50 mm, phi 12 mm -> 46.36 um; at 1 uA/cm2
+    # (11.6 um/yr, derived) -> 46.36 / 11.6 = 4.0 years
     assert out["time_to_cracking_yr"].iloc[0] == pytest.approx(46.36 / 11.6, rel=2e-3)
     assert np.isnan(out["time_to_cracking_yr"].iloc[1])
     # 10 years at 1 uA/cm2: 0.116 mm off the radius of a 12 mm bar -> 1 - (11.768/12)^2 = 3.83 %
@@ -124,7 +124,7 @@ def test_cse_temperature_outside_valid_range_flagged(tmp_path: Path) -> None:
 
 def test_delamination_depth_attribute_sets_depth_class(site_dir: Path, tmp_path: Path) -> None:
     # a GeoJSON delamination with depth_in = 0.5: shallower than the 38 mm default cover less
-    # the bar, so the repair stays above the bars (REFERENCE §6.3; ICRI 310.1R via §6.2)
+    # the bar, so the repair stays above the bars (common practice; [ICRI-310.1R-2008])
     import json
 
     (site_dir / "sounding" / "shallow.geojson").write_text(json.dumps({
@@ -219,14 +219,14 @@ def test_plugin_rule_constructor_errors_name_the_rule(site_dir: Path) -> None:
     ('anode_spacing = 24', "anode_spacing"),
 ])
 def test_bad_layout_values_name_the_site_file_key(site_dir: Path, text: str, key: str) -> None:
-    # limits of repair.LayoutParams (REFERENCE §6.2, [P]); before, the message named only
+    # limits of repair.LayoutParams (common practice); before, the message named only
     # "repair layout: bar_diameter_mm" and came from `run`'s parameter check, not from read_site
     edit(site_dir / "site.toml", "[run]\n", f"[run]\n{text}\n")
     _refused(site_dir, f"site.toml: [run].{key}: ")
 
 
 def test_sawcut_depth_default_is_three_quarter_inch_exactly(site_dir: Path) -> None:
-    # ICRI 310.1R (REFERENCE §6.2 [S]): 3/4 in saw cut; 1 in = 25.4 mm exactly
+    # [ICRI-310.1R-2008], to confirm: 3/4 in saw cut; 1 in = 25.4 mm exactly
     from geo_corrosion.config import RunParams
 
     assert RunParams().sawcut_depth_mm == 19.05  # the float nearest 19.05, as "19.05 mm" gives
@@ -239,7 +239,7 @@ def test_sawcut_depth_default_is_three_quarter_inch_exactly(site_dir: Path) -> N
 
 
 def test_library_sawcut_depth_defaults_are_three_quarter_inch() -> None:
-    # ICRI 310.1R (REFERENCE §6.2 [S]): 3/4 in = 19.05 mm, for direct library calls too
+    # [ICRI-310.1R-2008], to confirm: 3/4 in = 19.05 mm, for direct library calls too
     import inspect
 
     from geo_corrosion.repair import LayoutParams, depth_class
@@ -314,14 +314,14 @@ def test_min_zone_area_other_forms_refused(site_dir: Path, text: str, pattern: s
 ])
 def test_combined_rule_messages_name_the_dotted_key(site_dir: Path, table: str,
                                                     pattern: str) -> None:
-    # class sets of condition/classes.py (c876, rilem_rate: REFERENCE §1.2, §3.3; AASHTO T 358
-    # laboratory scope: §2.4(c)); message form: common practice, no source
+    # class sets of condition/classes.py (c876, rilem_rate: [ASTM-C876-91 App. X1];
+    # [Andrade-Alonso-2004]; [AASHTO-T358-15 scope]); message form: common practice, no source
     _append(site_dir, f"[condition.combined]\n{table}")
     _refused(site_dir, pattern)
 
 
 def test_combined_table_with_severe_class_set_accepted(site_dir: Path) -> None:
-    # c876_severe adds 'severe' (REFERENCE §1.2, common practice)
+    # c876_severe adds 'severe' (common practice)
     _append(site_dir, '[condition.combined]\nclass_sets = { potential = "c876_severe" }\n'
                       '[[condition.combined.rules]]\nname = "severe"\npotential = ["severe"]\n'
                       'class = "high_priority"')

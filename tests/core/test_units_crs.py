@@ -14,12 +14,12 @@ from geo_corrosion.units import convert, parse_length, report_units
 
 
 def test_res02_resistivity_units() -> None:
-    # RES-02: 100 ohm.m = 10 kOhm.cm; 1000 ohm.m = 100 kOhm.cm
+    # exact: 100 ohm.m = 10 kOhm.cm; 1000 ohm.m = 100 kOhm.cm
     np.testing.assert_allclose(convert([100.0, 1000.0], "ohm.m", "kohm.cm"), [10.0, 100.0])
 
 
 def test_bid01_area_conversion() -> None:
-    # BID-01: 6.00 ft2 -> 0.5574 m2 (1 ft = 0.3048 m exactly)
+    # 6.00 ft2 -> 0.5574 m2 (1 ft = 0.3048 m exactly [NIST-SP811-2008 App. B])
     assert 6.0 * 0.3048**2 == pytest.approx(0.5574, abs=1e-4)
     assert float(report_units("us").area_from_m2(0.55741824)) == pytest.approx(6.0)
 

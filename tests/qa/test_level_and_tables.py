@@ -28,7 +28,7 @@ def two_surveys(make_frame: Any, a_mv: float, b_mv: float) -> list[Any]:
 
 
 def test_hcp08_reproducibility_pass(make_frame: Any) -> None:
-    # REFERENCE.md HCP-08, ASTM C876 precision (from memory): (-300, -315) passes 20 mV
+    # [ASTM-C876-15 precision section, from memory]: (-300, -315) passes 20 mV
     flags = qa.check_level(two_surveys(make_frame, -300.0, -315.0), **LEVEL, spacing=1.0)
     assert "QA-REPRODUCIBILITY" not in set(flags["rule"])
     rep = flags[flags["rule"] == "QA-REPRO"]
@@ -37,7 +37,7 @@ def test_hcp08_reproducibility_pass(make_frame: Any) -> None:
     assert all("15.0 mV" in m for m in rep["message"])
     m1 = rep.loc[rep["reading_id"] == "S1:0", "message"].iloc[0]
     assert m1.startswith("readings/L1_am.csv line 2:") and "survey(s) 'S2';" in m1
-    # the same pair in ONE survey fails repeatability (HCP-08 other half)
+    # the same pair in ONE survey fails repeatability (10 mV, the other half)
     one = make_frame([-300.0, -315.0], xy=[(0, 0), (0, 0)], point_ids=["CP1", "CP1"])
     single = qa.check_survey(one, **LEVEL, plausible_range=(-1000, 200), slab_local=None)
     assert "QA-REPEATABILITY" in set(single["rule"])

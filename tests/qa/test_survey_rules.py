@@ -12,7 +12,7 @@ import shapely
 from geo_corrosion import qa
 from geo_corrosion.errors import QAError
 
-PLAUSIBLE_MV = (-1000.0, 200.0)  # REFERENCE.md §1.9 [P]
+PLAUSIBLE_MV = (-1000.0, 200.0)  # common practice
 
 
 def grid_xy(nx: int, ny: int, spacing: float = 1.0) -> list[tuple[float, float]]:
@@ -42,7 +42,7 @@ def test_catalogue_names_sources() -> None:
         assert rule.code == code
         assert rule.severity in {"info", "warning", "error"}
         assert rule.description and rule.source
-    # ASTM C876-91 §5.1 (from memory; REFERENCE.md §1.5): the adjacent-difference rule
+    # [ASTM-C876-91 §5.1, from memory]: the adjacent-difference rule
     assert "C876" in qa.QA_RULES["QA-ADJ-150"].source
     assert qa.QA_RULES["QA-OPEN-LEAD"].severity == "error"
     assert qa.QA_RULES["QA-INVERTED"].severity == "error"
@@ -50,7 +50,7 @@ def test_catalogue_names_sources() -> None:
 
 
 def test_hcp13_plausible_range(make_frame: Any) -> None:
-    # REFERENCE.md HCP-13 (common practice; RILEM TC 154 ranges, from memory)
+    # common practice, after [RILEM-TC154-2003 Table 1, from memory]
     f = make_frame([-1200.0, -450.0, 0.0, 350.0])
     flags = check(f)
     assert rows_of(flags, "QA-RANGE-LOW") == ["S1:0"]
@@ -58,7 +58,7 @@ def test_hcp13_plausible_range(make_frame: Any) -> None:
     low = flags[flags["rule"] == "QA-RANGE-LOW"].iloc[0]
     assert low["message"].startswith("readings/L1_east.csv line 2:")
     assert "check connection, electrode or units" in low["message"]
-    # REFERENCE.md §1.9: more negative than -1000 mV may be cathodic protection / stray current
+    # common practice: more negative than -1000 mV may be cathodic protection / stray current
     assert "cathodic protection or stray current" in low["message"]
     assert low["value"] == -1200.0
     high = flags[flags["rule"] == "QA-RANGE-HIGH"].iloc[0]
@@ -68,7 +68,7 @@ def test_hcp13_plausible_range(make_frame: Any) -> None:
 
 
 def test_plausible_range_bounds_are_plausible(make_frame: Any) -> None:
-    # REFERENCE.md §1.9: "outside [-1000, +200]" -> the bounds themselves pass (common practice)
+    # "outside [-1000, +200]" -> the bounds themselves pass (common practice)
     f = make_frame([-1000.0, 200.0, -1000.1, 200.1])
     flags = check(f)
     assert rows_of(flags, "QA-RANGE-LOW") == ["S1:2"]
@@ -94,7 +94,7 @@ def test_nan_location_flagged(make_frame: Any) -> None:
 
 
 def test_open_lead_survey(make_frame: Any) -> None:
-    # REFERENCE.md HCP-13 / §1.9 (common practice): every reading within +-5 mV of 0
+    # common practice: every reading within +-5 mV of 0
     f = make_frame([0.0, 1.5, -2.0, 5.0, -5.0, 3.1])
     flags = check(f)
     lead = flags[flags["rule"] == "QA-OPEN-LEAD"]
@@ -107,14 +107,14 @@ def test_open_lead_survey(make_frame: Any) -> None:
 
 
 def test_open_lead_other_side(make_frame: Any) -> None:
-    # REFERENCE.md §1.9 (common practice): one reading beyond 5 mV -> not an open lead
+    # common practice: one reading beyond 5 mV -> not an open lead
     flags = check(make_frame([0.0, 1.5, -2.0, 5.0, -5.1, 3.1]))
     assert "QA-OPEN-LEAD" not in set(flags["rule"])
     assert qa.runnable(flags)
 
 
 def test_inverted_sign_survey(make_frame: Any) -> None:
-    # REFERENCE.md §1.9 (common practice): a sign flip over the whole survey -> leads reversed
+    # common practice: a sign flip over the whole survey -> leads reversed
     vals = [250.0, 310.0, 180.0, 420.0, 350.0, 290.0, 205.0, 330.0, 260.0, 300.0]
     flags = check(make_frame(vals))
     inv = flags[flags["rule"] == "QA-INVERTED"]
@@ -206,14 +206,14 @@ def test_duplicate_default_tolerance_without_spacing(make_frame: Any) -> None:
 
 
 def test_same_point_id_is_a_repeat_not_a_duplicate(make_frame: Any) -> None:
-    # REFERENCE.md §1.6 (common practice): repeats at control points are intended
+    # common practice: repeats at control points are intended
     f = make_frame([-300.0, -305.0], xy=[(0.0, 0.0), (0.0, 0.0)], point_ids=["CP1", "CP1"])
     flags = check(f, spacing=1.0)
     assert rows_of(flags, "QA-DUPLICATE") == []
 
 
 def test_hcp08_repeatability_pass(make_frame: Any) -> None:
-    # REFERENCE.md HCP-08, ASTM C876 precision (from memory): (-300, -305) passes 10 mV
+    # [ASTM-C876-15 precision section, from memory]: (-300, -305) passes 10 mV
     f = make_frame([-300.0, -305.0, -250.0], xy=[(0, 0), (0, 0), (1, 0)],
                    point_ids=["CP1", "CP1", ""])
     flags = check(f, spacing=1.0)
@@ -225,7 +225,7 @@ def test_hcp08_repeatability_pass(make_frame: Any) -> None:
 
 
 def test_hcp08_repeatability_fail(make_frame: Any) -> None:
-    # REFERENCE.md HCP-08, ASTM C876 precision (from memory): (-300, -315) fails 10 mV,
+    # [ASTM-C876-15 precision section, from memory]: (-300, -315) fails 10 mV,
     # and the message says it is within the 20 mV reproducibility
     f = make_frame([-300.0, -315.0], xy=[(0, 0), (0, 0)], point_ids=["CP1", "CP1"])
     flags = check(f, spacing=1.0)
@@ -284,7 +284,7 @@ def _spike_grid(make_frame: Any, centre_mv: float) -> Any:
 
 
 def test_adjacent_spike(make_frame: Any) -> None:
-    # ASTM C876-91 §5.1 (from memory; REFERENCE.md §1.5): |dE| > 150 mV between adjacent readings
+    # [ASTM-C876-91 §5.1, from memory]: |dE| > 150 mV between adjacent readings
     flags = check(_spike_grid(make_frame, -360.0), spacing=1.0)
     spike = flags[flags["rule"] == "QA-ADJ-SPIKE"]
     assert spike["reading_id"].tolist() == ["S1:12"]
@@ -316,7 +316,7 @@ def test_adjacent_spacing_estimated(make_frame: Any) -> None:
 
 
 def test_adjacent_gradient_is_info(make_frame: Any) -> None:
-    # REFERENCE.md §1.5: a step between two zones is "grid too coarse here", not a spike
+    # [ASTM-C876-91 §5.1, from memory]: a step between two zones is "grid too coarse", no spike
     xy = grid_xy(6, 3)
     vals = [-200.0 if x < 3 else -400.0 for x, _ in xy]
     flags = check(make_frame(vals, xy=xy), spacing=1.0)
@@ -327,7 +327,7 @@ def test_adjacent_gradient_is_info(make_frame: Any) -> None:
 
 
 def test_single_neighbour_is_not_a_spike(make_frame: Any) -> None:
-    # REFERENCE.md §1.5 rule; spike criterion (two or more neighbours) common practice
+    # [ASTM-C876-91 §5.1, from memory]; spike criterion (two or more neighbours) common practice
     flags = check(make_frame([-200.0, -400.0, -390.0], xy=[(0, 0), (1, 0), (2, 0)]), spacing=1.0)
     assert rows_of(flags, "QA-ADJ-SPIKE") == []
     assert rows_of(flags, "QA-ADJ-150") == ["S1:0", "S1:1"]
@@ -400,7 +400,7 @@ def test_bad_parameters(make_frame: Any, kw: dict[str, Any], match: str) -> None
 
 
 def test_control_point_drift_over_the_shift(make_frame: Any) -> None:
-    # REFERENCE.md §1.6 tool behaviour: flag a survey when a control point drifts by more than
+    # common practice: flag a survey when a control point drifts by more than
     # 20 mV between the start and the end of a shift (20 mV: C876 stability/reproducibility,
     # from memory). CP1 is read first, in the middle and last: -300 ... -322 is 22 mV of drift
     # (the middle reading does not count); CP2 drifts 20 mV exactly, which is within.

@@ -52,7 +52,7 @@ def test_dxf_read_back(tmp_path, level) -> None:
     assert got == want
     texts = [t.dxf.text for t in msp.query("TEXT")]
     assert "P1-R001" in texts and "P1-R002" in texts
-    assert "9.00 ft2" in texts  # REFERENCE REP-01 repair labelled in reporting units
+    assert "9.00 ft2" in texts  # the 9.00 ft2 repair labelled in reporting units
     assert any("CAUTIONS" in m.text and "tendons" in m.text for m in msp.query("MTEXT"))
     assert [p.name for p in tmp_path.iterdir()] == ["P1.dxf"]
 
@@ -89,7 +89,7 @@ def test_xlsx_read_back(tmp_path, level) -> None:
                       "Total quantity"])
     assert ws.cell(row=hdr + 1, column=1).font.bold
     body = {(r[0], r[1]): r for r in rows[hdr + 1:] if r[1]}
-    rep_ft2 = float(US.area_from_m2(rep.area_m2.sum()))  # 9 + 6 ft2 (REP-01 + REP-02)
+    rep_ft2 = float(US.area_from_m2(rep.area_m2.sum()))  # 9 + 6 ft2 (hand-worked)
     assert rep_ft2 == pytest.approx(15.0)
     assert body[("ALL", "REP-PD-BARS")][3:] == ["ft2", pytest.approx(15.0), pytest.approx(3.0),
                                                 pytest.approx(18.0)]
@@ -102,7 +102,7 @@ def test_xlsx_read_back(tmp_path, level) -> None:
     wl = wb["P1"]
     assert [c.value for c in wl[2]] == ["Repair", "Area (ft2)", "Saw cut (LF)"]
     assert wl.cell(row=2, column=2).font.bold
-    # R001 is the upper repair (REP-02 rectangle, 6 ft2), R002 the REP-01 square (9 ft2)
+    # R001 is the upper repair (the rectangle, 6 ft2), R002 the square (9 ft2)
     assert [wl.cell(row=3 + i, column=2).value for i in range(2)] == pytest.approx([6.0, 9.0])
     assert wl.column_dimensions["A"].width >= len("P1-R001")
     assert [p.name for p in tmp_path.iterdir()] == ["q.xlsx"]

@@ -1,4 +1,4 @@
-"""Repair layout against hand-worked cases (REFERENCE.md §6.2)."""
+"""Repair layout against hand-worked cases (common practice, built on [ICRI-310.1R-2008])."""
 
 from __future__ import annotations
 
@@ -27,7 +27,7 @@ def run(geoms, *, slab=SLAB_M, unit="m", exclusions=(), joints=(), **params):
 
 
 def test_rep01_circle_grown_to_saw_cut_square() -> None:
-    # REFERENCE.md REP-01: r = 12 in, offset 6 in -> 36 x 36 in = 9.00 ft2, perimeter 12 ft
+    # r = 12 in, offset 6 in [ICRI-310.1R-2008, from memory] -> 36 x 36 in = 9.00 ft2, 12 ft
     # (M for the 6 in, D)
     r = run([Point(0, 0).buffer(1.0)], slab=box(-20, -20, 20, 20), unit="ft", margin_mm=152.4)
     assert len(r) == 1
@@ -39,7 +39,7 @@ def test_rep01_circle_grown_to_saw_cut_square() -> None:
 
 
 def test_rep02_rectangle_grown_by_six_inches() -> None:
-    # REFERENCE.md REP-02: 24 x 12 in, offset 6 in -> 36 x 24 in = 6.00 ft2, saw-cut 10 ft (M + D)
+    # 24 x 12 in, offset 6 in [ICRI-310.1R-2008, from memory] -> 36 x 24 in = 6.00 ft2, 10 ft
     r = run([box(5, 5, 7, 6)], unit="ft", margin_mm=152.4)
     assert r.area_m2.iloc[0] / FT2 == pytest.approx(6.0, abs=1e-6)
     assert r.area_m2.iloc[0] == pytest.approx(0.5574, abs=1e-4)
@@ -50,7 +50,7 @@ def test_rep02_rectangle_grown_by_six_inches() -> None:
 def test_two_nearby_repairs_merged_into_bounding_rectangle() -> None:
     # hand-worked: 1 x 1 m delaminations 0.4 m apart, margin 0.15 m -> rectangles 0.1 m apart
     # (< 0.3 m gap); bounding rectangle 2.7 x 1.3 m = 3.51 m2 adds 3.8 % < 25 %
-    # (REFERENCE §6.2 step 4, P)
+    # (common practice)
     r = run([box(5, 5, 6, 6), box(6.4, 5, 7.4, 6)])
     assert len(r) == 1
     assert r.area_m2.iloc[0] == pytest.approx(3.51, abs=1e-9)
@@ -77,7 +77,7 @@ def test_far_apart_repairs_stay_separate_and_are_numbered_top_down() -> None:
 def test_merge_kept_as_l_shape_when_bounding_rectangle_costs_too_much() -> None:
     # hand-worked: rectangles 4.3 x 1.3 and 1.3 x 3.8 m, 0.2 m apart; bounding rectangle
     # 4.3 x 5.3 = 22.79 m2 is +116 % -> L shape; the 0.2 m strip (< 0.3 m re-entrant minimum)
-    # is filled across the whole width: 4.3 x 1.5 + 1.3 x 3.8 = 11.39 m2 (REFERENCE §6.2 step 4, P)
+    # is filled across the whole width: 4.3 x 1.5 + 1.3 x 3.8 = 11.39 m2 (common practice)
     r = run([box(5, 5, 9, 6), box(5, 6.5, 6, 10)])
     assert len(r) == 1
     g = r.geometry.iloc[0]
@@ -89,7 +89,7 @@ def test_merge_kept_as_l_shape_when_bounding_rectangle_costs_too_much() -> None:
 
 def test_repair_next_to_exclusion_stops_at_it() -> None:
     # hand-worked: 1.3 x 1.3 m repair cut by a column face at x = 6.05 -> 1.2 x 1.3 = 1.56 m2;
-    # no saw cut along the column face: 5.0 - 1.3 = 3.7 m (REFERENCE §6.2 step 6, P)
+    # no saw cut along the column face: 5.0 - 1.3 = 3.7 m (common practice)
     column = box(6.05, 4, 7, 7)
     r = run([box(5, 5, 6, 6)], exclusions=[column])
     assert r.area_m2.iloc[0] == pytest.approx(1.56, abs=1e-9)
@@ -100,7 +100,7 @@ def test_repair_next_to_exclusion_stops_at_it() -> None:
 
 def test_repair_across_joint_is_split() -> None:
     # hand-worked: 2 x 1 m delamination across a joint at x = 6 -> two 1.15 x 1.3 m pieces,
-    # each 1.495 m2 with a 3.6 m saw cut (no cut along the joint) (REFERENCE §6.2 step 6, P)
+    # each 1.495 m2 with a 3.6 m saw cut (no cut along the joint) (common practice)
     r = run([box(5, 5, 7, 6)], joints=[LineString([(6, 0), (6, 20)])])
     assert len(r) == 2
     assert r.area_m2.tolist() == pytest.approx([1.495, 1.495], abs=1e-9)
@@ -112,7 +112,7 @@ def test_repair_across_joint_is_split() -> None:
 def test_repair_extends_to_free_edge_within_margin() -> None:
     # hand-worked: rectangle side 0.05 m from the slab edge (< 0.15 m margin) goes to the edge:
     # 1.15 x 1.3 = 1.495 m2 instead of 1.1 x 1.3 = 1.43 m2; no cut on the edge
-    # (REFERENCE §6.2 step 6, P)
+    # (common practice)
     r = run([box(0.2, 5, 1, 6)])
     assert r.area_m2.iloc[0] == pytest.approx(1.495, abs=1e-9)
     assert r.perimeter_m.iloc[0] == pytest.approx(2 * 1.15 + 1.3, abs=1e-6)
@@ -121,14 +121,14 @@ def test_repair_extends_to_free_edge_within_margin() -> None:
 
 
 def test_minimum_size_enforced() -> None:
-    # REFERENCE §6.2 step 5 (P): 10 mm spot + 50 mm margin = 110 mm -> 300 x 300 mm minimum
+    # common practice: 10 mm spot + 50 mm margin = 110 mm -> 300 x 300 mm minimum
     r = run([box(5, 5, 5.01, 5.01)], margin_mm=50.0)
     assert r.area_m2.iloc[0] == pytest.approx(0.09, abs=1e-9)
 
 
 def test_rotated_axes() -> None:
     # hand-worked: 2 x 1 m delamination at 30 degrees laid out on 30-degree axes:
-    # 2.3 x 1.3 = 2.99 m2, square corners (REFERENCE §6.2 step 3, user-selected angle)
+    # 2.3 x 1.3 = 2.99 m2, square corners (common practice, user-selected angle)
     d = affinity.rotate(box(8, 8, 10, 9), 30, origin=(9, 8.5))
     r = run([d], axis_angle_deg=30.0)
     assert r.area_m2.iloc[0] == pytest.approx(2.99, abs=1e-9)
@@ -136,7 +136,7 @@ def test_rotated_axes() -> None:
 
 
 def test_depth_class_from_source_columns() -> None:
-    # REFERENCE §6.3 (M/P): plane above the bars -> partial above; the deepest source
+    # common practice: plane above the bars -> partial above; the deepest source
     # governs a merged repair
     src = sources([box(5, 5, 6, 6), box(6.2, 5, 7.2, 6)], cover_mm=[50.0, 50.0],
                   delam_depth_mm=[25.0, None])
@@ -213,7 +213,7 @@ def test_reentrant_corner_count() -> None:
 def test_cheap_pair_merged_first_then_l_shape() -> None:
     # hand-worked: A, B 1 x 1 m side by side (rectangles 0.1 m apart) merge into 2.7 x 1.3 m
     # (+3.8 %); the long strip C (rectangle 0.8 x 3.9 m, 0.1 m above) would cost +120 % as one
-    # rectangle, so an L: 2.7 x 1.4 (0.1 m strip filled) + 0.8 x 3.9 = 6.90 m2 (REFERENCE §6.2, P)
+    # rectangle, so an L: 2.7 x 1.4 (0.1 m strip filled) + 0.8 x 3.9 = 6.90 m2 (common practice)
     r = run([box(5, 5, 6, 6), box(6.4, 5, 7.4, 6), box(5, 6.4, 5.5, 10)])
     assert len(r) == 1
     assert r.area_m2.iloc[0] == pytest.approx(6.90, abs=1e-9)
@@ -232,7 +232,7 @@ def test_sound_islands_inside_a_repair_filled_when_small_or_narrow() -> None:
     assert _fill_holes(outer.difference(box(1, 1, 8, 8)), 0.25, 0.3).area == 51.0
 
 
-# Minimum size after clipping.  Sources: ICRI 310.1R via REFERENCE.md §6 for the margin;
+# Minimum size after clipping.  Sources: [ICRI-310.1R-2008, from memory] for the margin;
 # minimum size: common practice, no source.  In feet: 6 in margin = 152.4 mm, 12 in minimum
 # = 304.8 mm (the template's values); in metres: the defaults, 150 mm and 300 mm.
 

@@ -1,4 +1,4 @@
-"""Bid items and the schedule (REFERENCE.md §6.4)."""
+"""Bid items and the schedule (common practice)."""
 
 from __future__ import annotations
 
@@ -42,7 +42,7 @@ def q(schedule, level, item, line):
 
 
 def test_bid01_contingency_as_separate_line() -> None:
-    # REFERENCE.md BID-01 (D/P): 500 ft2 + 20 % -> 600 ft2, reported as 500 + 100
+    # common practice: 500 ft2 + 20 % -> 600 ft2, reported as 500 + 100
     s = bid_schedule(repairs_ft([(0, 0, 20, 25)]), None, units=US, contingency=0.20)
     assert q(s, "P1", "REP-PD-BARS", "base") == pytest.approx(500.0, abs=1e-6)
     assert q(s, "P1", "REP-PD-BARS", "contingency") == pytest.approx(100.0, abs=1e-6)
@@ -54,7 +54,7 @@ def test_bid01_contingency_as_separate_line() -> None:
 
 
 def test_bid01_metric_conversion() -> None:
-    # REFERENCE.md BID-01 (D): 6.00 ft2 -> 0.5574 m2
+    # 6.00 ft2 -> 0.5574 m2 [NIST-SP811-2008 App. B]
     s = bid_schedule(repairs_ft([(0, 0, 3, 2)]), None, units=SI, contingency=0.0)
     assert q(s, "P1", "REP-PD-BARS", "base") == pytest.approx(0.5574, abs=1e-4)
     assert q(s, "P1", "REP-PD-BARS", "contingency") == 0.0
@@ -68,7 +68,7 @@ def test_overlapping_repairs_counted_once() -> None:
 
 
 def test_bid03_roll_up_by_item_and_levels() -> None:
-    # REFERENCE.md BID-03 (P): quantities roll up by item and unit; totals = sum of levels
+    # common practice: quantities roll up by item and unit; totals = sum of levels
     r = pd.concat([repairs_ft([(0, 0, 10, 10)], level="P1"),
                    repairs_ft([(0, 0, 5, 4)], level="P2"),
                    repairs_ft([(20, 20, 22, 22)], level="P2", depth_class="full_depth")])
@@ -80,7 +80,7 @@ def test_bid03_roll_up_by_item_and_levels() -> None:
 
 
 def test_bid03_mixed_units_in_one_item_raise() -> None:
-    # REFERENCE.md BID-03 (P): mixing units in one item raises an error
+    # common practice: mixing units in one item raises an error
     items = {"REP-PD-BARS": BidItem("REP-PD-BARS", "repair counted by the each", "count")}
     with pytest.raises(RepairError, match="REP-PD-BARS.*mixes units"):
         bid_schedule(repairs_ft([(0, 0, 2, 2)]), None, units=US, items=items)
@@ -91,7 +91,7 @@ def test_bid03_mixed_units_in_one_item_raise() -> None:
 
 
 def test_anodes_by_perimeter_spacing() -> None:
-    # REFERENCE §6.4 (P): count = ceil(perimeter / spacing) per repair.
+    # common practice: count = ceil(perimeter / spacing) per repair.
     # 3 x 3 ft repair: 12 ft perimeter; 24 in spacing -> 6; 500 mm -> ceil(7.315) = 8
     r = repairs_ft([(0, 0, 3, 3), (10, 10, 13, 13)])
     s = bid_schedule(r, None, units=US, anode_spacing_mm=609.6, contingency=0.2)

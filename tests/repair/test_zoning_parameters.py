@@ -11,7 +11,7 @@ W = "site.toml: [[zoning]][2]"
 
 
 def test_active_corrosion_classes_are_the_potential_class_keys() -> None:
-    # ASTM C876 classes as held in condition/classes.py (REFERENCE §1.2): c876 keys
+    # ASTM C876 classes as held in condition/classes.py [ASTM-C876-91 App. X1]: c876 keys
     assert ActiveCorrosionRule.class_keys() == ("c876", ("high", "uncertain", "low"))
     ActiveCorrosionRule.check_parameters({"classes": ["high", "uncertain"]}, where=W)
     ActiveCorrosionRule.check_parameters({}, where=W)  # the default ["high"]

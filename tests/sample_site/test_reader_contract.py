@@ -57,7 +57,7 @@ def test_every_survey_reads(site: Site) -> None:
 
 
 def test_corrected_potentials_recover_the_latent_field(site: Site, mk: ModuleType) -> None:
-    """Package corrections (REFERENCE.md §1.3, §1.4) undo the generator's 'as measured' shifts."""
+    """Package corrections undo the generator's shifts [IJCorros-2010 Table 2; ASTM-C876-22a]."""
     models = mk.build_models()
     for s in site.surveys:
         if s.kind.name != "potential":

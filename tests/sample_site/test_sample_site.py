@@ -2,7 +2,7 @@
 
 The site is invented, so the "realism" checks below test properties we built into
 the invented data (said so beside each), not facts about real decks.  Conversions
-back to mV vs CSE use the published constants of REFERENCE.md, written out here
+back to mV vs CSE use published constants (cited by bibliography key), written out here
 rather than taken from geo_corrosion, so these tests stay independent of the
 package the sample site is meant to exercise.
 """
@@ -30,10 +30,10 @@ REPO = Path(__file__).resolve().parents[2]
 SCRIPT = REPO / "sample_sites" / "make_sample_sites.py"
 COMMITTED = REPO / "sample_sites" / "millbrook_garage"
 
-# REFERENCE.md §1.4 (sourced, derived): add to a reading vs the electrode to get mV vs CSE
+# [IJCorros-2010 Table 2], derived: add to a reading vs the electrode to get mV vs CSE
 TO_CSE_MV = {"cse": 0.0, "ag_agcl_sat_kcl": -119.0}
-T_REF_C = 22.2  # ASTM C876-22a §4.7, REFERENCE.md §1.3 (sourced)
-K_MV_PER_C = 0.9  # ASTM C876-22a §5.1.1.2, REFERENCE.md §1.3 (sourced)
+T_REF_C = 22.2  # [ASTM-C876-22a §4.7]
+K_MV_PER_C = 0.9  # [ASTM-C876-22a §5.1.1.2]
 
 
 def _load_script() -> ModuleType:
@@ -286,7 +286,7 @@ def test_corrections_recover_the_latent_field(
 ) -> None:
     """Written value + electrode offset + 0.9 mV/degC (T - 22.2) = latent CSE field + noise.
 
-    REFERENCE.md §1.4 (Ag/AgCl sat. KCl -> CSE: -119 mV) and §1.3 (ASTM C876 0.9 mV/degC).
+    Ag/AgCl (sat. KCl) to CSE -119 mV [IJCorros-2010 Table 2]; 0.9 mV/degC [ASTM-C876-22a §5.1.1.2].
     """
     (s,) = (s for s in cfg["surveys"] if s["id"] == survey_id)
     level = s["level"]
@@ -356,7 +356,7 @@ def test_corrosion_clusters_near_drains_and_joints(site: Path, cfg: dict, mk: Mo
 def test_natural_adjacent_differences_stay_under_150_mv(
     site: Path, cfg: dict, runs: tuple[Path, Path, object]
 ) -> None:
-    """Only planted flaws break C876's 150 mV adjacent rule (REFERENCE.md §1.5, from memory)."""
+    """Only planted flaws break C876's 150 mV adjacent rule [ASTM-C876-91 §5.1, from memory]."""
     flaws = runs[2].flaws
     planted = {f.point_id for f in flaws}
     for lid in ("L2", "RF"):
@@ -393,13 +393,13 @@ def test_planted_flaws_are_in_the_files(site: Path, cfg: dict, runs: tuple[Path,
         mine = [r for r in rows if r[0] == f.point_id]
         if f.kind == "repeat readings at a control station":
             assert len(mine) == 2 and mine[0][1:3] == mine[1][1:3]
-            assert abs(mine[0][3] - mine[1][3]) == 15.0  # REFERENCE.md HCP-08 (from memory)
+            assert abs(mine[0][3] - mine[1][3]) == 15.0  # [ASTM-C876-15, from memory]
         else:
             assert len(mine) == 1
         pid, x, y, v = mine[0]
         if f.kind == "implausible value":
             v_mv = v * (1000.0 if by_path[f.file]["unit"] == "V" else 1.0)
-            assert v_mv < -1000 or v_mv > 200  # REFERENCE.md §1.9 [P] plausible range
+            assert v_mv < -1000 or v_mv > 200  # plausible range (common practice)
         elif f.kind == "duplicate location":
             assert sum(1 for r in rows if r[1:3] == (x, y) and r[0] != pid) == 1
         elif f.kind == "reading outside the slab":

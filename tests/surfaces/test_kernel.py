@@ -51,7 +51,7 @@ def test_kernel_matches_numpy_path(model: VariogramModel, radius: float | None) 
     np.testing.assert_allclose(m1[ok], m0[ok], rtol=1e-10, atol=1e-9)
     np.testing.assert_allclose(v1[ok], v0[ok], rtol=1e-8, atol=1e-8)
     np.testing.assert_allclose(n1[ok], n0[ok], rtol=1e-8, atol=1e-8)
-    # kriging is exact at the readings (Cressie 1993, ordinary kriging with Γ_ii = 0)
+    # kriging is exact at the readings ([Cressie-1993], ordinary kriging with Γ_ii = 0)
     np.testing.assert_allclose(m1[-50:], z[:50], atol=1e-8)
 
 
@@ -90,7 +90,7 @@ def test_singular_systems_fall_back_to_the_numpy_path() -> None:
 
 def test_variance_calibration_keeps_estimates_and_gives_msse_one() -> None:
     # Ordinary kriging weights are invariant to multiplying the variogram by a constant
-    # (the factor cancels in the system; Cressie 1993 §3.2, from memory), so the estimate is
+    # (the factor cancels in the system [Cressie-1993 §3.2, from memory]), so the estimate is
     # unchanged and the variance scales. Checked by re-running the cross-validation with the
     # calibrated model, independently of the value calibrate_variance sets.
     from geo_corrosion.stages.map_surfaces import calibrate_variance

@@ -21,7 +21,7 @@ def ramp():
 def test_hcp12_levels_on_ramp(ramp):
     g, a = ramp
     lines = contour_lines(a, g, interval=100.0)
-    # REFERENCE.md HCP-12: interval 100 mV on a ramp -100..-500 -> levels {-200, -300, -400}
+    # interval 100 mV on a ramp -100..-500 -> levels {-200, -300, -400} (derived)
     assert [lev for lev, _ in lines] == [-400.0, -300.0, -200.0]
     for lev, geom in lines:
         x_expect = 0.5 + (lev + 100.0) / -10.0  # ramp: -10 mV per cell, first centre at x=0.5
@@ -31,7 +31,7 @@ def test_hcp12_levels_on_ramp(ramp):
 
 def test_interval_checks():
     with pytest.raises(KrigingError, match="ASTM C876"):
-        check_contour_interval(150.0, "potential")  # REFERENCE.md HCP-12 (from memory, C876)
+        check_contour_interval(150.0, "potential")  # [ASTM-C876-91 §6.2, from memory]
     check_contour_interval(100.0, "potential")  # the 100 mV maximum itself is allowed
     check_contour_interval(150.0, "resistivity")  # the limit is for potentials only
     with pytest.raises(KrigingError, match="positive"):

@@ -120,7 +120,7 @@ def test_log_transform_back_transform_matches_independent_formula():
     m = VariogramModel("exponential", nugget=0.02, psill=0.25, range=10.0)
     xq, yq = np.array([3.3, 10.0]), np.array([7.1, 12.5])
     est, var = krige(x, y, zr, xq, yq, m, n_neighbors=30, transform="log")
-    # covariance-form ordinary kriging written out here (Journel 1980 lognormal OK, from memory):
+    # covariance-form ordinary kriging written out here ([Journel-1980] lognormal OK, from memory):
     # estimate = exp(y* + sigma^2 / 2 + mu) with sum_j l_j C_ij + mu = C_i0
     yl = np.log(zr)
     d = np.hypot(x[:, None] - x[None], y[:, None] - y[None])

@@ -1,7 +1,7 @@
 """The report of a run: report.pdf read back with pypdf, report.html parsed with html.parser.
 
 Expected values come from the run's own ``run.json`` and ``survey.gpkg``, converted here with
-the exact factors of REFERENCE.md §0 (1 ft = 0.3048 m, 1 ft2 = 0.09290304 m2, 1 in = 25.4 mm),
+exact factors [NIST-SP811-2008 App. B] (1 ft = 0.3048 m, 1 ft2 = 0.09290304 m2, 1 in = 25.4 mm),
 never through ``geo_corrosion.units``.  The tests on the sample site (US units, two levels)
 are marked ``slow``; the synthetic run (metric, a script tag in its level name and in an
 overlay label) is fast.
@@ -24,8 +24,8 @@ import pytest
 from geo_corrosion.cautions import SHORT_CAUTION
 from tests.webmap.conftest import XSS, XSS_IMG
 
-M2_PER_FT2 = 0.09290304  # REFERENCE.md §0 (exact: 0.3048 m squared)
-MM_PER_IN = 25.4  # REFERENCE.md §0 (exact)
+M2_PER_FT2 = 0.09290304  # exact: 0.3048 m squared [NIST-SP811-2008 App. B]
+MM_PER_IN = 25.4  # exact [NIST-SP811-2008 App. B]
 PT_PER_IN = 72.0  # default PDF user space unit is 1/72 in (ISO 32000-1, user space)
 
 RUNS = [pytest.param("xss_run", id="synthetic-metric"),
@@ -91,7 +91,7 @@ def _level_html(text: str, lid: str) -> str:
 def _area(a_m2: float, system: str) -> tuple[str, str]:
     """Format an area as the statements print it: whole ft2 (US), m2 to 0.1 (metric)."""
     # common practice, no source: the rounding is the report's own choice, documented in
-    # docs/file-formats.md; the factor is REFERENCE.md §0
+    # docs/file-formats.md; the factor is exact [NIST-SP811-2008 App. B]
     if system == "us":
         return f"{a_m2 / M2_PER_FT2:,.0f}", "ft2"
     return f"{a_m2:,.1f}", "m2"
@@ -134,8 +134,8 @@ def test_pdf_page_count_matches_its_footer(any_run: Path) -> None:
 
 def test_pdf_has_the_short_caution_on_every_page(any_run: Path) -> None:
     """The short caution is in the footer of every page."""
-    # the short caution is printed on every product (geo_corrosion.cautions, from
-    # REFERENCE.md §7); the footer wraps it, so whitespace is normalised
+    # the short caution is printed on every product (geo_corrosion.cautions, wording ours);
+    # the footer wraps it, so whitespace is normalised
     first_words = _norm(SHORT_CAUTION.split(";")[0])
     for number, text in enumerate(_pdf_pages(any_run), start=1):
         assert first_words in text, f"page {number} lacks the caution"
@@ -175,7 +175,7 @@ def test_html_has_a_section_per_level_and_the_site_sections(any_run: Path) -> No
     ids = {a.get("id") for a in sections}
     assert {"cautions", "quantities", "methods", "parameters"} <= ids
     for caution in man["cautions"]:
-        # every caution of the run (REFERENCE.md §7)
+        # every caution of the run (geo_corrosion.cautions)
         assert _norm(caution) in doc.text, caution[:40]
 
 
@@ -218,7 +218,7 @@ def test_condition_statements_match_run_json(any_run: Path) -> None:
         for key, st in cond.items():
             if not key.endswith("_area_beyond_threshold"):
                 continue
-            # expected area and its interval, converted with REFERENCE.md §0 and rounded as
+            # expected area and its interval, converted with the exact factors and rounded as
             # printed (common practice, no source)
             exp, unit = _area(st["expected_m2"], system)
             lo, _u = _area(st["lower_m2"], system)
@@ -233,7 +233,7 @@ def test_condition_statements_match_run_json(any_run: Path) -> None:
             checked += 1
         thr = cond.get("site_threshold") or {}
         if "threshold_mv" in thr:
-            # the mixture threshold of RILEM TC 154 / Gulikers & Elsener 2008 (REFERENCE.md §1.8)
+            # the mixture threshold after [Gulikers-Elsener-2008]
             assert f"is {thr['threshold_mv']:.0f} mV CSE." in level_text
             below = f"{100 * thr['fraction_readings_below']:.0f} % of the readings"
             assert f"More negative: {below}" in level_text
@@ -268,7 +268,7 @@ def test_repair_list_matches_the_geopackage(any_run: Path) -> None:
             continue
         rep = gpd.read_file(any_run / "survey.gpkg", layer=f"{lid}_repairs")
         for r in rep.itertuples():
-            # area in the reporting unit (REFERENCE.md §0), depth class as in the layer
+            # area in the reporting unit (exact factor), depth class as in the layer
             area = f"{r.area_m2 / (M2_PER_FT2 if us else 1.0):,.2f}"
             assert re.search(rf"{re.escape(r.repair_id)} {re.escape(r.depth_class)} .*?{area}",
                              level_text), (r.repair_id, area)

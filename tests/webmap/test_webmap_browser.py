@@ -158,7 +158,7 @@ def test_repair_popup_shows_the_geopackage_area(sample_page: Any, sample_run: Pa
     rep = gpd.read_file(sample_run / "survey.gpkg", layer="L2_repairs")
     r = rep.sort_values("area_m2").iloc[-1]
     text = _popup_text(page, "Level 2 (supported slab): repairs", r["repair_id"])
-    area_ft2 = r["area_m2"] / 0.3048**2  # REFERENCE.md BID-01: 1 ft = 0.3048 m exactly
+    area_ft2 = r["area_m2"] / 0.3048**2  # 1 ft = 0.3048 m exactly [NIST-SP811-2008 App. B]
     assert r["repair_id"] in text
     assert f"{area_ft2:.1f} ft2" in text
     assert "REP-PD" in text or "REP-FD" in text  # bid item of the depth class

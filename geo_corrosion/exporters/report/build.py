@@ -35,6 +35,7 @@ from geo_corrosion.exporters.report.text import (
     _surveys_table,
     _table,
     parameter_unit,
+    sources_and_assumptions,
     summarize_correction,
 )
 from geo_corrosion.exporters.runfiles import RunLayers
@@ -60,31 +61,31 @@ PDF_INSTALL = ("pip install weasyprint; on Debian: "
                "apt-get install libpango-1.0-0 libpangoft2-1.0-0")
 _NO_PDF_NOTE = "report.pdf not written"  # start of the run's note without WeasyPrint
 
-#: Methods in brief, with their published sources (the full text with the status of each
-#: source is docs/methods.md of the geo_corrosion distribution).
+#: Methods in brief, with their published sources, cited by bibliography key (the full text
+#: with the status of each source is docs/methods.md of the geo_corrosion distribution).
 METHODS: tuple[tuple[str, str, str], ...] = (
     ("Corrections", "Potentials converted to the copper/copper-sulfate electrode (CSE) and "
      "corrected for electrode temperature (0.9 mV/degC); resistivity referred to 20 degC by an "
-     "Arrhenius factor.", "ASTM C876-22a §5.1.1.2; Coyle, Spragg, Suraneni et al. (activation "
-     "energy)"),
+     "Arrhenius factor.", "[IJCorros-2010 Table 2; ASTM-C876-22a §5.1.1.2; Coyle-Spragg-2019] "
+     "(activation energy)"),
     ("QA", "Plausible ranges, adjacent-reading differences over 150 mV, repeatability and "
      "reproducibility of repeated points, readings outside the slab or in exclusions.",
-     "ASTM C876 (grid and precision sections)"),
+     "[ASTM-C876-91 §5.1, from memory; ASTM-C876-15 precision section, from memory]"),
     ("Surfaces", "Ordinary kriging in a local neighbourhood; variogram models fitted by "
      "weighted least squares and chosen by leave-one-out cross-validation; resistivity and "
-     "rate kriged in logarithms.", "Cressie (1985) WLS criterion; pykrige as reference "
+     "rate kriged in logarithms.", "[Cressie-1985] WLS criterion; pykrige as reference "
      "library"),
     ("Class sets", "Half-cell potential classes after ASTM C876 (< -350 mV high, -350 to "
      "-200 mV uncertain, > -200 mV low probability of corrosion); resistivity and corrosion "
-     "rate classes after RILEM TC 154.", "ASTM C876; RILEM TC 154-EMC (Polder 2000; Andrade, "
-     "Alonso et al. 2004)"),
+     "rate classes after RILEM TC 154.", "[ASTM-C876-91 App. X1, from memory]; "
+     "[RILEM-TC154-2000, from memory; Andrade-Alonso-2004, from memory]"),
     ("Probability maps", "Probability that the kriged value is beyond the class threshold, "
      "assuming Gaussian kriging errors; areas with intervals; a two-component mixture for the "
-     "site threshold.", "RILEM TC 154 statistical evaluation; Gulikers & Elsener (2008)"),
+     "site threshold.", "RILEM TC 154 statistical evaluation [Gulikers-Elsener-2008]"),
     ("Repair layout", "Sounded delaminations and spalls enlarged by the margin, merged, squared "
      "to saw-cut rectangles aligned with the grid, clipped to the slab; depth class from the "
      "kriged cover; undercut clearance max(3/4 in, 1/4 in + largest aggregate).",
-     "ICRI concrete repair guidelines; UFGS 03931"),
+     "[ICRI-310.1R-2008; UFGS-03931 §3.3.1.4]"),
     ("Quantities", "Bid items per depth class and zone, in the reporting units, with a "
      "contingency line.", "common practice"),
 )
@@ -396,8 +397,10 @@ def build_report_html(run_dir: str | Path, manifest: dict[str, Any] | None = Non
     parts.append('<section class="site" id="methods"><h2>Methods and sources</h2>')
     parts.append(_table([{"m": m, "d": d, "s": s} for m, d, s in METHODS],
                         [("m", "step"), ("d", "method"), ("s", "source")]))
+    parts.append(sources_and_assumptions([s for _m, _d, s in METHODS], cautions, man))
     parts.append("<p>The full description, with the status of each source (sourced, from "
-                 "memory, common practice), is docs/methods.md of geo_corrosion.</p></section>")
+                 "memory, common practice), is docs/methods.md of geo_corrosion; the sources "
+                 "are in its docs/bibliography.md.</p></section>")
     parts.append('<section class="site" id="parameters"><h2>Parameters of the run</h2>')
     parts.append(_parameters(man.get("parameters") or {}, system))
     parts.append('<p class="src">Units from the key suffix; lengths are held in metres '

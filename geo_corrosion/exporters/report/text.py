@@ -19,7 +19,7 @@ from geo_corrosion.units import M_PER_FT, MM_PER_INCH
 if TYPE_CHECKING:
     from geo_corrosion.units import ReportUnits
 
-__all__ = ["parameter_unit", "summarize_correction"]
+__all__ = ["parameter_unit", "summarize_correction", "sources_and_assumptions"]
 
 _NBSP = "\u00a0"  # between a number and its unit, so a line never starts with the unit
 
@@ -59,7 +59,7 @@ _SUFFIX_UNITS: tuple[tuple[str, str], ...] = (
     ("_kj_mol", "kJ/mol"), ("_m2", "m2"), ("_mm", "mm"), ("_mv", "mV"), ("_deg", "deg"),
     ("_c", "degC"), ("_m", "m"))
 #: US customary unit of a metric length or area, and the factor to it
-#: (1 ft = 0.3048 m, 1 in = 25.4 mm exactly; REFERENCE.md §0).
+#: (1 ft = 0.3048 m, 1 in = 25.4 mm exactly [NIST-SP811-2008 App. B]).
 _US_UNITS: dict[str, tuple[str, float]] = {
     "m": ("ft", 1.0 / M_PER_FT), "mm": ("in", 1.0 / MM_PER_INCH),
     "m2": ("ft2", 1.0 / M_PER_FT**2)}
@@ -375,3 +375,40 @@ def _parameters(params: Mapping[str, Any], system: str) -> str:
     if system == "us":
         cols.append(("us", "US units"))
     return _table(rows, cols, cls="params", num=("us",))
+
+
+# --------------------------------------------------------------------------- sources
+
+
+def sources_and_assumptions(*texts: Any) -> str:
+    """Return the report's "Sources" and "Assumptions to confirm" lists as HTML.
+
+    "Sources" lists, from :data:`geo_corrosion.bibliography.SOURCES`, every source cited
+    in ``texts`` in the project's citation form (``[ASTM-C876-22a §4.7]``); ``texts`` are
+    any objects whose ``str()`` holds citations (the methods table, the cautions, run.json),
+    and the assumptions listed below.
+    Keys not in the bibliography are skipped.  "Assumptions to confirm" is
+    :data:`geo_corrosion.bibliography.ASSUMPTIONS_TO_CONFIRM`.  All text is escaped.
+
+    Examples
+    --------
+    >>> html = sources_and_assumptions("0.9 mV/degC [ASTM-C876-22a §5.1.1.2]")
+    >>> "ASTM C876-22a" in html and "Assumptions to confirm" in html
+    True
+    """
+    from geo_corrosion.bibliography import ASSUMPTIONS_TO_CONFIRM, SOURCES, cited_keys
+
+    cited = set(cited_keys(" ".join(map(str, (*texts, *ASSUMPTIONS_TO_CONFIRM)))))
+    items = []
+    for key, s in SOURCES.items():
+        if key in cited:
+            year = f" ({s.year})" if s.year is not None else ""
+            items.append(f"<li>[{_e(key)}] {_e(s.authors)}{year}. <i>{_e(s.title)}</i>. "
+                         f"{_e(s.designation)}.</li>")
+    parts = ['<h3 class="sources">Sources</h3>',
+             f'<ul class="sources">{"".join(items)}</ul>' if items
+             else '<p class="none">none cited</p>',
+             '<h3 class="assumptions">Assumptions to confirm</h3>',
+             '<ul class="assumptions">'
+             + "".join(f"<li>{_e(a)}</li>" for a in ASSUMPTIONS_TO_CONFIRM) + "</ul>"]
+    return "\n".join(parts)

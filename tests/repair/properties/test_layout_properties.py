@@ -1,4 +1,4 @@
-"""Properties of the repair layout that always hold (issue 5 "Shown by"; REFERENCE REP-05)."""
+"""Properties of the repair layout that always hold (issue 5 "Shown by"; [UFGS-03931])."""
 
 from __future__ import annotations
 
@@ -89,7 +89,7 @@ def layout(delams, excl, joints, params, unit="m"):
 @SETTINGS
 @given(case())
 def test_outlines_have_only_right_angles(c) -> None:
-    # REFERENCE.md REP-05 / §6.2 (S: Everett spec; UFGS "no perimeter angles < 90 degrees")
+    # rectangles, common practice; "no perimeter angles < 90 degrees" [UFGS-03931 Perimeter Saw Cut]
     _, rep = layout(*c)
     for g in rep.geometry:
         ang = interior_angles_deg(g)
