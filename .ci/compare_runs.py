@@ -172,6 +172,16 @@ def _limit(lines: Sequence[str], n: int) -> list[str]:
     return out
 
 
+def _differ(n: int, noun: str, plural: str | None = None) -> str:
+    """Say ``1 pixel differs`` or ``3 pixels differ``."""
+    return f"{n} {noun} differs" if n == 1 else f"{n} {plural or noun + 's'} differ"
+
+
+def _plain(v: object) -> object:
+    """Turn numpy scalars into Python ones (for readable messages)."""
+    return v.item() if isinstance(v, np.generic) else v
+
+
 def _load(fn: Callable[[Path], Any], before: Path, after: Path) -> tuple[Any, Any]:
     """Read both files with ``fn``, naming the side that failed."""
     out = []
@@ -372,7 +382,7 @@ def _text_result(what: str, a: Sequence[str], b: Sequence[str], opts: Options,
                  reasons: list[str], details: list[str]) -> None:
     n, excerpt = text_diff(a, b, opts)
     if n:
-        reasons.append(f"{what}: {n} line{'s' if n != 1 else ''} differ")
+        reasons.append(f"{what}: {_differ(n, 'line')}")
         details.extend(excerpt)
 
 
@@ -416,7 +426,7 @@ def image_diff(a: bytes, b: bytes, opts: Options) -> str | None:
         return None
     d = np.abs(pa.astype(np.int64) - pb.astype(np.int64))
     per_pixel = d.reshape(d.shape[0], d.shape[1], -1).max(axis=2)
-    return f"{int((per_pixel > 0).sum())} pixels differ (max abs diff {int(d.max())})"
+    return f"{_differ(int((per_pixel > 0).sum()), 'pixel')} (max abs diff {int(d.max())})"
 
 
 def _data_urls(text: str) -> tuple[str, list[tuple[str, bytes]]]:
@@ -457,7 +467,7 @@ def _compare_embedded(a: list[tuple[str, bytes]], b: list[tuple[str, bytes]], op
             ha, hb = hashlib.sha256(ra).hexdigest()[:12], hashlib.sha256(rb).hexdigest()[:12]
             bad.append(f"embedded #{k} ({ma}): sha256 {ha} vs {hb}")
     if bad:
-        reasons.append(f"{len(bad)} of {len(a)} embedded images differ")
+        reasons.append(f"{_differ(len(bad), 'embedded image')} (of {len(a)})")
         details.extend(_limit(bad, opts.show))
 
 
@@ -527,9 +537,9 @@ def compare_raster(before: Path, after: Path, opts: Options) -> Result:
         mx = float(finite.max()) if finite.size else 0.0
         parts = []
         if n_val:
-            parts.append(f"{n_val} pixels differ beyond tolerance (max abs diff {mx:.6g})")
+            parts.append(f"{_differ(n_val, 'pixel')} beyond tolerance (max abs diff {mx:.6g})")
         if n_mask:
-            parts.append(f"{n_mask} pixels differ in nodata/NaN position")
+            parts.append(f"{_differ(n_mask, 'pixel')} in nodata/NaN position")
         reasons.append(", ".join(parts))
     return _finish(reasons)
 
@@ -622,11 +632,11 @@ def compare_gpkg(before: Path, after: Path, opts: Options) -> Result:
                 bad = _column_mismatch(da[col], db[col], opts)
             if bad.any():
                 i = int(np.flatnonzero(bad)[0])
-                va, vb = da[col].iloc[i], db[col].iloc[i]
+                va, vb = _plain(da[col].iloc[i]), _plain(db[col].iloc[i])
                 if col == geom_col:
                     va, vb = _clip(str(va), 0), _clip(str(vb), 0)
                 problems.append(f"layer {name} row {i} column {col}: {va!r} vs {vb!r}"
-                                f" ({int(bad.sum())} rows differ in this column)")
+                                f" ({_differ(int(bad.sum()), 'row')} in this column)")
     if problems:
         reasons.append(problems[0])
         if len(problems) > 1:
@@ -637,6 +647,13 @@ def compare_gpkg(before: Path, after: Path, opts: Options) -> Result:
 def _csv_rows(path: Path) -> list[list[str]]:
     with path.open(newline="", encoding="utf-8") as fh:
         return list(csv.reader(fh))
+
+
+def _csv_line(row: Sequence[str]) -> str:
+    """Write a row back as one CSV line (quoted as needed)."""
+    buf = io.StringIO()
+    csv.writer(buf, lineterminator="").writerow(row)
+    return buf.getvalue()
 
 
 def _cell_equal(a: str, b: str, opts: Options) -> bool:
@@ -683,15 +700,15 @@ def compare_csv(before: Path, after: Path, opts: Options) -> Result:
             reasons.append(f"row {i + 1} column {col}: {va!r} vs {vb!r}")
         if len(details) < opts.show:
             details.append(f"@@ row {i + 1} @@")
-            details.append("-" + _clip(",".join(ra)))
-            details.append("+" + _clip(",".join(rb)))
+            details.append("-" + _clip(_csv_line(ra)))
+            details.append("+" + _clip(_csv_line(rb)))
     if bad_rows > 1:
-        reasons.append(f"{bad_rows} rows differ")
+        reasons.append(_differ(bad_rows, "row"))
     for i in range(min(len(a), len(b)), max(len(a), len(b))):
         if len(details) >= opts.show:
             break
         row = a[i] if i < len(a) else b[i]
-        details.append(("-" if i < len(a) else "+") + _clip(",".join(row)))
+        details.append(("-" if i < len(a) else "+") + _clip(_csv_line(row)))
     return _finish(reasons, details)
 
 
@@ -744,7 +761,7 @@ def compare_xlsx(before: Path, after: Path, opts: Options) -> Result:
                 if not values_equal(va, vb, opts):
                     cells.append(f"{name}!{get_column_letter(j + 1)}{i + 1}: {va!r} vs {vb!r}")
     if cells:
-        reasons.append(f"{len(cells)} cells differ, first {cells[0]}")
+        reasons.append(f"{_differ(len(cells), 'cell')}, first {cells[0]}")
     return _finish(reasons, _limit(cells, opts.show))
 
 
@@ -756,6 +773,8 @@ def _dxf_norm(v: object) -> object:
         return tuple((k, _dxf_norm(x)) for k, x in sorted(v.items()))
     if isinstance(v, tuple | list):
         return tuple(_dxf_norm(x) for x in v)
+    if isinstance(v, np.generic):
+        return v.item()
     if isinstance(v, bool | int | float | str) or v is None:
         return v
     if isinstance(v, np.ndarray):
@@ -866,7 +885,8 @@ def compare_dxf(before: Path, after: Path, opts: Options) -> Result:
             continue
         bad = [(x, y) for x, y in zip(sa, sb, strict=True) if not _nested_equal(x, y, opts)]
         if bad:
-            problems.append(f"{key}: {len(bad)} {bad[0][0][0]} entities differ")
+            kind = bad[0][0][0]
+            problems.append(f"{key}: " + _differ(len(bad), f"{kind} entity", f"{kind} entities"))
             for x, y in bad:
                 if len(details) >= opts.show:
                     break
@@ -959,7 +979,7 @@ def compare_json(before: Path, after: Path, opts: Options) -> Result:
     diffs = json_diff(a, b, opts, ignore=ignore)
     if not diffs:
         return _same()
-    return _differs([f"{len(diffs)} values differ, first {diffs[0]}"], _limit(diffs, opts.show))
+    return _differs([f"{_differ(len(diffs), 'value')}, first {diffs[0]}"], _limit(diffs, opts.show))
 
 
 class _VisibleText(HTMLParser):
@@ -1080,7 +1100,11 @@ def compare_html(before: Path, after: Path, opts: Options) -> Result:
 
 
 def _pdf_pages(path: Path) -> list[tuple[tuple[float, ...], str]]:
+    import logging
+
     import pypdf
+
+    logging.getLogger("pypdf").setLevel(logging.ERROR)  # its warnings on a bad file
 
     reader = pypdf.PdfReader(path)
     return [(tuple(float(v) for v in page.mediabox), page.extract_text() or "")
@@ -1127,7 +1151,7 @@ def compare_pdf(before: Path, after: Path, opts: Options) -> Result:
                         if text_diff(mask_text(pa[1], opts).splitlines(),
                                      mask_text(pb[1], opts).splitlines(), opts)[0]})
         where = f" (pages {', '.join(map(str, pages[:10]))})" if pages else ""
-        reasons.append(f"text: {n} line{'s' if n != 1 else ''} differ{where}")
+        reasons.append(f"text: {_differ(n, 'line')}{where}")
         details += excerpt
     return _finish(reasons, details)
 
@@ -1365,7 +1389,9 @@ def main(argv: Sequence[str] | None = None) -> int:
             print(line)
     counts = Counter(r.status for _rel, r in results)
     verdict = "SAME" if all(r.ok for _rel, r in results) else "DIFFERENT"
-    print(f"summary: {len(results)} files, {counts['same']} same, {counts['differs']} differ, "
+    n = len(results)
+    print(f"summary: {n} file{'' if n == 1 else 's'}, {counts['same']} same, "
+          f"{counts['differs']} differ, "
           f"{counts['missing']} missing, {counts['extra']} extra, "
           f"{counts['unreadable']} unreadable: {verdict}")
     return 0 if verdict == "SAME" else 1
