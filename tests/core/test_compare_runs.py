@@ -82,6 +82,50 @@ def test_copy_of_itself_is_the_same(run_dir: Path, after: Path,
     assert out.splitlines()[-1].endswith(": SAME")
 
 
+def test_volatile_parts_of_a_new_run_are_ignored(run_dir: Path, after: Path,
+                                                 capsys: pytest.CaptureFixture[str]) -> None:
+    """What changes between two runs of the same code (ids, times, versions) is masked."""
+    import json
+    import re
+    import uuid
+
+    import ezdxf
+
+    # folium draws new random element ids on every run
+    web = after / "webmap.html"
+    text = web.read_text()
+    ids = set(re.findall(r"(?<![0-9a-f])[0-9a-f]{32}(?![0-9a-f])", text))
+    assert ids
+    fresh = {old: uuid.uuid4().hex for old in ids}
+    web.write_text(re.sub(r"(?<![0-9a-f])[0-9a-f]{32}(?![0-9a-f])",
+                          lambda m: fresh.get(m.group(0), m.group(0)), text))
+    # the run's time and the libraries' versions
+    man = json.loads((after / "run.json").read_text())
+    man["created_utc"], man["elapsed_s"] = "2031-01-02T03:04:05+00:00", 123.4
+    man["versions"] = {k: "9.9.9" for k in man["versions"]}
+    (after / "run.json").write_text(json.dumps(man, indent=2))
+    report = after / "report.html"
+    text, n = re.subn(r"\d{4}-\d{2}-\d{2}T\d{2}:\d{2}:\d{2}\+00:00", "2031-01-02T03:04:05+00:00",
+                      report.read_text())
+    assert n
+    report.write_text(text.replace("0.1.0", "0.2.0"))
+    # ezdxf writes new dates and GUIDs each time it saves
+    for path in (after / "drawings").glob("*.dxf"):
+        ezdxf.readfile(path).saveas(path)
+    code, lines, out = _compare(run_dir, after, capsys)
+    assert code == 0, out
+    assert set(lines.values()) == {"same"}
+
+
+def test_numbers_in_text_within_tolerance() -> None:
+    """Two lines that differ only in numbers within tolerance are equal; beyond it, not."""
+    opts = cr.Options(atol=1e-6)
+    assert cr.text_diff(["area 1.0 m2", "x"], ["area 1.0000001 m2", "x"], opts)[0] == 0
+    n, excerpt = cr.text_diff(["area 1.0 m2", "x"], ["area 1.1 m2", "x"], opts)
+    assert n == 1 and excerpt[1:] == ["-area 1.0 m2", "+area 1.1 m2"]
+    assert cr.text_diff(["area 1.0 m2"], ["area 1.0 ft2"], opts)[0] == 1
+
+
 def test_raster_pixel(run_dir: Path, after: Path, capsys: pytest.CaptureFixture[str]) -> None:
     """One raster pixel changed by 0.5 is found, with its count and size."""
     import rasterio
