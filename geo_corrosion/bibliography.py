@@ -328,19 +328,19 @@ ASSUMPTIONS_TO_CONFIRM: tuple[str, ...] = (
     "c876_severe; combined rules; probability maps): from memory [ASTM-C876-91 App. X1]; "
     "check the wording and whether the current edition keeps them in a non-mandatory "
     "appendix [ASTM-C876-22a].",
-    "Repeatability 10 mV and reproducibility 20 mV (qa.py QA-REPEAT, QA-REPEATABILITY, "
+    "Repeatability 10 mV and reproducibility 20 mV (qa/checks.py QA-REPEAT, QA-REPEATABILITY, "
     "QA-REPRO, QA-REPRODUCIBILITY; 20 mV of QA-DRIFT): from memory "
     "[ASTM-C876-15 precision section]; check the figures in the current edition.",
     "Pre-wetting: a reading moving more than 20 mV while it settles (about 5 min) "
-    "(qa.py QA-UNSTABLE): from memory [ASTM-C876-15 procedure]; check the limit and the "
+    "(qa/checks.py QA-UNSTABLE): from memory [ASTM-C876-15 procedure]; check the limit and the "
     "time in the current edition.",
     "Maximum equipotential contour interval 100 mV (surfaces/contours.py; check and run "
     "refuse more): from memory [ASTM-C876-91 §6.2]; check it is in the current edition.",
     "Plotting position r/(n+1) of the cumulative frequency distribution "
     "(condition/potential.py, condition/plots.py): from memory [ASTM-C876-91 §6.3]; check.",
-    "150 mV between adjacent readings means the grid is too coarse (qa.py QA-ADJ-150, "
+    "150 mV between adjacent readings means the grid is too coarse (qa/checks.py QA-ADJ-150, "
     "QA-ADJ-SPIKE): from memory [ASTM-C876-91 §5.1]; check in the current edition.",
-    "Plausible potential range -1000 to +200 mV CSE (qa.py QA-RANGE-LOW, QA-RANGE-HIGH): "
+    "Plausible potential range -1000 to +200 mV CSE (qa/checks.py QA-RANGE-LOW, QA-RANGE-HIGH): "
     "bounds are common practice around the Table 1 ranges, which are from memory "
     "[RILEM-TC154-2003 Table 1]; check Table 1.",
     "Resistivity risk classes 10 / 50 / 100 kOhm.cm, OPC at 20 °C (class set "
@@ -377,19 +377,19 @@ ASSUMPTIONS_TO_CONFIRM: tuple[str, ...] = (
     "Resistivity-rate estimate i_corr = 26-30 / rho (condition/resistivity.py "
     "icorr_estimate_from_resistivity, optional): from memory, low confidence "
     "[Alonso-Andrade-1988]; check the constant.",
-    "Repair margin 150 mm (6 in) beyond the sounded limits (repair.py LayoutParams.margin_mm; "
+    "Repair margin 150 mm (6 in) beyond the sounded limits (repair/layout.py LayoutParams.margin_mm; "
     "site template): from memory, not found verbatim [ICRI-310.1R-2008]; check.",
-    "Saw-cut depth 3/4 in (19.05 mm) (repair.py sawcut_depth_mm): seen in a project "
+    "Saw-cut depth 3/4 in (19.05 mm) (repair/layout.py sawcut_depth_mm): seen in a project "
     "specification built on [ICRI-310.1R-2008], older editions may say 1/2 in; check the "
     "guide.",
-    "Undercut clearance max(3/4 in, 1/4 in + largest aggregate) (repair.py "
+    "Undercut clearance max(3/4 in, 1/4 in + largest aggregate) (repair/layout.py "
     "undercut_clearance_mm, rule icri): seen in a trade-magazine summary of "
     "[ICRI-310.1R-2008]; check the guide.",
     "Ag/AgCl in 3 M KCl at +210 mV vs SHE (corrections.py, electrode ag_agcl_3m_kcl): seen "
     "only on a firm's web page; check a published table [Ives-Janz-1961].",
     "ACI 318 cover tolerance -1/2 in for members deeper than 8 in (sample site "
     "millbrook_garage, low-cover thresholds): from memory [ACI-318-19 §26.6.2.1]; check.",
-    "Kriging: the variance scaled so that the leave-one-out MSSE is 1 (mapping.py), the "
+    "Kriging: the variance scaled so that the leave-one-out MSSE is 1 (stages/map_surfaces.py), the "
     "multi-Gaussian reading of kriging output for the probability maps "
     "(condition/probability.py), the lognormal back-transform (surfaces/kriging.py): common "
     "practice, from memory "
@@ -413,18 +413,18 @@ ASSUMPTIONS_TO_CONFIRM: tuple[str, ...] = (
     "cover 3-200 mm (measurements/builtin.py): common practice.",
     "Open lead (every potential within ±5 mV of 0, at least 3 readings), reversed leads "
     "(median above +100 mV with more than 90 % positive), local spike (over 150 mV from all "
-    "of two or more neighbours), control-point drift over 20 mV (qa.py): common practice, "
+    "of two or more neighbours), control-point drift over 20 mV (qa/checks.py): common practice, "
     "thresholds our own.",
     "Default contour interval 50 mV (site key contour_interval_mv): common practice.",
     "Low cover: below the specified cover minus its tolerance, else below 25 mm (1 in) "
-    "(planning.py): common practice.",
+    "(stages/plan_repairs.py): common practice.",
     "Combined condition rules, e.g. low cover with E < -350 mV or rho < 10 kOhm.cm is high "
     "priority (condition/combined.py DEFAULT_RULES; zoning): common practice.",
     "Repair layout: merge gap 300 mm, bounding rectangle when it adds at most 25 %, "
     "minimum repair side and notch 300 mm, extension to a free edge within the margin "
-    "(repair.py LayoutParams): common practice.",
+    "(repair/layout.py LayoutParams): common practice.",
     "Depth classes above the bars / below the bars / full depth, full depth beyond half the "
-    "slab, default cover 38 mm and bar 16 mm (repair.py): common practice; names and limits "
+    "slab, default cover 38 mm and bar 16 mm (repair/layout.py): common practice; names and limits "
     "are owner-specific.",
     "Bid items and units, a 20 % contingency line, galvanic anodes as ceil(perimeter / "
     "spacing) with no default spacing (quantities.py): common practice.",
