@@ -94,7 +94,8 @@ def electrode_offset_mv(from_code: str, to_code: str = "cse") -> float:
     return electrode(from_code).e_vs_she_mv - electrode(to_code).e_vs_she_mv
 
 
-def convert_potential(values_mv: ArrayLike, from_code: str, to_code: str = "cse") -> NDArray[np.float64]:
+def convert_potential(values_mv: ArrayLike, from_code: str, to_code: str = "cse"
+                      ) -> NDArray[np.float64]:
     """Convert potentials (mV) from one reference electrode to another."""
     return np.asarray(values_mv, dtype=float) + electrode_offset_mv(from_code, to_code)
 

@@ -72,20 +72,23 @@ class LocalGrid:
         """Root-mean-square control-point residual, site CRS units."""
         if not self.residuals:
             return 0.0
-        return math.sqrt(sum(dx * dx + dy * dy for _, dx, dy in self.residuals) / len(self.residuals))
+        sq = sum(dx * dx + dy * dy for _, dx, dy in self.residuals)
+        return math.sqrt(sq / len(self.residuals))
 
     def _abcd(self) -> tuple[float, float]:
         a = math.radians(self.rotation_deg)
         k = self.scale * self.unit_factor
         return k * math.cos(a), k * math.sin(a)
 
-    def to_site(self, x: ArrayLike, y: ArrayLike) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+    def to_site(self, x: ArrayLike, y: ArrayLike
+                ) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
         """Local grid coordinates to site CRS coordinates."""
         c, s = self._abcd()
         xa, ya = np.asarray(x, float), np.asarray(y, float)
         return self.tx + c * xa - s * ya, self.ty + s * xa + c * ya
 
-    def to_local(self, X: ArrayLike, Y: ArrayLike) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+    def to_local(self, X: ArrayLike, Y: ArrayLike
+                 ) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
         """Site CRS coordinates to local grid coordinates."""
         c, s = self._abcd()
         d = c * c + s * s
@@ -98,7 +101,8 @@ class LocalGrid:
 
     def geom_to_local(self, geom: BaseGeometry) -> BaseGeometry:
         """Transform a shapely geometry from site to local coordinates."""
-        return shapely.transform(geom, lambda xy: np.column_stack(self.to_local(xy[:, 0], xy[:, 1])))
+        return shapely.transform(
+            geom, lambda xy: np.column_stack(self.to_local(xy[:, 0], xy[:, 1])))
 
     def affine_gdal(self, x0: float, y_top: float, cell: float) -> tuple[float, ...]:
         """Affine (a, b, c, d, e, f) of a north-up-in-local raster placed in the site CRS.
@@ -222,5 +226,6 @@ def site_crs(text: object, *, where: str) -> tuple[pyproj.CRS, str]:
         if abs(factor - f) < 1e-9:
             return crs, unit
     raise CRSError(
-        f"{where}: CRS {text!r} uses unit {crs.axis_info[0].unit_name!r}; use a CRS in metres or feet"
+        f"{where}: CRS {text!r} uses unit {crs.axis_info[0].unit_name!r}; "
+        "use a CRS in metres or feet"
     )

@@ -93,8 +93,8 @@ class Registry(Generic[T]):
         for ep in self._entry_points() if eps is None else eps:
             if ep.name in found:
                 warnings.warn(
-                    f"{self.what} plugin {ep.name!r} from {ep.value} clashes with a built-in of the "
-                    "same name; the built-in is used. Rename the plugin's entry point.",
+                    f"{self.what} plugin {ep.name!r} from {ep.value} clashes with a built-in of "
+                    "the same name; the built-in is used. Rename the plugin's entry point.",
                     PluginConflictWarning,
                     stacklevel=2,
                 )

@@ -205,7 +205,7 @@ def roll_up(lines: pd.DataFrame, *, units: ReportUnits, items: Mapping[str, BidI
     if lines.empty:
         return pd.DataFrame({c: pd.Series(dtype=object) for c in SCHEDULE_COLUMNS})
     for code, kinds in lines.groupby("item", sort=False)["unit_kind"]:
-        if code not in items:
+        if not isinstance(code, str) or code not in items:  # item codes are str keys
             raise RepairError(f"bid item {code!r} is not declared; add it to the items")
         found = sorted(set(kinds) | {items[code].unit_kind})
         if len(found) > 1:

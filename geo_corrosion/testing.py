@@ -8,23 +8,34 @@ from __future__ import annotations
 import json
 import math
 from pathlib import Path
+from typing import TypedDict
 
 import numpy as np
+from numpy.typing import NDArray
 
 __all__ = ["make_synthetic_site", "SYNTHETIC_TIE"]
 
+class _Tie(TypedDict):
+    rotation_deg: float
+    origin: tuple[float, float]
+    crs: str
+
+
 #: Grid tie of the synthetic site: local feet, UTM 18N metres, 17 degrees, origin.
-SYNTHETIC_TIE = {"rotation_deg": 17.0, "origin": (583100.0, 4507200.0), "crs": "EPSG:26918"}
+SYNTHETIC_TIE: _Tie = {"rotation_deg": 17.0, "origin": (583100.0, 4507200.0),
+                       "crs": "EPSG:26918"}
 
 
-def _site_xy(x: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+def _site_xy(x: NDArray[np.float64], y: NDArray[np.float64]
+             ) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
     a = math.radians(SYNTHETIC_TIE["rotation_deg"])
     k = 0.3048
     ox, oy = SYNTHETIC_TIE["origin"]
-    return ox + k * (math.cos(a) * x - math.sin(a) * y), oy + k * (math.sin(a) * x + math.cos(a) * y)
+    return (ox + k * (math.cos(a) * x - math.sin(a) * y),
+            oy + k * (math.sin(a) * x + math.cos(a) * y))
 
 
-def _field(x: np.ndarray, y: np.ndarray) -> np.ndarray:
+def _field(x: NDArray[np.float64], y: NDArray[np.float64]) -> NDArray[np.float64]:
     """Synthetic corrosion activity 0..1: a hot spot near (15, 10) ft and a gentle trend."""
     return np.clip(np.exp(-((x - 15) ** 2 + (y - 10) ** 2) / 60.0) + 0.15 * np.sin(x / 9.0), 0, 1)
 
@@ -47,26 +58,30 @@ def make_synthetic_site(
     Path
         The site file.
     """
-    import ezdxf
+    # ezdxf.new from the module defining it (ezdxf's __init__ re-exports it unmarked)
+    from ezdxf.filemanagement import new as new_drawing
 
     rng = np.random.default_rng(seed)
     root = Path(root)
     for d in ("plans", "sounding", "readings"):
         (root / d).mkdir(parents=True, exist_ok=True)
-    slab = {"type": "FeatureCollection", "features": [{"type": "Feature", "properties": {"name": "slab"},
-            "geometry": {"type": "Polygon", "coordinates": [[[0, 0], [width_ft, 0],
-                         [width_ft, depth_ft], [0, depth_ft], [0, 0]]]}}]}
+    slab = {"type": "FeatureCollection", "features": [
+        {"type": "Feature", "properties": {"name": "slab"},
+         "geometry": {"type": "Polygon", "coordinates": [[[0, 0], [width_ft, 0],
+                      [width_ft, depth_ft], [0, depth_ft], [0, 0]]]}}]}
     (root / "plans" / "slab.geojson").write_text(json.dumps(slab))
-    col = {"type": "FeatureCollection", "features": [{"type": "Feature", "properties": {"name": "C1"},
-           "geometry": {"type": "Polygon", "coordinates": [[[39, 19], [41, 19], [41, 21], [39, 21],
-                                                            [39, 19]]]}}]}
+    col = {"type": "FeatureCollection", "features": [
+        {"type": "Feature", "properties": {"name": "C1"},
+         "geometry": {"type": "Polygon", "coordinates": [[[39, 19], [41, 19], [41, 21], [39, 21],
+                                                          [39, 19]]]}}]}
     (root / "plans" / "columns.geojson").write_text(json.dumps(col))
-    doc = ezdxf.new("R2010")
+    doc = new_drawing("R2010")
     doc.header["$INSUNITS"] = 2
     doc.layers.add("DELAM")
     doc.layers.add("SPALL")
     msp = doc.modelspace()
-    msp.add_lwpolyline([(12, 8), (18, 8), (18, 12), (12, 12)], close=True, dxfattribs={"layer": "DELAM"})
+    msp.add_lwpolyline([(12, 8), (18, 8), (18, 12), (12, 12)], close=True,
+                       dxfattribs={"layer": "DELAM"})
     msp.add_circle((15, 10), 0.8, dxfattribs={"layer": "SPALL"})
     doc.saveas(root / "sounding" / "sounding.dxf")
     xs = np.arange(1.0, width_ft, spacing_ft)
@@ -88,9 +103,10 @@ def make_synthetic_site(
                                       enumerate(zip(x[sel], y[sel], rho, strict=True))]
     (root / "readings" / "resistivity.csv").write_text("\n".join(lines) + "\n")
     cps = [(0.0, 0.0), (width_ft, 0.0), (0.0, depth_ft)]
+    cp_site = [_site_xy(np.array(a), np.array(b)) for a, b in cps]
     cp_text = ", ".join(
-        f'{{ id = "CP{i + 1}", local = [{a}, {b}], site = [{float(_site_xy(np.array(a), np.array(b))[0]):.4f}, '
-        f'{float(_site_xy(np.array(a), np.array(b))[1]):.4f}] }}' for i, (a, b) in enumerate(cps))
+        f'{{ id = "CP{i + 1}", local = [{a}, {b}], site = [{float(sx):.4f}, {float(sy):.4f}] }}'
+        for i, ((a, b), (sx, sy)) in enumerate(zip(cps, cp_site, strict=True)))
     text = f'''[site]
 name = "Synthetic test deck"
 crs = "{SYNTHETIC_TIE["crs"]}"

@@ -50,6 +50,7 @@ from __future__ import annotations
 
 import logging
 import os
+from collections.abc import Hashable
 from dataclasses import asdict, dataclass
 from typing import Any
 
@@ -373,7 +374,7 @@ def fit_transients(
     if missing:
         raise ConditionError(f"transient table lacks column(s) {missing}; needs "
                              f"{', '.join(TRANSIENT_COLUMNS)}")
-    loc_table: dict[Any, dict[str, Any]] = {}
+    loc_table: dict[Any, dict[Hashable, Any]] = {}  # records keyed by column label
     if locations is not None:
         if "location_id" not in locations.columns:
             raise ConditionError("the per-location table needs a 'location_id' column")

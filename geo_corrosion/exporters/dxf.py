@@ -16,7 +16,7 @@ from pathlib import Path
 from typing import Any
 
 import geopandas as gpd
-from shapely.geometry import LineString, Polygon
+from shapely.geometry import Polygon
 from shapely.geometry.base import BaseGeometry
 
 from geo_corrosion._io import atomic_write
@@ -61,7 +61,7 @@ def _rings(geom: BaseGeometry) -> list[list[tuple[float, float]]]:
 
 
 def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
-                    exclusions: Sequence[Polygon], joints: Sequence[LineString],
+                    exclusions: Sequence[BaseGeometry], joints: Sequence[BaseGeometry],
                     repairs: gpd.GeoDataFrame | None, zones: gpd.GeoDataFrame | None,
                     delaminations: Sequence[BaseGeometry], unit: str, title: str,
                     cautions: list[str], units: ReportUnits | None = None,
@@ -73,7 +73,8 @@ def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
     path : path-like
         Output file; written atomically.
     slab, exclusions, joints : geometries
-        The level's outline, excluded areas and joint lines (local grid, plan unit).
+        The level's outline, excluded areas and joint lines (local grid, plan unit); a
+        joint may be any lineal geometry (LineString, MultiLineString, LinearRing).
     repairs : GeoDataFrame or None
         Frame of :func:`geo_corrosion.repair.layout_repairs`.
     zones : GeoDataFrame or None
@@ -99,8 +100,10 @@ def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
     ExportError
         For an unknown unit or a file that cannot be written.
     """
-    import ezdxf
+    # ezdxf.new is imported from the module defining it: ezdxf's __init__ re-exports it
+    # unmarked, which strict mypy does not accept
     from ezdxf.enums import TextEntityAlignment
+    from ezdxf.filemanagement import new as new_drawing
 
     if unit not in _INSUNITS:
         raise ExportError(f"DXF: plan unit {unit!r} has no DXF unit code; use 'm' or 'ft'")
@@ -109,7 +112,7 @@ def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
     units = units or report_units("metric" if unit == "m" else "us")
     x0, y0, x1, y1 = slab.bounds
     h = text_height or max(x1 - x0, y1 - y0) / 100.0
-    doc = ezdxf.new("R2010", setup=True)  # type: ignore[attr-defined]
+    doc = new_drawing("R2010", setup=True)
     doc.header["$INSUNITS"] = _INSUNITS[unit]
     doc.header["$MEASUREMENT"] = 1 if unit == "m" else 0
     msp = doc.modelspace()

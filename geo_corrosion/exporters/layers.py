@@ -8,11 +8,12 @@ length columns carry their unit in the name.
 from __future__ import annotations
 
 from collections.abc import Iterable
-from typing import Any
+from typing import Any, cast
 
 import geopandas as gpd
 import numpy as np
 import pandas as pd
+from numpy.typing import NDArray
 from shapely.geometry.base import BaseGeometry
 
 from geo_corrosion.model.results import LevelResult, RunResult
@@ -32,6 +33,12 @@ def to_site_frame(
     geoms = [lr.level.grid.geom_to_site(g) for g in df.pop("geometry")]
     df.insert(0, "level_id", lr.level.id)
     return gpd.GeoDataFrame(df, geometry=geoms, crs=crs)
+
+
+def _records(df: pd.DataFrame) -> list[dict[str, Any]]:
+    """Return the rows of a frame as dicts (its column labels are str)."""
+    # pandas-stubs type record keys as Hashable, since labels may be any hashable
+    return cast("list[dict[str, Any]]", df.to_dict("records"))
 
 
 def _feature_rows(feats: Iterable[Any], **extra: Any) -> list[dict[str, Any]]:
@@ -66,31 +73,33 @@ def level_layers(lr: LevelResult, crs: Any) -> dict[str, gpd.GeoDataFrame]:
         if s.classes is not None and len(s.classes):
             c = s.classes.copy()
             c["area_m2"] = c.pop("area_local") * a2
-            out[f"classes_{name}"] = to_site_frame(c.to_dict("records"), lr, crs)
+            out[f"classes_{name}"] = to_site_frame(_records(c), lr, crs)
         res = s.residuals
         from shapely import points
 
+        # an (n, 2) array gives an array of n points; the stubs cannot tell it from one point
+        res_pts = cast("NDArray[np.object_]",
+                       points(np.column_stack([res["x_local"], res["y_local"]])))
         out[f"cv_residuals_{name}"] = to_site_frame(
             [{"reading_id": r, "residual": v, "unit": unit, "geometry": g}
-             for r, v, g in zip(res["reading_id"], res["residual"],
-                                points(np.column_stack([res["x_local"], res["y_local"]])),
-                                strict=True)], lr, crs)
+             for r, v, g in zip(res["reading_id"], res["residual"], res_pts, strict=True)],
+            lr, crs)
     cond = lr.condition
     if cond is not None and cond.combined_polygons is not None and len(cond.combined_polygons):
         c = cond.combined_polygons.copy()
         c["area_m2"] = c.pop("area_local") * a2
-        out["combined_classes"] = to_site_frame(c.to_dict("records"), lr, crs)
+        out["combined_classes"] = to_site_frame(_records(c), lr, crs)
     if lr.zones is not None and len(lr.zones):
         z = pd.DataFrame(lr.zones.drop(columns="geometry"))
         z["geometry"] = list(lr.zones.geometry)
-        out["zones"] = to_site_frame(z.drop(columns=[c for c in ("level_id",) if c in z])
-                                     .to_dict("records"), lr, crs)
+        out["zones"] = to_site_frame(_records(z.drop(columns=[c for c in ("level_id",) if c in z])),
+                                     lr, crs)
     if lr.repairs is not None and len(lr.repairs):
         rep = pd.DataFrame(lr.repairs.drop(columns="geometry"))
         rep["geometry"] = list(lr.repairs.geometry)
         if "level_id" in rep:
             rep = rep.drop(columns="level_id")
-        out["repairs"] = to_site_frame(rep.to_dict("records"), lr, crs)
+        out["repairs"] = to_site_frame(_records(rep), lr, crs)
     return out
 
 
@@ -115,7 +124,7 @@ def site_layers(result: RunResult) -> dict[str, gpd.GeoDataFrame]:
             df["qa_flags"] = ""
         layers[f"readings_{kind}"] = df
     if not flags.empty:
-        pts = {}
+        pts: dict[str, BaseGeometry] = {}  # reading id -> its point
         for s in result.site.surveys:
             pts.update(zip(s.frame["reading_id"], s.frame.geometry, strict=True))
         geoms: list[BaseGeometry | None] = [pts.get(r) for r in flags["reading_id"]]

@@ -12,6 +12,7 @@ from __future__ import annotations
 import math
 import warnings
 from dataclasses import dataclass
+from typing import TYPE_CHECKING, TypeAlias
 
 import numpy as np
 import shapely
@@ -23,6 +24,9 @@ from geo_corrosion.crs import LocalGrid
 from geo_corrosion.errors import GeometryWarning, IngestError
 from geo_corrosion.units import LENGTH_TO_M
 
+if TYPE_CHECKING:
+    import pandas as pd
+
 __all__ = ["Feature", "read_layer", "read_polygons", "read_lines", "DXF_UNITS"]
 
 #: $INSUNITS codes of the DXF reference that name plan length units.
@@ -30,6 +34,9 @@ DXF_UNITS = {1: "in", 2: "ft", 4: "mm", 5: "cm", 6: "m", 21: "us-ft"}
 CIRCLE_SEGMENTS = 64
 #: An open outline whose ends are closer than this share of its length is closed.
 CLOSE_TOLERANCE = 0.02
+
+#: A shape read from a file: geometry, where it was read, label, delamination depth (mm).
+_Raw: TypeAlias = tuple[BaseGeometry, str, str, float | None]
 
 
 @dataclass(frozen=True)
@@ -50,12 +57,15 @@ def _check_file(ref: LayerRef) -> None:
 
 
 def _dxf_features(ref: LayerRef) -> tuple[list[tuple[BaseGeometry, str, str]], str]:
-    import ezdxf
     from ezdxf import recover
+
+    # DXFStructureError from the module defining it: ezdxf's __init__ re-exports it
+    # unmarked, which strict mypy does not accept
+    from ezdxf.lldxf.const import DXFStructureError
 
     try:
         doc, _auditor = recover.readfile(str(ref.path))
-    except (OSError, ezdxf.DXFStructureError) as err:
+    except (OSError, DXFStructureError) as err:
         raise IngestError(f"{ref.where}: cannot read DXF {ref.path.name}: {err}") from err
     code = int(doc.header.get("$INSUNITS", 0))
     unit = DXF_UNITS.get(code) or ref.unit
@@ -75,7 +85,8 @@ def _dxf_features(ref: LayerRef) -> tuple[list[tuple[BaseGeometry, str, str]], s
     out: list[tuple[BaseGeometry, str, str]] = []
     msp = doc.modelspace()
     for i, e in enumerate(msp.query(f'*[layer=="{layers[ref.layer.upper()]}"]i')):
-        w = f"{ref.path.name} layer {ref.layer} entity #{i + 1} ({e.dxftype()}, handle {e.dxf.handle})"
+        w = (f"{ref.path.name} layer {ref.layer} entity #{i + 1} ({e.dxftype()}, "
+             f"handle {e.dxf.handle})")
         t = e.dxftype()
         try:
             if t == "LWPOLYLINE":
@@ -88,7 +99,8 @@ def _dxf_features(ref: LayerRef) -> tuple[list[tuple[BaseGeometry, str, str]], s
                 out.append((Polygon(pts) if closed and len(pts) >= 3 else LineString(pts), w, ""))
             elif t == "CIRCLE":
                 c = e.dxf.center
-                out.append((Point(c.x, c.y).buffer(e.dxf.radius, quad_segs=CIRCLE_SEGMENTS // 4), w, ""))
+                disc = Point(c.x, c.y).buffer(e.dxf.radius, quad_segs=CIRCLE_SEGMENTS // 4)
+                out.append((disc, w, ""))
             elif t == "LINE":
                 s, f = e.dxf.start, e.dxf.end
                 out.append((LineString([(s.x, s.y), (f.x, f.y)]), w, ""))
@@ -123,7 +135,7 @@ def _hatch_path_vertices(path: object) -> list[tuple[float, float]]:
     return verts
 
 
-def _gis_features(ref: LayerRef, site_crs: object) -> tuple[list[tuple[BaseGeometry, str, str]], object]:
+def _gis_features(ref: LayerRef, site_crs: object) -> tuple[list[_Raw], object]:
     import pyogrio
 
     try:
@@ -136,7 +148,7 @@ def _gis_features(ref: LayerRef, site_crs: object) -> tuple[list[tuple[BaseGeome
             gdf = gdf.to_crs(site_crs)
     label_col = next((c for c in ("label", "name", "id") if c in gdf.columns), None)
     depth = _depth_mm_column(gdf, ref)
-    feats = []
+    feats: list[_Raw] = []
     for i, geom in enumerate(gdf.geometry):
         if geom is None or geom.is_empty:
             continue
@@ -145,20 +157,20 @@ def _gis_features(ref: LayerRef, site_crs: object) -> tuple[list[tuple[BaseGeome
     return feats, gdf.crs
 
 
-def _depth_mm_column(gdf: object, ref: LayerRef) -> list[float | None]:
+def _depth_mm_column(gdf: pd.DataFrame, ref: LayerRef) -> list[float | None]:
     """Delamination depth per feature from a ``depth_mm`` or ``depth_in`` attribute."""
     import pandas as pd
 
     for col, factor in (("depth_mm", 1.0), ("depth_in", 25.4)):
-        if col in gdf.columns:  # type: ignore[attr-defined]
-            vals = pd.to_numeric(gdf[col], errors="coerce")  # type: ignore[index]
-            bad = vals.isna() & gdf[col].notna()  # type: ignore[index]
+        if col in gdf.columns:
+            vals = pd.to_numeric(gdf[col], errors="coerce")
+            bad = vals.isna() & gdf[col].notna()
             if bad.any():
                 i = int(bad.to_numpy().nonzero()[0][0])
                 raise IngestError(f"{ref.where}: {ref.path.name} feature #{i + 1}: {col} holds "
-                                  f"{gdf[col].iloc[i]!r}, not a number")  # type: ignore[index]
+                                  f"{gdf[col].iloc[i]!r}, not a number")
             return [None if pd.isna(v) else float(v) * factor for v in vals]
-    return [None] * len(gdf)  # type: ignore[arg-type]
+    return [None] * len(gdf)
 
 
 def read_layer(ref: LayerRef, grid: LocalGrid, *, site_crs: object = None) -> list[Feature]:
@@ -170,13 +182,15 @@ def read_layer(ref: LayerRef, grid: LocalGrid, *, site_crs: object = None) -> li
         Missing or unreadable file, unknown layer, DXF in unknown units.
     """
     _check_file(ref)
+    raw: list[_Raw]
     if ref.path.suffix.lower() == ".dxf":
-        raw, unit = _dxf_features(ref)
+        shapes, unit = _dxf_features(ref)
         target = grid.unit if ref.coords == "local" else grid.crs_unit
         f = LENGTH_TO_M[unit] / LENGTH_TO_M[target]
         if f != 1.0:
-            raw = [(shapely.affinity.scale(g, f, f, origin=(0, 0)), w, lab) for g, w, lab in raw]
-        raw = [(*r, None) for r in raw]
+            shapes = [(shapely.affinity.scale(g, f, f, origin=(0, 0)), w, lab)
+                      for g, w, lab in shapes]
+        raw = [(*r, None) for r in shapes]  # a DXF gives no delamination depth
     else:
         raw, _ = _gis_features(ref, site_crs)
     feats = []
@@ -242,8 +256,8 @@ def read_polygons(
                     )
                 warnings.warn(f"{f.where}: self-intersecting outline ({reason}) repaired into "
                               f"{len(parts)} polygon(s)", GeometryWarning, stacklevel=2)
-                out.extend(Feature(p, f.where + " (self-intersection repaired)", f.label, f.depth_mm)
-                           for p in parts)
+                out.extend(Feature(p, f.where + " (self-intersection repaired)", f.label,
+                                   f.depth_mm) for p in parts)
             elif poly.area > 0:
                 out.append(Feature(poly, f.where, f.label, f.depth_mm))
     if not out:

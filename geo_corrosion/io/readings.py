@@ -66,7 +66,8 @@ def _read_csv(cfg: SurveyConfig, name: str) -> tuple[pd.DataFrame, list[int]]:
         df = pd.read_csv(io.StringIO(text), sep=cfg.separator, dtype=str, keep_default_na=False,
                          skipinitialspace=True, quoting=csv.QUOTE_MINIMAL, skip_blank_lines=True)
     except pd.errors.ParserError as err:
-        raise IngestError(f"{name}: cannot read as CSV with separator {cfg.separator!r}: {err}") from err
+        raise IngestError(f"{name}: cannot read as CSV with separator {cfg.separator!r}: "
+                          f"{err}") from err
     if df.empty:
         raise IngestError(f"{name}: the file has a header but no readings")
     df.columns = [str(c).strip() for c in df.columns]
@@ -75,7 +76,8 @@ def _read_csv(cfg: SurveyConfig, name: str) -> tuple[pd.DataFrame, list[int]]:
     return df, lines[: len(df)]
 
 
-def _read_vector(cfg: SurveyConfig, name: str, site_crs: pyproj.CRS) -> tuple[pd.DataFrame, list[int]]:
+def _read_vector(cfg: SurveyConfig, name: str, site_crs: pyproj.CRS
+                 ) -> tuple[pd.DataFrame, list[int]]:
     import pyogrio
 
     if cfg.path.stat().st_size == 0:
@@ -128,7 +130,8 @@ def _numbers(series: pd.Series, col: str, decimal: str, name: str, rows: list[in
         )
     if required and blank.any():
         i = int(np.flatnonzero(blank.to_numpy())[0])
-        raise SchemaError(f"{name} {unit_row} {rows[i]}: column {col!r} is empty; a value is required")
+        raise SchemaError(f"{name} {unit_row} {rows[i]}: column {col!r} is empty; "
+                          "a value is required")
     return vals.to_numpy(float)
 
 

@@ -34,9 +34,9 @@ from __future__ import annotations
 import logging
 import math
 import warnings
-from collections.abc import Iterable, Sequence
+from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass
-from typing import Literal
+from typing import Literal, TypeVar
 
 import geopandas as gpd
 import numpy as np
@@ -64,6 +64,8 @@ __all__ = [
 ]
 
 log = logging.getLogger(__name__)
+
+_G = TypeVar("_G", bound=BaseGeometry)
 
 #: Depth classes, shallowest first (common practice; names are owner-specific).
 DEPTH_CLASSES: tuple[str, ...] = ("partial_above_bars", "partial_below_bars", "full_depth")
@@ -436,7 +438,7 @@ def _close(geom: BaseGeometry, gap: float) -> BaseGeometry:
     return shapely.union_all([grown.buffer(-d, join_style="mitre", mitre_limit=5.0), geom])
 
 
-def _panels(slab: Polygon, joints: Sequence[LineString], tol: float) -> list[Polygon]:
+def _panels(slab: Polygon, joints: Sequence[BaseGeometry], tol: float) -> list[Polygon]:
     """Split the slab at its joint lines (joints that do not cut it through are ignored)."""
     if not joints:
         return [slab]
@@ -654,7 +656,7 @@ def _fits_square(g: BaseGeometry, size: float, tol: float) -> bool:
 
 def _widen(g: BaseGeometry, panel: Polygon, excl: BaseGeometry, others: Sequence[BaseGeometry],
            size: float, tiny: float) -> Polygon | None:
-    """A rectangle over ``g`` with both sides >= ``size`` that fits there, or None.
+    """Find a rectangle over ``g`` with both sides >= ``size`` that fits there, or None.
 
     Each short side is extended from one end of the piece's bounds: first keeping
     the low end (growing up / right), then keeping the high end.  The edge a piece
@@ -748,7 +750,7 @@ def _check_inputs(sources: gpd.GeoDataFrame, slab: Polygon, unit: str, level_id:
 
 
 def layout_repairs(sources: gpd.GeoDataFrame, *, slab: Polygon,
-                   exclusions: Sequence[Polygon] = (), joints: Sequence[LineString] = (),
+                   exclusions: Sequence[BaseGeometry] = (), joints: Sequence[BaseGeometry] = (),
                    unit: str, params: LayoutParams, level_id: str) -> gpd.GeoDataFrame:
     """Lay out saw-cut repairs around sounded delaminations, spalls and opted-in zones.
 
@@ -761,9 +763,11 @@ def layout_repairs(sources: gpd.GeoDataFrame, *, slab: Polygon,
     slab : Polygon
         The slab outline, local grid coordinates in ``unit``.
     exclusions : sequence of Polygon
-        Areas that are not repaired (columns, drains, ramps); repairs stop at them.
+        Areas that are not repaired (columns, drains, ramps); repairs stop at them.  Any
+        geometry is accepted (they are united); only their area matters.
     joints : sequence of LineString
-        Joint lines; a repair never crosses one.
+        Joint lines; a repair never crosses one.  Any lineal geometry is accepted
+        (LineString, MultiLineString, LinearRing).
     unit : {"m", "ft"}
         Plan length unit of every geometry.
     params : LayoutParams
@@ -809,8 +813,8 @@ def layout_repairs(sources: gpd.GeoDataFrame, *, slab: Polygon,
         return _layout(sources, slab, exclusions, joints, unit, params, level_id)
 
 
-def _layout(sources: gpd.GeoDataFrame, slab: Polygon, exclusions: Sequence[Polygon],
-            joints: Sequence[LineString], unit: str, params: LayoutParams, level_id: str
+def _layout(sources: gpd.GeoDataFrame, slab: Polygon, exclusions: Sequence[BaseGeometry],
+            joints: Sequence[BaseGeometry], unit: str, params: LayoutParams, level_id: str
             ) -> gpd.GeoDataFrame:
     per_mm = 0.001 / LENGTH_TO_M[unit]
     p = params
@@ -828,7 +832,7 @@ def _layout(sources: gpd.GeoDataFrame, slab: Polygon, exclusions: Sequence[Polyg
     origin = slab.centroid
     angle = float(p.axis_angle_deg)
 
-    def rot(g: BaseGeometry, sign: float = -1.0) -> BaseGeometry:
+    def rot(g: _G, sign: float = -1.0) -> _G:  # a rotated polygon stays a Polygon
         return affinity.rotate(g, sign * angle, origin=origin) if angle else g
 
     slab_r = rot(slab)
@@ -881,19 +885,19 @@ def _tidy(g: BaseGeometry, tol: float) -> BaseGeometry:
 
 
 def _attributes(found: Iterable[_Piece], rows: pd.DataFrame,
-                row_of: list[int], slab: Polygon, excl: list[Polygon], jts: list[LineString],
-                rot: object, unit: str, p: LayoutParams, level_id: str, tol: float
+                row_of: list[int], slab: Polygon, excl: list[BaseGeometry],
+                jts: list[BaseGeometry], rot: Callable[[BaseGeometry, float], BaseGeometry],
+                unit: str, p: LayoutParams, level_id: str, tol: float
                 ) -> gpd.GeoDataFrame:
     f = LENGTH_TO_M[unit]
     nocut = shapely.union_all([slab.boundary, *[e.boundary for e in excl], *jts]).buffer(tol * 10)
     recs = []
     for pc in found:
-        g = _tidy(rot(pc.geom, 1.0), tol)  # type: ignore[operator]
+        g = _tidy(rot(pc.geom, 1.0), tol)
         if g.is_empty:
             continue
         # numbered by the outline as clipped, so widening a sliver renumbers no other repair
-        at = g if pc.clipped is pc.geom else _tidy(rot(pc.clipped, 1.0),  # type: ignore[operator]
-                                                   tol)
+        at = g if pc.clipped is pc.geom else _tidy(rot(pc.clipped, 1.0), tol)
         c = at.centroid
         srows = sorted({row_of[k] for k in pc.ids})
         best: tuple[int, float, str] = (-1, 0.0, "")

@@ -33,7 +33,9 @@ KERNEL_MODELS = {"spherical": 0, "exponential": 1, "gaussian": 2, "stable": 3}
 try:  # numba is a dependency; the numpy path still works without it
     import numba as _nb
 except ImportError:  # pragma: no cover - exercised only on installs without numba
-    _nb = None
+    # the optional-import idiom: mypy types _nb as the module; every use checks for None
+    # first (declaring it ``Any`` instead would make the numba decorators "untyped")
+    _nb = None  # type: ignore[assignment]
 
 
 def kernel_for(model: Any) -> int | None:

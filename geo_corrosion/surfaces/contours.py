@@ -11,6 +11,7 @@ on a set of zero area.
 from __future__ import annotations
 
 import math
+from typing import cast
 
 import contourpy
 import numpy as np
@@ -111,13 +112,16 @@ def contour_lines(
     gen = _generator(array2d, grid)
     out: list[tuple[float, shapely.MultiLineString]] = []
     for lev in contour_levels(array2d, interval=interval, base=base):
-        lines = [seg for seg in gen.lines(float(lev)) if len(seg) >= 2]
+        # contourpy types lines() as the union over every line_type; _generator asks for
+        # "Separate": one (n, 2) float64 array per line
+        segs = cast("list[NDArray[np.float64]]", gen.lines(float(lev)))
+        lines = [seg for seg in segs if len(seg) >= 2]
         if lines:
             out.append((float(lev), shapely.MultiLineString(lines)))
     return out
 
 
-def _polygons(points: list[NDArray[np.float64]], offsets: list[NDArray[np.intp]]) -> list[
+def _polygons(points: list[NDArray[np.float64]], offsets: list[NDArray[np.uint32]]) -> list[
     shapely.Polygon
 ]:
     polys: list[shapely.Polygon] = []
@@ -127,9 +131,7 @@ def _polygons(points: list[NDArray[np.float64]], offsets: list[NDArray[np.intp]]
         if not rings:
             continue
         poly = shapely.Polygon(rings[0], rings[1:])
-        if not poly.is_valid:
-            poly = shapely.make_valid(poly)
-        polys.extend(_only_polygons(poly))
+        polys.extend(_only_polygons(poly if poly.is_valid else shapely.make_valid(poly)))
     return polys
 
 
@@ -181,7 +183,10 @@ def contour_bands(
         # the outer bands are opened to include the extreme values themselves
         q0 = -np.inf if b0 <= lo else float(b0)
         q1 = np.inf if b1 >= hi else float(b1)
-        points, offsets = gen.filled(q0, q1)
+        # contourpy types filled() as the union over every fill_type; _generator asks for
+        # "OuterOffset": (points, offsets) lists, offsets uint32
+        points, offsets = cast("tuple[list[NDArray[np.float64]], list[NDArray[np.uint32]]]",
+                               gen.filled(q0, q1))
         polys = _polygons(points, offsets)
         if polys:
             out.append((float(b0), float(b1), shapely.MultiPolygon(polys)))

@@ -144,7 +144,7 @@ def _check_fixed(fixed: dict[str, Any] | None) -> dict[str, Any]:
 def _fit_one(
     name: str, ev: ExperimentalVariogram, fx: dict[str, Any], var: float, max_lag: float
 ) -> tuple[VariogramModel, float]:
-    h, g, w = ev.lags, ev.gamma, ev.counts.astype(float)
+    h, g, w = ev.lags, ev.gamma, ev.counts.astype(np.float64)
     has_shape = name in _SHAPE_BOUNDS
     gmax = float(max(g.max(), var, 1e-300))
     r_lo, r_hi = max(float(h.min()) * 0.25, max_lag * 1e-3), max_lag * 3.0

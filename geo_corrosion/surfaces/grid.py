@@ -17,6 +17,7 @@ import numpy as np
 import shapely
 from numpy.typing import ArrayLike, NDArray
 from scipy.spatial import cKDTree
+from shapely.geometry.base import BaseGeometry
 
 from geo_corrosion.errors import KrigingError, KrigingWarning
 from geo_corrosion.surfaces.kriging import (
@@ -81,11 +82,12 @@ class GridSpec:
 
     def x_centers(self) -> NDArray[np.float64]:
         """Cell-centre x of each column (increasing)."""
-        return self.x0 + (np.arange(self.nx) + 0.5) * self.cell
+        return np.asarray(self.x0 + (np.arange(self.nx) + 0.5) * self.cell, dtype=np.float64)
 
     def y_centers(self) -> NDArray[np.float64]:
         """Cell-centre y of each row (decreasing: row 0 is the top)."""
-        return self.y0 + (self.ny - np.arange(self.ny) - 0.5) * self.cell
+        return np.asarray(self.y0 + (self.ny - np.arange(self.ny) - 0.5) * self.cell,
+                          dtype=np.float64)
 
     def affine(self) -> affine.Affine:
         """GeoTIFF-style transform from (col, row) to local plan coordinates."""
@@ -100,14 +102,15 @@ class GridSpec:
 
 
 def grid_for_polygon(
-    polygon: shapely.Polygon | shapely.MultiPolygon, cell: float, *, max_cells: int = 50_000_000
+    polygon: BaseGeometry, cell: float, *, max_cells: int = 50_000_000
 ) -> GridSpec:
     """Grid covering a polygon, with cell edges on multiples of ``cell`` from the origin.
 
     Parameters
     ----------
     polygon : shapely.Polygon or MultiPolygon
-        The slab outline, local plan coordinates.
+        The slab outline, local plan coordinates (only its bounds are used, so any
+        geometry is accepted, e.g. a slab minus its exclusions).
     cell : float
         Cell size, plan length units.
     max_cells : int
@@ -149,7 +152,7 @@ def _rows_per_block(grid: GridSpec, cells: int = 262_144) -> int:
 
 def surface_mask(
     grid: GridSpec,
-    polygon: shapely.Polygon | shapely.MultiPolygon | None,
+    polygon: BaseGeometry | None,
     x: ArrayLike,
     y: ArrayLike,
     *,
@@ -166,7 +169,8 @@ def surface_mask(
     grid : GridSpec
         The prediction grid.
     polygon : shapely.Polygon or MultiPolygon, optional
-        Slab minus exclusions; None keeps every cell.
+        Slab minus exclusions (any geometry: a cell is kept when the geometry contains its
+        centre); None keeps every cell.
     x, y : array_like
         Reading coordinates, plan length units.
     max_distance : float, optional

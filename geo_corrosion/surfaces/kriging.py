@@ -237,7 +237,7 @@ class KrigingEngine:
             # singular systems: the numpy path, with its pseudo-inverse fallback
             has = bad
         else:
-            has = (idx < n).any(axis=1)
+            has = np.asarray((idx < n).any(axis=1), dtype=np.bool_)
         if not has.all():
             idx, dist = idx[has], dist[has]
         mv, vv, nv = self._solve(idx, dist)

@@ -53,7 +53,7 @@ def _smooth(g: BaseGeometry, s: float) -> BaseGeometry:
     return g.buffer(-s, **kw).buffer(s, **kw)
 
 
-def zone(slab: Polygon, exclusions: Sequence[Polygon], layers: ZoningLayers,
+def zone(slab: Polygon, exclusions: Sequence[BaseGeometry], layers: ZoningLayers,
          rules: Sequence[ZoningRule], *, min_zone_area_m2: float = 0.0,
          smoothing_m: float = 0.0, unit: str, level_id: str = "") -> gpd.GeoDataFrame:
     """Split a slab into zones by applying rules in order.
@@ -63,7 +63,7 @@ def zone(slab: Polygon, exclusions: Sequence[Polygon], layers: ZoningLayers,
     slab : Polygon
         Slab outline, local grid, plan unit.
     exclusions : sequence of Polygon
-        Areas left out of every zone.
+        Areas left out of every zone (any geometry is accepted: they are united).
     layers : ZoningLayers
     rules : sequence of ZoningRule
         Applied in order; each takes only what earlier rules left.
