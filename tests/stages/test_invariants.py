@@ -25,7 +25,7 @@ from shapely.geometry import shape
 
 from tests.stages.outputs import M_PER_UNIT, RunOutputs
 
-#: Bid item of each repair depth class (``geo_corrosion/quantities.py``, REFERENCE §6.4).
+#: Bid item of each repair depth class (``geo_corrosion/quantities.py``; common practice).
 DEPTH_CLASS_ITEMS = {"partial_above_bars": "REP-PD-SURF", "partial_below_bars": "REP-PD-BARS",
                      "full_depth": "REP-FD"}
 
@@ -244,7 +244,7 @@ def _expected_base_quantities(out: RunOutputs, lid: str) -> dict[str, float]:
                  for g in reps.geometry]
         exp["SAWCUT"] = sum(cut_m) * f
         spacing = out.manifest["parameters"].get("anode_spacing_mm")
-        if spacing:  # REFERENCE §6.4: ceil(perimeter / spacing) anodes per repair
+        if spacing:  # common practice: ceil(perimeter / spacing) anodes per repair
             exp["ANODE"] = float(sum(math.ceil(c * 1000.0 / spacing - 1e-9) for c in cut_m))
     zones = out.layer(f"{lid}_zones")
     if len(zones):
@@ -272,7 +272,7 @@ def test_bid_quantities_are_sums_over_repairs_and_zones(out: RunOutputs) -> None
                 f"{out.name}: {lid} {item}: {base[item]} in quantities.csv, {want:.4f} from the "
                 "repairs and zones")
         cont = rows[rows["line"] == "contingency"].set_index("item")["quantity"]
-        for item in base.index:  # contingency line = fraction x base (REFERENCE §6.4)
+        for item in base.index:  # contingency line = fraction x base (common practice)
             want = base[item] * contingency
             if item == "ANODE":
                 want = math.ceil(want - 1e-9)
