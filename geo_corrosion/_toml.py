@@ -39,7 +39,8 @@ class Table:
     def has(self, name: str) -> bool:
         return name in self.data
 
-    def string(self, name: str, default: str | None = None, *, choices: tuple[str, ...] = ()) -> str:
+    def string(self, name: str, default: str | None = None, *,
+               choices: tuple[str, ...] = ()) -> str:
         if name not in self.data:
             if default is None:
                 raise SiteFileError(f"{self.key(name)}: missing; expected a string")

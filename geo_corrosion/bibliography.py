@@ -377,7 +377,8 @@ ASSUMPTIONS_TO_CONFIRM: tuple[str, ...] = (
     "Resistivity-rate estimate i_corr = 26-30 / rho (condition/resistivity.py "
     "icorr_estimate_from_resistivity, optional): from memory, low confidence "
     "[Alonso-Andrade-1988]; check the constant.",
-    "Repair margin 150 mm (6 in) beyond the sounded limits (repair/layout.py LayoutParams.margin_mm; "
+    "Repair margin 150 mm (6 in) beyond the sounded limits "
+    "(repair/layout.py LayoutParams.margin_mm; "
     "site template): from memory, not found verbatim [ICRI-310.1R-2008]; check.",
     "Saw-cut depth 3/4 in (19.05 mm) (repair/layout.py sawcut_depth_mm): seen in a project "
     "specification built on [ICRI-310.1R-2008], older editions may say 1/2 in; check the "
@@ -389,7 +390,8 @@ ASSUMPTIONS_TO_CONFIRM: tuple[str, ...] = (
     "only on a firm's web page; check a published table [Ives-Janz-1961].",
     "ACI 318 cover tolerance -1/2 in for members deeper than 8 in (sample site "
     "millbrook_garage, low-cover thresholds): from memory [ACI-318-19 §26.6.2.1]; check.",
-    "Kriging: the variance scaled so that the leave-one-out MSSE is 1 (stages/map_surfaces.py), the "
+    "Kriging: the variance scaled so that the leave-one-out MSSE is 1 "
+    "(stages/map_surfaces.py), the "
     "multi-Gaussian reading of kriging output for the probability maps "
     "(condition/probability.py), the lognormal back-transform (surfaces/kriging.py): common "
     "practice, from memory "

@@ -1,4 +1,4 @@
-"""Exporters (plugins): GeoPackage, GeoTIFF, quantities, drawings, plots, the web map and the report."""
+"""Exporters (plugins): GeoPackage, GeoTIFF, quantities, drawings, plots, web map, report."""
 
 from geo_corrosion.exporters.base import Exporter
 from geo_corrosion.exporters.documents import DrawingsExporter, QuantitiesExporter

@@ -67,7 +67,8 @@ class Level:
         """Slab minus exclusions: the surveyed concrete (local grid)."""
         if not self.exclusions:
             return self.slab
-        return shapely.difference(self.slab, shapely.union_all([e.geometry for e in self.exclusions]))
+        holes = shapely.union_all([e.geometry for e in self.exclusions])
+        return shapely.difference(self.slab, holes)
 
     def exclusion_polygons(self) -> list[BaseGeometry]:
         """Exclusion geometries."""

@@ -30,7 +30,8 @@ def run_out(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, Path]:
 
 def test_outputs_exist(run_out: tuple[Path, Path]) -> None:
     _site, out = run_out
-    for name in ("survey.gpkg", "run.json", "webmap.html", "quantities.csv", "quantities.xlsx", "condition_areas.csv",
+    for name in ("survey.gpkg", "run.json", "webmap.html", "quantities.csv", "quantities.xlsx",
+                 "condition_areas.csv",
                  "rasters/D1_potential.tif", "rasters/D1_potential_variance.tif"):
         assert (out / name).is_file(), name
     assert not list(out.parent.glob(".out.partial-*"))
@@ -47,7 +48,8 @@ def test_manifest(run_out: tuple[Path, Path]) -> None:
     assert man["parameters"]["contour_interval_mv"] == 50.0
     assert man["versions"]["numpy"] == np.__version__
     lv = man["levels"]["D1"]
-    assert lv["georeference"]["rotation_deg"] == pytest.approx(SYNTHETIC_TIE["rotation_deg"], abs=1e-3)
+    assert lv["georeference"]["rotation_deg"] == pytest.approx(SYNTHETIC_TIE["rotation_deg"],
+                                                               abs=1e-3)
     pot = lv["kinds"]["potential"]
     assert pot["readings"] == 600
     # class areas add up to the mapped area

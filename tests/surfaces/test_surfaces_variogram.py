@@ -27,15 +27,18 @@ H = np.linspace(0.01, 80.0, 200)
 )
 def test_models_match_pykrige(name, fn, rng_factor):
     m = VariogramModel(name, nugget=3.0, psill=40.0, range=25.0)
-    ref = fn([40.0, 25.0 * rng_factor, 3.0], H)  # pykrige as reference library ([psill, range, nugget])
+    # pykrige as reference library ([psill, range, nugget])
+    ref = fn([40.0, 25.0 * rng_factor, 3.0], H)
     np.testing.assert_allclose(m(H), ref, rtol=1e-12)
 
 
 @pytest.mark.parametrize(
     ("m", "ref"),
     [
-        (VariogramModel("spherical", 2.0, 10.0, 30.0), gs.Spherical(dim=2, var=10.0, len_scale=30.0, nugget=2.0)),
-        (VariogramModel("exponential", 2.0, 10.0, 30.0), gs.Exponential(dim=2, var=10.0, len_scale=10.0, nugget=2.0)),
+        (VariogramModel("spherical", 2.0, 10.0, 30.0),
+         gs.Spherical(dim=2, var=10.0, len_scale=30.0, nugget=2.0)),
+        (VariogramModel("exponential", 2.0, 10.0, 30.0),
+         gs.Exponential(dim=2, var=10.0, len_scale=10.0, nugget=2.0)),
         (VariogramModel("gaussian", 2.0, 10.0, 30.0),
          gs.Gaussian(dim=2, var=10.0, len_scale=30.0 * np.sqrt(np.pi / 12.0), nugget=2.0)),
         (VariogramModel("stable", 2.0, 10.0, 30.0, shape=1.3),
@@ -62,7 +65,8 @@ def test_practical_range_is_95_percent(name, shape):
 
 
 def test_nugget_discontinuity_and_anisotropy():
-    m = VariogramModel("spherical", 5.0, 10.0, 20.0, anisotropy_ratio=0.5, anisotropy_angle_deg=30.0)
+    m = VariogramModel("spherical", 5.0, 10.0, 20.0, anisotropy_ratio=0.5,
+                       anisotropy_angle_deg=30.0)
     assert float(m(np.array([0.0]))[0]) == 0.0
     assert float(m(np.array([1e-6]))[0]) == pytest.approx(5.0, abs=1e-5)
     t = np.radians(30.0)
@@ -105,7 +109,8 @@ def test_experimental_matches_gstools(field):
     edges = np.linspace(0, 40.0, 9)
     _, g_ref, c_ref = gs.vario_estimate((x, y), z, edges, return_counts=True)
     np.testing.assert_array_equal(ev.counts, c_ref)  # gstools as reference library
-    np.testing.assert_allclose(ev.gamma, g_ref, rtol=1e-10)  # gstools as reference library (Matheron)
+    # gstools as reference library (Matheron)
+    np.testing.assert_allclose(ev.gamma, g_ref, rtol=1e-10)
 
 
 def test_directional_matches_brute_force(field):
