@@ -109,7 +109,7 @@ class Key:
         ``date``; or a structured type read by its own code (``table``, ``tables``,
         ``layer``, ``layers``, ...).
     default : object
-        The default as a site file would write it (``"150 mm"``, ``50``, ``true``); None for
+        The default as a site file would write it (``"150 mm"``, ``50``, ``True``); None for
         none; :data:`REQUIRED`; :data:`DERIVED` (see ``default_doc``).
     unit : str
         Unit of the value held (``"mm"``, ``"m"``, ``"m2"``, ``"mV"``, ``"°C"``...); a length
