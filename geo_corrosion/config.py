@@ -1,21 +1,37 @@
-"""The site-file schema: frozen dataclasses for what a site file says.
+"""The site-file schema: every key declared once, and the frozen dataclasses it fills.
 
-This module declares the types only; the TOML reader that fills them, with its
-messages naming the file and the dotted key, is :mod:`geo_corrosion.stages.read_site`.
-Lengths carry their unit in the field name (``_m``, ``_mm``).  See ``docs/site-file.md``
-for the full reference and ``geo-corrosion init`` for a commented template.
+Each key of the site file is declared once, on the dataclass field it fills (or, for the
+tables held as plain dicts, in a tuple of :class:`Key`): its table, name, type, default as a
+site file would write it, the unit it is held in, its allowed values or range and one line
+of help.  From that declaration come the dataclass defaults, the reader's allowed keys,
+defaults and range checks (:mod:`geo_corrosion.stages.read_site`, which adds the checks that
+need the registries), the key tables of ``docs/site-file.md`` (:func:`schema_markdown`) and
+the ``geo-corrosion init`` template (:func:`site_template`).  ``python -m geo_corrosion.config``
+rewrites both; ``--check`` only says whether they are stale.
+
+Lengths carry their unit in the field name (``_m``, ``_mm``).
 """
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+import builtins
+import copy
+import dataclasses
+import difflib
+import json
+import math
+import re
+import sys
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
+from functools import partial
 from pathlib import Path
-from typing import Any
+from typing import Any, Literal, get_args
 
 import pyproj
 
-from geo_corrosion.errors import SiteFileError
+from geo_corrosion.errors import RepairError, SiteFileError
+from geo_corrosion.units import LENGTH_TO_M, UnitSystem, parse_area, parse_length
 
 __all__ = [
     "LayerRef",
@@ -25,46 +41,314 @@ __all__ = [
     "LevelConfig",
     "SurveyConfig",
     "RunParams",
+    "LayoutParams",
     "SiteConfig",
     "COORDS",
     "OVERLAY_KINDS",
+    "VARIOGRAM_MODELS",
+    "REQUIRED",
+    "DERIVED",
+    "Key",
+    "TableSpec",
+    "TABLES",
+    "TOP",
+    "keys_of",
+    "schema_markdown",
+    "render_docs",
+    "site_template",
+    "main",
 ]
 
 COORDS = ("local", "site")
 OVERLAY_KINDS = ("delamination", "spall", "patch", "crack")
+VARIOGRAM_MODELS = ("auto", "spherical", "exponential", "gaussian", "matern")
 
+
+# --------------------------------------------------------------------------- the declaration
+
+
+class _Marker:
+    """A default that is not a value: :data:`REQUIRED` or :data:`DERIVED`."""
+
+    def __init__(self, name: str) -> None:
+        self.name = name
+
+    def __repr__(self) -> str:
+        return self.name
+
+
+#: The key must be given.
+REQUIRED: Any = _Marker("REQUIRED")
+#: The reader derives the value when the key is absent (from another key); see ``default_doc``.
+DERIVED: Any = _Marker("DERIVED")
+
+#: Held length units, per metre.
+_PER_M = {"m": 1.0, "mm": 1000.0}
+_TYPE_DOC = {
+    "string": "string", "text": "string (may be empty)", "number": "number",
+    "integer": "whole number", "boolean": "boolean", "length": "length string",
+    "area": "area string", "unit": "unit string", "pair": "`[x, y]`",
+    "date": "string or TOML date", "table": "table", "tables": "tables",
+    "layer": "layer reference", "layers": "list of layer references",
+}
+_NOUN = {"number": "number", "integer": "whole number", "length": "length", "area": "area"}
 
 
 @dataclass(frozen=True)
-class LayerRef:
-    """A layer of a vector file (GeoJSON, GeoPackage, Shapefile or DXF).
+class Key:
+    """One key of the site file, or one parameter that is not in it (``name`` None).
 
     Attributes
     ----------
-    path : Path
-        Absolute path of the file.
-    layer : str or None
-        Layer name (DXF layer, GeoPackage layer); None for single-layer files.
-    coords : {"local", "site"}
-        Whether coordinates are in the level's local survey grid or the site CRS.
-    unit : str or None
-        Drawing unit of a DXF whose header does not say ($INSUNITS = 0).
-    where : str
-        Where in the site file it was declared, for messages.
+    name : str or None
+        The key as written in the site file; None for a parameter of the library only
+        (such as ``LayoutParams.cover_mm``), which is declared for its default and range.
+    type : str
+        ``string``, ``text`` (may be empty), ``number``, ``integer``, ``boolean``,
+        ``length`` or ``area`` (a string with its unit), ``unit``, ``pair`` (``[x, y]``),
+        ``date``; or a structured type read by its own code (``table``, ``tables``,
+        ``layer``, ``layers``, ...).
+    default : object
+        The default as a site file would write it (``"150 mm"``, ``50``, ``True``); None for
+        none; :data:`REQUIRED`; :data:`DERIVED` (see ``default_doc``).
+    unit : str
+        Unit of the value held (``"mm"``, ``"m"``, ``"m2"``, ``"mV"``, ``"°C"``...); a length
+        given in the site file in any unit is held in this one.
+    ge, gt, le, lt : float or None
+        Range of the value held, in ``unit`` (>=, >, <=, <).
+    choices : tuple of str
+        Allowed values of a string.
+    positive : bool
+        The site file refuses a value of 0 or less (lengths, unless said otherwise), beyond
+        the range above, which is also the library's.
+    help : str
+        One line: the template's comment and the first sentence in the docs.
+    doc : str
+        More, for ``docs/site-file.md`` only.
+    expect : str
+        What a message says is expected, when the words made from the range do not suffice.
+    example : str or None
+        TOML text shown in the template (and set there when ``active``) instead of the default.
+    active : bool
+        The template sets the key (an uncommented line) although it is optional.
+    alternative : bool
+        The template shows it as an alternative of the key before it: ``(or key = value)``.
+    default_doc, type_doc, allowed_doc : str
+        Docs text for a derived default, a structured type, or allowed values said in words.
+    table : str
+        The table it is in (``"run"``, ``"levels.grid"``); set by the declaration.
+    field : str
+        The dataclass field (or dict key) it fills; set by the declaration.
+    owner : type or None
+        The dataclass of that field.
+    record : str
+        Its name in ``run.json``'s ``parameters`` when not the field's (``repair_margin_m``).
     """
 
-    path: Path
-    layer: str | None
-    coords: str
-    unit: str | None
+    name: str | None
+    type: str
+    default: Any = REQUIRED
+    unit: str = ""
+    ge: float | None = None
+    gt: float | None = None
+    le: float | None = None
+    lt: float | None = None
+    choices: tuple[str, ...] = ()
+    positive: bool | None = None
+    help: str = ""
+    doc: str = ""
+    expect: str = ""
+    example: str | None = None
+    active: bool = False
+    alternative: bool = False
+    default_doc: str = ""
+    type_doc: str = ""
+    allowed_doc: str = ""
+    table: str = ""
+    field: str = ""
+    owner: builtins.type | None = None
+    record: str = ""
+
+    @property
+    def required(self) -> bool:
+        """Whether the key must be given."""
+        return self.default is REQUIRED
+
+    @property
+    def dotted(self) -> str:
+        """``table.name``, for messages about the declaration itself."""
+        return f"{self.table}.{self.name}" if self.table else str(self.name or self.field)
+
+    @property
+    def value(self) -> Any:
+        """Return the default as held (``"150 mm"`` -> 150.0 for a key held in mm)."""
+        d = self.default
+        if d is None or isinstance(d, _Marker):
+            return None
+        return self.hold(d, where=f"default of {self.dotted}")
+
+    def hold(self, written: Any, *, where: str) -> Any:
+        """Convert a value as written (already of the right TOML type) to the value held."""
+        if self.type == "length":
+            return parse_length(written, where=where) * _PER_M[self.unit]
+        if self.type == "area":
+            return parse_area(written, where=where)
+        if self.type == "number":
+            return float(written)
+        if self.type == "integer":
+            return int(written)
+        if isinstance(written, list):
+            return tuple(written)
+        return written
+
+    # ------------------------------------------------------------------------- range
+
+    def bounds(self, *, site: bool = False) -> tuple[float | None, bool, float | None, bool]:
+        """Return (lower, lower is exclusive, upper, upper is exclusive); None: no bound.
+
+        ``site`` adds the site file's own rule that a length (``positive``) is more than 0.
+        """
+        lo, lo_open = (self.gt, True) if self.gt is not None else (self.ge, False)
+        hi, hi_open = (self.lt, True) if self.lt is not None else (self.le, False)
+        positive = self.positive if self.positive is not None else self.type == "length"
+        if site and positive and (lo is None or lo < 0 or (lo == 0 and not lo_open)):
+            lo, lo_open = 0.0, True
+        return lo, lo_open, hi, hi_open
+
+    def range_text(self, *, site: bool = False) -> str:
+        """Return the range in words, in the unit held (``"more than 0 and at most 60 mm"``)."""
+        lo, lo_open, hi, hi_open = self.bounds(site=site)
+        unit = f" {self.unit}" if self.unit in ("mm", "m", "m2", "degrees") else ""
+        if not any(v for v in (lo, hi)):
+            unit = ""
+        if lo is not None and hi is not None:
+            if not lo_open and not hi_open:
+                return f"from {lo:g} to {hi:g}{unit}"
+            low = f"more than {lo:g}" if lo_open else f"{lo:g} or more"
+            return f"{low} and {'less than' if hi_open else 'at most'} {hi:g}{unit}"
+        if lo is not None:
+            return f"more than {lo:g}{unit}" if lo_open else f"{lo:g}{unit} or more"
+        if hi is not None:
+            return f"{'less than' if hi_open else 'at most'} {hi:g}{unit}"
+        return ""
+
+    def expected(self, *, site: bool = True) -> str:
+        """Return what a message says is expected (``"a length of more than 0 and at most 60"``)."""
+        if self.expect:
+            return self.expect
+        if self.choices:
+            return f"one of: {', '.join(self.choices)}"
+        noun = _NOUN.get(self.type, self.type)
+        text = self.range_text(site=site)
+        if not text:
+            return f"a {noun}"
+        return f"a {noun} {text}" if text.startswith("from") else f"a {noun} of {text}"
+
+    def in_range(self, v: Any, *, site: bool = False) -> bool:
+        """Whether a held value is within the range (None is, where the default is None)."""
+        if v is None:
+            return self.default is None or self.default is DERIVED
+        if self.choices:
+            return v in self.choices
+        if self.type not in ("number", "integer", "length", "area"):
+            return True
+        if isinstance(v, bool) or not isinstance(v, int | float) or not math.isfinite(v):
+            return False
+        lo, lo_open, hi, hi_open = self.bounds(site=site)
+        if lo is not None and (v <= lo if lo_open else v < lo):
+            return False
+        return not (hi is not None and (v >= hi if hi_open else v > hi))
+
+
+def key(name: str | None, type: str, default: Any = REQUIRED, **kw: Any) -> Any:
+    """Declare a dataclass field as a site-file key (or, ``name`` None, a library parameter).
+
+    The default is written once, here, as a site file would write it; the field's default is
+    the value held.  The declared default is checked against the declared range on import.
+    """
+    spec = Key(name, type, default, **kw)
+    held = spec.value
+    if held is not None and not spec.in_range(held):
+        raise ValueError(f"{spec.dotted}: the declared default {default!r} is not "
+                         f"{spec.expected(site=False)}")
+    md = {"key": spec}
+    if default is REQUIRED or default is DERIVED:
+        return field(metadata=md)
+    if isinstance(held, dict | list):
+        return field(default_factory=partial(copy.deepcopy, held), metadata=md)
+    return field(default=held, metadata=md)
+
+
+def param(default: Any, type: str = "number", **kw: Any) -> Any:
+    """Declare a parameter that is not a site-file key: its default, unit and range."""
+    return key(None, type, default, **kw)
+
+
+def keys_of(cls: type, table: str, *, home: str | None = None) -> tuple[Key, ...]:
+    """Return the keys of ``table`` declared on the fields of a dataclass, in field order.
+
+    A key declared without a table is in the class's ``home`` table (default: ``table``).
+    """
+    out = []
+    for f in dataclasses.fields(cls):
+        k = f.metadata.get("key")
+        if k is None or k.name is None or (k.table or home or table) != table:
+            continue
+        out.append(dataclasses.replace(k, table=table, field=k.field or f.name, owner=cls))
+    return tuple(out)
+
+
+def _check_declared(obj: object, what: str, error: type[Exception]) -> None:
+    """Check every declared field of a dataclass instance against its type and range."""
+    for f in dataclasses.fields(obj):  # type: ignore[arg-type]
+        k = f.metadata.get("key")
+        v = getattr(obj, f.name)
+        if k is None or k.in_range(v):
+            continue
+        if k.choices:
+            raise error(f"{what}: {f.name} = {v!r}; give one of: {', '.join(k.choices)}")
+        unit = f" {k.unit}" if k.unit else ""
+        rng = k.range_text()
+        raise error(f"{what}: {f.name} = {v!r}{unit} is not usable; give a finite number "
+                    f"{rng if rng.startswith('from') else 'of ' + rng}")
+
+
+# --------------------------------------------------------------------------- dataclasses
+
+
+@dataclass(frozen=True, kw_only=True)
+class LayerRef:
+    """A layer of a vector file (GeoJSON, GeoPackage, Shapefile or DXF).
+
+    ``where`` is where in the site file it was declared, for messages; the other fields are
+    the keys of a layer reference (:data:`TABLES` ``["layer"]``).
+    """
+
+    path: Path = key(
+        "path", "path", help="The file, relative to the site file",
+        example='"plans/L1.dxf"', type_doc="string",
+        doc="`.dxf`, `.geojson`, `.gpkg` or `.shp`.")
+    layer: str | None = key(
+        "layer", "string", None, help="The DXF layer or the GeoPackage layer",
+        doc="A DXF layer is matched case-insensitively. **Required for DXF.**")
+    coords: str = key(
+        "coords", "string", "local", choices=COORDS,
+        help="Whether coordinates are in the level's survey grid or the site CRS",
+        doc="`local`: in the level's survey grid, in `[levels.grid].unit`. `site`: in the site "
+            "CRS.")
+    unit: str | None = key(
+        "unit", "unit", None, choices=tuple(LENGTH_TO_M),
+        help="The drawing unit of a DXF whose header does not say it ($INSUNITS = 0)",
+        doc="Ignored when the DXF header says the unit.")
     where: str
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class OverlayRef:
     """An overlay layer: delaminations, spalls, patches or cracks."""
 
-    kind: str
+    kind: str = key("kind", "string", choices=OVERLAY_KINDS, table="levels.overlays",
+                    help="What the layer shows")
     ref: LayerRef
 
 
@@ -72,131 +356,331 @@ class OverlayRef:
 class ControlPoint:
     """A point known in both the local grid and the site CRS."""
 
-    id: str
-    local: tuple[float, float]
-    site: tuple[float, float]
+    id: str = key("id", "string", DERIVED, default_doc="`CP1`, `CP2`, …",
+                  help="The point's name, for the residuals")
+    local: tuple[float, float] = key("local", "pair", help="Its local grid coordinates")
+    site: tuple[float, float] = key("site", "pair", help="Its site CRS coordinates")
 
 
 @dataclass(frozen=True)
 class GridConfig:
     """The local survey grid of a level and how it is tied to the site CRS.
 
-    Attributes
-    ----------
-    unit : str
-        Unit of local grid coordinates (``"m"``, ``"ft"``, ``"us-ft"``).
-    spacing : float
-        Nominal reading spacing, in grid units.
-    origin : tuple of float or None
-        Site CRS coordinates of the local (0, 0).
-    rotation_deg : float
-        Counter-clockwise angle from the site CRS's x axis (east) to the grid's x axis.
-    control_points : tuple of ControlPoint
-        Two or more points fitted by least squares (used when given).
+    ``rotation_deg`` is the counter-clockwise angle from the site CRS's x axis (east) to the
+    grid's x axis; ``control_points`` (two or more, fitted by least squares) are used when
+    given, else ``origin`` and ``rotation_deg``.
     """
 
-    unit: str
-    spacing: float
-    origin: tuple[float, float] | None
-    rotation_deg: float
-    control_points: tuple[ControlPoint, ...]
+    unit: str = key(
+        "unit", "unit", choices=("m", "ft", "us-ft"), example='"ft"',
+        help="Unit of local coordinates: ft, us-ft or m")
+    spacing: float = key(
+        "spacing", "number", gt=0, unit="grid units", example="2.0",
+        help="Nominal reading spacing, grid units",
+        doc="QA uses it for the adjacent-reading, duplicate (0.1 × spacing) and moved-point "
+            "(0.5 × spacing) checks.")
+    origin: tuple[float, float] | None = key(
+        "origin", "pair", None, example="[583100.00, 4507200.00]", type_doc="`[E, N]`",
+        help="Site coordinates of local (0, 0)", doc="Used when no control points are given.")
+    rotation_deg: float = key(
+        "rotation_deg", "number", 0.0, unit="degrees", example="17.0",
+        help="Counter-clockwise from east to the grid's x axis", doc="Used with `origin`.")
+    control_points: tuple[ControlPoint, ...] = key(
+        "control_points", "points", [], active=True,
+        type_doc="list of `{ id, local = [x, y], site = [E, N] }`",
+        example='[\n  { id = "CP1", local = [0.0, 0.0], site = [583100.00, 4507200.00] },\n'
+                '  { id = "CP2", local = [100.0, 0.0], site = [583129.15, 4507208.91] },\n]',
+        help="Two or more points known in both, fitted by least squares",
+        doc="Rotation, scale and shift. With 3 or more, residuals are reported by `check` and "
+            "in `run.json`. `id` defaults to `CP1`, `CP2`, …. Used, when given, instead of "
+            "`origin`.")
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class LevelConfig:
     """One level (deck, slab) of the structure."""
 
-    id: str
-    name: str
-    slab: LayerRef
-    exclusions: tuple[LayerRef, ...]
-    joints: LayerRef | None
-    overlays: tuple[OverlayRef, ...]
-    grid: GridConfig
-    specified_cover_mm: float | None
-    cover_tolerance_mm: float | None
+    id: str = key("id", "string", example='"L1"', help="Unique among levels",
+                  doc="Used in layer names, repair ids (`L2-R001`) and file names.")
+    name: str = key("name", "string", DERIVED, default_doc="= `id`", example='"Level 1"',
+                    active=True, help="Shown on maps, drawings and the report",
+                    doc="The names of the levels must differ.")
+    slab: LayerRef = key("slab", "layer", example='{ path = "plans/L1.dxf", layer = "SLAB" }',
+                         help="The closed slab outline")
+    exclusions: tuple[LayerRef, ...] = key(
+        "exclusions", "layers", [], active=True,
+        example='[ { path = "plans/L1.dxf", layer = "COLUMNS" } ]',
+        help="Columns, cores, ramps and openings",
+        doc="They are holes in the deck, and repairs stop at them.")
+    joints: LayerRef | None = key(
+        "joints", "layer", None, active=True,
+        example='{ path = "plans/L1.dxf", layer = "JOINTS" }',
+        help="Joint lines; a repair never crosses one",
+        doc="No saw cut is counted along a joint.")
+    overlays: tuple[OverlayRef, ...] = key(
+        "overlays", "overlays", [], active=True, type_doc="list of overlay references",
+        example='[\n  { kind = "delamination", path = "sounding/L1.dxf", layer = "DELAM" },\n'
+                '  { kind = "spall", path = "sounding/L1.dxf", layer = "SPALL" },\n]',
+        help="Sounding results [ASTM-D4580-23] and other mapped defects")
+    grid: GridConfig = key("grid", "table", type_doc="table `[levels.grid]`",
+                           help="The local survey grid")
+    specified_cover_mm: float | None = key(
+        "specified_cover", "length", None, unit="mm", example='"2 in"',
+        help="Design cover of the top bars",
+        doc="With `cover_tolerance` it sets the low-cover threshold (specified − tolerance; "
+            "25 mm when not given).")
+    cover_tolerance_mm: float | None = key(
+        "cover_tolerance", "length", None, unit="mm", ge=0, positive=False, example='"0.5 in"',
+        help="Placement tolerance, subtracted from specified_cover")
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class SurveyConfig:
     """One survey file and what it holds."""
 
-    id: str
-    level: str
-    kind: str
-    path: Path
-    unit: str
-    coords: str
-    electrode: str | None
-    temperature_c: float | None
-    temperature_f: float | None
-    temperature_coefficient_mv_per_c: float | None
-    date: str | None
-    separator: str
-    decimal: str
-    layer: str | None
-    columns: Mapping[str, str]
+    id: str = key("id", "string", example='"L1-potential"', help="Unique among surveys")
+    level: str = key("level", "string", example='"L1"', help="The id of a declared level")
+    kind: str = key(
+        "kind", "string", example='"potential"',
+        help="The kind: potential, resistivity, corrosion_rate or cover",
+        doc="Or a kind added by a plugin (`geo-corrosion plugins` lists them).")
+    path: Path = key(
+        "path", "path", example='"readings/L1_potential.csv"', type_doc="string",
+        help="CSV (point_id,x,y,value), GeoJSON or GeoPackage points",
+        doc="A `.csv` or `.txt` file in our layout, or a `.geojson`, `.json`, `.gpkg` or `.shp` "
+            "file of points, relative to the site file. See [file-formats.md](file-formats.md).")
+    unit: str = key(
+        "unit", "string", example='"mV"', help="Unit of the values; accepted by the kind",
+        doc="It must be accepted for the kind (see *Units accepted*); it is checked when the "
+            "file is read.")
+    coords: str = key("coords", "string", "local", choices=COORDS,
+                      help="Grid or site coordinates, as for layers",
+                      doc="A GIS point file with `site` needs a CRS of its own.")
+    electrode: str | None = key(
+        "electrode", "string", None, example='"cse"', active=True,
+        help="Potential only: cse, ag_agcl_sat_kcl, ag_agcl_3m_kcl, sce, she",
+        doc="**Required for `potential`.** See below.")
+    temperature_c: float | None = key(
+        "temperature_c", "number", None, unit="°C", example="22.0", active=True,
+        help="Electrode (potential) or concrete (resistivity) temperature",
+        doc="A per-reading `temperature_c` column in the file takes precedence.")
+    temperature_f: float | None = key(
+        "temperature_f", "number", None, unit="°F", example="71.6", alternative=True,
+        help="The same in degF", doc="Give only one of `temperature_c` and `temperature_f`.")
+    temperature_coefficient_mv_per_c: float | None = key(
+        "temperature_coefficient_mv_per_c", "number", None, unit="mV/°C", example="0.9",
+        default_doc="0.9 for `cse`, 0 otherwise", help="Temperature coefficient of the electrode")
+    date: str | None = key("date", "date", None, example='"2026-09-14"', active=True,
+                           help="Survey date, recorded in run.json")
+    separator: str = key("separator", "string", ",", help='CSV field separator, e.g. ";"')
+    decimal: str = key("decimal", "string", ".", choices=(".", ","),
+                       help="CSV decimal mark; not the separator")
+    layer: str | None = key("layer", "string", None, example='"points"',
+                            help="The layer of a GeoPackage point file")
+    columns: Mapping[str, str] = key(
+        "columns", "table", {}, type_doc="table `[surveys.columns]`",
+        help="Our column name = the file's column name",
+        doc="Our names: `point_id`, `x`, `y`, `value`, `temperature_c`, `note`.")
     where: str
     #: kind-specific options of ``[surveys.options]``, as parsed and validated by the kind's
     #: :meth:`~geo_corrosion.measurements.base.MeasurementKind.parse_options`: keys carry their
     #: unit (``probe_spacing_mm``); empty when the table is absent.
-    options: Mapping[str, Any] = field(default_factory=dict)
+    options: Mapping[str, Any] = key(
+        "options", "table", {}, type_doc="table `[surveys.options]`",
+        help="Options of the survey's kind, checked by the kind",
+        doc="Wenner probe spacing, element thickness and class set for resistivity; Stern-Geary "
+            "B, polarized area and pulse transients for corrosion rate. See "
+            "[raw-readings.md](raw-readings.md#kind-options-surveysoptions). Potential and cover "
+            "surveys take none.")
 
 
 @dataclass(frozen=True)
 class RunParams:
-    """Parameters of a run, from ``[run]`` and ``[webmap]``.
+    """Parameters of a run, from ``[run]`` and ``[webmap]``, but for the repair layout's.
 
-    Lengths are in metres, or in mm as named.  :func:`dataclasses.asdict` of it is written to
-    ``run.json`` as ``parameters``, where the exporters read it.
+    Lengths are in metres, or in mm as named.  The layout's keys of ``[run]`` are held in
+    :class:`LayoutParams` (``SiteConfig.layout``); :meth:`SiteConfig.parameters` writes both
+    to ``run.json`` as ``parameters``, where the exporters read them.
     """
 
-    cell_size_m: float = 0.3048
-    max_distance_m: float = 1.8288
-    contour_interval_mv: float = 50.0
-    repair_margin_m: float = 0.150
-    merge_gap_m: float = 0.300
-    min_repair_size_m: float = 0.300
-    contingency: float = 0.20
-    n_neighbors: int = 16
-    variogram_model: str = "auto"
-    resistivity_reference_c: float = 20.0
-    activation_energy_kj_mol: float = 25.0
-    cse_reference_c: float = 22.2
-    correct_only_outside_band: bool = False
+    cell_size_m: float = key("cell_size", "length", "1 ft", unit="m", help="Kriging grid cell")
+    max_distance_m: float = key(
+        "max_distance", "length", "6 ft", unit="m",
+        help="No surface farther than this from any reading",
+        doc="A cell farther than this from its nearest reading is left empty.")
+    contour_interval_mv: float = key(
+        "contour_interval_mv", "number", 50, unit="mV", gt=0,
+        help="Potential contour interval; more than 100 mV is refused",
+        doc="The 100 mV limit is checked by `check` and `run` before any work "
+            "[ASTM-C876-91 §6.2, from memory].")
+    contingency: float = key(
+        "contingency", "number", 0.2, unit="fraction", ge=0, le=1,
+        expect="a fraction from 0 to 1 (0.2 = 20 %)",
+        help="Bid quantity allowance, shown as its own line",
+        doc="Write 0.2 for 20 %, not 20.")
+    n_neighbors: int = key("n_neighbors", "integer", 16, unit="readings", ge=3,
+                           help="Kriging neighbourhood: the nearest readings used")
+    variogram_model: str = key(
+        "variogram_model", "string", "auto", choices=VARIOGRAM_MODELS,
+        help="The variogram model fitted",
+        doc="`auto` fits all four and keeps the one with the smallest cross-validation RMSE.")
+    resistivity_reference_c: float = key(
+        "resistivity_reference_c", "number", 20.0, unit="°C",
+        help="Target temperature of the Arrhenius correction")
+    activation_energy_kj_mol: float = key(
+        "activation_energy_kj_mol", "number", 25.0, unit="kJ/mol", gt=0,
+        help="Activation energy of the Arrhenius correction")
+    cse_reference_c: float = key(
+        "cse_reference_c", "number", 22.2, unit="°C",
+        help="Target temperature of the CSE correction (72 F [ASTM-C876-22a §4.7])")
+    correct_only_outside_band: bool = key(
+        "correct_only_outside_band", "boolean", False,
+        help="If true, no CSE correction within cse_reference_c +- 5.5 C",
+        doc="[ASTM-C876-22a §4.7] allows this.")
     #: scale each fitted variogram so that the leave-one-out MSSE is 1 (mapping stage)
-    calibrate_variance: bool = True
-    bar_diameter_mm: float = 16.0
-    max_aggregate_mm: float = 9.5
-    slab_thickness_mm: float | None = None
-    sawcut_depth_mm: float = 19.05
-    axis_angle_deg: float = 0.0
-    anode_spacing_mm: float | None = None
-    min_zone_area_m2: float = 0.5
-    zone_smoothing_m: float = 0.15
+    calibrate_variance: bool = key(
+        "calibrate_variance", "boolean", True,
+        help="Scale each variogram so the leave-one-out MSSE is 1",
+        doc="The kriging variance is then honest (MSSE = 1); estimates in the kriged space are "
+            "unchanged ([methods.md](methods.md) §3.2). Not applied when "
+            "`[run.variogram.<kind>]` fixes `nugget` or `psill`.")
+    anode_spacing_mm: float | None = key(
+        "anode_spacing", "length", None, unit="mm", example='"24 in"',
+        help="Galvanic anode spacing along repair perimeters",
+        doc="When given, the schedule carries an `ANODE` item (EA), ceil(perimeter / spacing) "
+            "per repair. Without it, no anode item.")
+    min_zone_area_m2: float = key(
+        "min_zone_area", "area", "0.5 m2", unit="m2", ge=0,
+        help="Zone parts smaller than this are left to later rules",
+        doc="Not for the repair zone: the laid-out repairs are zoned exactly as drawn, so no "
+            "part of a repair is priced again by a treatment zone. `\"0 m2\"` keeps every part. "
+            "Any area unit (see *Units accepted*): `\"5 ft2\"`, `\"5 ft²\"`, `\"720 in2\"`; a bare "
+            "number (`0.5`), `\"5 sqft\"` and `\"5 sq ft\"` are refused.")
+    zone_smoothing_m: float = key(
+        "zone_smoothing", "length", "0.15 m", unit="m",
+        help="Gaps and slivers narrower than twice this are smoothed",
+        doc="Each zone is closed, then opened, with a square of this half-side. The repair zone "
+            "is not smoothed (see `min_zone_area`).")
     #: kind -> fixed variogram parameters (``range_m`` in metres), from [run.variogram.<kind>]
-    variogram: dict[str, dict[str, Any]] = field(default_factory=dict)
+    variogram: dict[str, dict[str, Any]] = key(
+        "variogram", "tables", {}, type_doc="tables `[run.variogram.<kind>]`",
+        default_doc="none: every parameter is fitted",
+        help="Fixed variogram parameters of a measurement kind",
+        doc="One table per kind; see below.")
     #: [webmap].basemap_url: street-tile URL template (https, with {z}, {x}, {y}); None = none
-    basemap_url: str | None = None
+    basemap_url: str | None = key(
+        "basemap_url", "string", None, table="webmap",
+        example='"https://tile.example.org/{z}/{x}/{y}.png"',
+        default_doc="none (no basemap layer)",
+        help="A tile URL template: https, with {z}, {x} and {y}",
+        allowed_doc="an `https://` URL with `{z}`, `{x}` and `{y}`, e.g. "
+                    "`\"https://tile.example.org/{z}/{x}/{y}.png\"`; spaces, quotes, angle "
+                    "brackets and backslashes are refused")
     #: [webmap].basemap_attribution: the tiles' attribution, shown on the map
-    basemap_attribution: str | None = None
+    basemap_attribution: str | None = key(
+        "basemap_attribution", "string", None, table="webmap",
+        example='"(c) Example tile provider"', help="The tiles' attribution; needs basemap_url",
+        doc="**Required with `basemap_url`**, refused without it. Plain text shown on the map, "
+            "as the tile provider asks, e.g. `\"© OpenStreetMap contributors\"`.")
 
 
 @dataclass(frozen=True)
+class LayoutParams:
+    """Parameters of the repair layout (lengths in mm, as named).
+
+    The site file's layout keys of ``[run]`` fill it (``SiteConfig.layout``); the fields
+    without a key are the library's own.  Each field's default, unit, range and meaning are
+    declared with it (``docs/site-file.md`` lists the keys); a value out of range raises
+    :class:`~geo_corrosion.errors.RepairError` naming the field.  The layout follows
+    [ICRI-310.1R-2008, from memory] and common practice (see :mod:`geo_corrosion.repair.layout`).
+    """
+
+    margin_mm: float = key(
+        "repair_margin", "length", "150 mm", unit="mm", ge=0, le=3000,
+        table="run", record="repair_margin_m",
+        help="Repair grown beyond the sounded limits",
+        doc="`\"6 in\"` (152.4 mm) follows [ICRI-310.1R-2008, from memory].")
+    merge_gap_mm: float = key(
+        "merge_gap", "length", "300 mm", unit="mm", ge=0, le=10000,
+        table="run", record="merge_gap_m", help="Repairs closer than this are merged")
+    merge_max_extra: float = param(
+        0.25, unit="fraction of the group's area", ge=0, le=10,
+        help="Largest area increase, as a fraction of the group's own area, accepted to replace "
+             "a merged group by its bounding rectangle (common practice)")
+    min_size_mm: float = key(
+        "min_repair_size", "length", "300 mm", unit="mm", ge=0, le=10000,
+        table="run", record="min_repair_size_m", help="Smallest repair side",
+        doc="Applied again to the pieces that joints and exclusions leave.")
+    min_reentrant_mm: float = param(
+        300.0, unit="mm", ge=0, le=10000,
+        help="Smallest notch, step or strip kept in an L/T-shaped repair (common practice)")
+    axis_angle_deg: float = key(
+        "axis_angle_deg", "number", 0.0, unit="degrees", ge=-360, le=360, table="run",
+        help="Saw-cut axes, degrees counter-clockwise from grid x",
+        doc="Repairs are rectangles on these axes.")
+    sawcut_depth_mm: float = key(  # 3/4 in exactly [ICRI-310.1R-2008], to confirm
+        "sawcut_depth", "length", "0.75 in", unit="mm", gt=0, le=300, table="run",
+        help="Perimeter saw cut and least removal depth",
+        doc="3/4 in, after [ICRI-310.1R-2008], to confirm.")
+    extend_to_edge: bool = param(
+        True, "boolean", help="Extend a repair to a free slab edge that lies within the margin")
+    cover_mm: float = param(
+        38.0, unit="mm", ge=0, le=300,
+        help="Cover to the top bars where the sources carry no cover_mm column (about 1-1/2 in, "
+             "common practice)")
+    bar_diameter_mm: float = key(
+        "bar_diameter", "length", "16 mm", unit="mm", gt=0, le=60, table="run",
+        help="Top-mat bar diameter (about a No. 5 bar)",
+        doc="Sets the removal depth of a repair (cover + bar + undercut clearance), the section "
+            "loss and the time to cover cracking ([methods.md](methods.md) §5.1, §6).")
+    max_aggregate_mm: float = key(
+        "max_aggregate", "length", "9.5 mm", unit="mm", ge=0, le=100, table="run",
+        help="Largest aggregate of the repair material",
+        doc="Sets the undercut clearance under exposed bars.")
+    slab_thickness_mm: float | None = key(
+        "slab_thickness", "length", None, unit="mm", gt=0, le=3000, table="run",
+        example='"6 in"', help="Slab thickness; without it no repair is full depth",
+        doc="A repair whose removal is deeper than `full_depth_fraction` (half) of it becomes "
+            "full depth.")
+    undercut_rule: Literal["icri", "ufgs"] = param(
+        "icri", "string", choices=("icri", "ufgs"),
+        help="Rule for the clearance under exposed bars [ICRI-310.1R-2008; UFGS-03931 §3.3.1.4]")
+    full_depth_fraction: float = param(
+        0.5, gt=0, le=1,
+        help="A removal deeper than this fraction of the slab thickness is full depth (common practice)")
+
+    def __post_init__(self) -> None:
+        _check_declared(self, "repair layout", RepairError)
+
+
+@dataclass(frozen=True, kw_only=True)
 class SiteConfig:
     """A parsed, validated site file."""
 
     path: Path
     root: Path
-    name: str
-    owner: str
-    crs: pyproj.CRS
+    name: str = key("name", "string", table="site", example='"My Parking Structure"',
+                    help="Shown on every map, drawing and schedule")
+    owner: str = key("owner", "string", "(owner not given)", table="site",
+                     example='"Owner\'s name"', active=True, help="The owner of the structure")
+    crs: pyproj.CRS = key(
+        "crs", "crs", table="site", example='"EPSG:26918"',
+        type_doc="string (or integer EPSG code)",
+        help="A projected CRS in metres or feet (UTM or State Plane zone)",
+        allowed_doc="a **projected** CRS in metres, feet or US survey feet, e.g. "
+                    "`\"EPSG:26918\"`; geographic and unknown CRSs are refused")
     crs_unit: str
-    units: str
-    notes: str
+    units: str = key(
+        "units", "string", "metric", table="site", choices=get_args(UnitSystem),
+        example='"us"', active=True,
+        help="Reporting units: us (ft2, LF, ft3) or metric (m2, m, m3)",
+        doc="Depths in mm for `\"metric\"`, in inches for `\"us\"`.")
+    notes: str = key("notes", "text", "", table="site", help="Free text")
     levels: tuple[LevelConfig, ...]
     surveys: tuple[SurveyConfig, ...]
     run: RunParams = field(default_factory=RunParams)
+    #: the repair layout's parameters, from the layout keys of [run]
+    layout: LayoutParams = field(default_factory=LayoutParams)
     #: ordered zoning rules: (registry name, keyword parameters); empty = the built-in order
     zoning: tuple[tuple[str, dict[str, Any]], ...] = ()
     #: the combined-condition rule table as given in [condition.combined] (None = default)
@@ -209,5 +693,346 @@ class SiteConfig:
                 return lv
         raise SiteFileError(f"{self.path}: no level with id {level_id!r}")
 
+    def parameters(self) -> dict[str, Any]:
+        """Return the ``[run]`` and ``[webmap]`` values, as ``run.json`` gives them.
 
-# --------------------------------------------------------------------------- validation helpers
+        In the order of :data:`TABLES` ``["run"]`` then ``["webmap"]``, each under its field's
+        name (lengths in the field's unit), or under its ``record`` name: the layout's margin,
+        merge gap and minimum size in metres (``repair_margin_m``), to the 12 decimals that
+        :func:`~geo_corrosion.units.parse_length` keeps.
+        """
+        out: dict[str, Any] = {}
+        for k in (*TABLES["run"].keys, *TABLES["webmap"].keys):
+            v = getattr(self.layout if k.owner is LayoutParams else self.run, k.field)
+            if k.record:
+                unit = k.record.rsplit("_", 1)[1]
+                v = v if v is None else round(v * _PER_M[unit] / _PER_M[k.unit], 12)
+            out[k.record or k.field] = copy.deepcopy(v)
+        return out
+
+
+# --------------------------------------------------------------------------- the tables
+
+
+@dataclass(frozen=True)
+class TableSpec:
+    """A table of the site file and its keys, in order."""
+
+    name: str
+    keys: tuple[Key, ...]
+
+    @property
+    def names(self) -> tuple[str, ...]:
+        """The allowed keys, in order."""
+        return tuple(str(k.name) for k in self.keys)
+
+    def __getitem__(self, name: str) -> Key:
+        for k in self.keys:
+            if k.name == name:
+                return k
+        raise KeyError(f"[{self.name}] declares no key {name!r}")
+
+
+def _in(table: str, *keys: Key) -> tuple[Key, ...]:
+    """Keys of a table held as a dict: each fills the dict entry of its name, or ``field``."""
+    return tuple(dataclasses.replace(k, table=table, field=k.field or str(k.name)) for k in keys)
+
+
+def _ordered(keys: Sequence[Key], order: Sequence[str]) -> tuple[Key, ...]:
+    """Keys in a given order; the order must name each of them once."""
+    by_name = {str(k.name): k for k in keys}
+    if sorted(order) != sorted(by_name):
+        raise ValueError(f"the [run] order names {sorted(order)}, the declarations "
+                         f"{sorted(by_name)}")
+    return tuple(by_name[n] for n in order)
+
+
+#: The order of [run], over RunParams and LayoutParams: the order of the docs, the template,
+#: the allowed keys and run.json's ``parameters`` (docs/file-formats.md §3.5).
+_RUN_ORDER = (
+    "cell_size", "max_distance", "contour_interval_mv", "repair_margin", "merge_gap",
+    "min_repair_size", "contingency", "n_neighbors", "variogram_model",
+    "resistivity_reference_c", "activation_energy_kj_mol", "cse_reference_c",
+    "correct_only_outside_band", "calibrate_variance", "bar_diameter", "max_aggregate",
+    "slab_thickness", "sawcut_depth", "axis_angle_deg", "anode_spacing", "min_zone_area",
+    "zone_smoothing", "variogram",
+)
+
+_CLASS_KEYS_DOC = "class key or list of class keys"
+
+#: Every table of the site file, by its dotted name.
+TABLES: dict[str, TableSpec] = {t.name: t for t in (
+    TableSpec("site", keys_of(SiteConfig, "site")),
+    TableSpec("run", _ordered(keys_of(RunParams, "run") + keys_of(LayoutParams, "run"),
+                              _RUN_ORDER)),
+    TableSpec("run.variogram.<kind>", _in(
+        "run.variogram.<kind>",
+        Key("model", "string", None, choices=VARIOGRAM_MODELS[1:], example='"matern"',
+            default_doc="fitted", help="Fit this model only"),
+        Key("nugget", "number", None, ge=0, example="100.0", default_doc="fitted",
+            expect="a number of 0 or more (value unit squared of the kriged variable)",
+            help="Value unit squared of the kriged variable (mV2 here)",
+            doc="mV² for potentials, mm² for cover; (ln kΩ·cm)² and (ln µA/cm²)² for the "
+                "log-kriged kinds. `nugget` and `psill` are not both 0."),
+        Key("psill", "number", None, ge=0, example="2500.0", default_doc="fitted",
+            expect="a number of 0 or more (value unit squared of the kriged variable)",
+            help="Partial sill, same unit", doc="As `nugget`."),
+        Key("range", "length", None, unit="m", field="range_m", example='"30 ft"',
+            default_doc="fitted", help="Practical range (true range for spherical)",
+            doc="Where the model reaches 95 % of the partial sill."),
+        Key("shape", "number", None, example="1.5", default_doc="fitted",
+            help='Smoothness of the Matern model; only with model = "matern"',
+            allowed_doc="from 0.2 to 5 (the Matérn ν of the fit)",
+            doc="Refused with another fixed `model`, where it would have no effect."),
+        Key("anisotropy_ratio", "number", None, gt=0, le=1, example="1.0",
+            expect="the minor/major range ratio, more than 0 and at most 1",
+            default_doc="fitted", help="Minor/major range ratio"),
+        Key("anisotropy_angle_deg", "number", None, unit="degrees", example="0.0",
+            default_doc="fitted", help="Major axis, degrees counter-clockwise from grid x"),
+    )),
+    TableSpec("webmap", keys_of(RunParams, "webmap", home="run")),
+    TableSpec("levels", keys_of(LevelConfig, "levels")),
+    TableSpec("layer", keys_of(LayerRef, "layer")),
+    TableSpec("levels.overlays", keys_of(OverlayRef, "levels.overlays")
+              + keys_of(LayerRef, "layer")),
+    TableSpec("levels.grid", keys_of(GridConfig, "levels.grid")),
+    TableSpec("levels.grid.control_points", keys_of(ControlPoint, "levels.grid.control_points")),
+    TableSpec("surveys", keys_of(SurveyConfig, "surveys")),
+    TableSpec("condition", _in(
+        "condition", Key("combined", "table", None, help="The combined condition rule table"))),
+    TableSpec("condition.combined", _in(
+        "condition.combined",
+        Key("default", "string", "unclassified",
+            help="The class of a cell no rule matches",
+            doc="A cell with no value of any kind is `no_data`.", allowed_doc="a class key"),
+        Key("classes", "classes", DERIVED, default_doc="the default classes",
+            type_doc="list of `{ key, label, color }`",
+            example='[ { key = "high_priority", label = "High priority", color = "#D55E00" }, '
+                    '{ key = "watch", label = "Watch", color = "#F0E442" }, '
+                    '{ key = "low_risk", label = "Low risk", color = "#009E73" } ]',
+            help="The output classes, in order",
+            doc="`label` defaults to `key`, `color` (`\"#RRGGBB\"`) to a grey. `unclassified` "
+                "and `no_data` are added when missing. Keys must be unique."),
+        Key("rules", "tables", DERIVED, default_doc="the default rules",
+            type_doc="array of tables `[[condition.combined.rules]]`",
+            help="The rules, first match wins",
+            doc="When given, they **replace** the default rules."),
+        Key("class_sets", "table", DERIVED,
+            default_doc='`potential = "c876"`, `resistivity = "rilem_resistivity"`, '
+                        '`rate = "rilem_rate"`',
+            type_doc="table of kind = class set",
+            example='{ potential = "c876", resistivity = "rilem_resistivity", rate = '
+                    '"rilem_rate" }',
+            help="The class set whose keys the rules use for each kind",
+            doc="Kinds: `potential`, `resistivity`, `rate`. The class set must classify that kind "
+                "(a rate class set for `potential` is refused), and laboratory class sets are "
+                "refused. For example `potential = \"c876_severe\"` adds the key `severe`."),
+    )),
+    TableSpec("condition.combined.classes", _in(
+        "condition.combined.classes",
+        Key("key", "string", help="The class key"),
+        Key("label", "string", DERIVED, default_doc="= `key`", help="Its label"),
+        Key("color", "string", DERIVED, default_doc="a grey", help='Its colour, "#RRGGBB"'),
+    )),
+    TableSpec("condition.combined.rules", _in(
+        "condition.combined.rules",
+        Key("name", "string", DERIVED, default_doc="`rule <n>`",
+            help="Shown in messages and in run.json"),
+        Key("class", "string", help="The class the rule gives",
+            allowed_doc="one of `classes`"),
+        Key("potential", "classkeys", None, type_doc=_CLASS_KEYS_DOC, example='["high"]',
+            help="The cell's potential class must be one of these",
+            allowed_doc="keys of the kind's class set"),
+        Key("resistivity", "classkeys", None, type_doc=_CLASS_KEYS_DOC, example='["high"]',
+            help="The cell's resistivity class must be one of these",
+            allowed_doc="keys of the kind's class set"),
+        Key("rate", "classkeys", None, type_doc=_CLASS_KEYS_DOC, example='["high"]',
+            help="The cell's corrosion-rate class must be one of these",
+            allowed_doc="keys of the kind's class set"),
+        Key("low_cover", "boolean", None, example="true",
+            help="The cell must (or must not) be low cover"),
+    )),
+)}
+
+#: The top level of the site file: its tables.
+TOP = TableSpec("", _in(
+    "",
+    Key("site", "table", help="The site"),
+    Key("run", "table", None, help="Parameters of the run"),
+    Key("levels", "tables", help="One table per level"),
+    Key("surveys", "tables", None, help="One table per readings file"),
+    Key("zoning", "tables", None, help="The zoning rules, in order"),
+    Key("condition", "table", None, help="The combined condition rules"),
+    Key("webmap", "table", None, help="A street basemap of the web map"),
+))
+
+
+# --------------------------------------------------------------------------- docs and template
+
+
+def _toml(v: Any) -> str:
+    """Return a value as TOML text (strings, numbers, booleans, empty lists and tables)."""
+    if isinstance(v, bool):
+        return "true" if v else "false"
+    if isinstance(v, str):
+        return json.dumps(v, ensure_ascii=False)
+    if isinstance(v, list | tuple):
+        return "[" + ", ".join(map(_toml, v)) + "]"
+    if isinstance(v, dict):
+        return "{" + ", ".join(f"{k} = {_toml(x)}" for k, x in v.items()) + "}"
+    return repr(v)
+
+
+def _held_note(k: Key) -> str:
+    """`` (0.3048 m)`` when a length default is written in another unit than it is held."""
+    if k.type != "length" or not isinstance(k.default, str):
+        return ""
+    if k.default.strip().endswith(f" {k.unit}"):
+        return ""
+    return f" ({k.value:g} {k.unit})"
+
+
+def _cell(text: str) -> str:
+    return text.replace("|", "\\|")
+
+
+def _doc_row(k: Key) -> str:
+    if k.required:
+        default = "**required**"
+    elif k.default_doc:
+        default = k.default_doc
+    elif k.default is None:
+        default = "none"
+    else:
+        default = f"`{_toml(k.default)}`{_held_note(k)}"
+    typ = k.type_doc or _TYPE_DOC.get(k.type, k.type)
+    if k.unit and k.type in ("number", "integer") and k.unit != "grid units":
+        typ += f" ({k.unit})"
+    allowed = []
+    if k.choices:
+        allowed.append(", ".join(f"`{_toml(c)}`" for c in k.choices))
+    elif k.type == "boolean":
+        allowed.append("`true` or `false`")
+    rng = k.range_text(site=True)
+    if rng and not k.choices:
+        allowed.append(rng)
+    if k.allowed_doc:
+        allowed.append(k.allowed_doc)
+    meaning = f"{k.help}." + (f" {k.doc}" if k.doc else "")
+    return (f"| `{k.name}` | {_cell(typ)} | {_cell(default)} | {_cell('; '.join(allowed))} | "
+            f"{_cell(meaning)} |")
+
+
+def schema_markdown(table: str) -> str:
+    """Return the key table of a site-file table, as Markdown (for ``docs/site-file.md``).
+
+    Parameters
+    ----------
+    table : str
+        A name of :data:`TABLES` (``"run"``, ``"levels.grid"``).
+    """
+    rows = [_doc_row(k) for k in TABLES[table].keys]
+    return "\n".join(["| Key | Type | Default | Allowed | Meaning |", "|---|---|---|---|---|",
+                      *rows])
+
+
+_BLOCK = re.compile(r"(<!-- begin generated: (?P<table>\S+) -->\n).*?(<!-- end generated -->)",
+                    re.S)
+
+
+def render_docs(text: str) -> str:
+    """Return ``docs/site-file.md`` with each generated block rewritten from the declaration.
+
+    A block is the text between ``<!-- begin generated: <table> -->`` and
+    ``<!-- end generated -->``; the prose around the blocks is kept as it is.
+    """
+    return _BLOCK.sub(lambda m: f"{m.group(1)}{schema_markdown(m.group('table'))}\n{m.group(3)}",
+                      text)
+
+
+_COMMENT_AT = 39  # the column of the template's comments
+
+
+def _template_lines(table: str, commented: bool) -> list[str]:
+    """Return the template's lines for the keys of a table (structured tables are left out)."""
+    out: list[str] = []
+    for k in TABLES[table].keys:
+        if k.type in ("table", "tables") and k.example is None:
+            continue  # a sub-table: written out by the skeleton
+        if k.example is not None:
+            value = k.example
+        elif k.default is None or isinstance(k.default, _Marker):
+            raise ValueError(f"{k.dotted}: the template needs an example of it")
+        else:
+            value = _toml(k.default)
+        word = k.help.split()[0]
+        comment = k.help if any(c.isupper() for c in word[1:]) else k.help[0].lower() + k.help[1:]
+        if k.alternative:
+            out.append(" " * _COMMENT_AT + f"# (or {k.name} = {value}: {comment}; not both)")
+            continue
+        first, *rest = value.split("\n")
+        active = not commented and (k.required or k.active)
+        if rest and not active:
+            raise ValueError(f"{k.dotted}: a commented example must be one line")
+        line = f"{'' if active else '# '}{k.name} = {first}"
+        if max(len(line), _COMMENT_AT - 1) + 3 + len(comment) > 100:
+            out += [f"# {comment}:", line]
+        else:
+            out.append(f"{line.ljust(_COMMENT_AT - 1)} # {comment}")
+        out.extend(rest)
+    return out
+
+
+def site_template() -> str:
+    """Return the ``geo-corrosion init`` template: its skeleton with the declared keys.
+
+    The skeleton, ``geo_corrosion/templates/site.toml.in``, holds the prose and the examples
+    of the tables that are not declared here (kind options, zoning rules, condition rules);
+    each of its lines ``@keys <table> [commented]`` becomes the keys of that table, and its
+    lines starting ``#@`` (notes for whoever edits it) are dropped.
+    """
+    skeleton = (Path(__file__).parent / "templates" / "site.toml.in").read_text(encoding="utf-8")
+    out: list[str] = []
+    for line in skeleton.splitlines():
+        if line.startswith("#@"):
+            continue
+        m = re.fullmatch(r"@keys (\S+)( commented)?", line)
+        out.extend(_template_lines(m.group(1), bool(m.group(2))) if m else [line])
+    return "\n".join(out) + "\n"
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Rewrite docs/site-file.md's key tables and the init template from the declaration.
+
+    ``python -m geo_corrosion.config [--check]``; with ``--check``, only say which is stale
+    (exit status 1).  Run from a source checkout (``docs/`` beside the package).
+    """
+    args = list(sys.argv[1:] if argv is None else argv)
+    check = "--check" in args
+    if set(args) - {"--check"}:
+        print("usage: python -m geo_corrosion.config [--check]", file=sys.stderr)
+        return 2
+    package = Path(__file__).resolve().parent
+    docs = package.parent / "docs" / "site-file.md"
+    if not docs.is_file():
+        print(f"{docs}: not found; run this in a source checkout", file=sys.stderr)
+        return 2
+    stale = []
+    for path, new in ((docs, render_docs(docs.read_text(encoding="utf-8"))),
+                      (package / "templates" / "site.toml", site_template())):
+        old = path.read_text(encoding="utf-8") if path.is_file() else ""
+        if old == new:
+            continue
+        stale.append(path)
+        if check:
+            print(f"{path}: stale; run python -m geo_corrosion.config")
+            diff = difflib.unified_diff(old.splitlines(), new.splitlines(), lineterm="", n=1)
+            print("\n".join(list(diff)[:40]))
+        else:
+            path.write_text(new, encoding="utf-8")
+            print(f"{path}: rewritten")
+    return 1 if check and stale else 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

@@ -95,7 +95,7 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
             say(f"level {lid}: condition assessment")
             condition, life_frames = assess_condition(
                 lv, mapped, site.surveys_of(lid, "corrosion_rate"),
-                rules=site.config.combined_rules, bar_diameter_mm=params.bar_diameter_mm,
+                rules=site.config.combined_rules, bar_diameter_mm=planning.layout.bar_diameter_mm,
                 low_cover=low_cover)
             frames.update(life_frames)
         say(f"level {lid}: laying out repairs and zones")

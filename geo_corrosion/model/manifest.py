@@ -12,7 +12,6 @@ import hashlib
 import json
 import platform
 import time
-from dataclasses import asdict
 from datetime import datetime, timezone
 from importlib.metadata import PackageNotFoundError, version
 from pathlib import Path
@@ -103,7 +102,7 @@ def manifest(result: RunResult, started: float) -> dict[str, Any]:
         "created_utc": datetime.now(timezone.utc).isoformat(timespec="seconds"),
         "elapsed_s": round(time.perf_counter() - started, 2),
         "inputs": input_files(cfg),
-        "parameters": asdict(cfg.run),
+        "parameters": cfg.parameters(),
         "versions": package_versions(),
         "surveys": [{"id": s.id, "level": s.config.level, "kind": s.kind.name,
                      "file": s.config.path.name, "readings": len(s.frame),

@@ -48,6 +48,7 @@ from shapely.geometry import LinearRing, LineString, MultiPolygon, Polygon, box
 from shapely.geometry.base import BaseGeometry
 from shapely.geometry.polygon import orient
 
+from geo_corrosion.config import LayoutParams
 from geo_corrosion.errors import GeometryWarning, RepairError
 from geo_corrosion.units import LENGTH_TO_M, MM_PER_INCH
 
@@ -80,88 +81,9 @@ _SOURCE_KINDS = ("delamination", "spall", "zone")
 _PLAN_UNITS = ("m", "ft")
 
 
-@dataclass(frozen=True)
-class LayoutParams:
-    """Parameters of the repair layout (lengths in mm, as named).
-
-    Attributes
-    ----------
-    margin_mm : float
-        Growth beyond the sounded limits, mm (150 mm / 6 in [ICRI-310.1R-2008, from memory]).
-    merge_gap_mm : float
-        Repairs closer than this are considered for merging, mm (300 mm, common practice).
-    merge_max_extra : float
-        Largest area increase, as a fraction of the group's own area, accepted to
-        replace a merged group by its bounding rectangle (default 0.25, common practice).
-    min_size_mm : float
-        Smallest repair side, mm (300 mm, common practice); applied again after clipping.
-    min_reentrant_mm : float
-        Smallest notch, step or strip kept in an L/T-shaped repair, mm (300 mm, common practice).
-    axis_angle_deg : float
-        Angle of the saw-cut axes from the grid x axis, degrees counter-clockwise.
-    sawcut_depth_mm : float
-        Perimeter saw-cut depth and least removal depth, mm (default 19.05 mm = 3/4 in,
-        [ICRI-310.1R-2008], to confirm).
-    extend_to_edge : bool
-        Extend a repair to a free slab edge that lies within the margin of it.
-    cover_mm : float
-        Cover to the top bars where the sources carry no ``cover_mm`` column, mm
-        (default 38 mm, about 1-1/2 in, common practice).
-    bar_diameter_mm : float
-        Top-mat bar diameter, mm (default 16 mm, about a No. 5 bar, common practice).
-    max_aggregate_mm : float
-        Largest aggregate of the repair material, mm (default 9.5 mm / 3/8 in).
-    slab_thickness_mm : float or None
-        Slab thickness, mm; needed for the full-depth class.
-    undercut_rule : {"icri", "ufgs"}
-        Rule for the clearance under exposed bars [ICRI-310.1R-2008; UFGS-03931 §3.3.1.4].
-    full_depth_fraction : float
-        A removal deeper than this fraction of the slab thickness becomes full depth
-        (common practice).
-    """
-
-    margin_mm: float = 150.0
-    merge_gap_mm: float = 300.0
-    merge_max_extra: float = 0.25
-    min_size_mm: float = 300.0
-    min_reentrant_mm: float = 300.0
-    axis_angle_deg: float = 0.0
-    sawcut_depth_mm: float = 19.05  # 3/4 in exactly [ICRI-310.1R-2008], to confirm
-    extend_to_edge: bool = True
-    cover_mm: float = 38.0
-    bar_diameter_mm: float = 16.0
-    max_aggregate_mm: float = 9.5
-    slab_thickness_mm: float | None = None
-    undercut_rule: Literal["icri", "ufgs"] = "icri"
-    full_depth_fraction: float = 0.5
-
-    def __post_init__(self) -> None:
-        limits = {  # name: (upper limit, unit); absurd beyond these (common practice)
-            "margin_mm": (3000.0, "mm"), "merge_gap_mm": (10000.0, "mm"),
-            "min_size_mm": (10000.0, "mm"), "min_reentrant_mm": (10000.0, "mm"),
-            "sawcut_depth_mm": (300.0, "mm"), "cover_mm": (300.0, "mm"),
-            "bar_diameter_mm": (60.0, "mm"), "max_aggregate_mm": (100.0, "mm"),
-            "merge_max_extra": (10.0, "fraction of the group's area"),
-        }
-        for name, (hi, unit) in limits.items():
-            v = getattr(self, name)
-            if not isinstance(v, (int, float)) or not math.isfinite(v) or v < 0 or v > hi:
-                raise RepairError(
-                    f"repair layout: {name} = {v!r} {unit} is not usable; give a value from 0 "
-                    f"to {hi:g} {unit}")
-        if self.bar_diameter_mm <= 0 or self.sawcut_depth_mm <= 0:
-            raise RepairError("repair layout: bar_diameter_mm and sawcut_depth_mm must be > 0 mm")
-        if not math.isfinite(self.axis_angle_deg) or abs(self.axis_angle_deg) > 360:
-            raise RepairError(f"repair layout: axis_angle_deg = {self.axis_angle_deg!r} degrees; "
-                              "give an angle between -360 and 360 degrees")
-        if self.slab_thickness_mm is not None and not (0 < self.slab_thickness_mm <= 3000):
-            raise RepairError(f"repair layout: slab_thickness_mm = {self.slab_thickness_mm!r} mm; "
-                              "give a thickness from 0 to 3000 mm, or None")
-        if self.undercut_rule not in ("icri", "ufgs"):
-            raise RepairError(f"repair layout: undercut_rule = {self.undercut_rule!r}; "
-                              "use 'icri' or 'ufgs'")
-        if not 0 < self.full_depth_fraction <= 1:
-            raise RepairError("repair layout: full_depth_fraction must be in (0, 1]")
+#: The layout's defaults, declared once with :class:`~geo_corrosion.config.LayoutParams`;
+#: the library functions below take theirs from it.
+_DEFAULT = LayoutParams()
 
 
 # ----------------------------------------------------------------------------- depth
@@ -209,9 +131,11 @@ def undercut_clearance_mm(max_aggregate_mm: float, *, rule: Literal["icri", "ufg
 
 
 def depth_class(*, cover_mm: float, bar_diameter_mm: float, delam_depth_mm: float | None = None,
-                max_aggregate_mm: float = 9.5, slab_thickness_mm: float | None = None,
-                rule: Literal["icri", "ufgs"] = "icri", sawcut_depth_mm: float = 19.05,
-                full_depth_fraction: float = 0.5) -> tuple[str, float]:
+                max_aggregate_mm: float = _DEFAULT.max_aggregate_mm,
+                slab_thickness_mm: float | None = None,
+                rule: Literal["icri", "ufgs"] = _DEFAULT.undercut_rule,
+                sawcut_depth_mm: float = _DEFAULT.sawcut_depth_mm,
+                full_depth_fraction: float = _DEFAULT.full_depth_fraction) -> tuple[str, float]:
     """Depth class of a repair and its removal depth (common practice).
 
     Parameters

@@ -13,7 +13,6 @@ from geo_corrosion.config import SiteConfig
 from geo_corrosion.errors import KrigingError, QAError
 from geo_corrosion.model.site import Site
 from geo_corrosion.qa.derived import derived_flags
-from geo_corrosion.stages.plan_repairs import planning_params
 from geo_corrosion.surfaces import check_contour_interval
 
 __all__ = ["check_parameters", "check_site", "refuse_unrunnable"]
@@ -26,10 +25,9 @@ def check_parameters(cfg: SiteConfig) -> None:
     ------
     KrigingError
         A potential contour interval above 100 mV [ASTM-C876-91 §6.2, from memory].
-    RepairError
-        Layout parameters that are negative or absurd.
+
+    The layout parameters are checked when the site file is read (``SiteConfig.layout``).
     """
-    planning_params(cfg)  # layout parameters: negative or absurd values raise now
     try:
         check_contour_interval(cfg.run.contour_interval_mv, "potential")
     except KrigingError as err:

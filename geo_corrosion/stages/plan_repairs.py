@@ -24,13 +24,13 @@ from numpy.typing import NDArray
 from shapely.geometry import shape
 from shapely.geometry.base import BaseGeometry
 
-from geo_corrosion.config import SiteConfig
+from geo_corrosion.config import LayoutParams, SiteConfig
 from geo_corrosion.errors import GeometryWarning
 from geo_corrosion.model.results import LevelResult
 from geo_corrosion.model.site import Level
 from geo_corrosion.model.surface import KindSurface
 from geo_corrosion.quantities import bid_schedule
-from geo_corrosion.repair import LayoutParams, layout_repairs
+from geo_corrosion.repair import layout_repairs
 from geo_corrosion.units import ReportUnits
 from geo_corrosion.zoning import ZONING_RULES, ZoningLayers, default_rules, zone
 
@@ -44,11 +44,15 @@ DEFAULT_LOW_COVER_MM = 25.0
 
 @dataclass(frozen=True)
 class PlanningParams:
-    """Parameters of zoning and layout (lengths in mm or m as named)."""
+    """Parameters of zoning and layout (lengths in mm or m as named).
+
+    No defaults here: they are the site file's (:mod:`geo_corrosion.config`), taken by
+    :func:`planning_params`.
+    """
 
     layout: LayoutParams
-    min_zone_area_m2: float = 0.5
-    smoothing_m: float = 0.15
+    min_zone_area_m2: float
+    smoothing_m: float
     rules: tuple[Any, ...] | None = None  # ZoningRule instances; None = the built-in order
 
 
@@ -171,16 +175,11 @@ def plan_level(level: Level, surfaces: dict[str, KindSurface], params: PlanningP
 
 
 def planning_params(cfg: SiteConfig) -> PlanningParams:
-    """Layout and zoning parameters of a site (validated: absurd values raise RepairError)."""
+    """Layout and zoning parameters of a site: its layout as read, and its zoning rules."""
     p = cfg.run
     rules = tuple(ZONING_RULES.get(name)(**kw) for name, kw in cfg.zoning) or None
-    return PlanningParams(
-        layout=LayoutParams(
-            margin_mm=p.repair_margin_m * 1000, merge_gap_mm=p.merge_gap_m * 1000,
-            min_size_mm=p.min_repair_size_m * 1000, axis_angle_deg=p.axis_angle_deg,
-            sawcut_depth_mm=p.sawcut_depth_mm, bar_diameter_mm=p.bar_diameter_mm,
-            max_aggregate_mm=p.max_aggregate_mm, slab_thickness_mm=p.slab_thickness_mm),
-        min_zone_area_m2=p.min_zone_area_m2, smoothing_m=p.zone_smoothing_m, rules=rules)
+    return PlanningParams(layout=cfg.layout, min_zone_area_m2=p.min_zone_area_m2,
+                          smoothing_m=p.zone_smoothing_m, rules=rules)
 
 
 def schedule_quantities(levels: Iterable[LevelResult], *, units: ReportUnits, contingency: float,

@@ -3,15 +3,16 @@
 Read with the standard library's :mod:`tomllib` and validated strictly: an
 unknown or misspelt key, a missing key or a value of the wrong type raises
 :class:`~geo_corrosion.errors.SiteFileError` naming the file, the key and what
-is expected.  Lengths in the ``[run]`` table carry their unit as a string
-(``"150 mm"``, ``"6 in"``, ``"1 ft"``) and are held in metres.  See
-``docs/site-file.md`` for the full reference and ``geo-corrosion init`` for a
-commented template.
+is expected.  Each table's keys, their types, defaults, units and ranges are those
+declared in :mod:`geo_corrosion.config`; the checks that need a registry (measurement
+kinds and their options, zoning rules, class sets, the combined rule table) are here.
+Lengths carry their unit as a string (``"150 mm"``, ``"6 in"``, ``"1 ft"``) and are held
+in the unit of their field (``cell_size_m``, ``margin_mm``).  See ``docs/site-file.md`` for
+the full reference and ``geo-corrosion init`` for a commented template.
 """
 
 from __future__ import annotations
 
-import dataclasses
 import difflib
 import re
 import tomllib
@@ -21,11 +22,14 @@ from typing import Any
 
 from geo_corrosion._toml import Table
 from geo_corrosion.config import (
-    COORDS,
-    OVERLAY_KINDS,
+    DERIVED,
+    TABLES,
+    TOP,
     ControlPoint,
     GridConfig,
+    Key,
     LayerRef,
+    LayoutParams,
     LevelConfig,
     OverlayRef,
     RunParams,
@@ -33,71 +37,89 @@ from geo_corrosion.config import (
     SurveyConfig,
 )
 from geo_corrosion.crs import site_crs
-from geo_corrosion.errors import SiteFileError, UnitError
-from geo_corrosion.units import LENGTH_TO_M, normalize_unit, parse_area, parse_length
+from geo_corrosion.errors import RepairError, SiteFileError, UnitError
+from geo_corrosion.units import normalize_unit, parse_area
 
 __all__ = ["read_site"]
 
 
-
-_SITE_KEYS = ("name", "owner", "crs", "units", "notes")
-_RUN_KEYS = (
-    "cell_size", "max_distance", "contour_interval_mv", "repair_margin", "merge_gap",
-    "min_repair_size", "contingency", "n_neighbors", "variogram_model",
-    "resistivity_reference_c", "activation_energy_kj_mol", "cse_reference_c",
-    "correct_only_outside_band", "variogram", "bar_diameter", "max_aggregate", "slab_thickness",
-    "sawcut_depth", "axis_angle_deg", "anode_spacing", "min_zone_area", "zone_smoothing",
-    "calibrate_variance",
-)
-_VARIOGRAM_KEYS = ("model", "nugget", "psill", "range", "shape", "anisotropy_ratio",
-                   "anisotropy_angle_deg")
-_LEVEL_KEYS = (
-    "id", "name", "slab", "exclusions", "joints", "overlays", "grid", "specified_cover",
-    "cover_tolerance",
-)
-_LAYER_KEYS = ("path", "layer", "coords", "unit")
-_OVERLAY_KEYS = ("kind", *_LAYER_KEYS)
-_GRID_KEYS = ("unit", "spacing", "origin", "rotation_deg", "control_points")
-_CP_KEYS = ("id", "local", "site")
-_SURVEY_KEYS = (
-    "id", "level", "kind", "path", "unit", "coords", "electrode", "temperature_c",
-    "temperature_f", "temperature_coefficient_mv_per_c", "date", "separator", "decimal",
-    "layer", "columns", "options",
-)
-VARIOGRAM_MODELS = ("auto", "spherical", "exponential", "gaussian", "matern")
+def _table(data: object, where: str, table: str) -> Table:
+    """Open a table of the site file; its allowed keys are those declared for it."""
+    return Table(data, where, TABLES[table].names)
 
 
-def _layer(data: object, where: str, root: Path, default_coords: str = "local") -> LayerRef:
-    if isinstance(data, str):
-        data = {"path": data}
-    t = Table(data, where, _LAYER_KEYS)
-    unit = t.opt_str("unit")
-    if unit is not None:
+def _read(t: Table, k: Key, derived: Any = None) -> Any:
+    """Read one declared key of a table: its type, default, unit and range are declared.
+
+    An absent key gives its default (as held), or ``derived`` when the reader derives it
+    (:data:`~geo_corrosion.config.DERIVED`); a required key that is absent is refused.
+    """
+    name, where = str(k.name), t.key(str(k.name))
+    if not t.has(name):
+        if k.required:
+            raise SiteFileError(f"{where}: missing; expected {k.expected()}")
+        return derived if k.default is DERIVED else k.value
+    raw = t.data[name]
+    v: Any
+    if k.type in ("string", "path"):
+        v = t.string(name, choices=k.choices)
+    elif k.type == "text":
+        v = t.text(name)
+    elif k.type in ("number", "integer"):
+        v = t.num(name, finite=True)
+        if k.type == "integer":
+            if v != int(v):
+                raise SiteFileError(f"{where}: expected {k.expected()}, got {raw!r}")
+            v = int(v)
+    elif k.type == "boolean":
+        if not isinstance(raw, bool):
+            raise SiteFileError(f"{where}: expected true or false, got {raw!r}")
+        v = raw
+    elif k.type == "length":
+        v = k.hold(raw, where=where)
+    elif k.type == "area":
+        v = parse_area(raw, where=where)
+    elif k.type == "unit":
         try:
-            unit = normalize_unit(unit, accepted=tuple(LENGTH_TO_M), where=f"{t.key('unit')}: ")
+            v = normalize_unit(t.string(name), accepted=k.choices, where=f"{where}: ")
         except UnitError as err:
             raise SiteFileError(str(err)) from err
+    elif k.type == "pair":
+        v = t.pair(name)
+    elif k.type == "date":
+        v = raw.isoformat() if hasattr(raw, "isoformat") else t.string(name)
+    else:
+        raise TypeError(f"{k.dotted}: a {k.type!r} key has a reader of its own")
+    if not k.in_range(v, site=True):
+        raise SiteFileError(f"{where}: expected {k.expected()}, got {raw!r}")
+    return v
+
+
+def _layer(data: object, where: str, root: Path) -> LayerRef:
+    if isinstance(data, str):
+        data = {"path": data}
+    t = _table(data, where, "layer")
+    keys = TABLES["layer"]
     return LayerRef(
-        path=(root / t.string("path")).resolve(),
-        layer=t.opt_str("layer"),
-        coords=t.string("coords", default_coords, choices=COORDS),
-        unit=unit,
+        path=(root / _read(t, keys["path"])).resolve(),
+        layer=_read(t, keys["layer"]),
+        coords=_read(t, keys["coords"]),
+        unit=_read(t, keys["unit"]),
         where=where,
     )
 
 
 def _grid(data: object, where: str) -> GridConfig:
-    t = Table(data, where, _GRID_KEYS)
-    try:
-        unit = normalize_unit(t.string("unit"), accepted=("m", "ft", "us-ft"),
-                              where=f"{t.key('unit')}: ")
-    except UnitError as err:
-        raise SiteFileError(str(err)) from err
+    t = _table(data, where, "levels.grid")
+    keys = TABLES["levels.grid"]
+    unit = _read(t, keys["unit"])
     cps = []
     for i, cp in enumerate(t.array("control_points")):
-        ct = Table(cp, f"{t.key('control_points')}[{i}]", _CP_KEYS)
-        cps.append(ControlPoint(ct.string("id", f"CP{i + 1}"), ct.pair("local"), ct.pair("site")))
-    origin = t.pair("origin") if t.has("origin") else None
+        ct = _table(cp, f"{t.key('control_points')}[{i}]", "levels.grid.control_points")
+        ck = TABLES["levels.grid.control_points"]
+        cps.append(ControlPoint(_read(ct, ck["id"], f"CP{i + 1}"), _read(ct, ck["local"]),
+                                _read(ct, ck["site"])))
+    origin = _read(t, keys["origin"])
     if origin is None and not cps:
         raise SiteFileError(
             f"{where}: say how the grid is tied to the site CRS: either origin = [E, N] with "
@@ -111,34 +133,31 @@ def _grid(data: object, where: str) -> GridConfig:
         )
     return GridConfig(
         unit=unit,
-        spacing=t.num("spacing", positive=True),
+        spacing=_read(t, keys["spacing"]),
         origin=origin,
-        rotation_deg=t.num("rotation_deg", 0.0),
+        rotation_deg=_read(t, keys["rotation_deg"]),
         control_points=tuple(cps),
     )
 
 
-def _mm(t: Table, name: str) -> float | None:
-    return parse_length(t.data[name], where=t.key(name)) * 1000.0 if t.has(name) else None
-
-
 def _level(data: object, where: str, root: Path) -> LevelConfig:
-    t = Table(data, where, _LEVEL_KEYS)
-    lid = t.string("id")
+    t = _table(data, where, "levels")
+    keys = TABLES["levels"]
+    lid = _read(t, keys["id"])
     if "slab" not in t.data:
         raise SiteFileError(f"{t.key('slab')}: missing; give the slab outline as {{ path, layer }}")
     overlays = []
     for i, o in enumerate(t.array("overlays")):
         ow = f"{t.key('overlays')}[{i}]"
-        ot = Table(o, ow, _OVERLAY_KEYS)
-        kind = ot.string("kind", choices=OVERLAY_KINDS)
+        ot = _table(o, ow, "levels.overlays")
+        kind = _read(ot, TABLES["levels.overlays"]["kind"])
         rest = {k: v for k, v in ot.data.items() if k != "kind"}
-        overlays.append(OverlayRef(kind, _layer(rest, ow, root)))
+        overlays.append(OverlayRef(kind=kind, ref=_layer(rest, ow, root)))
     if "grid" not in t.data:
         raise SiteFileError(f"{t.key('grid')}: missing; every level needs a [levels.grid] table")
     return LevelConfig(
         id=lid,
-        name=t.string("name", lid),
+        name=_read(t, keys["name"], lid),
         slab=_layer(t.data["slab"], t.key("slab"), root),
         exclusions=tuple(
             _layer(e, f"{t.key('exclusions')}[{i}]", root)
@@ -147,22 +166,23 @@ def _level(data: object, where: str, root: Path) -> LevelConfig:
         joints=_layer(t.data["joints"], t.key("joints"), root) if t.has("joints") else None,
         overlays=tuple(overlays),
         grid=_grid(t.data["grid"], t.key("grid")),
-        specified_cover_mm=_mm(t, "specified_cover"),
-        cover_tolerance_mm=_mm(t, "cover_tolerance"),
+        specified_cover_mm=_read(t, keys["specified_cover"]),
+        cover_tolerance_mm=_read(t, keys["cover_tolerance"]),
     )
 
 
 def _survey(data: object, where: str, root: Path, level_ids: set[str]) -> SurveyConfig:
-    t = Table(data, where, _SURVEY_KEYS)
-    sid = t.string("id")
-    level = t.string("level")
+    t = _table(data, where, "surveys")
+    keys = TABLES["surveys"]
+    sid = _read(t, keys["id"])
+    level = _read(t, keys["level"])
     if level not in level_ids:
         raise SiteFileError(
             f"{t.key('level')}: no level {level!r} is declared; declared levels: "
             f"{', '.join(sorted(level_ids))}"
         )
-    temp = t.opt_num("temperature_c")
-    temp_f = t.opt_num("temperature_f")
+    temp = _read(t, keys["temperature_c"])
+    temp_f = _read(t, keys["temperature_f"])
     if temp_f is not None:
         if temp is not None:
             raise SiteFileError(f"{where}: give temperature_c or temperature_f, not both")
@@ -172,28 +192,27 @@ def _survey(data: object, where: str, root: Path, level_ids: set[str]) -> Survey
         raise SiteFileError(
             f"{t.key('columns')}: expected a table of our column name = the file's column name"
         )
-    kind = t.string("kind")
+    kind = _read(t, keys["kind"])
     options = _survey_options(t, kind, root)
-    sep = t.string("separator", ",")
-    dec = t.string("decimal", ".", choices=(".", ","))
+    sep = _read(t, keys["separator"])
+    dec = _read(t, keys["decimal"])
     if sep == dec:
         raise SiteFileError(f"{where}: separator and decimal cannot both be {sep!r}")
     return SurveyConfig(
         id=sid,
         level=level,
         kind=kind,
-        path=(root / t.string("path")).resolve(),
-        unit=t.string("unit"),
-        coords=t.string("coords", "local", choices=COORDS),
-        electrode=t.opt_str("electrode"),
+        path=(root / _read(t, keys["path"])).resolve(),
+        unit=_read(t, keys["unit"]),
+        coords=_read(t, keys["coords"]),
+        electrode=_read(t, keys["electrode"]),
         temperature_c=temp,
         temperature_f=temp_f,
-        temperature_coefficient_mv_per_c=t.opt_num("temperature_coefficient_mv_per_c"),
-        date=t.opt_str("date") if not hasattr(t.data.get("date"), "isoformat")
-        else t.data["date"].isoformat(),
+        temperature_coefficient_mv_per_c=_read(t, keys["temperature_coefficient_mv_per_c"]),
+        date=_read(t, keys["date"]),
         separator=sep,
         decimal=dec,
-        layer=t.opt_str("layer"),
+        layer=_read(t, keys["layer"]),
         columns=dict(columns),
         where=where,
         options=options,
@@ -215,33 +234,6 @@ def _survey_options(t: Table, kind: str, root: Path) -> dict[str, Any]:
 
     kind_obj = get_kind(kind, where=f"{t.key('kind')}: ")
     return dict(kind_obj.parse_options(raw, where=where, root=root))
-
-
-#: [run] key -> the :class:`~geo_corrosion.repair.LayoutParams` field that checks its range
-_LAYOUT_FIELDS = {
-    "repair_margin": "margin_mm", "merge_gap": "merge_gap_mm", "min_repair_size": "min_size_mm",
-    "bar_diameter": "bar_diameter_mm", "max_aggregate": "max_aggregate_mm",
-    "slab_thickness": "slab_thickness_mm", "sawcut_depth": "sawcut_depth_mm",
-    "axis_angle_deg": "axis_angle_deg",
-}
-
-
-def _check_layout(t: Table, values: dict[str, float | None]) -> None:
-    """Check each layout key of [run] against the repair layout's own limits.
-
-    Each value is tried alone in a :class:`~geo_corrosion.repair.LayoutParams` (the others at
-    their defaults), so the message names the site-file key that is out of range.
-    """
-    from geo_corrosion.errors import RepairError
-    from geo_corrosion.repair import LayoutParams
-
-    for key, fld in _LAYOUT_FIELDS.items():
-        if not t.has(key):
-            continue
-        try:
-            LayoutParams(**{fld: values[fld]})
-        except RepairError as err:
-            raise SiteFileError(f"{t.key(key)}: {t.data[key]!r} is out of range ({err})") from err
 
 
 def _variogram(t: Table) -> dict[str, dict[str, Any]]:
@@ -268,23 +260,12 @@ def _variogram(t: Table) -> dict[str, dict[str, Any]]:
             MEASUREMENTS.get(kind)  # a plugin kind that failed to load raises here
         except PluginError as err:
             raise SiteFileError(f"{w}: {err}") from err
-        kt = Table(spec, w, _VARIOGRAM_KEYS)
-        fx: dict[str, Any] = {}
-        if kt.has("model"):
-            fx["model"] = kt.string("model", choices=VARIOGRAM_MODELS[1:])
-        for k in ("nugget", "psill", "shape", "anisotropy_ratio", "anisotropy_angle_deg"):
-            if kt.has(k):
-                fx[k] = kt.num(k, finite=True)
-        for k in ("nugget", "psill"):
-            if fx.get(k, 0.0) < 0:
-                raise SiteFileError(f"{kt.key(k)}: expected a number of 0 or more (value unit "
-                                    f"squared of the kriged variable), got {fx[k]!r}")
+        kt = _table(spec, w, "run.variogram.<kind>")
+        fx: dict[str, Any] = {k.field: _read(kt, k) for k in TABLES["run.variogram.<kind>"].keys
+                              if kt.has(str(k.name))}
         if fx.get("nugget") == 0 and fx.get("psill") == 0:
             raise SiteFileError(f"{w}: nugget and psill are both 0, so the variogram has no sill; "
                                 "give a positive value to one of them, or leave one to be fitted")
-        if "anisotropy_ratio" in fx and not 0 < fx["anisotropy_ratio"] <= 1:
-            raise SiteFileError(f"{kt.key('anisotropy_ratio')}: expected the minor/major range "
-                                f"ratio, more than 0 and at most 1, got {fx['anisotropy_ratio']!r}")
         if "shape" in fx:
             from geo_corrosion.surfaces.variogram import _SHAPE_BOUNDS
 
@@ -295,79 +276,33 @@ def _variogram(t: Table) -> dict[str, dict[str, Any]]:
             if not lo <= fx["shape"] <= hi:
                 raise SiteFileError(f"{kt.key('shape')}: expected a Matern shape from {lo:g} to "
                                     f"{hi:g}, got {fx['shape']!r}")
-        if kt.has("range"):
-            fx["range_m"] = kt.length("range", 0.0)
         fixed[str(kind)] = fx
     return fixed
 
 
-def _run(data: object, where: str) -> RunParams:
-    t = Table(data, where, _RUN_KEYS)
-    d = RunParams()
-    contingency = t.num("contingency", d.contingency)
-    if not 0 <= contingency <= 1:
-        raise SiteFileError(f"{t.key('contingency')}: expected a fraction 0..1 (0.2 = 20 %)")
-    n_nb = t.num("n_neighbors", d.n_neighbors, positive=True, finite=True)
-    if n_nb != int(n_nb) or n_nb < 3:
-        raise SiteFileError(f"{t.key('n_neighbors')}: expected a whole number of at least 3")
-    flag = t.data.get("correct_only_outside_band", d.correct_only_outside_band)
-    if not isinstance(flag, bool):
-        raise SiteFileError(f"{t.key('correct_only_outside_band')}: expected true or false")
-    calibrate = t.data.get("calibrate_variance", d.calibrate_variance)
-    if not isinstance(calibrate, bool):
-        raise SiteFileError(f"{t.key('calibrate_variance')}: expected true or false")
-    fixed = _variogram(t)
+def _run(data: object, where: str) -> tuple[dict[str, Any], LayoutParams]:
+    """Read [run]: the keyword arguments of :class:`RunParams`, and the repair layout's.
 
-    def _mm(name: str, default: float | None) -> float | None:
-        return t.length(name, 0.0) * 1000.0 if t.has(name) else default
-
-    layout: dict[str, Any] = {
-        "margin_mm": t.length("repair_margin", d.repair_margin_m) * 1000.0,
-        "merge_gap_mm": t.length("merge_gap", d.merge_gap_m) * 1000.0,
-        "min_size_mm": t.length("min_repair_size", d.min_repair_size_m) * 1000.0,
-        "bar_diameter_mm": _mm("bar_diameter", d.bar_diameter_mm),
-        "max_aggregate_mm": _mm("max_aggregate", d.max_aggregate_mm),
-        "slab_thickness_mm": _mm("slab_thickness", None),
-        "sawcut_depth_mm": _mm("sawcut_depth", d.sawcut_depth_mm),
-        "axis_angle_deg": t.num("axis_angle_deg", d.axis_angle_deg, finite=True),
-    }
-    _check_layout(t, layout)
-    min_zone_m2 = (parse_area(t.data["min_zone_area"], where=t.key("min_zone_area"))
-                   if t.has("min_zone_area") else d.min_zone_area_m2)
-    return RunParams(
-        bar_diameter_mm=layout["bar_diameter_mm"],
-        max_aggregate_mm=layout["max_aggregate_mm"],
-        slab_thickness_mm=layout["slab_thickness_mm"],
-        sawcut_depth_mm=layout["sawcut_depth_mm"],
-        axis_angle_deg=layout["axis_angle_deg"],
-        anode_spacing_mm=_mm("anode_spacing", None),
-        min_zone_area_m2=min_zone_m2,
-        zone_smoothing_m=t.length("zone_smoothing", d.zone_smoothing_m),
-        variogram=fixed,
-        cell_size_m=t.length("cell_size", d.cell_size_m),
-        max_distance_m=t.length("max_distance", d.max_distance_m),
-        contour_interval_mv=t.num("contour_interval_mv", d.contour_interval_mv, positive=True,
-                                  finite=True),
-        repair_margin_m=t.length("repair_margin", d.repair_margin_m),
-        merge_gap_m=t.length("merge_gap", d.merge_gap_m),
-        min_repair_size_m=t.length("min_repair_size", d.min_repair_size_m),
-        contingency=contingency,
-        n_neighbors=int(n_nb),
-        variogram_model=t.string("variogram_model", d.variogram_model, choices=VARIOGRAM_MODELS),
-        resistivity_reference_c=t.num("resistivity_reference_c", d.resistivity_reference_c,
-                                      finite=True),
-        activation_energy_kj_mol=t.num(
-            "activation_energy_kj_mol", d.activation_energy_kj_mol, positive=True, finite=True
-        ),
-        cse_reference_c=t.num("cse_reference_c", d.cse_reference_c, finite=True),
-        correct_only_outside_band=flag, calibrate_variance=calibrate,
-    )
+    The layout's keys are checked against the ranges declared on
+    :class:`~geo_corrosion.config.LayoutParams` here, each message naming its [run] key, and
+    the layout parameters are built once.
+    """
+    t = _table(data, where, "run")
+    run: dict[str, Any] = {}
+    layout: dict[str, Any] = {}
+    for k in TABLES["run"].keys:
+        if k.field == "variogram":
+            run["variogram"] = _variogram(t)
+        else:
+            (layout if k.owner is LayoutParams else run)[k.field] = _read(t, k)
+    try:
+        params = LayoutParams(**layout)
+    except RepairError as err:  # a check across keys: the table is named
+        raise SiteFileError(f"{where}: {err}") from err
+    return run, params
 
 
-_WEBMAP_KEYS = ("basemap_url", "basemap_attribution")
-
-
-def _webmap(data: object, where: str) -> dict[str, str | None]:
+def _webmap(data: object, where: str) -> dict[str, Any]:
     """Read the [webmap] table: an optional street basemap for ``webmap.html``.
 
     Returns
@@ -375,9 +310,9 @@ def _webmap(data: object, where: str) -> dict[str, str | None]:
     dict
         ``basemap_url`` and ``basemap_attribution`` (None when not given), for :class:`RunParams`.
     """
-    t = Table(data, where, _WEBMAP_KEYS)
-    url = t.opt_str("basemap_url")
-    attribution = t.opt_str("basemap_attribution")
+    t = _table(data, where, "webmap")
+    url = _read(t, TABLES["webmap"]["basemap_url"])
+    attribution = _read(t, TABLES["webmap"]["basemap_attribution"])
     if url is not None:
         missing = [p for p in ("{z}", "{x}", "{y}") if p not in url]
         if not url.startswith("https://") or missing:
@@ -443,9 +378,6 @@ def _zoning(rules: list[Any], where: str) -> tuple[tuple[str, dict[str, Any]], .
     return tuple(out)
 
 
-_COMBINED_KEYS = ("default", "classes", "rules", "class_sets")
-_COMBINED_CLASS_KEYS = ("key", "label", "color")
-_COMBINED_RULE_KEYS = ("name", "class", "potential", "resistivity", "rate", "low_cover")
 _HEX_COLOR = re.compile(r"#[0-9A-Fa-f]{6}")
 
 
@@ -492,7 +424,7 @@ def _condition(data: object, where: str) -> dict[str, Any] | None:
     """
     if data is None:
         return None
-    t = Table(data, where, ("combined",))
+    t = _table(data, where, "condition")
     if "combined" not in t.data:
         return None
     from geo_corrosion.condition.classes import get_class_set
@@ -501,7 +433,7 @@ def _condition(data: object, where: str) -> dict[str, Any] | None:
 
     file = where.removesuffix(": [condition]")
     w = f"{file}: [condition.combined]"
-    ct = Table(t.data["combined"], w, _COMBINED_KEYS)
+    ct = _table(t.data["combined"], w, "condition.combined")
     sets = {k: get_class_set(v) for k, v in KINDS.items()}
     if ct.has("class_sets"):
         st = Table(ct.data["class_sets"], ct.key("class_sets"), tuple(KINDS))
@@ -517,7 +449,7 @@ def _condition(data: object, where: str) -> dict[str, Any] | None:
     if ct.has("classes"):
         classes: list[str] = []
         for j, c in enumerate(ct.array("classes")):
-            kt = Table(c, f"{ct.key('classes')}[{j}]", _COMBINED_CLASS_KEYS)
+            kt = _table(c, f"{ct.key('classes')}[{j}]", "condition.combined.classes")
             key = kt.string("key")
             if key in classes:
                 raise SiteFileError(f"{kt.key('key')}: class key {key!r} is given twice; keys "
@@ -531,13 +463,13 @@ def _condition(data: object, where: str) -> dict[str, Any] | None:
         classes += [k for k in ("unclassified", "no_data") if k not in classes]
     else:
         classes = [c.key for c in DEFAULT_RULES.classes]
-    default = ct.string("default", "unclassified")
+    default = _read(ct, TABLES["condition.combined"]["default"])
     if default not in classes:
         raise SiteFileError(f"{ct.key('default')}: {default!r} is not one of the classes: "
                             f"{', '.join(classes)}")
     if ct.has("rules"):
         for i, r in enumerate(ct.array("rules")):
-            rt = Table(r, f"{ct.key('rules')}[{i}]", _COMBINED_RULE_KEYS)
+            rt = _table(r, f"{ct.key('rules')}[{i}]", "condition.combined.rules")
             problem = _combined_rule_problem(rt.data, rt.string("name", f"rule {i + 1}"), classes,
                                              sets)
             if problem:
@@ -557,9 +489,6 @@ def _condition(data: object, where: str) -> dict[str, Any] | None:
     except ConditionError as err:
         raise SiteFileError(str(err)) from err
     return dict(spec)
-
-
-_TOP_KEYS = ("site", "run", "levels", "surveys", "zoning", "condition", "webmap")
 
 
 def _array(top: Table, name: str) -> list[Any]:
@@ -604,10 +533,11 @@ def read_site(path: str | Path) -> SiteConfig:
     except UnicodeDecodeError as err:
         raise SiteFileError(f"{p}: not a UTF-8 text file") from err
     root = p.parent.resolve()
-    top = Table(data, str(p), _TOP_KEYS)
+    top = Table(data, str(p), TOP.names)
     if "site" not in data:
         raise SiteFileError(f"{p}: missing the [site] table (name, crs, units)")
-    st = Table(data["site"], f"{p}: [site]", _SITE_KEYS)
+    st = _table(data["site"], f"{p}: [site]", "site")
+    keys = TABLES["site"]
     crs, crs_unit = site_crs(st.data.get("crs"), where=st.key("crs"))
     levels_raw = _array(top, "levels")
     if not levels_raw:
@@ -629,19 +559,18 @@ def read_site(path: str | Path) -> SiteConfig:
     if len(set(sids)) != len(sids):
         dup = sorted({s for s in sids if sids.count(s) > 1})
         raise SiteFileError(f"{p}: survey ids must be unique; repeated: {', '.join(dup)}")
+    site = {k: _read(st, keys[k]) for k in ("name", "owner", "units", "notes")}
+    run, layout = _run(data.get("run", {}), f"{p}: [run]")
     return SiteConfig(
         path=p.resolve(),
         root=root,
-        name=st.string("name"),
-        owner=st.string("owner", "(owner not given)"),
         crs=crs,
         crs_unit=crs_unit,
-        units=st.string("units", "metric", choices=("metric", "us")),
-        notes=st.text("notes"),
+        **site,
         levels=levels,
         surveys=surveys,
-        run=dataclasses.replace(_run(data.get("run", {}), f"{p}: [run]"),
-                                **_webmap(data.get("webmap", {}), f"{p}: [webmap]")),
+        run=RunParams(**run, **_webmap(data.get("webmap", {}), f"{p}: [webmap]")),
+        layout=layout,
         zoning=_zoning(_array(top, "zoning"), f"{p}: [[zoning]]"),
         combined_rules=_condition(data.get("condition"), f"{p}: [condition]"),
     )

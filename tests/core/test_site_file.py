@@ -348,7 +348,7 @@ def test_template_shows_every_documented_key() -> None:
         prefix = table.removesuffix(".<kind>").replace(".variogram", ".variogram.[a-z_]+")
         for key in sorted(names):
             as_key = re.search(rf"(?m)(^(# )?|[{{,] |\(or ){key} = ", text)
-            as_table = re.search(rf"(?m)^(# )?\[\[?{prefix}\.{key}\]", text)
+            as_table = re.search(rf"(?m)^(# )?\[\[?{prefix}\.{key}[\].]", text)
             if not (as_key or as_table):
                 missing.append(f"[{table}] {key}")
     assert not missing, f"documented in docs/site-file.md but not in the template: {missing}"
@@ -387,8 +387,8 @@ def test_template_is_read_as_is_and_with_every_key_uncommented(tmp_path: Path) -
     except GeoCorrosionError as err:
         pytest.fail(f"an example in the template is refused: {err}")
     # 0.75 in = 19.05 mm exactly (1 in = 25.4 mm by definition)
-    assert cfg.run.sawcut_depth_mm == 19.05
-    assert cfg.run.min_zone_area_m2 == 0.5 and cfg.run.slab_thickness_mm == pytest.approx(152.4)
+    assert cfg.layout.sawcut_depth_mm == 19.05
+    assert cfg.run.min_zone_area_m2 == 0.5 and cfg.layout.slab_thickness_mm == pytest.approx(152.4)
     assert set(cfg.run.variogram) == {"potential"}
     assert cfg.run.basemap_url == "https://tile.example.org/{z}/{x}/{y}.png"
     assert [r for r, _ in cfg.zoning] == ["repair", "active_corrosion", "low_cover", "no_action"]

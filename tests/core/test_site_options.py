@@ -227,15 +227,15 @@ def test_bad_layout_values_name_the_site_file_key(site_dir: Path, text: str, key
 
 def test_sawcut_depth_default_is_three_quarter_inch_exactly(site_dir: Path) -> None:
     # [ICRI-310.1R-2008], to confirm: 3/4 in saw cut; 1 in = 25.4 mm exactly
-    from geo_corrosion.config import RunParams
+    from geo_corrosion.config import LayoutParams
 
-    assert RunParams().sawcut_depth_mm == 19.05  # the float nearest 19.05, as "19.05 mm" gives
-    assert RunParams().sawcut_depth_mm == pytest.approx(0.75 * 25.4, abs=1e-12)
-    assert read_site(site_dir).run.sawcut_depth_mm == 19.05
+    assert LayoutParams().sawcut_depth_mm == 19.05  # the float nearest 19.05, as "19.05 mm" gives
+    assert LayoutParams().sawcut_depth_mm == pytest.approx(0.75 * 25.4, abs=1e-12)
+    assert read_site(site_dir).layout.sawcut_depth_mm == 19.05
     edit(site_dir / "site.toml", "[run]\n", '[run]\nsawcut_depth = "0.75 in"\n')
-    assert read_site(site_dir).run.sawcut_depth_mm == 19.05
+    assert read_site(site_dir).layout.sawcut_depth_mm == 19.05
     docs = (Path(__file__).resolve().parents[2] / "docs" / "site-file.md").read_text()
-    assert "| `sawcut_depth` | length string | 19.05 mm (3/4 in) |" in docs
+    assert '| `sawcut_depth` | length string | `"0.75 in"` (19.05 mm) |' in docs
 
 
 def test_library_sawcut_depth_defaults_are_three_quarter_inch() -> None:
