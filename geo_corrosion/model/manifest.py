@@ -36,7 +36,7 @@ from geo_corrosion.cautions import CAUTIONS
 from geo_corrosion.config import RunParams, SiteConfig
 from geo_corrosion.errors import ExportError
 from geo_corrosion.model.results import RunResult
-from geo_corrosion.units import LENGTH_TO_M
+from geo_corrosion.units import LENGTH_TO_M, report_units
 
 __all__ = ["MANIFEST_NAME", "FORMAT_VERSION", "manifest", "read_run", "result_manifest",
            "file_sha256", "input_files", "package_versions", "json_default",
@@ -293,6 +293,10 @@ def _insert(d: dict[str, Any], key: str, value: Any, *, after: str | None = None
     return out
 
 
+#: Reporting area units other than m2 (the ``<unit>`` of ``mapped_area_<unit>``).
+_REPORT_AREAS = {report_units(system).area for system in ("metric", "us")} - {"m2"}
+
+
 def _report_area(r: _Reader, d: dict[str, Any], prefix: str, path: str
                  ) -> tuple[str, float, list[str]]:
     """Return unit, value and key of ``<prefix><unit>`` beside ``<prefix>m2`` (reporting unit).
@@ -301,7 +305,7 @@ def _report_area(r: _Reader, d: dict[str, Any], prefix: str, path: str
     the value that of ``<prefix>m2``.
     """
     m2 = prefix + "m2"
-    keys = [k for k in d if k.startswith(prefix) and k != m2]
+    keys = [k for k in d if k.startswith(prefix) and k[len(prefix):] in _REPORT_AREAS]
     if len(keys) > 1:
         raise r.error(_at(path, keys[1]), f"more than one area in a reporting unit "
                                           f"({', '.join(keys)})")
