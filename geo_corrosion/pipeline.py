@@ -125,7 +125,7 @@ def write_outputs(result: RunResult, out_dir: Path, *, exporters: Sequence[str] 
         inst = exp() if isinstance(exp, type) else exp
         for p in inst.export(result, out_dir):
             result.files.append(str(Path(p).relative_to(out_dir)))
-    result.manifest = manifest(result, t0)
+    result.manifest = manifest(result, t0).to_json()
     text = json.dumps(result.manifest, indent=2, default=json_default)
     atomic_write(out_dir / MANIFEST_NAME, lambda tmp: tmp.write_text(text, encoding="utf-8"),
                  what="run manifest")

@@ -2,20 +2,32 @@
 
 It holds the inputs with checksums, every parameter, package versions, per-level
 statistics, class areas, variograms, cross-validation, zones and the schedule.
-:func:`manifest` builds it from a :class:`~geo_corrosion.model.results.RunResult`;
-:func:`read_run` reads it from an output folder with messages that name the file.
+:class:`Manifest` is its typed form, one frozen dataclass per part:
+:meth:`Manifest.from_json` reads and checks the JSON (a missing key, a key of the wrong
+type or an unknown key is an :class:`~geo_corrosion.errors.ExportError` naming the file
+and the JSON path), :meth:`Manifest.to_json` gives back exactly the JSON a run writes
+(keys, order and values).  :func:`manifest` builds it from a
+:class:`~geo_corrosion.model.results.RunResult`; :func:`read_run` reads it from an output
+folder.  The web map, the report and ``geo-corrosion quantities`` read its attributes.
 """
 
 from __future__ import annotations
 
+import copy
+import dataclasses
 import hashlib
 import json
 import platform
+import re
 import time
-from datetime import datetime, timezone
+import types
+import typing
+from collections.abc import Collection, Mapping
+from dataclasses import asdict, dataclass, field
+from datetime import UTC, datetime
 from importlib.metadata import PackageNotFoundError, version
 from pathlib import Path
-from typing import Any
+from typing import Any, Self
 
 import numpy as np
 
@@ -24,13 +36,22 @@ from geo_corrosion.cautions import CAUTIONS
 from geo_corrosion.config import SiteConfig
 from geo_corrosion.errors import ExportError
 from geo_corrosion.model.results import RunResult
-from geo_corrosion.units import LENGTH_TO_M
+from geo_corrosion.units import LENGTH_TO_M, report_units
 
-__all__ = ["MANIFEST_NAME", "manifest", "read_run", "result_manifest", "file_sha256",
-           "input_files", "package_versions", "json_default"]
+__all__ = ["MANIFEST_NAME", "FORMAT_VERSION", "manifest", "read_run", "result_manifest",
+           "file_sha256", "RunParameters", "input_files", "package_versions", "json_default",
+           "Manifest", "SiteRecord", "InputFile", "SurveyRecord", "QaCount", "QaSummary",
+           "LevelRecord", "Georeference", "ControlPointResidual", "KindRecord",
+           "SurfaceRecord", "VariogramRecord", "VariogramModelRecord", "CandidateRecord",
+           "CrossValidationRecord", "ExperimentalVariogramRecord", "DirectionalVariogram",
+           "DirectionalVariograms", "ClassArea", "ConditionRecord", "AreaBeyondThreshold",
+           "SiteThreshold", "SiteThresholdUnavailable", "CombinedClassArea",
+           "CombinedClassRecord", "CombinedRuleRecord", "CombinedRules", "LifeSummary",
+           "PlanningNotes", "ZoningRuleRecord", "ZoneRecord", "ScheduleRow"]
 
 MANIFEST_NAME = "run.json"
-
+#: ``geo_corrosion_run`` of the manifests this version writes and reads.
+FORMAT_VERSION = 1
 
 def file_sha256(path: Path) -> str:
     """SHA-256 of a file, hex."""
@@ -60,6 +81,7 @@ def input_files(cfg: SiteConfig) -> list[dict[str, Any]]:
 
 
 def package_versions() -> dict[str, str]:
+    """Return the versions of Python, geo_corrosion, its libraries and GDAL."""
     out = {"python": platform.python_version()}
     for pkg in ("geo_corrosion", "numpy", "scipy", "pandas", "geopandas", "shapely", "pyproj",
                 "pyogrio", "rasterio", "numba", "folium", "ezdxf", "openpyxl", "matplotlib"):
@@ -89,17 +111,886 @@ def json_default(o: Any) -> Any:
     return str(o)
 
 
-def manifest(result: RunResult, started: float) -> dict[str, Any]:
-    """The run manifest (run.json)."""
+
+
+# --------------------------------------------------------------------------- JSON <-> records
+
+_SIMPLE_KEY = re.compile(r"[A-Za-z_][A-Za-z0-9_\-]*\Z")
+
+
+def _at(path: str, key: str | int) -> str:
+    """JSON path of a child: ``levels.L2.kinds``, ``schedule[3]``, ``x["a b"]``."""
+    if isinstance(key, int):
+        return f"{path}[{key}]"
+    if _SIMPLE_KEY.match(key):
+        return f"{path}.{key}" if path else key
+    return f"{path}[{json.dumps(key)}]"
+
+
+def _found(v: Any) -> str:
+    """Describe a JSON value for a message."""
+    if v is None:
+        return "null"
+    if isinstance(v, bool):
+        return "true" if v else "false"
+    if isinstance(v, int | float):
+        return f"the number {v!r}"
+    if isinstance(v, str):
+        return f"the text {v[:40]!r}"
+    return "a list" if isinstance(v, list) else "an object"
+
+
+_HINTS: dict[type, dict[str, Any]] = {}
+
+
+def _hints(tp: type) -> dict[str, Any]:
+    """Return the resolved field types of a dataclass (cached)."""
+    if tp not in _HINTS:
+        _HINTS[tp] = typing.get_type_hints(tp)
+    return _HINTS[tp]
+
+
+def _key(f: dataclasses.Field[Any]) -> str:
+    return str(f.metadata.get("key", f.name))
+
+
+def _meta(*, key: str | None = None, optional: bool = False,
+          derived: bool = False) -> dict[str, Any]:
+    """Return field metadata: the JSON ``key`` (default the field name), ``optional``.
+
+    ``optional``: the key is absent when the value is None; ``derived``: the value is set
+    by the part's ``_read`` from other keys.
+    """
+    out: dict[str, Any] = {"optional": optional, "derived": derived}
+    if key is not None:
+        out["key"] = key
+    return out
+
+
+@dataclass(frozen=True)
+class RunParameters:
+    """The run's parameters as ``run.json`` keeps them (``SiteConfig.parameters()``).
+
+    The ``[run]`` and ``[webmap]`` values, lengths in the unit their name carries; the
+    layout's margin, merge gap and minimum size in metres.
+    """
+
+    cell_size_m: float
+    max_distance_m: float
+    contour_interval_mv: float
+    repair_margin_m: float
+    merge_gap_m: float
+    min_repair_size_m: float
+    contingency: float
+    n_neighbors: int
+    variogram_model: str
+    resistivity_reference_c: float
+    activation_energy_kj_mol: float
+    cse_reference_c: float
+    correct_only_outside_band: bool
+    calibrate_variance: bool
+    bar_diameter_mm: float
+    max_aggregate_mm: float
+    slab_thickness_mm: float | None
+    sawcut_depth_mm: float
+    axis_angle_deg: float
+    anode_spacing_mm: float | None
+    min_zone_area_m2: float
+    zone_smoothing_m: float
+    variogram: Mapping[str, Mapping[str, Any]]
+    basemap_url: str | None
+    basemap_attribution: str | None
+
+
+class _Reader:
+    """Check JSON values against the types of the manifest's parts.
+
+    Every message names the file (``where``) and the JSON path, and says to re-run.
+    """
+
+    def __init__(self, where: str) -> None:
+        self.where = where
+
+    def error(self, path: str, problem: str) -> ExportError:
+        """Return the error for a problem at a JSON path."""
+        return ExportError(f"{self.where}: {path or 'the top level'}: {problem}; it is not "
+                           "a manifest this version of geo_corrosion reads: re-run "
+                           "`geo-corrosion run`")
+
+    def value(self, tp: Any, v: Any, path: str) -> Any:
+        """Check a JSON value against a type and build it (lists become tuples)."""
+        if tp is Any:
+            return copy.deepcopy(v)
+        origin = typing.get_origin(tp)
+        if origin in (typing.Union, types.UnionType):
+            args = typing.get_args(tp)
+            if v is None and type(None) in args:
+                return None
+            rest = [a for a in args if a is not type(None)]
+            if len(rest) != 1:  # pragma: no cover - a part's _read handles such a field
+                raise TypeError(f"no generic reader for {tp}")
+            return self.value(rest[0], v, path)
+        if tp in (bool, int, float, str):
+            if tp is bool or tp is str:
+                ok = isinstance(v, tp)
+            else:  # JSON numbers; a float field keeps a whole number as written
+                ok = isinstance(v, int if tp is int else int | float) and not isinstance(v, bool)
+            if not ok:
+                raise self.error(path, f"expected {_expected(tp)}, found {_found(v)}")
+            return v
+        if origin is tuple:
+            args = typing.get_args(tp)
+            if not isinstance(v, list):
+                raise self.error(path, f"expected {_expected(tp)}, found {_found(v)}")
+            if len(args) == 2 and args[1] is Ellipsis:
+                return tuple(self.value(args[0], x, _at(path, i)) for i, x in enumerate(v))
+            if len(v) != len(args):
+                raise self.error(path, f"expected a list of {len(args)}, found {len(v)} items")
+            return tuple(self.value(a, x, _at(path, i))
+                         for i, (a, x) in enumerate(zip(args, v, strict=True)))
+        if origin in (dict, Mapping):
+            vt = typing.get_args(tp)[1]
+            if not isinstance(v, dict):
+                raise self.error(path, f"expected an object, found {_found(v)}")
+            return {str(k): self.value(vt, x, _at(path, str(k))) for k, x in v.items()}
+        if isinstance(tp, type) and dataclasses.is_dataclass(tp):
+            if not isinstance(v, dict):
+                raise self.error(path, f"expected an object, found {_found(v)}")
+            if issubclass(tp, _Record):
+                return tp._read(self, v, path)
+            return self.record(tp, v, path)
+        raise TypeError(f"no reader for {tp}")  # pragma: no cover - a type of this module
+
+    def record(self, tp: type[Any], d: dict[str, Any], path: str, *,
+               given: Mapping[str, Any] | None = None, consumed: Collection[str] = ()) -> Any:
+        """Build a dataclass from a JSON object, key by key, refusing unknown keys.
+
+        ``given`` holds the values of derived fields; ``consumed`` the keys they came from.
+        """
+        hints = _hints(tp)
+        kw: dict[str, Any] = dict(given or {})
+        known = set(consumed)
+        for f in dataclasses.fields(tp):
+            if f.metadata.get("derived") or not f.init:
+                continue
+            key = _key(f)
+            known.add(key)
+            if key not in d:
+                if f.metadata.get("optional"):
+                    kw[f.name] = None
+                    continue
+                raise self.error(_at(path, key), "the key is missing")
+            kw[f.name] = self.value(hints[f.name], d[key], _at(path, key))
+        unknown = [k for k in d if k not in known]
+        if unknown:
+            raise self.error(_at(path, unknown[0]), "unknown key")
+        return tp(**kw)
+
+
+def _expected(tp: Any) -> str:
+    if tp is bool:
+        return "true or false"
+    if tp is int:
+        return "a whole number"
+    if tp is float:
+        return "a number"
+    if tp is str:
+        return "a text"
+    if typing.get_origin(tp) is tuple:
+        return "a list"
+    return "an object"
+
+
+def _dump(v: Any) -> Any:
+    """JSON value of a field: parts as objects, tuples as lists, fresh containers."""
+    if isinstance(v, _Record):
+        return v.to_json()
+    if dataclasses.is_dataclass(v) and not isinstance(v, type):
+        return asdict(v)  # a plain record (RunParameters): its fields in order
+    if isinstance(v, tuple | list):
+        return [_dump(x) for x in v]
+    if isinstance(v, Mapping):
+        return {k: _dump(x) for k, x in v.items()}
+    return v
+
+
+def _insert(d: dict[str, Any], key: str, value: Any, *, after: str | None = None,
+            before: str | None = None) -> dict[str, Any]:
+    """Return ``d`` with ``key`` placed after ``after`` or before ``before`` (else last)."""
+    out: dict[str, Any] = {}
+    for k, v in d.items():
+        if k == before:
+            out[key] = value
+        out[k] = v
+        if k == after:
+            out[key] = value
+    out.setdefault(key, value)
+    return out
+
+
+#: Reporting area units other than m2 (the ``<unit>`` of ``mapped_area_<unit>``).
+_REPORT_AREAS = {report_units(system).area for system in ("metric", "us")} - {"m2"}
+
+
+def _report_area(r: _Reader, d: dict[str, Any], prefix: str, path: str
+                 ) -> tuple[str, float, list[str]]:
+    """Return unit, value and key of ``<prefix><unit>`` beside ``<prefix>m2`` (reporting unit).
+
+    In metric reporting units the run writes ``<prefix>m2`` once: the unit is then m2 and
+    the value that of ``<prefix>m2``.
+    """
+    m2 = prefix + "m2"
+    keys = [k for k in d if k.startswith(prefix) and k[len(prefix):] in _REPORT_AREAS]
+    if len(keys) > 1:
+        raise r.error(_at(path, keys[1]), f"more than one area in a reporting unit "
+                                          f"({', '.join(keys)})")
+    if keys:
+        return keys[0][len(prefix):], r.value(float, d[keys[0]], _at(path, keys[0])), keys
+    if m2 not in d:
+        raise r.error(_at(path, m2), "the key is missing")
+    return "m2", r.value(float, d[m2], _at(path, m2)), []
+
+
+class _Record:
+    """Base of the manifest's parts: read from and written to JSON field by field.
+
+    A field's JSON key is its name unless its metadata gives ``key``; an ``optional`` field
+    is absent from the JSON when None; a ``derived`` field is set by the part's
+    :meth:`_read` from keys whose name carries a value (``mapped_area_ft2``).
+    """
+
+    @classmethod
+    def _read(cls, r: _Reader, d: dict[str, Any], path: str) -> Self:
+        return typing.cast(Self, r.record(cls, d, path))
+
+    def to_json(self) -> dict[str, Any]:
+        """Return this part as ``run.json`` holds it."""
+        out: dict[str, Any] = {}
+        for f in dataclasses.fields(typing.cast(Any, self)):
+            if f.metadata.get("derived"):
+                continue
+            v = getattr(self, f.name)
+            if v is None and f.metadata.get("optional"):
+                continue
+            out[_key(f)] = _dump(v)
+        return out
+
+
+# --------------------------------------------------------------------------- the parts
+
+
+@dataclass(frozen=True)
+class SiteRecord(_Record):
+    """``site``: name, owner, site CRS and its unit, reporting units, site file name."""
+
+    name: str
+    owner: str
+    crs: str
+    crs_unit: str
+    report_units: str
+    site_file: str
+
+
+@dataclass(frozen=True)
+class InputFile(_Record):
+    """``inputs[]``: an input file, relative to the site folder, with its SHA-256 and size."""
+
+    path: str
+    sha256: str
+    bytes: int
+
+
+@dataclass(frozen=True)
+class SurveyRecord(_Record):
+    """``surveys[]``: a survey with its reading count, units and correction records.
+
+    Attributes
+    ----------
+    unit_in, unit : str
+        Unit of the file as read, and the kind's canonical unit the survey was converted to.
+    corrections : tuple of mapping
+        The correction records of the survey's measurement kind, each with ``correction``
+        (what was done), its parameters and usually ``source``.  Their keys belong to the
+        kind (a plugin kind writes its own), so they are kept as given.
+    """
+
+    id: str
+    level: str
+    kind: str
+    file: str
+    readings: int
+    unit_in: str
+    unit: str
+    corrections: tuple[Mapping[str, Any], ...]
+
+
+@dataclass(frozen=True)
+class QaCount(_Record):
+    """``qa.summary[]``: number of findings of one rule and severity in one survey."""
+
+    level_id: str
+    survey_id: str
+    rule: str
+    severity: str
+    count: int
+
+
+@dataclass(frozen=True)
+class QaSummary(_Record):
+    """``qa``: number of findings, counts by rule, and whether the site could be run."""
+
+    findings: int
+    summary: tuple[QaCount, ...]
+    runnable: bool
+
+
+@dataclass(frozen=True)
+class ControlPointResidual(_Record):
+    """``georeference.control_point_residuals[]``: residual of a control point, CRS units."""
+
+    id: str
+    dx: float
+    dy: float
+    unit: str
+
+
+@dataclass(frozen=True)
+class Georeference(_Record):
+    """``levels.<id>.georeference``: local grid to site CRS (rotation, scale, origin)."""
+
+    local_unit: str
+    crs_unit: str
+    rotation_deg: float
+    scale: float
+    origin_site: tuple[float, float]
+    control_point_residuals: tuple[ControlPointResidual, ...]
+    rms_residual: float
+
+
+@dataclass(frozen=True)
+class VariogramModelRecord(_Record):
+    """A variogram model with its units (``variogram.model``, ``candidates.<m>.params``).
+
+    Semivariances are in the square of the kriged value's unit (log space for lognormal
+    kinds), ranges in the level's plan unit.
+    """
+
+    model: str
+    nugget: float
+    nugget_unit: str
+    psill: float
+    psill_unit: str
+    sill: float
+    range: float
+    range_unit: str
+    range_definition: str
+    shape: float | None
+    shape_meaning: str | None
+    anisotropy_ratio: float
+    anisotropy_angle_deg: float
+
+
+@dataclass(frozen=True)
+class CrossValidationRecord(_Record):
+    """Cross-validation of a variogram model (``surface.cross_validation``, candidates' ``cv``).
+
+    ``msse_before_calibration`` is there only when the kriging variance was calibrated.
+    """
+
+    method: str
+    mean_error: float
+    rmse: float
+    msse: float
+    value_unit: str
+    n_tested: int
+    msse_before_calibration: float | None = field(default=None, metadata=_meta(optional=True))
+
+
+@dataclass(frozen=True)
+class CandidateRecord(_Record):
+    """``variogram.candidates.<model>``: a fitted candidate, its WLS residual and CV."""
+
+    params: VariogramModelRecord
+    wls_residual: float
+    cv: CrossValidationRecord | None
+
+
+@dataclass(frozen=True)
+class ExperimentalVariogramRecord(_Record):
+    """``variogram.experimental``: the binned semivariances the models were fitted to."""
+
+    lags: tuple[float, ...]
+    lag_unit: str
+    gamma: tuple[float, ...]
+    gamma_unit: str
+    counts: tuple[int, ...]
+    direction_deg: float | None
+    tolerance_deg: float
+    n_readings: int
+    n_readings_used: int
+    n_pairs: int
+    subsampled: bool
+
+
+@dataclass(frozen=True)
+class VariogramRecord(_Record):
+    """``surface.variogram``: the chosen model, how it was chosen, and every candidate."""
+
+    model: VariogramModelRecord
+    criterion: str
+    fallback: bool
+    variance_factor: float | None
+    notes: tuple[str, ...]
+    candidates: Mapping[str, CandidateRecord]
+    experimental: ExperimentalVariogramRecord | None
+
+
+@dataclass(frozen=True)
+class DirectionalVariogram(_Record):
+    """An experimental variogram along one grid axis (``directional_variograms.along_x``)."""
+
+    direction_deg: float
+    lags: tuple[float, ...]
+    gamma: tuple[float, ...]
+    pairs: tuple[int, ...]
+
+
+@dataclass(frozen=True)
+class DirectionalVariograms(_Record):
+    """``surface.directional_variograms``: along x and y, with the anisotropy indication."""
+
+    along_x: DirectionalVariogram
+    along_y: DirectionalVariogram
+    anisotropy_indication: float | None
+
+
+@dataclass(frozen=True)
+class SurfaceRecord(_Record):
+    """``kinds.<kind>.surface``: the kriged surface of a kind on a level.
+
+    Attributes
+    ----------
+    cell_size, cell_unit
+        Grid cell size in the level's plan unit.
+    shape : (rows, cols)
+    mapped_area_m2 : float
+        Area with a kriged value, m2.
+    mapped_area_report, area_unit
+        The same area in the reporting area unit (``ft2`` or ``m2``): the key
+        ``mapped_area_<area_unit>`` (only ``mapped_area_m2`` in metric units).
+    contour_interval : float
+        In the kind's unit.
+    kriged_in : str
+        ``linear`` or ``log``.
+    """
+
+    cell_size: float
+    cell_unit: str
+    shape: tuple[int, int]
+    mapped_area_m2: float
+    mapped_area_report: float = field(metadata=_meta(derived=True))
+    area_unit: str = field(metadata=_meta(derived=True))
+    variogram: VariogramRecord
+    cross_validation: CrossValidationRecord
+    directional_variograms: DirectionalVariograms
+    contour_interval: float
+    kriged_in: str
+
+    @classmethod
+    def _read(cls, r: _Reader, d: dict[str, Any], path: str) -> Self:
+        unit, value, keys = _report_area(r, d, "mapped_area_", path)
+        return typing.cast(Self, r.record(
+            cls, d, path, given={"mapped_area_report": value, "area_unit": unit},
+            consumed=keys))
+
+    def to_json(self) -> dict[str, Any]:
+        """Return the surface record as ``run.json`` holds it."""
+        out = super().to_json()
+        if self.area_unit == "m2":
+            return out
+        return _insert(out, f"mapped_area_{self.area_unit}", self.mapped_area_report,
+                       after="mapped_area_m2")
+
+
+@dataclass(frozen=True)
+class ClassArea(_Record):
+    """``kinds.<kind>.class_areas[]``: area of one class of the kind's class set.
+
+    ``area_report`` is the area in ``area_unit``, the reporting area unit (key
+    ``area_<area_unit>``; only ``area_m2`` in metric units).
+    """
+
+    class_name: str = field(metadata=_meta(key="class"))
+    area_m2: float
+    area_report: float = field(metadata=_meta(derived=True))
+    area_unit: str = field(metadata=_meta(derived=True))
+    share_of_mapped_area: float
+    share_of_deck: float
+
+    @classmethod
+    def _read(cls, r: _Reader, d: dict[str, Any], path: str) -> Self:
+        unit, value, keys = _report_area(r, d, "area_", path)
+        return typing.cast(Self, r.record(
+            cls, d, path, given={"area_report": value, "area_unit": unit}, consumed=keys))
+
+    def to_json(self) -> dict[str, Any]:
+        """Return the class area as ``run.json`` holds it."""
+        out = super().to_json()
+        if self.area_unit == "m2":
+            return out
+        return _insert(out, f"area_{self.area_unit}", self.area_report, after="area_m2")
+
+
+@dataclass(frozen=True)
+class KindRecord(_Record):
+    """``levels.<id>.kinds.<kind>``: a measurement kind on a level.
+
+    Attributes
+    ----------
+    readings, readings_mapped : int
+        Readings of the kind's surveys on the level, and those fit for mapping.
+    unit : str
+        The kind's canonical unit.
+    statistics : mapping of str to float
+        ``n``, ``mean``, ``std``, ``min``, ``p5``, ``p10``, ``median``, ``p90``, ``p95``,
+        ``max`` of the mapped readings (only ``n`` = 0 when there are none).
+    class_share_of_readings : mapping of str to float or None
+        Share of the mapped readings per class (kinds with a class set).
+    surface : SurfaceRecord or None
+        None when the kind got no surface; ``skipped`` then says why (JSON
+        ``surface_skipped``).
+    class_areas : tuple of ClassArea or None
+        Kinds with a class set and a surface.
+    surface_key : bool
+        Whether the JSON holds a ``surface`` key: a kind with too few readings has
+        ``"surface": null``, one whose kriging failed has only ``surface_skipped``.
+    """
+
+    readings: int
+    readings_mapped: int
+    unit: str
+    statistics: Mapping[str, float]
+    class_share_of_readings: Mapping[str, float] | None = field(
+        default=None, metadata=_meta(optional=True))
+    surface: SurfaceRecord | None = field(default=None, metadata=_meta(optional=True))
+    skipped: str | None = field(default=None,
+                                metadata=_meta(key="surface_skipped", optional=True))
+    class_areas: tuple[ClassArea, ...] | None = field(default=None,
+                                                      metadata=_meta(optional=True))
+    surface_key: bool = field(default=True, metadata=_meta(derived=True))
+
+    @classmethod
+    def _read(cls, r: _Reader, d: dict[str, Any], path: str) -> Self:
+        return typing.cast(Self, r.record(cls, d, path, given={"surface_key": "surface" in d}))
+
+    def to_json(self) -> dict[str, Any]:
+        """Return the kind's record as ``run.json`` holds it."""
+        out = super().to_json()
+        if self.surface is None and self.surface_key:
+            out = _insert(out, "surface", None, before="surface_skipped"
+                          if "surface_skipped" in out else "class_areas")
+        return out
+
+
+@dataclass(frozen=True)
+class AreaBeyondThreshold(_Record):
+    """``condition.<kind>_area_beyond_threshold``: expected area beyond a class threshold.
+
+    The expected area and its interval (``interval_level``, e.g. 0.9) in m2, from the
+    probability map with correlated errors (``correlation_length`` in the plan unit).
+    """
+
+    meaning: str
+    threshold: float
+    unit: str
+    source: str
+    expected_m2: float
+    interval_level: float
+    lower_m2: float
+    upper_m2: float
+    mapped_area_m2: float
+    correlation_length: float
+    correlation_length_unit: str
+    assumption: str
+
+
+@dataclass(frozen=True)
+class SiteThreshold(_Record):
+    """``condition.site_threshold``: the two-component mixture threshold of the potentials.
+
+    Potentials in mV vs CSE; areas in m2 (None without cells).
+    """
+
+    threshold_mv: float
+    active_mean_mv: float
+    active_std_mv: float
+    active_weight: float
+    passive_mean_mv: float
+    passive_std_mv: float
+    passive_weight: float
+    ashman_d: float
+    log_likelihood: float
+    n_readings: int
+    n_iterations: int
+    fraction_readings_below: float
+    fraction_readings_above: float
+    area_below: float | None
+    area_above: float | None
+    fraction_area_below: float | None
+    fraction_area_above: float | None
+    method: str
+
+
+@dataclass(frozen=True)
+class SiteThresholdUnavailable(_Record):
+    """``condition.site_threshold`` when the mixture could not be fitted: the reason."""
+
+    not_available: str
+
+
+@dataclass(frozen=True)
+class CombinedClassArea(_Record):
+    """``condition.combined_classes[]``: area of a combined condition class, m2."""
+
+    class_name: str = field(metadata=_meta(key="class"))
+    area_m2: float
+
+
+@dataclass(frozen=True)
+class CombinedClassRecord(_Record):
+    """``combined_rules.classes[]``: an output class of the rule table."""
+
+    key: str
+    label: str
+    color: str
+
+
+@dataclass(frozen=True, kw_only=True)
+class CombinedRuleRecord(_Record):
+    """``combined_rules.rules[]``: accepted class keys per kind (None: no condition)."""
+
+    name: str
+    potential: tuple[str, ...] | None = field(default=None, metadata=_meta(optional=True))
+    resistivity: tuple[str, ...] | None = field(default=None, metadata=_meta(optional=True))
+    rate: tuple[str, ...] | None = field(default=None, metadata=_meta(optional=True))
+    low_cover: bool | None = field(default=None, metadata=_meta(optional=True))
+    result: str = field(metadata=_meta(key="class"))
+
+
+@dataclass(frozen=True)
+class CombinedRules(_Record):
+    """``condition.combined_rules``: the rule table used, in the site file's form."""
+
+    default: str
+    class_sets: Mapping[str, str]
+    classes: tuple[CombinedClassRecord, ...]
+    rules: tuple[CombinedRuleRecord, ...]
+
+
+@dataclass(frozen=True)
+class LifeSummary(_Record):
+    """``condition.life.<survey id>``: section loss and time to cracking of a rate survey."""
+
+    bar_diameter_mm: float
+    horizon_years: float
+    readings_needing_bar_review: int
+    readings: int
+    median_time_to_cracking_yr: float | None
+    time_to_cracking_meaning: str
+    sources: tuple[str, ...]
+
+
+_BEYOND = "_area_beyond_threshold"
+
+
+@dataclass(frozen=True)
+class ConditionRecord(_Record):
+    """``levels.<id>.condition``: the condition statements of a level.
+
+    Attributes
+    ----------
+    beyond : mapping of str to AreaBeyondThreshold
+        By kind (JSON keys ``<kind>_area_beyond_threshold``), in the run's order.
+    site_threshold : SiteThreshold, SiteThresholdUnavailable or None
+        None without a potential surface of at least 20 readings.
+    combined_classes, combined_rules
+        None when the level has no potential, resistivity or corrosion-rate surface.
+    life : mapping of str to LifeSummary or None
+        By corrosion-rate survey id; None without one.
+    """
+
+    beyond: Mapping[str, AreaBeyondThreshold] = field(default_factory=dict,
+                                                      metadata=_meta(derived=True))
+    site_threshold: SiteThreshold | SiteThresholdUnavailable | None = field(
+        default=None, metadata=_meta(derived=True))
+    combined_classes: tuple[CombinedClassArea, ...] | None = field(
+        default=None, metadata=_meta(optional=True))
+    combined_rules: CombinedRules | None = field(default=None, metadata=_meta(optional=True))
+    life: Mapping[str, LifeSummary] | None = field(default=None, metadata=_meta(optional=True))
+
+    @classmethod
+    def _read(cls, r: _Reader, d: dict[str, Any], path: str) -> Self:
+        beyond = {k[: -len(_BEYOND)]: r.value(AreaBeyondThreshold, v, _at(path, k))
+                  for k, v in d.items() if k.endswith(_BEYOND)}
+        site: SiteThreshold | SiteThresholdUnavailable | None = None
+        if "site_threshold" in d:
+            st, p = d["site_threshold"], _at(path, "site_threshold")
+            site = r.value(SiteThresholdUnavailable if isinstance(st, dict)
+                           and "not_available" in st else SiteThreshold, st, p)
+        return typing.cast(Self, r.record(
+            cls, d, path, given={"beyond": beyond, "site_threshold": site},
+            consumed=[*(k + _BEYOND for k in beyond), "site_threshold"]))
+
+    def to_json(self) -> dict[str, Any]:
+        """Return the condition record as ``run.json`` holds it."""
+        out: dict[str, Any] = {k + _BEYOND: v.to_json() for k, v in self.beyond.items()}
+        if self.site_threshold is not None:
+            out["site_threshold"] = self.site_threshold.to_json()
+        out.update(super().to_json())
+        return out
+
+
+@dataclass(frozen=True)
+class ZoningRuleRecord(_Record):
+    """``planning.zoning_rules[]``: a zoning rule in the order applied."""
+
+    rule: str
+    treatment: str
+    bid_item: str | None
+
+
+@dataclass(frozen=True)
+class PlanningNotes(_Record):
+    """``levels.<id>.planning``: thresholds of the repair layout and zoning, with sources."""
+
+    low_cover_threshold_mm: float
+    low_cover_threshold_source: str
+    depth_class_cover: str
+    zoning_rules: tuple[ZoningRuleRecord, ...]
+
+
+@dataclass(frozen=True)
+class ZoneRecord(_Record):
+    """``levels.<id>.zones[]``: a zone of the slab (the ``<L>_zones`` layer without geometry)."""
+
+    level_id: str
+    zone: str
+    treatment: str
+    bid_item: str | None
+    order: int
+    area_m2: float
+    plan_unit: str
+
+
+@dataclass(frozen=True)
+class LevelRecord(_Record):
+    """``levels.<id>``: everything recorded for a level.
+
+    ``condition`` is None when the level has no surface; ``repairs`` is the number of
+    repair outlines.
+    """
+
+    name: str
+    georeference: Georeference
+    deck_area_m2: float
+    kinds: Mapping[str, KindRecord]
+    condition: ConditionRecord | None
+    planning: PlanningNotes | None
+    zones: tuple[ZoneRecord, ...]
+    repairs: int
+
+
+@dataclass(frozen=True)
+class ScheduleRow(_Record):
+    """``schedule[]``: a row of ``quantities.csv`` at full precision."""
+
+    level_id: str
+    item: str
+    description: str
+    unit_kind: str
+    unit: str
+    line: str
+    quantity: float
+
+
+@dataclass(frozen=True)
+class Manifest(_Record):
+    """The run manifest, ``run.json``, typed.
+
+    Attributes
+    ----------
+    geo_corrosion_run : int
+        Format version (:data:`FORMAT_VERSION`).
+    created_utc, elapsed_s
+        Time stamp of the run (ISO 8601) and its run time, s.
+    parameters : RunParameters
+        The ``[run]`` values (lengths in metres).
+    versions : mapping of str to str
+        Python, geo_corrosion, the libraries and GDAL.
+    levels : mapping of str to LevelRecord
+        By level id, in the site file's order.
+    warnings, files, cautions : tuple of str
+        Notes of the run, every file written, the cautions printed on every product.
+    """
+
+    geo_corrosion_run: int
+    site: SiteRecord
+    created_utc: str
+    elapsed_s: float
+    inputs: tuple[InputFile, ...]
+    parameters: RunParameters
+    versions: Mapping[str, str]
+    surveys: tuple[SurveyRecord, ...]
+    qa: QaSummary
+    levels: Mapping[str, LevelRecord]
+    schedule: tuple[ScheduleRow, ...]
+    warnings: tuple[str, ...]
+    files: tuple[str, ...]
+    cautions: tuple[str, ...]
+
+    @classmethod
+    def from_json(cls, data: Any, *, where: str | Path = MANIFEST_NAME) -> Manifest:
+        """Read and check the manifest of a run from its JSON.
+
+        Parameters
+        ----------
+        data : object
+            ``json.loads`` of ``run.json``.
+        where : str or Path
+            The file, for messages.
+
+        Raises
+        ------
+        ExportError
+            Naming ``where`` and the JSON path of a missing key, a key of the wrong type,
+            an unknown key, or another format version; it says to re-run
+            ``geo-corrosion run``.
+        """
+        r = _Reader(str(where))
+        if not isinstance(data, dict):
+            raise r.error("", f"expected an object, found {_found(data)}")
+        fmt = data.get("geo_corrosion_run")
+        if "geo_corrosion_run" in data and fmt != FORMAT_VERSION:
+            raise r.error("geo_corrosion_run", f"format version {fmt!r}; this version of "
+                          f"geo_corrosion reads version {FORMAT_VERSION}")
+        return typing.cast(Manifest, r.value(cls, data, ""))
+
+
+
+# --------------------------------------------------------------------------- build and read
+
+
+def _manifest_dict(result: RunResult, started: float) -> dict[str, Any]:
+    """Build the manifest as the JSON object ``run.json`` holds (numpy scalars unconverted)."""
     cfg = result.site.config
     flags = result.flags
     summary = (qa.summarize(flags).to_dict("records") if len(flags) else [])
     sched = result.schedule.to_dict("records") if len(result.schedule) else []
     return {
-        "geo_corrosion_run": 1,
+        "geo_corrosion_run": FORMAT_VERSION,
         "site": {"name": cfg.name, "owner": cfg.owner, "crs": cfg.crs.to_string(),
                  "crs_unit": cfg.crs_unit, "report_units": cfg.units, "site_file": cfg.path.name},
-        "created_utc": datetime.now(timezone.utc).isoformat(timespec="seconds"),
+        "created_utc": datetime.now(UTC).isoformat(timespec="seconds"),
         "elapsed_s": round(time.perf_counter() - started, 2),
         "inputs": input_files(cfg),
         "parameters": cfg.parameters(),
@@ -129,15 +1020,29 @@ def manifest(result: RunResult, started: float) -> dict[str, Any]:
     }
 
 
-def read_run(run_dir: str | Path) -> dict[str, Any]:
-    """Read ``run.json`` of an output folder.
+def manifest(result: RunResult, started: float) -> Manifest:
+    """Build the manifest of a run, as ``run.json`` will hold it (checked like a file read).
+
+    Parameters
+    ----------
+    result : RunResult
+    started : float
+        :func:`time.perf_counter` at the start of the run (for ``elapsed_s``).
+    """
+    data = json.loads(json.dumps(_manifest_dict(result, started), default=json_default))
+    return Manifest.from_json(data, where=f"{MANIFEST_NAME} of this run")
+
+
+def read_run(run_dir: str | Path) -> Manifest:
+    """Read and check ``run.json`` of an output folder.
 
     Raises
     ------
     ExportError
-        If the folder holds no readable ``run.json``.
+        If the folder holds no readable ``run.json``, or it is not the manifest of a run
+        of this version (the message names the file and the JSON path).
     """
-    man = Path(run_dir) / "run.json"
+    man = Path(run_dir) / MANIFEST_NAME
     if not man.is_file():
         raise ExportError(f"{run_dir} holds no run.json; is it the output folder of "
                           "`geo-corrosion run`?")
@@ -148,9 +1053,9 @@ def read_run(run_dir: str | Path) -> dict[str, Any]:
     if not isinstance(data, dict) or "levels" not in data:
         raise ExportError(f"{man}: not the manifest of a run (no 'levels'); re-run "
                           "`geo-corrosion run`")
-    return data
+    return Manifest.from_json(data, where=man)
 
 
-def result_manifest(result: RunResult) -> dict[str, Any]:
-    """Return the manifest of an in-memory run as ``run.json`` will hold it (JSON types only)."""
-    return json.loads(json.dumps(manifest(result, time.perf_counter()), default=json_default))
+def result_manifest(result: RunResult) -> Manifest:
+    """Return the manifest of an in-memory run as ``run.json`` will hold it."""
+    return manifest(result, time.perf_counter())

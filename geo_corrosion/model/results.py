@@ -56,6 +56,7 @@ class RunResult:
     flags: pd.DataFrame
     levels: dict[str, LevelResult]
     schedule: pd.DataFrame
+    #: run.json as written, JSON types (typed: ``model.manifest.Manifest.from_json`` of it)
     manifest: dict[str, Any] = field(default_factory=dict)
     files: list[str] = field(default_factory=list)
     warnings: list[str] = field(default_factory=list)

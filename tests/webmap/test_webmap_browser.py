@@ -246,13 +246,14 @@ def test_basemap_is_off_by_default_and_fails_quietly_offline(browser: Any, xss_r
     import shutil
 
     from geo_corrosion.exporters.webmap import write_webmap
+    from geo_corrosion.model.manifest import Manifest
 
     out = tmp_path / "run"
     shutil.copytree(xss_run, out)
     man = json.loads((out / "run.json").read_text())
     man["parameters"]["basemap_url"] = "https://tiles.invalid/{z}/{x}/{y}.png"
     man["parameters"]["basemap_attribution"] = "test tiles"
-    write_webmap(out, man)
+    write_webmap(out, Manifest.from_json(man))
     page, log = open_page(browser, out / "webmap.html")
     try:
         label = page.locator(".leaflet-control-layers label", has_text="street basemap")

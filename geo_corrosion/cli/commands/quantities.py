@@ -25,7 +25,7 @@ def quantities(run_dir: Path) -> None:
     from geo_corrosion.model.manifest import read_run
 
     data = read_run(resolve_run_dir(run_dir))
-    rows = data.get("schedule", [])
+    rows = data.schedule
     if not rows:
         click.echo("no quantities in this run")
         return
@@ -33,5 +33,5 @@ def quantities(run_dir: Path) -> None:
 
     from geo_corrosion.quantities import schedule_table
 
-    click.echo(schedule_table(pd.DataFrame(rows)).round(1).to_string(index=False))
+    click.echo(schedule_table(pd.DataFrame(list(rows))).round(1).to_string(index=False))
     click.echo("\n" + QUANTITIES_CAUTION)

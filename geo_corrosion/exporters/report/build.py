@@ -15,6 +15,7 @@ reporting units and A4 for ``metric``.  Every text from input files is HTML-esca
 
 from __future__ import annotations
 
+import dataclasses
 import io
 import logging
 from pathlib import Path
@@ -39,7 +40,13 @@ from geo_corrosion.exporters.report.text import (
     summarize_correction,
 )
 from geo_corrosion.exporters.runfiles import RunLayers
-from geo_corrosion.model.manifest import read_run, result_manifest
+from geo_corrosion.model.manifest import (
+    LevelRecord,
+    Manifest,
+    ScheduleRow,
+    read_run,
+    result_manifest,
+)
 
 if TYPE_CHECKING:
     import geopandas as gpd
@@ -211,14 +218,14 @@ def _repair_list(rep: gpd.GeoDataFrame | None, units: ReportUnits) -> str:
     return _table(rows, table_cols, cls="repairs")
 
 
-def _quantities(schedule: list[dict[str, Any]], lid: str | None) -> str:
+def _quantities(schedule: tuple[ScheduleRow, ...], lid: str | None) -> str:
     import pandas as pd
 
     from geo_corrosion.quantities import schedule_table
 
     if not schedule:
         return '<p class="none">no quantities</p>'
-    t: pd.DataFrame = schedule_table(pd.DataFrame(schedule))
+    t: pd.DataFrame = schedule_table(pd.DataFrame(list(schedule)))
     if lid is not None:
         t = t[t["level_id"].astype(str) == lid]
     rows = []
@@ -235,18 +242,18 @@ def _quantities(schedule: list[dict[str, Any]], lid: str | None) -> str:
 # --------------------------------------------------------------------------- sections
 
 
-def _level_section(run_dir: Path, lid: str, info: dict[str, Any], man: dict[str, Any],
+def _level_section(run_dir: Path, lid: str, info: LevelRecord, man: Manifest,
                    units: ReportUnits, gpkg: RunLayers) -> str:
     plots = run_dir / "plots"
-    name = _e(info.get("name") or lid)
+    name = _e(info.name or lid)
     parts = [f'<section class="level" id="level-{_e(lid)}"><h2>Level {_e(lid)}: {name}</h2>']
-    kinds = info.get("kinds") or {}
+    kinds = info.kinds
     # statistics of the readings
     srows = []
     for k, v in kinds.items():
-        st = v.get("statistics") or {}
-        srows.append({"kind": k, "unit": v.get("unit", ""), "readings": v.get("readings"),
-                      "mapped": v.get("readings_mapped"), **{q: st.get(q) for q in
+        st = v.statistics
+        srows.append({"kind": k, "unit": v.unit, "readings": v.readings,
+                      "mapped": v.readings_mapped, **{q: st.get(q) for q in
                       ("mean", "std", "p10", "median", "p90")}})
     parts.append('<h3 class="stats">Statistics of the readings</h3>')
     parts.append(_table(srows, [("kind", "kind"), ("unit", "unit"), ("readings", "readings"),
@@ -254,9 +261,9 @@ def _level_section(run_dir: Path, lid: str, info: dict[str, Any], man: dict[str,
                                 ("p10", "10 %"), ("median", "median"), ("p90", "90 %")]))
     parts.append('<h3 class="classes">Class areas</h3><div class="cols">')
     for k, v in kinds.items():
-        rows = [{"class": r.get("class"), "area": r.get(f"area_{units.area}"),
-                 "share": 100 * float(r.get("share_of_deck") or 0)}
-                for r in v.get("class_areas") or []]
+        rows = [{"class": r.class_name, "area": r.area_report,
+                 "share": 100 * float(r.share_of_deck)}
+                for r in v.class_areas or ()]
         if rows:
             parts.append(f'<div class="col"><h4>{_e(k.replace("_", " "))}</h4>')
             parts.append(_table(rows, [("class", "class"), ("area", f"area ({units.area})"),
@@ -265,7 +272,7 @@ def _level_section(run_dir: Path, lid: str, info: dict[str, Any], man: dict[str,
     parts.append(_condition_block(info, units))
     parts.append('<h3 class="maps">Maps</h3><div class="figs">')
     for k in kinds:
-        parts.append(_figure(plots / f"{lid}_{k}_classes.png", f"{info.get('name', lid)}: "
+        parts.append(_figure(plots / f"{lid}_{k}_classes.png", f"{info.name}: "
                              f"{k.replace('_', ' ')} classes"))
     parts.append('</div><h3 class="plots">Cumulative frequency and histograms</h3>'
                  '<div class="figs">')
@@ -281,21 +288,22 @@ def _level_section(run_dir: Path, lid: str, info: dict[str, Any], man: dict[str,
     img = _repair_layout_png(gpkg, lid)
     if img:
         parts.append(f'<figure class="wide"><img src="{img}" alt="repair layout">'
-                     f"<figcaption>{name}: repair layout ({int(info.get('repairs') or 0)} "
+                     f"<figcaption>{name}: repair layout ({info.repairs} "
                      "repairs)</figcaption></figure>")
     parts.append("<h4>Repair list</h4>")
     parts.append(_repair_list(gpkg.get(f"{lid}_repairs"), units))
     parts.append("<h4>Quantities</h4>")
-    parts.append(_quantities(man.get("schedule") or [], lid))
-    zrows = [{"zone": z.get("zone"), "treatment": z.get("treatment"), "bid_item": z.get("bid_item"),
-              "area": float(units.area_from_m2(z.get("area_m2") or 0.0))}
-             for z in info.get("zones") or []]
+    parts.append(_quantities(man.schedule, lid))
+    zrows = [{"zone": z.zone, "treatment": z.treatment, "bid_item": z.bid_item,
+              "area": float(units.area_from_m2(z.area_m2))}
+             for z in info.zones]
     if zrows:
         parts.append("<h4>Zones</h4>")
         parts.append(_table(zrows, [("zone", "zone"), ("treatment", "treatment"),
                                     ("bid_item", "bid item"), ("area", f"area ({units.area})")]))
     parts.append('<h3 class="qa">QA summary</h3>')
-    qrows = [r for r in (man.get("qa") or {}).get("summary") or [] if str(r.get("level_id")) == lid]
+    qrows = [{"survey_id": r.survey_id, "rule": r.rule, "severity": r.severity, "count": r.count}
+             for r in man.qa.summary if r.level_id == lid]
     parts.append(_table(qrows, [("survey_id", "survey"), ("rule", "rule"),
                                 ("severity", "severity"), ("count", "findings")]))
     parts.append("</section>")
@@ -340,14 +348,14 @@ table.surveys tr.survey td { border-bottom: none; font-weight: bold }
 """
 
 
-def build_report_html(run_dir: str | Path, manifest: dict[str, Any] | None = None) -> str:
+def build_report_html(run_dir: str | Path, manifest: Manifest | None = None) -> str:
     """Build the report of an output folder; return the HTML text (images as data URLs).
 
     Parameters
     ----------
     run_dir : str or Path
         Output folder of a run.
-    manifest : dict, optional
+    manifest : Manifest, optional
         The run manifest; read from ``run_dir/run.json`` when omitted.
 
     Raises
@@ -359,19 +367,19 @@ def build_report_html(run_dir: str | Path, manifest: dict[str, Any] | None = Non
 
     run_dir = Path(run_dir)
     man = manifest if manifest is not None else read_run(run_dir)
-    site = man.get("site") or {}
-    system = str(site.get("report_units", "metric"))
+    site = man.site
+    system = site.report_units
     units = report_units(system)
     gpkg = RunLayers(run_dir)
-    title = _e(site.get("name", "survey"))
-    cautions = man.get("cautions") or list(CAUTIONS)
-    levels = man.get("levels") or {}
-    meta = [{"k": "owner", "v": site.get("owner")}, {"k": "site CRS", "v": site.get("crs")},
-            {"k": "reporting units", "v": system}, {"k": "site file", "v": site.get("site_file")},
-            {"k": "run created (UTC)", "v": man.get("created_utc")},
-            {"k": "geo_corrosion", "v": (man.get("versions") or {}).get("geo_corrosion")}]
+    title = _e(site.name)
+    cautions = man.cautions or list(CAUTIONS)
+    levels = man.levels
+    meta: list[dict[str, Any]] = [{"k": "owner", "v": site.owner}, {"k": "site CRS", "v": site.crs},
+            {"k": "reporting units", "v": system}, {"k": "site file", "v": site.site_file},
+            {"k": "run created (UTC)", "v": man.created_utc},
+            {"k": "geo_corrosion", "v": man.versions.get("geo_corrosion")}]
     toc = [("cautions", "Cautions")]
-    toc += [(f"level-{lid}", f"Level {lid}: {info.get('name') or lid}")
+    toc += [(f"level-{lid}", f"Level {lid}: {info.name or lid}")
             for lid, info in levels.items()]
     toc += [("quantities", "Quantities, all levels"), ("methods", "Methods and sources"),
             ("parameters", "Parameters of the run"), ("inputs", "Surveys and corrections")]
@@ -391,7 +399,7 @@ def build_report_html(run_dir: str | Path, manifest: dict[str, Any] | None = Non
     for lid, info in levels.items():
         parts.append(_level_section(run_dir, str(lid), info, man, units, gpkg))
     parts.append('<section class="site" id="quantities"><h2>Quantities, all levels</h2>')
-    parts.append(_quantities(man.get("schedule") or [], "ALL"))
+    parts.append(_quantities(man.schedule, "ALL"))
     parts.append("<p>Repair areas and quantities are estimates for bidding; final removal "
                  "limits are set in the field by sounding.</p></section>")
     parts.append('<section class="site" id="methods"><h2>Methods and sources</h2>')
@@ -402,13 +410,13 @@ def build_report_html(run_dir: str | Path, manifest: dict[str, Any] | None = Non
                  "memory, common practice), is docs/methods.md of geo_corrosion; the sources "
                  "are in its docs/bibliography.md.</p></section>")
     parts.append('<section class="site" id="parameters"><h2>Parameters of the run</h2>')
-    parts.append(_parameters(man.get("parameters") or {}, system))
+    parts.append(_parameters(dataclasses.asdict(man.parameters), system))
     parts.append('<p class="src">Units from the key suffix; lengths are held in metres '
                  "(1 ft = 0.3048 m, 1 in = 25.4 mm).</p>")
-    surveys = man.get("surveys") or []
+    surveys = man.surveys
     parts.append('<h2 id="inputs">Surveys and corrections</h2>')
     parts.append(_surveys_table(surveys))
-    warns = man.get("warnings") or []
+    warns = man.warnings
     if warns:
         parts.append('<h2 id="notes">Notes of the run</h2><ul>' +
                      "".join(f"<li>{_e(w)}</li>" for w in warns) + "</ul>")
@@ -416,11 +424,11 @@ def build_report_html(run_dir: str | Path, manifest: dict[str, Any] | None = Non
     return "\n".join(parts)
 
 
-def _write(run_dir: Path, man: dict[str, Any], weasyprint: ModuleType | None) -> list[Path]:
-    if weasyprint is not None and man.get("warnings"):
+def _write(run_dir: Path, man: Manifest, weasyprint: ModuleType | None) -> list[Path]:
+    if weasyprint is not None and man.warnings:
         # a rebuild with pango installed: the run's note about the missing PDF is outdated
-        man = {**man, "warnings": [w for w in man["warnings"]
-                                   if not str(w).startswith(_NO_PDF_NOTE)]}
+        man = dataclasses.replace(man, warnings=tuple(w for w in man.warnings
+                                                      if not w.startswith(_NO_PDF_NOTE)))
     text = build_report_html(run_dir, man)
     pdf: Path | None = None
     if weasyprint is not None:
@@ -438,7 +446,7 @@ def _write(run_dir: Path, man: dict[str, Any], weasyprint: ModuleType | None) ->
     return out + ([pdf] if pdf is not None else [])
 
 
-def write_report(run_dir: str | Path, manifest: dict[str, Any] | None = None, *,
+def write_report(run_dir: str | Path, manifest: Manifest | None = None, *,
                  pdf: bool = True) -> list[Path]:
     """Write ``report.html`` (and ``report.pdf``) into ``run_dir`` atomically.
 
@@ -446,7 +454,7 @@ def write_report(run_dir: str | Path, manifest: dict[str, Any] | None = None, *,
     ----------
     run_dir : str or Path
         Output folder of a run.
-    manifest : dict, optional
+    manifest : Manifest, optional
         The run manifest; read from ``run_dir/run.json`` when omitted.
     pdf : bool
         Also write ``report.pdf`` (needs WeasyPrint and pango).

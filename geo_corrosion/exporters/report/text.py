@@ -14,6 +14,14 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from geo_corrosion.exporters._html import Raw, escape
+from geo_corrosion.model.manifest import (
+    AreaBeyondThreshold,
+    ConditionRecord,
+    LevelRecord,
+    SiteThreshold,
+    SiteThresholdUnavailable,
+    SurveyRecord,
+)
 from geo_corrosion.units import M_PER_FT, MM_PER_INCH
 
 if TYPE_CHECKING:
@@ -225,7 +233,7 @@ def _corrections_cell(records: list[Any]) -> str:
     return _Raw(f'<ul class="corr">{"".join(items)}</ul>')
 
 
-def _surveys_table(surveys: list[dict[str, Any]]) -> str:
+def _surveys_table(surveys: tuple[SurveyRecord, ...]) -> str:
     """Build the table of surveys: one row per survey, its corrections on the row below."""
     if not surveys:
         return '<p class="none">none</p>'
@@ -234,11 +242,13 @@ def _surveys_table(surveys: list[dict[str, Any]]) -> str:
     head = "".join(f'<th class="c-{c}">{_e(label)}</th>' for c, label in cols)
     body = []
     for sv in surveys:
-        unit_in, unit = sv.get("unit_in"), sv.get("unit")
-        cells = {**sv, "unit": unit if not unit_in or unit_in == unit else f"{unit_in} to {unit}"}
+        unit_in, unit = sv.unit_in, sv.unit
+        cells = {"id": sv.id, "level": sv.level, "kind": sv.kind, "file": sv.file,
+                 "readings": sv.readings,
+                 "unit": unit if not unit_in or unit_in == unit else f"{unit_in} to {unit}"}
         row = "".join(f'<td class="c-{c}{" num" if c == "readings" else ""}">{_e(cells.get(c))}'
                       "</td>" for c, _l in cols)
-        corr = _corrections_cell(list(sv.get("corrections") or []))
+        corr = _corrections_cell(list(sv.corrections))
         body.append(f'<tbody><tr class="survey">{row}</tr><tr class="corr">'
                     f'<td colspan="{len(cols)}">corrections: {corr}</td></tr></tbody>')
     return (f'<table class="surveys"><thead><tr>{head}</tr></thead>{"".join(body)}</table>')
@@ -257,9 +267,9 @@ def _pct(f: Any) -> str:
     return f"{100.0 * float(f):.0f}{_NBSP}%"
 
 
-def _beyond_statement(kind: str, st: Mapping[str, Any], units: ReportUnits) -> str:
+def _beyond_statement(kind: str, st: AreaBeyondThreshold, units: ReportUnits) -> str:
     label = kind.replace("_", " ")
-    meaning = str(st.get("meaning") or "beyond the threshold")
+    meaning = str(st.meaning or "beyond the threshold")
     if kind == "potential":
         lead = f"The area likely to be corroding ({label} {meaning})"
     elif meaning.startswith(label):
@@ -267,30 +277,32 @@ def _beyond_statement(kind: str, st: Mapping[str, Any], units: ReportUnits) -> s
     else:
         lead = f"The area with {label} {meaning}"
     u = _NBSP + units.area
-    text = f"{lead} is {_area(st.get('expected_m2', np.nan), units)}{u}"
-    if st.get("lower_m2") is not None and st.get("upper_m2") is not None:
-        text += (f" ({_pct(st.get('interval_level', 0.9))} interval "
-                 f"{_area(st['lower_m2'], units)} to {_area(st['upper_m2'], units)}{u})")
-    if st.get("mapped_area_m2") is not None:
-        text += f" of {_area(st['mapped_area_m2'], units)}{u} mapped"
-    src = st.get("source")
+    text = f"{lead} is {_area(st.expected_m2, units)}{u}"
+    if st.lower_m2 is not None and st.upper_m2 is not None:
+        text += (f" ({_pct(st.interval_level)} interval "
+                 f"{_area(st.lower_m2, units)} to {_area(st.upper_m2, units)}{u})")
+    if st.mapped_area_m2 is not None:
+        text += f" of {_area(st.mapped_area_m2, units)}{u} mapped"
+    src = st.source
     return (f'<li class="statement">{_e(text + ".")}'
             + (f' <span class="src">Threshold after {_e(src)}.</span>' if src else "") + "</li>")
 
 
-def _threshold_statement(st: Mapping[str, Any], units: ReportUnits) -> str:
-    if "not_available" in st:
+def _threshold_statement(st: SiteThreshold | SiteThresholdUnavailable, units: ReportUnits
+                         ) -> str:
+    if isinstance(st, SiteThresholdUnavailable):
         return (f'<li class="statement">No site-specific threshold: '
-                f"{_e(st['not_available'])}</li>")
-    thr = st.get("threshold_mv")
+                f"{_e(st.not_available)}</li>")
+    thr = st.threshold_mv
     if thr is None:
         return ""
     u = _NBSP + units.area
     text = (f"The site-specific threshold between active and passive potentials is "
             f"{float(thr):.0f}{_NBSP}mV CSE.")
     for side, word in (("below", "More negative"), ("above", "Less negative")):
-        fr, fa, a = (st.get(f"fraction_readings_{side}"), st.get(f"fraction_area_{side}"),
-                     st.get(f"area_{side}"))
+        fr, fa, a = ((st.fraction_readings_below, st.fraction_area_below, st.area_below)
+                     if side == "below" else
+                     (st.fraction_readings_above, st.fraction_area_above, st.area_above))
         if fr is None:
             continue
         text += f" {word}: {_pct(fr)} of the readings"
@@ -299,65 +311,60 @@ def _threshold_statement(st: Mapping[str, Any], units: ReportUnits) -> str:
             if fa is not None:
                 text += f" ({_pct(fa)} of the mapped area)"
         text += "."
-    d = st.get("ashman_d")
+    d = st.ashman_d
     if d is not None:
         text += f" Ashman's D = {float(d):.2f}"
         text += (" (below 2: the two populations are not clearly separated, so the threshold "
                  "is weakly defined)." if float(d) < 2 else ".")
-    method = st.get("method")
+    method = st.method
     return (f'<li class="statement">{_e(text)}'
             + (f' <span class="src">Method: {_e(method)}.</span>' if method else "") + "</li>")
 
 
-def _condition_block(info: Mapping[str, Any], units: ReportUnits) -> str:
-    cond = info.get("condition") or {}
+def _condition_block(info: LevelRecord, units: ReportUnits) -> str:
+    cond = info.condition or ConditionRecord()
     parts = ['<h3 class="condition">Condition statements</h3>']
-    items = [_beyond_statement(k[: -len("_area_beyond_threshold")], v, units)
-             for k, v in cond.items()
-             if k.endswith("_area_beyond_threshold") and isinstance(v, Mapping)]
-    if isinstance(cond.get("site_threshold"), Mapping):
-        items.append(_threshold_statement(cond["site_threshold"], units))
+    items = [_beyond_statement(k, v, units) for k, v in cond.beyond.items()]
+    if cond.site_threshold is not None:
+        items.append(_threshold_statement(cond.site_threshold, units))
     items = [i for i in items if i]
     if items:
         parts.append(f'<ul class="statements">{"".join(items)}</ul>')
-        assumptions = sorted({str(v["assumption"]) for k, v in cond.items()
-                              if k.endswith("_area_beyond_threshold")
-                              and isinstance(v, Mapping) and v.get("assumption")})
+        assumptions = sorted({v.assumption for v in cond.beyond.values() if v.assumption})
         if assumptions:
             parts.append(f'<p class="src">Expected areas and intervals from the probability '
                          f"maps; assumption: {_e('; '.join(assumptions))}.</p>")
     else:
         parts.append('<p class="none">no condition statements (no kriged surfaces)</p>')
-    deck = float(info.get("deck_area_m2") or 0.0)
-    combined = cond.get("combined_classes") or []
+    deck = float(info.deck_area_m2 or 0.0)
+    combined = cond.combined_classes or ()
     if combined:
         parts.append("<h4>Combined condition classes</h4>")
-        rows = [{"class": c.get("class"), "area": float(units.area_from_m2(c.get("area_m2") or 0)),
-                 "share": 100.0 * float(c.get("area_m2") or 0) / deck if deck > 0 else None}
+        rows = [{"class": c.class_name, "area": float(units.area_from_m2(c.area_m2)),
+                 "share": 100.0 * float(c.area_m2) / deck if deck > 0 else None}
                 for c in combined]
         parts.append(_table(rows, [("class", "class"), ("area", f"area ({units.area})"),
                                    ("share", "share of deck (%)")], cls="combined"))
-    life = cond.get("life") or {}
+    life = cond.life or {}
     if life:
         parts.append("<h4>Life summary (corrosion-rate surveys)</h4>")
         rows, notes = [], []
         for sid, v in life.items():
-            med = v.get("median_time_to_cracking_yr")
-            rows.append({"survey": sid, "readings": v.get("readings"),
-                         "review": v.get("readings_needing_bar_review"),
+            med = v.median_time_to_cracking_yr
+            rows.append({"survey": sid, "readings": v.readings,
+                         "review": v.readings_needing_bar_review,
                          "median": "n/a" if med is None else f"{float(med):.1f}"})
-            for key in ("time_to_cracking_meaning",):
-                if v.get(key):
-                    notes.append(f"Time to cracking: {v[key]}.")
-            if v.get("horizon_years") is not None and v.get("bar_diameter_mm") is not None:
-                d = float(v["bar_diameter_mm"])
+            if v.time_to_cracking_meaning:
+                notes.append(f"Time to cracking: {v.time_to_cracking_meaning}.")
+            if v.horizon_years is not None and v.bar_diameter_mm is not None:
+                d = float(v.bar_diameter_mm)
                 dtxt = (f"{d:g} mm ({float(units.small_from_mm(d)):.3g} in)"
                         if units.system == "us" else f"{d:g} mm")
                 notes.append(f"Bar review: more than 25 % section loss within "
-                             f"{float(v['horizon_years']):g} years at the measured rate, bar "
+                             f"{float(v.horizon_years):g} years at the measured rate, bar "
                              f"diameter {dtxt}.")
-            if v.get("sources"):
-                notes.append("Sources: " + "; ".join(map(str, v["sources"])) + ".")
+            if v.sources:
+                notes.append("Sources: " + "; ".join(map(str, v.sources)) + ".")
         parts.append(_table(rows, [("survey", "survey"), ("readings", "readings"),
                                    ("review", "readings needing bar review"),
                                    ("median", "median time to cracking (years)")],

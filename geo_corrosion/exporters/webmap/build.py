@@ -34,7 +34,14 @@ from geo_corrosion.exporters._html import escape, png_data_url
 from geo_corrosion.exporters.base import Exporter
 from geo_corrosion.exporters.runfiles import RunLayers
 from geo_corrosion.exporters.webmap.assets import LEAFLET_VERSION, leaflet_assets
-from geo_corrosion.model.manifest import read_run, result_manifest
+from geo_corrosion.model.manifest import (
+    KindRecord,
+    LevelRecord,
+    Manifest,
+    SiteRecord,
+    read_run,
+    result_manifest,
+)
 
 if TYPE_CHECKING:
     import folium
@@ -211,14 +218,14 @@ class _Builder:
             self.legends[layer.get_name()] = legend
 
 
-def _level(b: _Builder, run_dir: Path, lid: str, info: dict[str, Any], layers: RunLayers,
+def _level(b: _Builder, run_dir: Path, lid: str, info: LevelRecord, layers: RunLayers,
            units: Any, first: bool) -> None:
     """Add one level's base layer and overlays."""
     import folium
 
     from geo_corrosion.quantities import DEPTH_CLASS_ITEMS
 
-    lname = _e(info.get("name") or lid)
+    lname = _e(info.name or lid)
     base = folium.FeatureGroup(name=f"{lname} ({_e(lid)})", overlay=False, show=first)
     slab = layers.get(f"{lid}_slab")
     if slab is not None:
@@ -233,9 +240,9 @@ def _level(b: _Builder, run_dir: Path, lid: str, info: dict[str, Any], layers: R
                  {"label": "exclusion"}, show=True).add_to(base)
     base.add_to(b.fmap)
     b.levels[lid] = {"base": base.get_name(), "overlays": [], "shown": [], "name": lname}
-    kinds = {k: v for k, v in (info.get("kinds") or {}).items() if v.get("surface")}
+    kinds = {k: v for k, v in info.kinds.items() if v.surface is not None}
     for kind, kv in kinds.items():
-        unit = str(kv.get("unit", ""))
+        unit = kv.unit
         label = _e(kind.replace("_", " "))
         d = SEVERITY_DIRECTION.get(kind, 1)
         tif = run_dir / "rasters" / f"{lid}_{kind}.tif"
@@ -249,7 +256,7 @@ def _level(b: _Builder, run_dir: Path, lid: str, info: dict[str, Any], layers: R
                   _gradient_legend(f"{lname}: kriged {label}", lo, hi, unit, d))
         cont = layers.get(f"{lid}_contours_{kind}")
         if cont is not None:
-            interval = (kv.get("surface") or {}).get("contour_interval")
+            interval = kv.surface.contour_interval if kv.surface is not None else None
             cont["value_unit"] = [f"{v:g} {unit}" for v in cont["value"]]
             b.add(lid, _geojson(cont, f"{lname}: {label} contours",
                                 {"color": COLORS["contour"], "weight": 1, "dashArray": "4 3"},
@@ -335,7 +342,8 @@ CLASS_LABELS = {
 }
 
 
-def _class_layers(lid: str, kinds: dict[str, Any], layers: RunLayers) -> list[tuple[str, str, str]]:
+def _class_layers(lid: str, kinds: dict[str, KindRecord], layers: RunLayers
+                  ) -> list[tuple[str, str, str]]:
     """(GeoPackage layer, layer-control label, legend title) of a level's class layers."""
     out = []
     for kind in kinds:
@@ -384,7 +392,8 @@ def _value_column(kind: str) -> str | None:
         return None
 
 
-def _readings(b: _Builder, lid: str, lname: str, layers: RunLayers, kinds: dict[str, Any]) -> None:
+def _readings(b: _Builder, lid: str, lname: str, layers: RunLayers,
+              kinds: dict[str, KindRecord]) -> None:
     """One circle-marker layer per kind: value, unit and QA flags; flagged readings outlined."""
     import folium
 
@@ -393,7 +402,7 @@ def _readings(b: _Builder, lid: str, lname: str, layers: RunLayers, kinds: dict[
         if g is None or "level_id" not in g.columns:
             continue
         g = g[g["level_id"].astype(str) == lid]
-        unit = str(kv.get("unit", ""))
+        unit = kv.unit
         col = _value_column(kind)
         if col is None or col not in g.columns or not len(g):
             continue
@@ -424,14 +433,14 @@ def _readings(b: _Builder, lid: str, lname: str, layers: RunLayers, kinds: dict[
               "black ring: reading with a QA flag</div>")
 
 
-def build_webmap(run_dir: str | Path, manifest: dict[str, Any] | None = None) -> str:
+def build_webmap(run_dir: str | Path, manifest: Manifest | None = None) -> str:
     """Build the web map of an output folder; return the HTML text of the page.
 
     Parameters
     ----------
     run_dir : str or Path
         Output folder of a run (``survey.gpkg``, ``rasters/``, ``run.json``).
-    manifest : dict, optional
+    manifest : Manifest, optional
         The run manifest; read from ``run_dir/run.json`` when omitted (``run`` passes it
         because it writes ``run.json`` last).
 
@@ -446,11 +455,11 @@ def build_webmap(run_dir: str | Path, manifest: dict[str, Any] | None = None) ->
 
     run_dir = Path(run_dir)
     man = manifest if manifest is not None else read_run(run_dir)
-    levels: dict[str, Any] = man.get("levels") or {}
+    levels = man.levels
     if not levels:
         raise ExportError(f"{run_dir}: run.json lists no levels; nothing to map")
-    site = man.get("site") or {}
-    units = report_units(str(site.get("report_units", "metric")))
+    site = man.site
+    units = report_units(site.report_units)
     layers = RunLayers(run_dir)
     fmap = folium.Map(location=[0, 0], zoom_start=19, max_zoom=23, tiles=None,
                       control_scale=True, prefer_canvas=True)
@@ -464,14 +473,14 @@ def build_webmap(run_dir: str | Path, manifest: dict[str, Any] | None = None) ->
     root.header.add_child(folium.Element(
         f"<!-- Leaflet {LEAFLET_VERSION}, inlined from its release files. Its licence:\n"
         f"{licence}\n-->"), name="leaflet_licence")
-    root.title = _e(site.get("name", "survey"))
-    tile_url = (man.get("parameters") or {}).get("basemap_url")
+    root.title = _e(site.name)
+    tile_url = man.parameters.basemap_url
     if isinstance(tile_url, str) and tile_url.startswith("https://"):
         # optional street tiles: off by default; offline, the tiles fail quietly
         # max_native_zoom: street tiles stop near zoom 19; the deck is drawn closer
         folium.TileLayer(tiles=tile_url, name="street basemap (online only)", overlay=True,
-                         show=False, max_zoom=23, max_native_zoom=19, attr=_e((man.get("parameters") or {}).get(
-                             "basemap_attribution", "basemap")),
+                         show=False, max_zoom=23, max_native_zoom=19,
+                         attr=_e(man.parameters.basemap_attribution),
                          error_tile_url="data:image/gif;base64,R0lGODlhAQABAAAAACw=").add_to(fmap)
     b = _Builder(fmap)
     bounds = None
@@ -494,16 +503,16 @@ def _js(obj: Any) -> str:
     return json.dumps(obj).replace("</", "<\\/").replace("<!--", "<\\!--")
 
 
-def _panels(fmap: folium.Map, b: _Builder, site: dict[str, Any], man: dict[str, Any],
+def _panels(fmap: folium.Map, b: _Builder, site: SiteRecord, man: Manifest,
             control: str) -> None:
     """Title, cautions and legend panels, and the script that keeps them in step."""
     import folium
 
-    cautions = man.get("cautions") or list(CAUTIONS)
+    cautions = man.cautions or list(CAUTIONS)
     items = "".join(f"<li>{_e(c)}</li>" for c in cautions)
-    owner = f" &middot; {_e(site['owner'])}" if site.get("owner") else ""
+    owner = f" &middot; {_e(site.owner)}" if site.owner else ""
     fmap.get_root().html.add_child(folium.Element(
-        f'<div id="gc-title" class="gc-panel">{_e(site.get("name", ""))}{owner}</div>'
+        f'<div id="gc-title" class="gc-panel">{_e(site.name)}{owner}</div>'
         f'<div id="gc-cautions" class="gc-panel"><details open><summary><b>Cautions</b> '
         f"(survey data, not a structural assessment)</summary><ul>{items}</ul></details></div>"
         '<div id="gc-legend" class="gc-panel"><b>Legend</b><div id="gc-legend-body"></div>'
@@ -568,7 +577,7 @@ document.addEventListener('DOMContentLoaded', function(){{
     fmap.get_root().script.add_child(folium.Element(script))
 
 
-def write_webmap(run_dir: str | Path, manifest: dict[str, Any] | None = None) -> Path:
+def write_webmap(run_dir: str | Path, manifest: Manifest | None = None) -> Path:
     """Build the web map of an output folder and write ``run_dir/webmap.html`` atomically."""
     run_dir = Path(run_dir)
     text = build_webmap(run_dir, manifest)
