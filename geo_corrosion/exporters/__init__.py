@@ -1,9 +1,10 @@
 """Exporters (plugins): GeoPackage, GeoTIFF, quantities, drawings, plots, web map, report."""
 
 from geo_corrosion.exporters.base import Exporter
-from geo_corrosion.exporters.documents import DrawingsExporter, QuantitiesExporter
+from geo_corrosion.exporters.drawings import DrawingsExporter
 from geo_corrosion.exporters.gpkg import GeoPackageExporter
 from geo_corrosion.exporters.plots import PlotsExporter
+from geo_corrosion.exporters.quantities import QuantitiesExporter
 from geo_corrosion.exporters.rasters import GeoTiffExporter
 from geo_corrosion.exporters.report import ReportExporter
 from geo_corrosion.exporters.webmap import WebMapExporter

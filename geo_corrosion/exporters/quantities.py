@@ -1,4 +1,4 @@
-"""Exporters of the tender documents: the quantities (CSV, XLSX) and the drawings (DXF)."""
+"""The quantities exporter: the bid schedule (CSV, XLSX) and the condition areas (CSV)."""
 
 from __future__ import annotations
 
@@ -14,7 +14,8 @@ from geo_corrosion.units import report_units
 if TYPE_CHECKING:
     from geo_corrosion.model.results import RunResult
 
-__all__ = ["QuantitiesExporter", "DrawingsExporter", "QUANTITIES_CSV", "QUANTITIES_XLSX"]
+__all__ = ["QuantitiesExporter", "QUANTITIES_CSV", "QUANTITIES_XLSX", "CONDITION_CSV",
+           "condition_table", "repair_table"]
 
 QUANTITIES_CSV = "quantities.csv"
 CONDITION_CSV = "condition_areas.csv"
@@ -95,29 +96,4 @@ class QuantitiesExporter(Exporter):
             {lid: repair_table(result, lid) for lid in result.levels},
             units=units, cautions=list(CAUTIONS),
             title=f"{result.site.config.name}: schedule of repair quantities"))
-        return paths
-
-
-class DrawingsExporter(Exporter):
-    """Write one DXF drawing per level with the repair layout."""
-
-    name: ClassVar[str] = "drawings"
-    description: ClassVar[str] = "repair layout drawings as DXF, one per level"
-
-    def export(self, result: RunResult, out_dir: Path) -> list[Path]:
-        """Write the DXF files."""
-        from geo_corrosion.exporters.dxf import write_level_dxf
-
-        ddir = out_dir / "drawings"
-        ddir.mkdir(exist_ok=True)
-        paths = []
-        for lid, lr in result.levels.items():
-            lv = lr.level
-            paths.append(write_level_dxf(
-                ddir / f"{lid}_repairs.dxf", slab=lv.slab, exclusions=lv.exclusion_polygons(),
-                joints=[j.geometry for j in lv.joints], repairs=lr.repairs, zones=lr.zones,
-                delaminations=[f.geometry for k in ("delamination", "spall")
-                               for f in lv.overlays.get(k, ())],
-                unit=lv.unit, title=f"{result.site.config.name} - {lv.config.name}",
-                cautions=list(CAUTIONS)))
         return paths
