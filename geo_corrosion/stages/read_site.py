@@ -445,7 +445,6 @@ def _zoning(rules: list[Any], where: str) -> tuple[tuple[str, dict[str, Any]], .
 
 _COMBINED_KEYS = ("default", "classes", "rules", "class_sets")
 _COMBINED_CLASS_KEYS = ("key", "label", "color")
-_COMBINED_RULE_KEYS = ("name", "class", "potential", "resistivity", "rate", "low_cover")
 _HEX_COLOR = re.compile(r"#[0-9A-Fa-f]{6}")
 
 
@@ -537,7 +536,8 @@ def _condition(data: object, where: str) -> dict[str, Any] | None:
                             f"{', '.join(classes)}")
     if ct.has("rules"):
         for i, r in enumerate(ct.array("rules")):
-            rt = Table(r, f"{ct.key('rules')}[{i}]", _COMBINED_RULE_KEYS)
+            # a rule's keys: the rule table's columns (the roles of combined.KINDS)
+            rt = Table(r, f"{ct.key('rules')}[{i}]", ("name", "class", *KINDS, "low_cover"))
             problem = _combined_rule_problem(rt.data, rt.string("name", f"rule {i + 1}"), classes,
                                              sets)
             if problem:
