@@ -27,9 +27,11 @@ from geo_corrosion._io import atomic_write
 from geo_corrosion.config import SiteConfig
 from geo_corrosion.errors import ExportError, GeoCorrosionWarning
 from geo_corrosion.exporters import EXPORTERS
+from geo_corrosion.measurements import Role
 from geo_corrosion.model.manifest import MANIFEST_NAME, json_default, manifest
 from geo_corrosion.model.results import LevelResult, RunResult
 from geo_corrosion.model.site import Site
+from geo_corrosion.model.surface import with_role
 from geo_corrosion.stages.assess_condition import assess_condition
 from geo_corrosion.stages.check_site import check_parameters, check_site, refuse_unrunnable
 from geo_corrosion.stages.map_surfaces import map_level
@@ -78,8 +80,8 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
     Per level: surfaces (:func:`~geo_corrosion.stages.map_surfaces.map_level`), condition
     (:func:`~geo_corrosion.stages.assess_condition.assess_condition`), repairs and zones
     (:func:`~geo_corrosion.stages.plan_repairs.plan_level`); then the bid schedule of all
-    levels.  The site given is not changed: the returned result holds a site whose
-    corrosion-rate surveys carry the life-estimate columns.
+    levels.  The site given is not changed: the returned result holds a site whose surveys
+    with life estimates (their kind's ``life_estimates`` hook) carry those columns.
     """
     say = progress or (lambda _m: None)
     params = site.config.run
@@ -89,12 +91,12 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
     frames: dict[str, pd.DataFrame] = {}
     for lid, lv in site.levels.items():
         mapped = map_level(lv, site.surveys_of(lid), flags, params, units=units, progress=say)
-        low_cover = low_cover_mask(lv, mapped.surfaces.get("cover"))
+        low_cover = low_cover_mask(lv, with_role(mapped.surfaces, Role.COVER))
         condition = None
         if mapped.surfaces:
             say(f"level {lid}: condition assessment")
             condition, life_frames = assess_condition(
-                lv, mapped, site.surveys_of(lid, "corrosion_rate"),
+                lv, mapped, site.surveys_of(lid),
                 rules=site.config.combined_rules, bar_diameter_mm=planning.layout.bar_diameter_mm,
                 low_cover=low_cover)
             frames.update(life_frames)

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import math
 import re
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 from typing import Literal
 
@@ -31,7 +32,10 @@ __all__ = [
     "ReportUnits",
     "report_units",
     "normalize_unit",
+    "unit_key",
     "convert",
+    "conversion_factors",
+    "convert_with",
     "length_to_m",
     "m_to_length",
 ]
@@ -95,6 +99,17 @@ _TO_CANONICAL: dict[str, tuple[str, float]] = {
 }
 
 
+def unit_key(unit: object) -> str:
+    """Return the key under which a unit spelling is looked up: no white space, lower case.
+
+    Examples
+    --------
+    >>> unit_key(" kOhm.cm ")
+    'kohm.cm'
+    """
+    return re.sub(r"\s+", "", str(unit)).lower()
+
+
 def normalize_unit(unit: str, *, accepted: tuple[str, ...] | None = None, where: str = "") -> str:
     """Return the canonical spelling of a unit string.
 
@@ -103,7 +118,9 @@ def normalize_unit(unit: str, *, accepted: tuple[str, ...] | None = None, where:
     unit : str
         A unit as written by a user or an instrument, e.g. ``"kOhm.cm"``, ``"µA/cm²"``.
     accepted : tuple of str, optional
-        Canonical spellings allowed here; anything else raises.
+        Spellings allowed here; anything else raises.  A spelling of ``accepted`` is matched
+        as it is (without white space, in any case) before the aliases of this module, so a
+        unit this module does not know (a plugin kind's ``"%"``) is accepted when listed.
     where : str
         Where the unit came from, for the error message (file and key).
 
@@ -112,7 +129,14 @@ def normalize_unit(unit: str, *, accepted: tuple[str, ...] | None = None, where:
     UnitError
         If the unit is unknown or not accepted here.
     """
-    key = re.sub(r"\s+", "", str(unit)).lower()
+    key = unit_key(unit)
+    if accepted is not None:
+        # a spelling the caller accepts is taken as it is, even when this module does not know
+        # it (a plugin kind's own unit, say "%"): the message below never lists a unit that
+        # this lookup would refuse
+        for a in accepted:
+            if unit_key(a) == key:
+                return a
     canon = _ALIASES.get(key)
     if canon is None:
         known = ", ".join(accepted) if accepted else ", ".join(sorted(set(_ALIASES.values())))
@@ -147,6 +171,54 @@ def convert(values: ArrayLike, unit: str, to: str) -> NDArray[np.float64]:
     if dim_s != dim_d:
         raise UnitError(f"cannot convert {unit!r} to {to!r}: different dimensions")
     return a * (f_s / f_d)
+
+
+def conversion_factors(to: str, units: Iterable[str]) -> dict[str, float]:
+    """Return, for each unit of this module's table, the factor that converts it to ``to``.
+
+    The factor is the one :func:`convert` multiplies by, so ``values * factor`` equals
+    ``convert(values, unit, to)`` exactly.
+
+    Raises
+    ------
+    UnitError
+        A unit unknown to this module, or of another dimension than ``to``.
+
+    Examples
+    --------
+    >>> conversion_factors("kohm.cm", ("kohm.cm", "ohm.m"))
+    {'kohm.cm': 1.0, 'ohm.m': 0.1}
+    """
+    return {u: float(convert(1.0, u, to)) for u in units}
+
+
+def convert_with(values: ArrayLike, unit: str, factors: Mapping[str, float], *,
+                 where: str = "") -> NDArray[np.float64]:
+    """Convert values with a table of factors to one unit (a measurement kind's own table).
+
+    Parameters
+    ----------
+    values : array_like
+    unit : str
+        The unit of ``values``: one of the spellings of ``factors`` (white space and case
+        ignored), or an alias this module knows for one of them (``"ohm-m"`` for ``"ohm.m"``).
+    factors : mapping of str to float
+        Accepted unit -> factor that converts a value in it to the target unit.
+    where : str
+        Where the unit came from, for the message.
+
+    Raises
+    ------
+    UnitError
+        The unit is not in ``factors``; the message lists the spellings of ``factors``.
+
+    Examples
+    --------
+    >>> convert_with([0.25, 2000.0], "ppm", {"%": 1.0, "ppm": 1e-4}).tolist()
+    [2.5e-05, 0.2]
+    """
+    u = normalize_unit(unit, accepted=tuple(factors), where=where)
+    return np.asarray(values, dtype=float) * float(factors[u])
 
 
 def length_to_m(value: ArrayLike, unit: str) -> NDArray[np.float64]:

@@ -41,6 +41,7 @@ licensed engineer decides on repairs.
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -319,6 +320,7 @@ def combine(
     resistivity_kohm_cm: ArrayLike | None = None,
     icorr_ua_cm2: ArrayLike | None = None,
     low_cover: ArrayLike | None = None,
+    values: Mapping[str, ArrayLike] | None = None,
 ) -> CombinedResult:
     """Return the combined condition class per cell.
 
@@ -330,13 +332,25 @@ def combine(
         Values per cell in the canonical units (NaN = no value); all the same shape.
     low_cover : array_like of bool or float, optional
         Low-cover flag per cell (NaN = unknown).
+    values : mapping of str to array_like, optional
+        The same values keyed by the rule table's columns (:data:`KINDS`: ``"potential"``,
+        ``"resistivity"``, ``"rate"``), as the pipeline gives them (by the role of each
+        measurement kind); a column may not be given both ways.
 
     Raises
     ------
     ConditionError
-        No kind given, or shapes differ.
+        No kind given, an unknown or doubly given column, or shapes differ.
     """
     given = {"potential": potential_mv, "resistivity": resistivity_kohm_cm, "rate": icorr_ua_cm2}
+    for k, v in (values or {}).items():
+        key = str(k)
+        if key not in KINDS:
+            raise ConditionError(f"combine(): unknown rule-table column {key!r}; expected one "
+                                 f"of: {', '.join(KINDS)}")
+        if given[key] is not None:
+            raise ConditionError(f"combine(): {key!r} is given twice")
+        given[key] = v
     arrays = {k: np.asarray(v, dtype=float) for k, v in given.items() if v is not None}
     if not arrays and low_cover is None:
         raise ConditionError("combine() needs at least one of potential_mv, resistivity_kohm_cm, "

@@ -12,6 +12,8 @@ from typing import TYPE_CHECKING, ClassVar
 import numpy as np
 
 from geo_corrosion.exporters.base import Exporter
+from geo_corrosion.measurements import Role
+from geo_corrosion.model.surface import with_role
 
 if TYPE_CHECKING:
     from geo_corrosion.model.results import RunResult
@@ -28,7 +30,6 @@ class PlotsExporter(Exporter):
     def export(self, result: RunResult, out_dir: Path) -> list[Path]:
         """Write every level's plots."""
         from geo_corrosion.condition import plots
-        from geo_corrosion.condition.classes import get_class_set
 
         pdir = out_dir / "plots"
         pdir.mkdir(exist_ok=True)
@@ -37,7 +38,7 @@ class PlotsExporter(Exporter):
             lname = lr.level.config.name
             for name, s in lr.surfaces.items():
                 vals = lr.readings[name][s.kind.value_column].to_numpy(float)
-                cs = get_class_set(s.kind.class_set) if s.kind.class_set else None
+                cs = s.kind.class_set_object()
                 paths.append(plots.plot_histogram(
                     vals, pdir / f"{lid}_{name}_histogram.png", class_set=cs,
                     quantity=s.kind.label.split(" (")[0], unit=s.kind.canonical_unit,
@@ -49,27 +50,31 @@ class PlotsExporter(Exporter):
                                  g.y0, g.y0 + g.ny * g.cell),
                         pdir / f"{lid}_{name}_classes.png", class_set=cs,
                         quantity=s.kind.label.split(" (")[0], plan_unit=lr.level.unit,
-                        contour_interval=s.interval if name == "potential" else None,
+                        contour_interval=s.interval if s.kind.class_map_contours else None,
                         polygons=[f.geometry for f in lr.level.overlays.get("delamination", ())],
                         origin="upper", title=f"{lname}: {s.kind.label.split(' (')[0].lower()} classes"))
-            if "potential" in lr.surfaces:
+            # the potential plots, named after the role: the kind playing it, whatever its name
+            pot = with_role(lr.surfaces, Role.POTENTIAL)
+            if pot is not None:
                 mix = lr.condition.mixture if lr.condition is not None else None
-                pv = lr.readings["potential"]["potential_mv"].to_numpy(float)
+                pv = lr.readings[pot.kind.name][pot.kind.value_column].to_numpy(float)
                 paths.append(plots.plot_cumulative_frequency(
-                    pv, pdir / f"{lid}_potential_cumulative.png", mixture=mix,
+                    pv, pdir / f"{lid}_{Role.POTENTIAL}_cumulative.png", mixture=mix,
                     title=f"{lname}: cumulative frequency of potentials"))
-                if "resistivity" in lr.readings:
-                    s = lr.surfaces["potential"]
-                    r = lr.readings["resistivity"]
+                res = with_role(lr.surfaces, Role.RESISTIVITY)
+                if res is not None:
+                    s = pot
+                    r = lr.readings[res.kind.name]
                     col = np.clip(((r["x_local"] - s.grid.x0) / s.grid.cell).astype(int), 0,
                                   s.grid.nx - 1)
                     row = np.clip(((s.grid.y0 + s.grid.ny * s.grid.cell - r["y_local"])
                                    / s.grid.cell).astype(int), 0, s.grid.ny - 1)
-                    pot = s.mean[row.to_numpy(), col.to_numpy()]
-                    ok = np.isfinite(pot)
+                    pot_at = s.mean[row.to_numpy(), col.to_numpy()]
+                    ok = np.isfinite(pot_at)
                     if ok.sum() >= 3:
                         paths.append(plots.plot_potential_vs_resistivity(
-                            pot[ok], r["resistivity_kohm_cm"].to_numpy(float)[ok],
-                            pdir / f"{lid}_potential_vs_resistivity.png",
+                            pot_at[ok], r[res.kind.value_column].to_numpy(float)[ok],
+                            pdir / f"{lid}_{Role.POTENTIAL}_vs_{Role.RESISTIVITY}.png",
                             title=f"{lname}: kriged potential at resistivity readings"))
         return paths
+

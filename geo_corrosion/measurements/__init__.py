@@ -1,6 +1,6 @@
 """Measurement kinds (plugins): half-cell potential, resistivity, corrosion rate, cover."""
 
-from geo_corrosion.measurements.base import MeasurementKind
+from geo_corrosion.measurements.base import MeasurementKind, Role, Threshold
 from geo_corrosion.measurements.builtin import (
     CorrosionRate,
     CoverDepth,
@@ -20,6 +20,9 @@ MEASUREMENTS: Registry[type[MeasurementKind]] = Registry(
 
 __all__ = [
     "MeasurementKind",
+    "Role",
+    "Threshold",
+    "registered_kind_with_role",
     "HalfCellPotential",
     "Resistivity",
     "CorrosionRate",
@@ -34,3 +37,15 @@ def get_kind(name_or_kind: "str | type[MeasurementKind] | MeasurementKind", *, w
     """Return an instance of a measurement kind by registry name or class."""
     k = MEASUREMENTS.get(name_or_kind, where=where) if isinstance(name_or_kind, str) else name_or_kind
     return k() if isinstance(k, type) else k
+
+
+def registered_kind_with_role(role: Role | str) -> MeasurementKind | None:
+    """Return the first registered kind that plays ``role`` (built-ins first), or None.
+
+    For questions about a kind before any survey is read (which class keys may a zoning
+    rule name); a run asks its own surfaces' kinds (``model.surface.with_role``).
+    """
+    for k in MEASUREMENTS.load().values():
+        if isinstance(k, type) and issubclass(k, MeasurementKind) and role in k.roles:
+            return k()
+    return None

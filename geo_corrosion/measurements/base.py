@@ -1,30 +1,90 @@
 """The measurement-kind plugin interface.
 
-A measurement kind declares its canonical unit, the input units it accepts, a
-plausibility range, the corrections applied at ingest, how it is kriged and how
-it is classified.  Built-ins: ``potential``, ``resistivity``,
-``corrosion_rate``, ``cover``.  A firm adds its own (say, chloride content at
-bar depth) by subclassing :class:`MeasurementKind` and registering the class
-under the entry-point group ``geo_corrosion.measurements``.
+A measurement kind declares its canonical unit and the input units it accepts (with their
+factors), a plausibility range, the corrections applied at ingest, how it is kriged and
+classified, and what is particular to it in QA, contouring, the condition assessment,
+zoning and the maps (class attributes and hooks below).  Generic code never tests a kind's
+name: it reads these attributes, or asks for the kind that plays a :class:`Role` (the
+potential surface, the cover surface, ...).  Built-ins: ``potential``, ``resistivity``,
+``corrosion_rate``, ``cover``.  A firm adds its own (say, chloride content at bar depth) by
+subclassing :class:`MeasurementKind` and registering the class under the entry-point group
+``geo_corrosion.measurements``.
 """
 
 from __future__ import annotations
 
+import math
 from collections.abc import Collection, Mapping
+from dataclasses import dataclass
+from enum import StrEnum
 from pathlib import Path
-from typing import TYPE_CHECKING, Any, ClassVar
+from typing import TYPE_CHECKING, Any, ClassVar, Literal
 
 import numpy as np
 import pandas as pd
 from numpy.typing import ArrayLike, NDArray
 
-from geo_corrosion.errors import UnitError
-from geo_corrosion.units import convert, normalize_unit
+from geo_corrosion.errors import PluginError, UnitError
+from geo_corrosion.units import conversion_factors, convert_with
 
 if TYPE_CHECKING:
+    from geo_corrosion.condition.classes import ClassSet
     from geo_corrosion.config import RunParams, SurveyConfig
 
-__all__ = ["MeasurementKind", "raw_mask", "numeric_column", "location_label"]
+__all__ = ["MeasurementKind", "Role", "Threshold", "raw_mask", "numeric_column",
+           "location_label"]
+
+
+class Role(StrEnum):
+    """What a kind's surface stands for in the generic stages (a kind may play several).
+
+    The first three are the columns of the combined-condition rule table
+    (:mod:`geo_corrosion.condition.combined`); ``cover`` gives the low-cover areas.
+    """
+
+    #: half-cell potential: probability of corrosion (C876 classes, the zoning's classes,
+    #: the cumulative-frequency plot, the surface shown when the web map opens)
+    POTENTIAL = "potential"
+    #: concrete resistivity: corrosion risk
+    RESISTIVITY = "resistivity"
+    #: corrosion rate
+    RATE = "rate"
+    #: concrete cover over the bars, mm: low cover, depth classes of repairs, life estimates
+    COVER = "cover"
+
+
+@dataclass(frozen=True)
+class Threshold:
+    """The threshold of a kind's "area beyond threshold" statement and probability map.
+
+    Attributes
+    ----------
+    value : float
+        In the kind's canonical unit.
+    direction : {"below", "above"}
+        Beyond the threshold means below it (potential, resistivity) or above it (rate).
+    meaning : str
+        What being beyond it means, for run.json, the maps and the report
+        (``"more negative than -350 mV CSE"``).
+    source : str
+        Where the value comes from.
+    statement : str
+        Optional lead of the report's statement (``"The area likely to be corroding"``);
+        empty: ``"The area with <meaning>"``.
+    """
+
+    value: float
+    direction: Literal["below", "above"]
+    meaning: str
+    source: str
+    statement: str = ""
+
+    def __post_init__(self) -> None:
+        if self.direction not in ("below", "above"):
+            raise PluginError(f"threshold direction must be 'below' or 'above', "
+                              f"got {self.direction!r}")
+        if not math.isfinite(float(self.value)):
+            raise PluginError(f"threshold value must be a finite number, got {self.value!r}")
 
 
 class MeasurementKind:
@@ -39,49 +99,158 @@ class MeasurementKind:
     value_column : str
         Canonical column name, carrying the unit (``potential_mv``).
     canonical_unit : str
+        The unit of ``value_column``: every value is converted to it at ingest.
+    units : mapping of str to float
+        Input units this kind accepts, each with the factor that converts a value in it to
+        ``canonical_unit`` (``{"%": 1.0, "ppm": 1e-4}``).  Spellings are matched without
+        white space and in any case; the canonical unit is always accepted (factor 1).
     accepted_units : tuple of str
-        Canonical spellings of the units accepted at ingest.
+        Input units known to :mod:`geo_corrosion.units` (``"ohm.m"``): their factors come from
+        that module's table, and its aliases (``"Ω·m"``) are accepted.  The built-ins use
+        this; :attr:`units` wins for a unit given in both.
     plausible_range : (float, float)
         Values outside are flagged by QA (in the canonical unit).
     krige_transform : {None, "log"}
         ``"log"`` for lognormal kinds, kriged in log space.
     contour_interval : float
-        Default contour interval in the canonical unit.
-    class_set : str or None
-        Name of the default class set in :mod:`geo_corrosion.condition.classes`.
+        Default contour interval in the canonical unit (see :meth:`contour_interval_for`).
+    max_contour_interval : float or None
+        Largest contour interval allowed (canonical unit), with its source in
+        ``max_contour_interval_source``; a coarser one is refused before any work.
+    contour_interval_setting : str
+        The site-file key that sets the interval, for messages (``"[run].contour_interval_mv"``);
+        empty when the interval is the class default.
+    class_set : str or ClassSet or None
+        The kind's class set: a name of :mod:`geo_corrosion.condition.classes` or a
+        :class:`~geo_corrosion.condition.classes.ClassSet` object (a plugin's own classes).
+    roles : frozenset of Role
+        What the kind's surface stands for in the generic stages (:class:`Role`).
+    threshold : Threshold or None
+        Threshold of the probability map and of the "area beyond threshold" statement.
+    condition_order : int
+        Place of the kind's statements in the condition assessment (run.json, report):
+        lower first, then by name.
+    mixture_threshold : bool
+        Fit the site-specific two-population threshold of potentials (RILEM TC 154
+        statistical evaluation) to the kind's readings (the first such kind of a level).
+    grid_rules : bool
+        The kind is a half-cell potential survey read on the level's grid (mV): QA takes the
+        grid spacing and applies the potential rules (adjacent readings, repeatability and
+        reproducibility, drift, stability during the reading, open lead, inverted sign).
+    electrode_temperature : bool
+        QA checks the reading temperatures against the reference electrode's range
+        (``QA-TEMP-RANGE``).
+    severity_direction : int
+        +1: larger values are more severe; -1: smaller ones are (colour ramps of the maps).
+    class_map_contours : bool
+        Draw the contour lines on the kind's class map (the C876 equipotential map).
+    class_layer_titles : (str, str) or None
+        Layer-control label and legend title of the kind's class layer in the web map;
+        None: ``"<name> classes"``.
     raw_columns : tuple of str
         Raw instrument columns (numbers, their unit in the name) read at ingest
         when the file has them; from them :meth:`derive` computes the value
         when the file has no value column (see ``docs/raw-readings.md``).
     option_keys : tuple of str
         Keys accepted in the survey's ``[surveys.options]`` table.
+
+    Hooks: :meth:`parse_options`, :meth:`check_survey`, :meth:`can_derive`, :meth:`derive`,
+    :meth:`correct`, :meth:`contour_interval_for` and :meth:`life_estimates`.
     """
 
     name: ClassVar[str] = ""
     label: ClassVar[str] = ""
     value_column: ClassVar[str] = "value"
     canonical_unit: ClassVar[str] = ""
+    units: ClassVar[Mapping[str, float]] = {}
     accepted_units: ClassVar[tuple[str, ...]] = ()
     plausible_range: ClassVar[tuple[float, float]] = (-np.inf, np.inf)
     krige_transform: ClassVar[str | None] = None
     contour_interval: ClassVar[float] = 1.0
-    class_set: ClassVar[str | None] = None
+    max_contour_interval: ClassVar[float | None] = None
+    max_contour_interval_source: ClassVar[str] = ""
+    contour_interval_setting: ClassVar[str] = ""
+    class_set: ClassVar[str | ClassSet | None] = None
+    roles: ClassVar[frozenset[Role]] = frozenset()
+    threshold: ClassVar[Threshold | None] = None
+    condition_order: ClassVar[int] = 100
+    mixture_threshold: ClassVar[bool] = False
+    grid_rules: ClassVar[bool] = False
+    electrode_temperature: ClassVar[bool] = False
+    severity_direction: ClassVar[int] = 1
+    class_map_contours: ClassVar[bool] = False
+    class_layer_titles: ClassVar[tuple[str, str] | None] = None
     raw_columns: ClassVar[tuple[str, ...]] = ()
     option_keys: ClassVar[tuple[str, ...]] = ()
 
+    @classmethod
+    def unit_factors(cls) -> dict[str, float]:
+        """Return every accepted input unit with the factor that converts it to the canonical one.
+
+        Raises
+        ------
+        PluginError
+            A factor that is not a positive finite number, or an ``accepted_units`` entry
+            unknown to :mod:`geo_corrosion.units` (the kind is then unusable as written).
+        """
+        try:
+            out = conversion_factors(cls.canonical_unit, cls.accepted_units)
+        except UnitError as err:
+            raise PluginError(f"measurement kind {cls.name!r}: accepted_units: {err}; declare "
+                              "the unit with its factor in `units` instead") from err
+        for u, f in cls.units.items():
+            try:
+                ok = math.isfinite(float(f)) and float(f) > 0
+            except (TypeError, ValueError):
+                ok = False
+            if not ok:
+                raise PluginError(f"measurement kind {cls.name!r}: units[{u!r}] = {f!r}; a "
+                                  f"factor to {cls.canonical_unit!r} must be a positive number")
+            out[str(u)] = float(f)
+        if cls.canonical_unit and cls.canonical_unit not in out:
+            out[cls.canonical_unit] = 1.0
+        return out
+
+    def contour_interval_for(self, params: RunParams) -> float:
+        """Return this kind's contour interval in a run (canonical unit).
+
+        The base kind takes :attr:`contour_interval`; the potential kind takes the site
+        file's ``[run].contour_interval_mv``.
+        """
+        return float(self.contour_interval)
+
+    def class_set_object(self) -> ClassSet | None:
+        """Return the kind's :class:`~geo_corrosion.condition.classes.ClassSet` (None if none)."""
+        from geo_corrosion.condition.classes import get_class_set
+
+        return None if self.class_set is None else get_class_set(self.class_set)
+
+    def life_estimates(
+        self, frame: pd.DataFrame, cover_mm: NDArray[np.float64] | None, *,
+        bar_diameter_mm: float,
+    ) -> tuple[pd.DataFrame, dict[str, Any]] | None:
+        """Return the survey's frame with life estimates added, and their summary; or None.
+
+        Called for every survey of a level that has a surface.  ``cover_mm`` is the kriged
+        cover at each reading (NaN off the cover surface), or None when the level has no
+        surface of the :attr:`Role.COVER` kind.  The frame given must not be changed.  The
+        base kind estimates nothing (None); the corrosion-rate kind gives section loss and
+        time to cover cracking.
+        """
+        return None
+
     def to_canonical(self, values: ArrayLike, unit: str, *, where: str = "") -> NDArray[np.float64]:
-        """Convert raw values from ``unit`` to the canonical unit.
+        """Convert raw values from ``unit`` to the canonical unit (:meth:`unit_factors`).
 
         Raises
         ------
         UnitError
-            If the unit is not accepted for this kind.
+            If the unit is not accepted for this kind; the message lists the accepted ones.
         """
         try:
-            u = normalize_unit(unit, accepted=self.accepted_units)
+            return convert_with(values, unit, self.unit_factors())
         except UnitError as err:
             raise UnitError(f"{where}{err} (for {self.name} readings)") from err
-        return convert(values, u, self.canonical_unit)
 
     def parse_options(
         self, options: Mapping[str, Any], *, where: str, root: Path
@@ -157,23 +326,24 @@ class MeasurementKind:
 
     def classify(self, values: ArrayLike) -> NDArray[np.object_]:
         """Class labels of values in the canonical unit ('' where there is no class set)."""
-        from geo_corrosion.condition.classes import get_class_set
-
-        if self.class_set is None:
+        cs = self.class_set_object()
+        if cs is None:
             return np.full(np.shape(values), "", dtype=object)
-        return get_class_set(self.class_set).classify(values)
+        return cs.classify(values)
 
     def describe(self) -> dict[str, Any]:
         """JSON-ready description (``geo-corrosion plugins``, run.json)."""
+        cs = self.class_set
         return {
             "name": self.name,
             "label": self.label,
             "value_column": self.value_column,
             "canonical_unit": self.canonical_unit,
-            "accepted_units": list(self.accepted_units),
+            "accepted_units": list(self.unit_factors()),
             "plausible_range": list(self.plausible_range),
             "krige_transform": self.krige_transform,
-            "class_set": self.class_set,
+            "class_set": cs if cs is None or isinstance(cs, str) else cs.name,
+            "roles": sorted(str(r) for r in self.roles),
         }
 
 

@@ -20,6 +20,8 @@ from geo_corrosion.corrections import (
 from geo_corrosion.errors import ConditionError, IngestError, SiteFileError
 from geo_corrosion.measurements.base import (
     MeasurementKind,
+    Role,
+    Threshold,
     location_label,
     numeric_column,
     raw_mask,
@@ -28,7 +30,11 @@ from geo_corrosion.measurements.base import (
 if TYPE_CHECKING:
     from geo_corrosion.config import RunParams, SurveyConfig
 
-__all__ = ["HalfCellPotential", "Resistivity", "CorrosionRate", "CoverDepth"]
+__all__ = ["HalfCellPotential", "Resistivity", "CorrosionRate", "CoverDepth",
+           "SERVICE_HORIZON_YEARS"]
+
+#: Horizon of the section-loss estimate at today's rate, years (common practice, no source).
+SERVICE_HORIZON_YEARS = 10.0
 
 
 class HalfCellPotential(MeasurementKind):
@@ -42,7 +48,28 @@ class HalfCellPotential(MeasurementKind):
     # common practice: outside [-1000, +200] mV CSE is implausible
     plausible_range: ClassVar[tuple[float, float]] = (-1000.0, 200.0)
     contour_interval: ClassVar[float] = 50.0
+    #: ASTM C876 maximum equipotential contour interval [ASTM-C876-91 §6.2, from memory]
+    max_contour_interval: ClassVar[float | None] = 100.0
+    max_contour_interval_source: ClassVar[str] = "ASTM C876"
+    contour_interval_setting: ClassVar[str] = "[run].contour_interval_mv"
     class_set: ClassVar[str | None] = "c876"
+    roles: ClassVar[frozenset[Role]] = frozenset({Role.POTENTIAL})
+    threshold: ClassVar[Threshold | None] = Threshold(
+        -350.0, "below", "more negative than -350 mV CSE",
+        "ASTM C876 numeric criteria [ASTM-C876-91 App. X1, from memory]",
+        statement="The area likely to be corroding")
+    condition_order: ClassVar[int] = 10
+    mixture_threshold: ClassVar[bool] = True
+    grid_rules: ClassVar[bool] = True
+    electrode_temperature: ClassVar[bool] = True
+    severity_direction: ClassVar[int] = -1
+    class_map_contours: ClassVar[bool] = True
+    class_layer_titles: ClassVar[tuple[str, str] | None] = (
+        "ASTM C876 classes", "ASTM C876 classes (probability of corrosion)")
+
+    def contour_interval_for(self, params: RunParams) -> float:
+        """Return the site file's ``[run].contour_interval_mv`` (default 50 mV)."""
+        return float(params.contour_interval_mv)
 
     def check_survey(self, survey: SurveyConfig) -> None:
         """Require the reference electrode, and check the temperature range."""
@@ -117,6 +144,14 @@ class Resistivity(MeasurementKind):
     krige_transform: ClassVar[str | None] = "log"
     contour_interval: ClassVar[float] = 10.0
     class_set: ClassVar[str | None] = "rilem_resistivity"
+    roles: ClassVar[frozenset[Role]] = frozenset({Role.RESISTIVITY})
+    threshold: ClassVar[Threshold | None] = Threshold(
+        10.0, "below", "resistivity below 10 kOhm.cm (high risk)",
+        "RILEM TC 154 [RILEM-TC154-2000; Polder-2001, from memory]")
+    condition_order: ClassVar[int] = 30
+    severity_direction: ClassVar[int] = -1
+    class_layer_titles: ClassVar[tuple[str, str] | None] = (
+        "resistivity classes", "resistivity classes (corrosion risk)")
     raw_columns: ClassVar[tuple[str, ...]] = ("voltage_v", "current_a")
     option_keys: ClassVar[tuple[str, ...]] = (
         "probe_spacing", "element_thickness", "edge_distance", "max_aggregate", "class_set",
@@ -305,6 +340,14 @@ class CorrosionRate(MeasurementKind):
     krige_transform: ClassVar[str | None] = "log"
     contour_interval: ClassVar[float] = 0.5
     class_set: ClassVar[str | None] = "rilem_rate"
+    roles: ClassVar[frozenset[Role]] = frozenset({Role.RATE})
+    threshold: ClassVar[Threshold | None] = Threshold(
+        1.0, "above", "corrosion rate above 1 uA/cm2 (high)",
+        "RILEM TC 154 [Andrade-Alonso-2004, from memory]")
+    condition_order: ClassVar[int] = 20
+    severity_direction: ClassVar[int] = 1
+    class_layer_titles: ClassVar[tuple[str, str] | None] = (
+        "corrosion rate classes", "corrosion rate levels")
     raw_columns: ClassVar[tuple[str, ...]] = (
         "rp_ohm", "r_ohm_ohm", "delta_e_mv", "delta_i_ua", "area_cm2", "b_mv",
         "tafel_anodic_mv_dec", "tafel_cathodic_mv_dec",
@@ -437,6 +480,55 @@ class CorrosionRate(MeasurementKind):
         frame["derive_warning"] = warns
         return frame, records
 
+    def life_estimates(
+        self, frame: pd.DataFrame, cover_mm: np.ndarray | None, *, bar_diameter_mm: float,
+    ) -> tuple[pd.DataFrame, dict[str, Any]]:
+        """Section loss and time to cover cracking at each corrosion-rate reading.
+
+        Returns a new frame with the columns added, and the summary for ``run.json``.
+
+        * Section loss of the bar after :data:`SERVICE_HORIZON_YEARS` at the measured
+          rate (uniform attack, Faraday's law, derived), with the 25 %
+          engineer-review trigger [UFGS-03931 §3.3.1.4].
+        * Propagation time to the first visible crack (0.05 mm) after Alonso et al.
+          (1998), x_crit = 7.53 + 9.32 c/phi um [Alonso-Andrade-1998, from memory], with
+          the cover c read off the kriged cover surface at the reading (``cover_mm``).  It
+          is counted from corrosion initiation at the measured rate; it is **not** the time
+          left from today (the corrosion that already took place is unknown), so it is an
+          upper bound of the time left.
+        """
+        from geo_corrosion.condition.life import section_loss, time_to_cracking_years
+
+        frame = frame.copy()  # the caller's frame is never changed
+        i = frame[self.value_column].to_numpy(float)
+        loss = np.full(i.shape, np.nan)
+        review = np.zeros(i.shape, bool)
+        for k, v in enumerate(i):
+            if np.isfinite(v) and v >= 0:
+                r = section_loss(bar_diameter_mm, float(v), SERVICE_HORIZON_YEARS)
+                loss[k], review[k] = 100.0 * r.loss_fraction, r.review_required
+        frame[f"section_loss_{int(SERVICE_HORIZON_YEARS)}yr_pct"] = loss
+        frame["bar_review"] = review
+        c = np.full(i.shape, np.nan) if cover_mm is None else np.asarray(cover_mm, float)
+        frame["cover_at_reading_mm"] = c
+        with np.errstate(invalid="ignore", divide="ignore"):
+            ok = np.isfinite(c) & np.isfinite(i) & (i > 0)
+            t = np.full(i.shape, np.nan)
+            if ok.any():
+                t[ok] = time_to_cracking_years(c[ok], bar_diameter_mm, i[ok])
+        frame["time_to_cracking_yr"] = t
+        return frame, {
+            "bar_diameter_mm": bar_diameter_mm, "horizon_years": SERVICE_HORIZON_YEARS,
+            "readings_needing_bar_review": int(review.sum()),
+            "readings": int(len(i)),
+            "median_time_to_cracking_yr": float(np.nanmedian(t)) if np.isfinite(t).any() else None,
+            "time_to_cracking_meaning": "propagation time from corrosion initiation to the first "
+                                        "visible crack at the measured rate; not the time left "
+                                        "from today (an upper bound of it)",
+            "sources": ["Faraday's law, derived", "25 % section loss [UFGS-03931 §3.3.1.4]",
+                        "time to cracking [Alonso-Andrade-1998, from memory]"],
+        }
+
 
 class CoverDepth(MeasurementKind):
     """Concrete cover over the top bars, mm (covermeter or GPR)."""
@@ -448,6 +540,9 @@ class CoverDepth(MeasurementKind):
     accepted_units: ClassVar[tuple[str, ...]] = ("mm", "cm", "in")
     plausible_range: ClassVar[tuple[float, float]] = (3.0, 200.0)  # common practice, no source
     contour_interval: ClassVar[float] = 10.0
+    roles: ClassVar[frozenset[Role]] = frozenset({Role.COVER})
+    condition_order: ClassVar[int] = 40
+    severity_direction: ClassVar[int] = -1
 
 
 # --------------------------------------------------------------------------- raw-reading helpers

@@ -7,6 +7,7 @@ combined classes and condition statistics.  Geometry is in the level's local gri
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -18,7 +19,7 @@ from shapely.geometry.base import BaseGeometry
 from geo_corrosion.measurements import MeasurementKind
 from geo_corrosion.surfaces import GridSpec, VariogramFit
 
-__all__ = ["KindSurface", "LevelCondition", "LevelSurfaces"]
+__all__ = ["KindSurface", "LevelCondition", "LevelSurfaces", "with_role"]
 
 
 @dataclass(frozen=True)
@@ -94,3 +95,12 @@ class LevelSurfaces:
     readings: dict[str, pd.DataFrame] = field(default_factory=dict)
     kinds: dict[str, dict[str, Any]] = field(default_factory=dict)
     skipped: dict[str, str] = field(default_factory=dict)
+
+
+def with_role(surfaces: Mapping[str, KindSurface], role: str) -> KindSurface | None:
+    """Return the surface of the kind that plays ``role`` (a measurements ``Role``).
+
+    None when no kind of these surfaces plays it.  A site has at most one kind per role on
+    a level (checked before the run); should there be more, the first one is taken.
+    """
+    return next((s for s in surfaces.values() if role in s.kind.roles), None)

@@ -155,7 +155,6 @@ CONTRACT_COLUMNS: list[str] = [
     "reading_id", "survey_id", "level_id", "row", "where", "point_id", "x_local", "y_local",
 ]
 _SEVERITY_RANK = {"error": 0, "warning": 1, "info": 2}
-_POTENTIAL_KINDS = frozenset({"potential"})
 _UNIT_SUFFIXES = (("_kohm_cm", "kOhm.cm"), ("_ua_cm2", "uA/cm2"), ("_mv", "mV"), ("_mm", "mm"))
 _MIN_FOR_SURVEY_STATS = 3  # fewest readings for the open-lead / inverted-sign tests (our choice)
 
@@ -167,8 +166,9 @@ def _unit_of(value_column: str) -> str:
     return ""
 
 
-def _is_potential(kind: str, value_column: str) -> bool:
-    return kind in _POTENTIAL_KINDS or value_column.endswith("_mv")
+def _is_potential(potential_rules: bool | None, value_column: str) -> bool:
+    """Whether the potential rules apply: as the caller says, else for a value column in mV."""
+    return value_column.endswith("_mv") if potential_rules is None else bool(potential_rules)
 
 
 def _empty_flags() -> pd.DataFrame:
@@ -310,6 +310,7 @@ def check_survey(
     exclusions_local: Sequence[shapely.Geometry] = (),
     exclusion_names: Sequence[str] | None = None,
     spacing: float | None = None,
+    potential_rules: bool | None = None,
     duplicate_tolerance: float | None = None,
     adjacent_limit_mv: float = 150.0,
     repeatability_mv: float = 10.0,
@@ -327,8 +328,7 @@ def check_survey(
         Readings of one survey with the contract columns :data:`CONTRACT_COLUMNS`
         and ``value_column``.  Potentials are already in mV vs CSE and corrected.
     kind : str
-        Measurement kind name; ``"potential"`` (or a value column ending in
-        ``_mv``) enables the potential-only rules.
+        Measurement kind name (the rules do not depend on it; see ``potential_rules``).
     value_column : str
         Column holding the canonical value, e.g. ``"potential_mv"``.
     plausible_range : (float, float)
@@ -343,6 +343,10 @@ def check_survey(
     spacing : float, optional
         Grid spacing, local grid units.  Estimated from the median nearest
         neighbour distance for the adjacency and moved-point checks when ``None``.
+    potential_rules : bool, optional
+        Apply the half-cell potential rules (adjacent readings, repeatability in mV, drift,
+        stability, open lead, inverted sign): the pipeline passes the kind's ``grid_rules``.
+        ``None``: apply them when ``value_column`` is in mV (ends in ``_mv``).
     duplicate_tolerance : float, optional
         Distance, local grid units, under which two readings share a location;
         default 0.1 x ``spacing``, or 1e-6 without a spacing.
@@ -389,7 +393,7 @@ def check_survey(
             raise QAError(f"{name} must be a positive number of mV, got {val}")
     tol = _tolerance(duplicate_tolerance, spacing)
     unit = _unit_of(value_column)
-    potential = _is_potential(kind, value_column)
+    potential = _is_potential(potential_rules, value_column)
     ok_v, ok_xy = r.ok_v, r.ok_xy
     out: list[pd.DataFrame] = []
 
@@ -630,6 +634,7 @@ def check_level(
     kind: str,
     value_column: str,
     spacing: float | None = None,
+    potential_rules: bool | None = None,
     duplicate_tolerance: float | None = None,
     reproducibility_mv: float = 20.0,
 ) -> pd.DataFrame:
@@ -643,6 +648,8 @@ def check_level(
         As in :func:`check_survey`.
     spacing : float, optional
         Grid spacing, local grid units (for the default duplicate tolerance).
+    potential_rules : bool, optional
+        As in :func:`check_survey` (the reproducibility tolerance in mV).
     duplicate_tolerance : float, optional
         Distance, local grid units, under which readings of two surveys share a
         location; default 0.1 x ``spacing``, or 1e-6 without a spacing.
@@ -680,7 +687,7 @@ def check_level(
     if len(set(sids)) < len(sids) or any(len(set(p.sid)) > 1 for p in parts):
         raise QAError(f"check_level needs one frame per survey, got survey ids {sids}")
     tol = _tolerance(duplicate_tolerance, spacing)
-    potential = _is_potential(kind, value_column)
+    potential = _is_potential(potential_rules, value_column)
     unit = _unit_of(value_column)
     out: list[pd.DataFrame] = [_repro_flags(r, potential, unit, reproducibility_mv)]
 

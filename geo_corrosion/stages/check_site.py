@@ -10,10 +10,11 @@ import pandas as pd
 
 from geo_corrosion import qa
 from geo_corrosion.config import SiteConfig
-from geo_corrosion.errors import KrigingError, QAError
+from geo_corrosion.errors import KrigingError, QAError, SiteFileError
+from geo_corrosion.measurements import MEASUREMENTS, MeasurementKind
 from geo_corrosion.model.site import Site
 from geo_corrosion.qa.derived import derived_flags
-from geo_corrosion.surfaces import check_contour_interval
+from geo_corrosion.stages.map_surfaces import check_kind_interval
 
 __all__ = ["check_parameters", "check_site", "refuse_unrunnable"]
 
@@ -24,14 +25,41 @@ def check_parameters(cfg: SiteConfig) -> None:
     Raises
     ------
     KrigingError
-        A potential contour interval above 100 mV [ASTM-C876-91 §6.2, from memory].
+        A contour interval coarser than a kind's ``max_contour_interval`` (potentials: the
+        site file's ``[run].contour_interval_mv`` above 100 mV [ASTM-C876-91 §6.2, from memory]).
+    SiteFileError
+        Two kinds surveyed on one level play the same role (two potential kinds, say).
 
     The layout parameters are checked when the site file is read (``SiteConfig.layout``).
     """
-    try:
-        check_contour_interval(cfg.run.contour_interval_mv, "potential")
-    except KrigingError as err:
-        raise KrigingError(f"{cfg.path}: [run].contour_interval_mv: {err}") from err
+    _check_roles(cfg)
+    for kind in _registered_kinds():
+        try:
+            check_kind_interval(kind, kind.contour_interval_for(cfg.run))
+        except KrigingError as err:
+            key = kind.contour_interval_setting or f"the {kind.name} contour interval"
+            raise KrigingError(f"{cfg.path}: {key}: {err}") from err
+
+
+def _check_roles(cfg: SiteConfig) -> None:
+    """Refuse two kinds on one level that play the same role (which surface would stand for it?)."""
+    for lv in cfg.levels:
+        players: dict[str, list[str]] = {}
+        for name in dict.fromkeys(sv.kind for sv in cfg.surveys if sv.level == lv.id):
+            for role in MEASUREMENTS.get(name).roles:
+                players.setdefault(str(role), []).append(name)
+        for played, names in players.items():
+            if len(names) > 1:
+                raise SiteFileError(
+                    f"{cfg.path}: level {lv.id!r}: the kinds {', '.join(map(repr, names))} all "
+                    f"play the role {played!r} (their surfaces would both stand for it); survey "
+                    "one of them on this level, or give the plugin kind another role")
+
+
+def _registered_kinds() -> list[MeasurementKind]:
+    """Every usable registered kind (a broken plugin is reported where a survey uses it)."""
+    return [k() for k in MEASUREMENTS.load().values()
+            if isinstance(k, type) and issubclass(k, MeasurementKind)]
 
 
 def check_site(site: Site) -> pd.DataFrame:
@@ -50,7 +78,8 @@ def check_site(site: Site) -> pd.DataFrame:
             plausible_range=s.kind.plausible_range, slab_local=lv.slab,
             exclusions_local=lv.exclusion_polygons(),
             exclusion_names=[e.where for e in lv.exclusions],
-            spacing=lv.config.grid.spacing if s.kind.name == "potential" else None,
+            spacing=lv.config.grid.spacing if s.kind.grid_rules else None,
+            potential_rules=s.kind.grid_rules,
         ))
     for lid in site.levels:
         kinds = {s.kind.name: s.kind for s in site.surveys_of(lid)}
@@ -59,11 +88,12 @@ def check_site(site: Site) -> pd.DataFrame:
             if len(frames) > 1:
                 parts.append(qa.check_level(
                     frames, kind=name, value_column=kind.value_column,
-                    spacing=site.levels[lid].config.grid.spacing if name == "potential" else None))
+                    spacing=site.levels[lid].config.grid.spacing if kind.grid_rules else None,
+                    potential_rules=kind.grid_rules))
     for s in site.surveys:
         parts.append(derived_flags(
             s.frame, survey_id=s.config.id, level_id=s.config.level, file_name=s.config.path.name,
-            electrode_temperature=s.kind.name == "potential"))
+            electrode_temperature=s.kind.electrode_temperature))
     parts = [p for p in parts if len(p)]
     if not parts:
         return pd.DataFrame(columns=qa.FLAG_COLUMNS)

@@ -47,7 +47,7 @@ from geo_corrosion.surfaces import (
 from geo_corrosion.units import LENGTH_TO_M, ReportUnits
 
 __all__ = ["map_level", "mappable_readings", "build_surface", "reading_statistics",
-           "EXCLUDING_RULES", "MIN_READINGS_FOR_SURFACE"]
+           "check_kind_interval", "EXCLUDING_RULES", "MIN_READINGS_FOR_SURFACE"]
 
 log = logging.getLogger(__name__)
 
@@ -221,14 +221,26 @@ def build_surface(
                            transform=kind.krige_transform, progress=progress)
     res = pd.DataFrame({"reading_id": readings["reading_id"], "x_local": x, "y_local": y,
                         "residual": np.asarray(cv.residuals, float)})
-    interval = params.contour_interval_mv if kind.name == "potential" else kind.contour_interval
-    if kind.name == "potential":
-        check_contour_interval(interval, kind.name)
+    interval = kind.contour_interval_for(params)
+    check_kind_interval(kind, interval)
     lines = contour_lines(mean, grid, interval=interval)
     bands = contour_bands(mean, grid, interval=interval)
     classes = _class_polygons(kind, mean, grid, deck, class_set)
     return KindSurface(kind, grid, mean, var, fit, cv.to_dict(value_unit=kind.canonical_unit),
                        res, len(z), interval, lines, bands, classes, directional)
+
+
+def check_kind_interval(kind: MeasurementKind, interval: float) -> None:
+    """Refuse a contour interval that is not positive or coarser than the kind allows.
+
+    Raises
+    ------
+    KrigingError
+        Naming the kind's limit and its source.
+    """
+    check_contour_interval(interval, kind.max_contour_interval, unit=kind.canonical_unit,
+                           source=kind.max_contour_interval_source,
+                           what=f"{kind.name} surfaces")
 
 
 #: Fewest usable readings for which a kind is kriged on a level.

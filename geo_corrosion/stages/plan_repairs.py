@@ -26,13 +26,14 @@ from shapely.geometry.base import BaseGeometry
 
 from geo_corrosion.config import LayoutParams, SiteConfig
 from geo_corrosion.errors import GeometryWarning
+from geo_corrosion.measurements import Role
 from geo_corrosion.model.results import LevelResult
 from geo_corrosion.model.site import Level
-from geo_corrosion.model.surface import KindSurface
+from geo_corrosion.model.surface import KindSurface, with_role
 from geo_corrosion.quantities import bid_schedule
 from geo_corrosion.repair import layout_repairs
 from geo_corrosion.units import ReportUnits
-from geo_corrosion.zoning import ZONING_RULES, ZoningLayers, default_rules, zone
+from geo_corrosion.zoning import CLASSES_ROLE, ZONING_RULES, ZoningLayers, default_rules, zone
 
 __all__ = ["PlanningParams", "low_cover_mask", "low_cover_threshold_mm", "plan_level",
            "planning_params", "raster_region"]
@@ -121,7 +122,7 @@ def plan_level(level: Level, surfaces: dict[str, KindSurface], params: PlanningP
         Thresholds used and their sources (for run.json).
     """
     deck = level.deck
-    cover = surfaces.get("cover")
+    cover = with_role(surfaces, Role.COVER)
     for kind in ("delamination", "spall"):
         for f in level.overlays.get(kind, ()):
             if not f.geometry.intersects(level.slab):
@@ -144,12 +145,12 @@ def plan_level(level: Level, surfaces: dict[str, KindSurface], params: PlanningP
     low = (raster_region(low_cover, cover, deck)
            if cover is not None and low_cover is not None else shapely.Polygon())
     classes: dict[str, BaseGeometry] = {}
-    pot = surfaces.get("potential")
-    if pot is not None and pot.classes is not None and len(pot.classes):
-        from geo_corrosion.condition.classes import get_class_set
-
-        keys = get_class_set(pot.kind.class_set).keys if pot.kind.class_set else ()
-        for r in pot.classes.to_dict("records"):
+    # the zoning's condition classes are those of the kind playing CLASSES_ROLE (potential)
+    cls_surface = with_role(surfaces, CLASSES_ROLE)
+    if cls_surface is not None and cls_surface.classes is not None and len(cls_surface.classes):
+        cs = cls_surface.kind.class_set_object()
+        keys = cs.keys if cs is not None else ()
+        for r in cls_surface.classes.to_dict("records"):
             classes[keys[r["class_code"]] if keys else r["class"]] = r["geometry"]
 
     def _u(kind: str) -> BaseGeometry:

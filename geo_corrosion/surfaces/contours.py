@@ -23,38 +23,40 @@ from geo_corrosion.surfaces.grid import GridSpec
 
 __all__ = ["contour_levels", "contour_lines", "contour_bands", "check_contour_interval"]
 
-#: ASTM C876 maximum equipotential contour interval, mV [ASTM-C876-91 §6.2, from memory].
-MAX_POTENTIAL_INTERVAL_MV = 100.0
-_POTENTIAL_KINDS = ("potential", "half_cell", "half-cell", "hcp", "potential_mv")
-
-
-def check_contour_interval(interval_mv: float, kind: str) -> None:
+def check_contour_interval(interval: float, max_interval: float | None = None, *,
+                           unit: str = "", source: str = "", what: str = "") -> None:
     """Refuse contour intervals that are not allowed.
 
     Parameters
     ----------
-    interval_mv : float
-        Contour interval, in the kind's value unit (mV vs CSE for potentials).
-    kind : str
-        Measurement kind; potentials (``"potential"``, ``"half_cell"``, ...) may
-        not exceed 100 mV [ASTM-C876-91 §6.2, from memory].
+    interval : float
+        Contour interval, in the kind's value unit.
+    max_interval : float, optional
+        The largest interval the kind allows (a measurement kind's ``max_contour_interval``:
+        100 mV for half-cell potentials [ASTM-C876-91 §6.2, from memory]);
+        None: no limit.
+    unit, source, what : str
+        The unit of the interval, the source of the limit and what is contoured, for the
+        message.
 
     Raises
     ------
     KrigingError
-        If the interval is not a positive finite number, or exceeds 100 mV for potentials.
+        If the interval is not a positive finite number, or exceeds ``max_interval``.
 
     Examples
     --------
-    >>> check_contour_interval(50.0, "potential")
+    >>> check_contour_interval(50.0, 100.0, unit="mV", source="ASTM C876")
     """
-    iv = float(interval_mv)
+    iv = float(interval)
     if not (math.isfinite(iv) and iv > 0):
-        raise KrigingError(f"contour interval must be a positive number, got {interval_mv!r}")
-    if kind.lower() in _POTENTIAL_KINDS and iv > MAX_POTENTIAL_INTERVAL_MV:
+        raise KrigingError(f"contour interval must be a positive number, got {interval!r}")
+    if max_interval is not None and iv > max_interval:
+        u = f" {unit}" if unit else ""
+        by = f"{source} allows" if source else "the limit is"
         raise KrigingError(
-            f"a contour interval of {iv:g} mV is too coarse for half-cell potentials: ASTM C876 "
-            f"allows at most {MAX_POTENTIAL_INTERVAL_MV:g} mV; use 50 mV (the default) or 100 mV"
+            f"a contour interval of {iv:g}{u} is too coarse{' for ' + what if what else ''}: "
+            f"{by} at most {max_interval:g}{u}; use {max_interval:g}{u} or less"
         )
 
 
@@ -62,7 +64,7 @@ def contour_levels(
     array2d: NDArray[np.float64], *, interval: float, base: float = 0.0, max_levels: int = 10_000
 ) -> NDArray[np.float64]:
     """Levels ``base + i * interval`` strictly inside the data range (empty if none)."""
-    check_contour_interval(interval, "other")
+    check_contour_interval(interval)
     a = np.asarray(array2d, dtype=float)
     if not np.isfinite(a).any():
         return np.empty(0)

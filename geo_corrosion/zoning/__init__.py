@@ -2,7 +2,7 @@
 
 from geo_corrosion.plugins import Registry
 from geo_corrosion.zoning.apply import zone
-from geo_corrosion.zoning.base import ZONE_COLUMNS, ZoningLayers, ZoningRule
+from geo_corrosion.zoning.base import CLASSES_ROLE, ZONE_COLUMNS, ZoningLayers, ZoningRule
 from geo_corrosion.zoning.builtin import (
     BUILTIN_ZONING_RULES,
     ActiveCorrosionRule,
@@ -19,6 +19,7 @@ ZONING_RULES: Registry[type[ZoningRule]] = Registry(
 
 __all__ = [
     "BUILTIN_ZONING_RULES",
+    "CLASSES_ROLE",
     "ZONING_RULES",
     "ZONE_COLUMNS",
     "ActiveCorrosionRule",

@@ -21,8 +21,13 @@ from shapely.geometry import Polygon
 from shapely.geometry.base import BaseGeometry
 
 from geo_corrosion.errors import ZoningError
+from geo_corrosion.measurements.base import Role
 
-__all__ = ["ZONE_COLUMNS", "ZoningLayers", "ZoningRule"]
+__all__ = ["CLASSES_ROLE", "ZONE_COLUMNS", "ZoningLayers", "ZoningRule"]
+
+#: The role of the measurement kind whose class areas fill :attr:`ZoningLayers.classes`
+#: (the half-cell potential: ASTM C876 classes, probability of corrosion).
+CLASSES_ROLE: Role = Role.POTENTIAL
 
 #: Columns of the frame returned by :func:`zone`.
 ZONE_COLUMNS: tuple[str, ...] = ("level_id", "zone", "treatment", "bid_item", "order",
@@ -45,7 +50,8 @@ class ZoningLayers:
         Actively corroding concrete, polygonised by the caller from a
         probability-of-corrosion or condition-class raster.
     classes : mapping of str to geometry
-        Areas of each condition class (e.g. ``{"high": ..., "moderate": ...}``).
+        Areas of each condition class of the kind playing :data:`CLASSES_ROLE`, by class key
+        (e.g. ``{"high": ..., "uncertain": ...}``).
     low_cover : geometry
         Areas where cover is below the low-cover threshold.
     repairs : geometry

@@ -17,7 +17,7 @@ from shapely.geometry import Polygon
 from shapely.geometry.base import BaseGeometry
 
 from geo_corrosion.errors import ZoningError
-from geo_corrosion.zoning.base import ZoningLayers, ZoningRule
+from geo_corrosion.zoning.base import CLASSES_ROLE, ZoningLayers, ZoningRule
 
 __all__ = ["ActiveCorrosionRule", "BUILTIN_ZONING_RULES", "LowCoverRule", "NoActionRule",
            "RepairRule", "default_rules"]
@@ -82,10 +82,10 @@ class ActiveCorrosionRule(ZoningRule):
     treatment = "embedded galvanic anodes or corrosion inhibitor"
     bid_item = "TREAT-ACTIVE"
     description = "active corrosion (probability of corrosion or condition class) in sound concrete"
-    #: The measurement kind whose classes ``classes`` names: the pipeline fills
-    #: :attr:`ZoningLayers.classes` with the class areas of this kind's surface, keyed by the
-    #: keys of the kind's class set (``planning.plan_level``).
-    class_kind: ClassVar[str] = "potential"
+    #: The role of the measurement kind whose classes ``classes`` names: the pipeline fills
+    #: :attr:`ZoningLayers.classes` with the class areas of the surface of the kind playing
+    #: it, keyed by the keys of that kind's class set (``stages.plan_repairs.plan_level``).
+    class_role: ClassVar[str] = CLASSES_ROLE
 
     def __init__(self, *, classes: tuple[str, ...] = ("high",), name: str | None = None,
                  treatment: str | None = None, bid_item: str | None = "") -> None:
@@ -97,38 +97,39 @@ class ActiveCorrosionRule(ZoningRule):
 
     @classmethod
     def class_keys(cls) -> tuple[str, tuple[str, ...]]:
-        """Return the class set of :attr:`class_kind` and its keys (what ``classes`` may name).
+        """Return the class set of the kind playing :attr:`class_role` and its keys.
+
+        These are what ``classes`` may name (the built-in potential kind's first).
 
         Examples
         --------
         >>> ActiveCorrosionRule.class_keys()
         ('c876', ('high', 'uncertain', 'low'))
         """
-        from geo_corrosion.condition.classes import get_class_set
-        from geo_corrosion.measurements import get_kind
+        from geo_corrosion.measurements import registered_kind_with_role
 
-        kind = get_kind(cls.class_kind)
-        if kind.class_set is None:
+        kind = registered_kind_with_role(cls.class_role)
+        cs = kind.class_set_object() if kind is not None else None
+        if cs is None:
             return "", ()
-        cs = get_class_set(kind.class_set)
         return cs.name, tuple(cs.keys)
 
     @classmethod
     def check_parameters(cls, params: Mapping[str, Any], *, where: str) -> None:
-        """Check the common parameters and that ``classes`` lists keys of the potential classes.
+        """Check the common parameters and that ``classes`` lists keys of the role's classes.
 
         Raises
         ------
         ZoningError
             ``classes`` is not a list of strings, is empty, or names a key that the class set
-            of :attr:`class_kind` does not have (the message lists the valid keys).
+            of the kind playing :attr:`class_role` does not have (the message lists them).
         """
         super().check_parameters(params, where=where)
         if "classes" not in params:
             return
         v, w, label = params["classes"], f"{where}.classes", cls._label(params)
         set_name, keys = cls.class_keys()
-        valid = f"the {cls.class_kind} class set {set_name!r} has the keys: {', '.join(keys)}"
+        valid = f"the {cls.class_role} class set {set_name!r} has the keys: {', '.join(keys)}"
         if isinstance(v, str):
             raise ZoningError(f"{w}: {label}: expected a list of class keys, not the string "
                               f"{v!r}; write classes = [{v!r}] ({valid})")

@@ -94,7 +94,14 @@ def test_life_estimates_at_readings() -> None:
     grid = GridSpec(0.0, 0.0, 1.0, nx=4, ny=4)
     cover = SimpleNamespace(grid=grid, mean=np.full((4, 4), 50.0))
     frame = pd.DataFrame({"x_local": [1.5, 2.5], "y_local": [1.5, 2.5], "icorr_ua_cm2": [1.0, 0.0]})
-    out, summary = life_estimates(frame, cover, bar_diameter_mm=12.0)  # type: ignore[arg-type]
+    from geo_corrosion.measurements import get_kind
+
+    est = life_estimates(frame, cover, kind=get_kind("corrosion_rate"),  # type: ignore[arg-type]
+                         bar_diameter_mm=12.0)
+    assert est is not None  # the rate kind's hook gives estimates (the potential kind's: None)
+    assert life_estimates(frame, cover, kind=get_kind("potential"),  # type: ignore[arg-type]
+                          bar_diameter_mm=12.0) is None
+    out, summary = est
     # [Alonso-Andrade-1998, from memory]: c 50 mm, phi 12 mm -> 46.36 um; at 1 uA/cm2
     # (11.6 um/yr, derived) -> 46.36 / 11.6 = 4.0 years
     assert out["time_to_cracking_yr"].iloc[0] == pytest.approx(46.36 / 11.6, rel=2e-3)

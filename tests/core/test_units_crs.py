@@ -10,7 +10,7 @@ import pytest
 from geo_corrosion.config import ControlPoint
 from geo_corrosion.crs import LocalGrid, fit_similarity, site_crs
 from geo_corrosion.errors import CRSError, GeoreferenceError, SiteFileError, UnitError
-from geo_corrosion.units import convert, parse_length, report_units
+from geo_corrosion.units import convert, convert_with, normalize_unit, parse_length, report_units
 
 
 def test_res02_resistivity_units() -> None:
@@ -80,3 +80,26 @@ def test_fit_rejects_bad_control_points() -> None:
            for i, (x, y) in enumerate([(0, 0), (100, 0), (0, 50)])]
     with pytest.raises(GeoreferenceError, match="scale"):
         fit_similarity(cps, "ft", "m")
+
+
+def test_accepted_spelling_unknown_to_the_module_is_accepted() -> None:
+    # common practice: a message never lists a unit that the same lookup refuses (it said
+    # "unknown unit '%'; expected one of: %")
+    assert normalize_unit(" % ", accepted=("%",)) == "%"
+    with pytest.raises(UnitError, match=r"unknown unit 'ppb'; expected one of: %, ppm$"):
+        normalize_unit("ppb", accepted=("%", "ppm"))
+    # 1 ohm.m = 0.1 kOhm.cm (exact: 1 ohm.m = 100 ohm.cm), also through an alias of this module
+    assert convert_with([800.0], "Ω·m", {"kohm.cm": 1.0, "ohm.m": 0.1}).tolist() == [80.0]
+
+
+def test_builtin_kinds_convert_exactly_as_before() -> None:
+    # the built-in kinds' unit tables come from this module's factors: the same numbers,
+    # bit for bit, as convert() (the sample site's outputs must not change)
+    from geo_corrosion.measurements import BUILTIN_KINDS
+
+    v = np.array([-0.2512, 1.0, 37.3, 152.0])
+    for k in BUILTIN_KINDS.values():
+        kind = k()
+        assert set(kind.unit_factors()) == set(kind.accepted_units)
+        for u in kind.accepted_units:
+            assert np.array_equal(kind.to_canonical(v, u), convert(v, u, kind.canonical_unit))

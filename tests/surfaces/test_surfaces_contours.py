@@ -30,12 +30,23 @@ def test_hcp12_levels_on_ramp(ramp):
 
 
 def test_interval_checks():
-    with pytest.raises(KrigingError, match="ASTM C876"):
-        check_contour_interval(150.0, "potential")  # [ASTM-C876-91 §6.2, from memory]
-    check_contour_interval(100.0, "potential")  # the 100 mV maximum itself is allowed
-    check_contour_interval(150.0, "resistivity")  # the limit is for potentials only
+    # the limit is the kind's: the potential kind's 100 mV [ASTM-C876-91 §6.2, from memory]; the message names the limit's source
+    with pytest.raises(KrigingError, match="ASTM C876 allows at most 100 mV"):
+        check_contour_interval(150.0, 100.0, unit="mV", source="ASTM C876")
+    check_contour_interval(100.0, 100.0, unit="mV")  # the 100 mV maximum itself is allowed
+    check_contour_interval(150.0)  # no limit: only positivity (common practice)
     with pytest.raises(KrigingError, match="positive"):
-        check_contour_interval(0.0, "resistivity")
+        check_contour_interval(0.0)
+
+
+def test_interval_limit_comes_from_the_kind():
+    # [ASTM-C876-91 §6.2, from memory]: potentials at most 100 mV; other kinds
+    # declare no limit
+    from geo_corrosion.measurements import BUILTIN_KINDS, get_kind
+
+    assert get_kind("potential").max_contour_interval == 100.0
+    assert [n for n, k in BUILTIN_KINDS.items() if k.max_contour_interval is not None] == [
+        "potential"]
 
 
 def test_bands_partition_the_surface(ramp):

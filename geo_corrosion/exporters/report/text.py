@@ -267,11 +267,23 @@ def _pct(f: Any) -> str:
     return f"{100.0 * float(f):.0f}{_NBSP}%"
 
 
+def _statement_lead(kind: str) -> str:
+    """Return the lead a kind's threshold gives its statement ("" if none or kind unknown)."""
+    from geo_corrosion.measurements import get_kind
+
+    try:
+        t = get_kind(kind).threshold
+    except Exception:  # noqa: BLE001 - a run's plugin kind not installed here: the plain lead
+        return ""
+    return t.statement if t is not None else ""
+
+
 def _beyond_statement(kind: str, st: AreaBeyondThreshold, units: ReportUnits) -> str:
     label = kind.replace("_", " ")
     meaning = str(st.meaning or "beyond the threshold")
-    if kind == "potential":
-        lead = f"The area likely to be corroding ({label} {meaning})"
+    statement = _statement_lead(kind)
+    if statement:
+        lead = f"{statement} ({label} {meaning})"
     elif meaning.startswith(label):
         lead = f"The area with {meaning}"
     else:

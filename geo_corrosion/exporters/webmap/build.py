@@ -42,6 +42,7 @@ from geo_corrosion.model.manifest import (
     read_run,
     result_manifest,
 )
+from geo_corrosion.measurements import MeasurementKind, Role
 
 if TYPE_CHECKING:
     import folium
@@ -66,8 +67,6 @@ COLORS = {"slab": "#303030", "delamination": "#D55E00", "spall": "#CC79A7",
           "flag": "#000000"}
 NO_ACTION_COLOR = "#AAAAAA"
 ZONE_COLORS = ("#0072B2", "#009E73", "#56B4E9", "#E69F00", "#CC79A7", "#F0E442", "#D55E00")
-#: +1: larger values are more severe; -1: smaller (more negative) values are.
-SEVERITY_DIRECTION = {"potential": -1, "resistivity": -1, "corrosion_rate": 1, "cover": -1}
 _HEX = re.compile(r"^#[0-9A-Fa-f]{6}$")
 
 
@@ -244,15 +243,18 @@ def _level(b: _Builder, run_dir: Path, lid: str, info: LevelRecord, layers: RunL
     for kind, kv in kinds.items():
         unit = kv.unit
         label = _e(kind.replace("_", " "))
-        d = SEVERITY_DIRECTION.get(kind, 1)
+        mk = _kind(kind)
+        d = mk.severity_direction if mk is not None else 1
+        # the potential surface is the one shown when the map opens
+        shown = mk is not None and Role.POTENTIAL in mk.roles
         tif = run_dir / "rasters" / f"{lid}_{kind}.tif"
         ov = _surface_overlay(tif, d) if tif.is_file() else None
         if ov is not None:
             url, bounds, lo, hi = ov
             layer = folium.raster_layers.ImageOverlay(
                 url, bounds=bounds, name=f"{lname}: {label} surface",
-                show=first and kind == "potential")
-            b.add(lid, layer, kind == "potential",
+                show=first and shown)
+            b.add(lid, layer, shown,
                   _gradient_legend(f"{lname}: kriged {label}", lo, hi, unit, d))
         cont = layers.get(f"{lid}_contours_{kind}")
         if cont is not None:
@@ -334,14 +336,6 @@ def _level(b: _Builder, run_dir: Path, lid: str, info: LevelRecord, layers: RunL
     _readings(b, lid, lname, layers, kinds)
 
 
-#: Layer-control labels and legend titles of the class layers (kind -> label, title).
-CLASS_LABELS = {
-    "potential": ("ASTM C876 classes", "ASTM C876 classes (probability of corrosion)"),
-    "resistivity": ("resistivity classes", "resistivity classes (corrosion risk)"),
-    "corrosion_rate": ("corrosion rate classes", "corrosion rate levels"),
-}
-
-
 def _class_layers(lid: str, kinds: dict[str, KindRecord], layers: RunLayers
                   ) -> list[tuple[str, str, str]]:
     """(GeoPackage layer, layer-control label, legend title) of a level's class layers."""
@@ -350,7 +344,9 @@ def _class_layers(lid: str, kinds: dict[str, KindRecord], layers: RunLayers
         name = f"{lid}_classes_{kind}"
         if name not in layers.names:
             continue
-        label, title = CLASS_LABELS.get(kind, (f"{kind.replace('_', ' ')} classes",) * 2)
+        mk = _kind(kind)
+        titles = mk.class_layer_titles if mk is not None else None
+        label, title = titles or (f"{kind.replace('_', ' ')} classes",) * 2
         out.append((name, _e(label), _e(title)))
     if f"{lid}_combined_classes" in layers.names:
         out.append((f"{lid}_combined_classes", "combined condition",
@@ -381,15 +377,24 @@ def _zone_of(rep: gpd.GeoDataFrame, zones: gpd.GeoDataFrame | None) -> list[str]
     return out
 
 
-def _value_column(kind: str) -> str | None:
-    """The value column of a measurement kind (from the plugin registry)."""
-    from geo_corrosion.measurements import MEASUREMENTS
+def _kind(name: str) -> MeasurementKind | None:
+    """Return the measurement kind of a run's kind name; None if unknown or broken.
+
+    The map is built from a run folder, perhaps where a plugin kind of the run is not
+    installed: its layers then get the defaults (no readings layer).
+    """
+    from geo_corrosion.measurements import get_kind
 
     try:
-        k = MEASUREMENTS.get(kind)
-        return str(getattr(k, "value_column", "")) or None
-    except Exception:  # noqa: BLE001 - an unknown or broken kind: no readings layer
+        return get_kind(name)
+    except Exception:  # noqa: BLE001 - an unknown or broken kind: defaults
         return None
+
+
+def _value_column(kind: str) -> str | None:
+    """The value column of a measurement kind (from the plugin registry)."""
+    k = _kind(kind)
+    return (str(k.value_column) or None) if k is not None else None
 
 
 def _readings(b: _Builder, lid: str, lname: str, layers: RunLayers,
@@ -410,7 +415,8 @@ def _readings(b: _Builder, lid: str, lname: str, layers: RunLayers,
         v = g[col].to_numpy(float)
         ok = np.isfinite(v)
         lo, hi = (np.percentile(v[ok], [2, 98]) if ok.any() else (0.0, 1.0))
-        d = SEVERITY_DIRECTION.get(kind, 1)
+        mk = _kind(kind)
+        d = mk.severity_direction if mk is not None else 1
         t = np.clip((np.nan_to_num(v, nan=lo) - lo) / max(hi - lo, 1e-9), 0, 1)
         t = np.round((1 - t if d < 0 else t) * 8) / 8  # 9 colours: compact page
         g["_c"] = [_hex(c) for c in ramp_colors(t)]
