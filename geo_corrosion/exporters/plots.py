@@ -52,7 +52,8 @@ class PlotsExporter(Exporter):
                         quantity=s.kind.label.split(" (")[0], plan_unit=lr.level.unit,
                         contour_interval=s.interval if s.kind.class_map_contours else None,
                         polygons=[f.geometry for f in lr.level.overlays.get("delamination", ())],
-                        origin="upper", title=f"{lname}: {s.kind.label.split(' (')[0].lower()} classes"))
+                        origin="upper",
+                        title=f"{lname}: {s.kind.label.split(' (')[0].lower()} classes"))
             # the potential plots, named after the role: the kind playing it, whatever its name
             pot = with_role(lr.surfaces, Role.POTENTIAL)
             if pot is not None:
@@ -65,11 +66,8 @@ class PlotsExporter(Exporter):
                 if res is not None:
                     s = pot
                     r = lr.readings[res.kind.name]
-                    col = np.clip(((r["x_local"] - s.grid.x0) / s.grid.cell).astype(int), 0,
-                                  s.grid.nx - 1)
-                    row = np.clip(((s.grid.y0 + s.grid.ny * s.grid.cell - r["y_local"])
-                                   / s.grid.cell).astype(int), 0, s.grid.ny - 1)
-                    pot_at = s.mean[row.to_numpy(), col.to_numpy()]
+                    pot_at = s.values_at(r["x_local"].to_numpy(float),
+                                         r["y_local"].to_numpy(float))
                     ok = np.isfinite(pot_at)
                     if ok.sum() >= 3:
                         paths.append(plots.plot_potential_vs_resistivity(

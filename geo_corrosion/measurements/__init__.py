@@ -33,9 +33,11 @@ __all__ = [
 ]
 
 
-def get_kind(name_or_kind: "str | type[MeasurementKind] | MeasurementKind", *, where: str = "") -> MeasurementKind:
+def get_kind(name_or_kind: str | type[MeasurementKind] | MeasurementKind, *,
+             where: str = "") -> MeasurementKind:
     """Return an instance of a measurement kind by registry name or class."""
-    k = MEASUREMENTS.get(name_or_kind, where=where) if isinstance(name_or_kind, str) else name_or_kind
+    k = (MEASUREMENTS.get(name_or_kind, where=where) if isinstance(name_or_kind, str)
+         else name_or_kind)
     return k() if isinstance(k, type) else k
 
 

@@ -366,6 +366,7 @@ def numeric_column(frame: pd.DataFrame, name: str) -> NDArray[np.float64]:
 
 def location_label(frame: pd.DataFrame, i: int | np.integer[Any]) -> str:
     """Return reading ``i`` for messages: ``"readings/x.csv line 5 (point P3)"``."""
+    i = int(i)
     where = str(frame["where"].iat[i]) if "where" in frame else f"reading {i + 1}"
     pid = str(frame["point_id"].iat[i]) if "point_id" in frame else ""
     return f"{where} (point {pid})" if pid else where

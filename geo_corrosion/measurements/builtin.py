@@ -611,8 +611,10 @@ def _fit_survey_transients(
     }).drop_duplicates("location_id", keep="first")
     strict = bool(survey.options.get("strict_linearity", False))
     fits = fit_transients(tr[tr["location_id"].isin(wanted)], locations=locs, strict=strict)
-    by_loc = {str(r["location_id"]): r for r in fits.to_dict("records")}
-    record = {
+    by_loc: dict[str, dict[str, Any]] = {
+        str(r["location_id"]): {str(k): v for k, v in r.items()}
+        for r in fits.to_dict("records")}
+    record: dict[str, Any] = {
         "correction": "R_p from galvanostatic pulse transients (Randles fit)",
         "file": path.name,
         "locations_fitted": int((fits["flag"] != "error").sum()),
@@ -638,9 +640,10 @@ def _read_survey_sweeps(survey: SurveyConfig) -> tuple[dict[str, pd.DataFrame], 
         raise IngestError(f"{path.name}: sweep file lacks column(s) {sorted(missing)}; expected "
                           "location_id,e_mv,i_ua")
     df["location_id"] = df["location_id"].astype(str).str.strip()
-    groups = {k: g for k, g in df.groupby("location_id", sort=False)}
+    groups = {str(k): g for k, g in df.groupby("location_id", sort=False)}
     return groups, {
-        "correction": "R_p from potentiostatic sweeps (slope of E(I) near the open-circuit potential)",
+        "correction": "R_p from potentiostatic sweeps "
+                      "(slope of E(I) near the open-circuit potential)",
         "file": path.name, "locations": len(groups),
         "source": "slope at E_corr [ASTM-G59]; linearity [Andrade-Alonso-2004, from memory]",
     }

@@ -7,7 +7,7 @@ combined classes and condition statistics.  Geometry is in the level's local gri
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -19,7 +19,20 @@ from shapely.geometry.base import BaseGeometry
 from geo_corrosion.measurements import MeasurementKind
 from geo_corrosion.surfaces import GridSpec, VariogramFit
 
-__all__ = ["KindSurface", "LevelCondition", "LevelSurfaces", "with_role"]
+__all__ = ["grid_values_at", "KindSurface", "LevelCondition", "LevelSurfaces", "with_role"]
+
+
+def grid_values_at(grid: GridSpec, values: NDArray[np.float64], x_local: NDArray[np.float64],
+                   y_local: NDArray[np.float64]) -> NDArray[np.float64]:
+    """Return the grid's value in the cell under each point (local grid coordinates).
+
+    Points off the grid take the nearest edge cell; cells outside the mask give NaN.
+    """
+    x = np.asarray(x_local, dtype=np.float64)
+    y = np.asarray(y_local, dtype=np.float64)
+    col = np.clip(((x - grid.x0) / grid.cell).astype(int), 0, grid.nx - 1)
+    row = np.clip(((grid.y0 + grid.ny * grid.cell - y) / grid.cell).astype(int), 0, grid.ny - 1)
+    return np.asarray(values[row, col], dtype=np.float64)
 
 
 @dataclass(frozen=True)
@@ -56,10 +69,18 @@ class KindSurface:
     residuals: pd.DataFrame
     n_readings: int
     interval: float
-    lines: list[tuple[float, BaseGeometry]] = field(default_factory=list)
-    bands: list[tuple[float, float, BaseGeometry]] = field(default_factory=list)
+    lines: Sequence[tuple[float, BaseGeometry]] = field(default_factory=list)
+    bands: Sequence[tuple[float, float, BaseGeometry]] = field(default_factory=list)
     classes: pd.DataFrame | None = None
     directional: dict[str, Any] = field(default_factory=dict)
+
+    def values_at(self, x_local: NDArray[np.float64], y_local: NDArray[np.float64]
+                  ) -> NDArray[np.float64]:
+        """Return the surface's value in the cell under each point (local grid coordinates).
+
+        Points off the grid take the nearest edge cell; cells outside the mask give NaN.
+        """
+        return grid_values_at(self.grid, self.mean, x_local, y_local)
 
 
 @dataclass

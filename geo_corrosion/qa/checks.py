@@ -539,8 +539,8 @@ def _repeat_flags(r: _Readings, potential: bool, unit: str, repeat_mv: float, re
         return _empty_flags()
     g = df.groupby("pid", sort=False)
     d = (g["v"].transform("max") - g["v"].transform("min")).to_numpy(dtype=float)
-    spread = np.hypot(g["x"].transform("max") - g["x"].transform("min"),
-                      g["y"].transform("max") - g["y"].transform("min")).to_numpy(dtype=float)
+    spread = np.hypot((g["x"].transform("max") - g["x"].transform("min")).to_numpy(dtype=float),
+                      (g["y"].transform("max") - g["y"].transform("min")).to_numpy(dtype=float))
     members = g["pos"].agg(list)
     heads = [f"{r.where[p]}: point_id {pid!r} read {len(members[pid])} times in this survey "
              f"(also {', '.join(str(r.where[q]) for q in members[pid] if q != p)}); "
@@ -669,7 +669,7 @@ def check_level(
     QAError
         If the frames are of different levels, repeat a survey, or break the contract.
     """
-    if isinstance(frames, pd.DataFrame):
+    if isinstance(frames, pd.DataFrame):  # type: ignore[unreachable]  # a caller's slip, typed away
         raise QAError("check_level expects a sequence of survey frames, not one frame")
     frames = [f for f in frames if len(f)]
     if len(frames) < 2:

@@ -38,7 +38,13 @@ from geo_corrosion.condition.probability import area_interval, exceedance_probab
 from geo_corrosion.errors import ConditionError
 from geo_corrosion.measurements import MeasurementKind, Role
 from geo_corrosion.model.site import Level, Survey
-from geo_corrosion.model.surface import KindSurface, LevelCondition, LevelSurfaces, with_role
+from geo_corrosion.model.surface import (
+    KindSurface,
+    LevelCondition,
+    LevelSurfaces,
+    grid_values_at,
+    with_role,
+)
 from geo_corrosion.units import LENGTH_TO_M
 
 __all__ = ["assess_condition", "assess_level", "log_space_moments", "life_estimates",
@@ -70,11 +76,8 @@ def value_at_readings(surface: KindSurface, frame: pd.DataFrame) -> NDArray[np.f
 
     Readings off the grid take the nearest edge cell; cells outside the mask give NaN.
     """
-    g = surface.grid
-    col_i = np.clip(((frame["x_local"] - g.x0) / g.cell).astype(int), 0, g.nx - 1).to_numpy()
-    row_i = np.clip(((g.y0 + g.ny * g.cell - frame["y_local"]) / g.cell).astype(int), 0,
-                    g.ny - 1).to_numpy()
-    return np.asarray(surface.mean[row_i, col_i], dtype=float)
+    return grid_values_at(surface.grid, surface.mean, frame["x_local"].to_numpy(float),
+                          frame["y_local"].to_numpy(float))
 
 
 def life_estimates(frame: pd.DataFrame, cover: KindSurface | None, *, kind: MeasurementKind,

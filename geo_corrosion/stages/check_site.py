@@ -104,6 +104,6 @@ def refuse_unrunnable(flags: pd.DataFrame) -> None:
     """Raise :class:`~geo_corrosion.errors.QAError` listing the errors when the site cannot run."""
     if len(flags) and not qa.runnable(flags):
         errs = flags[flags["severity"] == "error"]
-        lines = "\n".join(f"  - {r.where or r.survey_id}: {r.message}"
+        lines = "\n".join(f"  - {r.where or r.survey_id!s}: {r.message!s}"
                           for r in errs.itertuples())
         raise QAError(f"the site cannot be run; QA found {len(errs)} error(s):\n{lines}")

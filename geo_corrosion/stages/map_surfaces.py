@@ -70,7 +70,8 @@ def mappable_readings(surveys: list[Survey], flags: pd.DataFrame) -> pd.DataFram
         sel = flags["severity"].isin(EXCLUDING_SEVERITIES) | flags["rule"].isin(EXCLUDING_RULES)
         bad = set(flags.loc[sel & (flags["reading_id"] != ""), "reading_id"])
     keep = ~df["reading_id"].isin(bad) & np.isfinite(df[col].to_numpy(float))
-    return df.loc[keep].reset_index(drop=True)
+    out: pd.DataFrame = df.loc[keep].reset_index(drop=True)
+    return out
 
 
 def merge_repeats(readings: pd.DataFrame, value_column: str) -> pd.DataFrame:
@@ -101,7 +102,8 @@ def directional_variograms(
     (``[run.variogram.<kind>] anisotropy_ratio, anisotropy_angle_deg``).
     """
     zz = np.log(z) if kind.krige_transform == "log" else z
-    max_lag = float(fit.experimental.lags.max()) if len(fit.experimental.lags) else None
+    ev0 = fit.experimental  # None when the fit fell back (too few readings to estimate)
+    max_lag = float(ev0.lags.max()) if ev0 is not None and len(ev0.lags) else None
     out: dict[str, Any] = {}
     means = {}
     for label, ang in (("along_x", 0.0), ("along_y", 90.0)):

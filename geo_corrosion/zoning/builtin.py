@@ -90,7 +90,7 @@ class ActiveCorrosionRule(ZoningRule):
     def __init__(self, *, classes: tuple[str, ...] = ("high",), name: str | None = None,
                  treatment: str | None = None, bid_item: str | None = "") -> None:
         super().__init__(name=name, treatment=treatment, bid_item=bid_item)
-        if isinstance(classes, str):
+        if isinstance(classes, str):  # type: ignore[unreachable]  # a site file's slip, typed away
             raise ZoningError("active_corrosion: 'classes' is a list of class names, "
                               f"not the string {classes!r}")
         self.classes = tuple(classes)

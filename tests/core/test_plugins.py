@@ -70,6 +70,7 @@ def test_import_is_light() -> None:
     import sys
 
     code = ("import sys, geo_corrosion, geo_corrosion.config, geo_corrosion.units;"
-            "print(','.join(m for m in ('folium','ezdxf','openpyxl','matplotlib') if m in sys.modules))")
+            "print(','.join(m for m in ('folium','ezdxf','openpyxl','matplotlib')"
+            " if m in sys.modules))")
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == ""

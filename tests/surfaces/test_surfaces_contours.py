@@ -30,7 +30,8 @@ def test_hcp12_levels_on_ramp(ramp):
 
 
 def test_interval_checks():
-    # the limit is the kind's: the potential kind's 100 mV [ASTM-C876-91 §6.2, from memory]; the message names the limit's source
+    # the limit is the kind's: the potential kind's 100 mV [ASTM-C876-91 §6.2, from memory];
+    # the message names the limit's source
     with pytest.raises(KrigingError, match="ASTM C876 allows at most 100 mV"):
         check_contour_interval(150.0, 100.0, unit="mV", source="ASTM C876")
     check_contour_interval(100.0, 100.0, unit="mV")  # the 100 mV maximum itself is allowed
