@@ -1,4 +1,4 @@
-"""DEVELOPERS.md's example plugin kind, chloride at bar depth, through the whole pipeline.
+"""DEVELOPERS.md's example plugin kind, chloride at bar depth, through `geo-corrosion run`.
 
 The kind is defined here, outside the package, and registered through an in-memory
 :class:`importlib.metadata.EntryPoint` of the group ``geo_corrosion.measurements``, as an
@@ -125,8 +125,10 @@ def plugin_registered() -> Iterator[None]:
 @pytest.fixture(scope="module")
 def chloride_run(plugin_registered: None, tmp_path_factory: pytest.TempPathFactory
                  ) -> tuple[Path, np.ndarray]:
-    """Run the synthetic site with a chloride survey through ``pipeline.run``."""
-    from geo_corrosion.pipeline import run
+    """Run the synthetic site with a chloride survey through ``geo-corrosion run``."""
+    from click.testing import CliRunner
+
+    from geo_corrosion.cli.main import cli
     from geo_corrosion.testing import make_synthetic_site
 
     root = tmp_path_factory.mktemp("chloride")
@@ -134,7 +136,8 @@ def chloride_run(plugin_registered: None, tmp_path_factory: pytest.TempPathFacto
     values = _chloride_csv(root / "site" / "readings" / "chloride.csv")
     site.write_text(site.read_text() + CHLORIDE_SURVEY)
     out = root / "out"
-    run(site, out)
+    res = CliRunner().invoke(cli, ["run", str(site.parent), "--out", str(out), "--quiet"])
+    assert res.exit_code == 0, res.output
     return out, values
 
 
