@@ -647,7 +647,8 @@ class LayoutParams:
         help="Rule for the clearance under exposed bars [ICRI-310.1R-2008; UFGS-03931 §3.3.1.4]")
     full_depth_fraction: float = param(
         0.5, gt=0, le=1,
-        help="A removal deeper than this fraction of the slab thickness is full depth (common practice)")
+        help="A removal deeper than this fraction of the slab thickness is full depth "
+             "(common practice)")
 
     def __post_init__(self) -> None:
         _check_declared(self, "repair layout", RepairError)

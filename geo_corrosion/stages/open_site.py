@@ -15,7 +15,7 @@ from shapely.geometry import MultiPolygon, Polygon
 from geo_corrosion.config import LevelConfig, RunParams, SiteConfig, SurveyConfig
 from geo_corrosion.crs import LocalGrid
 from geo_corrosion.errors import IngestError, SiteFileError
-from geo_corrosion.io.plans import read_lines, read_polygons
+from geo_corrosion.io.plans import Feature, read_lines, read_polygons
 from geo_corrosion.io.readings import read_readings
 from geo_corrosion.measurements import get_kind
 from geo_corrosion.model.site import Level, Site, Survey
@@ -65,7 +65,7 @@ def read_level(cfg: LevelConfig, site: SiteConfig) -> Level:
                                                            what="exclusions")
     )
     joints = tuple(read_lines(cfg.joints, grid, site_crs=site.crs)) if cfg.joints else ()
-    overlays: dict[str, list] = {}
+    overlays: dict[str, list[Feature]] = {}
     for ov in cfg.overlays:
         if ov.kind == "crack":
             feats = read_lines(ov.ref, grid, site_crs=site.crs)

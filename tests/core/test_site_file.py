@@ -1,4 +1,7 @@
-"""The site file and the bad-input cases of issue 2: clear message, non-zero exit, nothing written."""
+"""The site file and the bad-input cases of issue 2.
+
+Each bad input: a clear message, a non-zero exit, nothing written.
+"""
 
 from __future__ import annotations
 
@@ -12,8 +15,7 @@ from geo_corrosion.errors import GeoCorrosionError
 from geo_corrosion.pipeline import run
 from geo_corrosion.stages.open_site import open_site
 from geo_corrosion.stages.read_site import read_site
-
-from .conftest import edit
+from tests.core.conftest import edit
 
 
 def test_reads_synthetic_site(site_dir: Path) -> None:
@@ -171,7 +173,8 @@ def test_potential_survey_needs_electrode(site_dir: Path) -> None:
 
 
 def test_survey_of_undeclared_level(site_dir: Path) -> None:
-    edit(site_dir / "site.toml", 'level = "D1"\nkind = "resistivity"', 'level = "D9"\nkind = "resistivity"')
+    edit(site_dir / "site.toml", 'level = "D1"\nkind = "resistivity"',
+         'level = "D9"\nkind = "resistivity"')
     _fails(site_dir, "no level 'D9'")
 
 
@@ -245,7 +248,8 @@ def test_open_delamination_outline_is_reported(site_dir: Path) -> None:
     _fails(site_dir, "open line(s)", "DELAM", "Close each outline")
 
 
-def test_nearly_closed_and_self_intersecting_outlines_repaired(site_dir: Path, tmp_path: Path) -> None:
+def test_nearly_closed_and_self_intersecting_outlines_repaired(site_dir: Path,
+                                                               tmp_path: Path) -> None:
     from geo_corrosion.errors import GeometryWarning
 
     def draw(msp) -> None:  # type: ignore[no-untyped-def]
@@ -275,7 +279,8 @@ def test_decimal_comma_file_with_a_stray_point(site_dir: Path) -> None:
         ";".join(v.replace(".", ",") for v in ln.split(",")) for ln in lines[1:]]
     out[3] = out[3].rsplit(";", 1)[0] + ";12.5"  # a '.' in a decimal-comma file: ambiguous
     p.write_text("\n".join(out) + "\n")
-    edit(site_dir / "site.toml", 'unit = "kohm.cm"', 'unit = "kohm.cm"\nseparator = ";"\ndecimal = ","')
+    edit(site_dir / "site.toml", 'unit = "kohm.cm"',
+         'unit = "kohm.cm"\nseparator = ";"\ndecimal = ","')
     _fails(site_dir, "resistivity.csv line 4", "'12.5'", "decimal separator is ','")
     out[3] = out[3].rsplit(";", 1)[0] + ";1.234,5"  # a thousands mark is fine
     p.write_text("\n".join(out) + "\n")

@@ -10,21 +10,22 @@ import pytest
 from geo_corrosion.errors import GeoCorrosionError, SiteFileError
 from geo_corrosion.pipeline import run
 from geo_corrosion.stages.read_site import read_site
-
-from .conftest import edit
+from tests.core.conftest import edit
 
 
 def test_declared_zoning_rules_and_anodes(site_dir: Path, tmp_path: Path) -> None:
     edit(site_dir / "site.toml", "[run]\n", '[run]\nanode_spacing = "24 in"\n')
     (site_dir / "site.toml").write_text((site_dir / "site.toml").read_text() +
-                                        '\n[[zoning]]\nrule = "repair"\n[[zoning]]\nrule = "no_action"\n')
+                                        '\n[[zoning]]\nrule = "repair"\n'
+                                        '[[zoning]]\nrule = "no_action"\n')
     r = run(site_dir, tmp_path / "out", exporters=("quantities",))
     items = set(r.schedule["item"])
     assert "TREAT-ACTIVE" not in items  # the active-corrosion rule was not declared
     zones = set(r.levels["D1"].zones["zone"])
     assert zones <= {"repair", "no_action"}
     sched = pd.read_csv(tmp_path / "out" / "quantities.csv")
-    anodes = sched[(sched["unit"] == "EA") & (sched["line"] == "base") & (sched["level_id"] == "ALL")]
+    anodes = sched[(sched["unit"] == "EA") & (sched["line"] == "base")
+                   & (sched["level_id"] == "ALL")]
     assert len(anodes) == 1
     # count = ceil(saw-cut perimeter / spacing) summed over repairs (common practice)
     import math
@@ -107,7 +108,8 @@ def test_life_estimates_at_readings() -> None:
     assert out["time_to_cracking_yr"].iloc[0] == pytest.approx(46.36 / 11.6, rel=2e-3)
     assert np.isnan(out["time_to_cracking_yr"].iloc[1])
     # 10 years at 1 uA/cm2: 0.116 mm off the radius of a 12 mm bar -> 1 - (11.768/12)^2 = 3.83 %
-    assert out["section_loss_10yr_pct"].iloc[0] == pytest.approx(100 * (1 - (11.768 / 12) ** 2), rel=5e-3)
+    assert out["section_loss_10yr_pct"].iloc[0] == pytest.approx(
+        100 * (1 - (11.768 / 12) ** 2), rel=5e-3)
     assert summary["readings_needing_bar_review"] == 0
     # a stage never changes its input (DEVELOPERS.md, "Stages"): the columns are on the copy
     assert "time_to_cracking_yr" not in frame and list(frame.columns) == ["x_local", "y_local",

@@ -18,8 +18,7 @@ from geo_corrosion.config import TABLES, LayoutParams, RunParams, render_docs, s
 from geo_corrosion.errors import RepairError, SiteFileError
 from geo_corrosion.stages.read_site import read_site
 from geo_corrosion.units import parse_length
-
-from .conftest import edit
+from tests.core.conftest import edit
 
 ROOT = Path(__file__).resolve().parents[2]
 DOCS = ROOT / "docs" / "site-file.md"
@@ -105,8 +104,9 @@ def test_writing_every_default_out_gives_the_same_config(site_dir: Path) -> None
 
 
 def test_declared_defaults_as_held() -> None:
-    # the defaults of before the declaration ([ICRI-310.1R-2008, from memory] and common practice): 150 mm margin, 300 mm gap
-    # and size, 3/4 in = 19.05 mm saw cut (1 in = 25.4 mm exactly), 1 ft = 0.3048 m cells
+    # the defaults of before the declaration ([ICRI-310.1R-2008, from memory] and common
+    # practice): 150 mm margin, 300 mm gap and size, 3/4 in = 19.05 mm saw cut
+    # (1 in = 25.4 mm exactly), 1 ft = 0.3048 m cells
     lay, run = LayoutParams(), RunParams()
     assert (lay.margin_mm, lay.merge_gap_mm, lay.min_size_mm) == (150.0, 300.0, 300.0)
     assert (lay.sawcut_depth_mm, lay.bar_diameter_mm, lay.max_aggregate_mm) == (19.05, 16.0, 9.5)
@@ -155,7 +155,8 @@ def test_layout_is_read_once_and_used_as_read(site_dir: Path,
 
 def test_layout_params_are_reexported_and_give_the_library_defaults() -> None:
     # compatibility: geo_corrosion.repair.LayoutParams is the schema's; depth_class's defaults
-    # are LayoutParams' ([ICRI-310.1R-2008] 3/4 in saw cut, to confirm; 3/8 in aggregate, common practice)
+    # are LayoutParams' ([ICRI-310.1R-2008] 3/4 in saw cut, to confirm; 3/8 in aggregate,
+    # common practice)
     import inspect
 
     from geo_corrosion.repair import LayoutParams as Reexported

@@ -41,7 +41,8 @@ def _xss_site(root: Path) -> Path:
                      ('name = "Test deck"', f'name = "{XSS}"'),
                      ('{ kind = "spall", path = "sounding/sounding.dxf", layer = "SPALL" } ]',
                       '{ kind = "spall", path = "sounding/sounding.dxf", layer = "SPALL" },\n'
-                      '             { kind = "delamination", path = "sounding/labelled.geojson" } ]')):
+                      '             '
+                      '{ kind = "delamination", path = "sounding/labelled.geojson" } ]')):
         assert old in text, old
         text = text.replace(old, new)
     site.write_text(text)
@@ -108,7 +109,8 @@ def browser() -> Iterator[Any]:
         b.close()
 
 
-def open_page(browser: Any, path: Path, *, width: int = 1400, height: int = 900) -> tuple[Any, PageLog]:
+def open_page(browser: Any, path: Path, *, width: int = 1400,
+              height: int = 900) -> tuple[Any, PageLog]:
     """Open a local file with the network blocked; wait until the map's script ran."""
     log = PageLog()
     ctx = browser.new_context(viewport={"width": width, "height": height})

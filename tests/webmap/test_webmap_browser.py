@@ -123,7 +123,8 @@ def test_script_tag_in_input_is_shown_as_text(xss_page: Any, xss_run: Path) -> N
 def test_toggling_a_layer(xss_page: Any) -> None:
     page, _ = xss_page
     label = page.locator(".leaflet-control-layers label", has_text="ASTM C876 classes")
-    name = page.evaluate("Object.keys(gcLabels).find(k => gcLabels[k].endsWith('ASTM C876 classes'))")
+    name = page.evaluate(
+        "Object.keys(gcLabels).find(k => gcLabels[k].endsWith('ASTM C876 classes'))")
     assert page.evaluate(f"gcMap.hasLayer(gcLayers['{name}'])") is False  # off by default
     label.locator("input").click()
     assert page.evaluate(f"gcMap.hasLayer(gcLayers['{name}'])") is True
@@ -171,7 +172,8 @@ def test_switching_levels(sample_page: Any) -> None:
     vis = _visible_labels(page)
     assert any(v.startswith("Level 2") and ":" in v for v in vis)
     assert not any(v.startswith("Roof level") and ":" in v for v in vis)
-    page.locator(".leaflet-control-layers-base label", has_text="Roof level").locator("input").click()
+    page.locator(".leaflet-control-layers-base label",
+                 has_text="Roof level").locator("input").click()
     page.wait_for_timeout(200)
     vis = _visible_labels(page)
     assert any(v.startswith("Roof level") and ":" in v for v in vis)

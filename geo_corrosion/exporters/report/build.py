@@ -16,6 +16,7 @@ reporting units and A4 for ``metric``.  Every text from input files is HTML-esca
 from __future__ import annotations
 
 import dataclasses
+import importlib
 import io
 import logging
 from pathlib import Path
@@ -124,10 +125,10 @@ def _load_weasyprint() -> ModuleType:
         WeasyPrint is not installed or pango is missing.
     """
     try:
-        import weasyprint
+        # import_module gives a typed module; `import weasyprint` (untyped package) is Any
+        return importlib.import_module("weasyprint")
     except (ImportError, OSError) as err:
         raise PdfUnavailableError(f"{type(err).__name__}: {err}") from err
-    return weasyprint
 
 
 def page_size(system: str) -> str:
@@ -232,7 +233,8 @@ def _quantities(schedule: tuple[ScheduleRow, ...], lid: str | None) -> str:
     for r in t.to_dict("records"):
         # as in quantities.csv: 2 decimals, counts and lump sums as whole numbers
         fmt = "{:,.0f}" if str(r.get("unit")) in ("EA", "LS") else "{:,.2f}"
-        rows.append({**r, **{c: fmt.format(float(r[c])) for c in ("base", "contingency", "total")}})
+        totals = {c: fmt.format(float(r[c])) for c in ("base", "contingency", "total")}
+        rows.append({**{str(k): v for k, v in r.items()}, **totals})
     return _table(rows, [("level_id", "level"), ("item", "item"), ("description", "description"),
                          ("unit", "unit"), ("base", "base"), ("contingency", "contingency"),
                          ("total", "total")], cls="quantities",

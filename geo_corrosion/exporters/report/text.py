@@ -110,7 +110,7 @@ def _param(key: str, v: Any, system: str) -> tuple[str, str, str]:
         if system == "us" and unit in _US_UNITS:
             u, f = _US_UNITS[unit]
             us = f"{_g(float(v) * f, 4)} {u}"
-        return _g(v), unit, us
+        return _g(float(v)), unit, us
     return str(v), unit, ""
 
 
@@ -306,8 +306,6 @@ def _threshold_statement(st: SiteThreshold | SiteThresholdUnavailable, units: Re
         return (f'<li class="statement">No site-specific threshold: '
                 f"{_e(st.not_available)}</li>")
     thr = st.threshold_mv
-    if thr is None:
-        return ""
     u = _NBSP + units.area
     text = (f"The site-specific threshold between active and passive potentials is "
             f"{float(thr):.0f}{_NBSP}mV CSE.")
@@ -315,8 +313,6 @@ def _threshold_statement(st: SiteThreshold | SiteThresholdUnavailable, units: Re
         fr, fa, a = ((st.fraction_readings_below, st.fraction_area_below, st.area_below)
                      if side == "below" else
                      (st.fraction_readings_above, st.fraction_area_above, st.area_above))
-        if fr is None:
-            continue
         text += f" {word}: {_pct(fr)} of the readings"
         if a is not None:
             text += f" and {_area(a, units)}{u}"

@@ -34,6 +34,7 @@ from geo_corrosion.exporters._html import escape, png_data_url
 from geo_corrosion.exporters.base import Exporter
 from geo_corrosion.exporters.runfiles import RunLayers
 from geo_corrosion.exporters.webmap.assets import LEAFLET_VERSION, leaflet_assets
+from geo_corrosion.measurements import MeasurementKind, Role
 from geo_corrosion.model.manifest import (
     KindRecord,
     LevelRecord,
@@ -42,7 +43,6 @@ from geo_corrosion.model.manifest import (
     read_run,
     result_manifest,
 )
-from geo_corrosion.measurements import MeasurementKind, Role
 
 if TYPE_CHECKING:
     import folium
@@ -74,7 +74,7 @@ _e = escape
 
 
 def _num(x: float) -> str:
-    """A reading's value: 1 decimal from 10 up (mV, mm, kOhm.cm), else 3 significant digits."""
+    """Format a reading: 1 decimal from 10 up (mV, mm, kOhm.cm), else 3 significant digits."""
     return f"{x:.1f}" if abs(x) >= 10 else f"{x:.3g}"
 
 
@@ -94,7 +94,8 @@ def _hex(rgb: np.ndarray) -> str:
     return "#" + "".join(f"{int(round(v * 255)):02X}" for v in rgb)
 
 
-def _surface_overlay(tif: Path, direction: int) -> tuple[str, list[list[float]], float, float] | None:
+def _surface_overlay(tif: Path, direction: int
+                     ) -> tuple[str, list[list[float]], float, float] | None:
     """Warp a GeoTIFF to lon/lat and colour it with our ramp: data URL, bounds, lo, hi."""
     import rasterio
     import rasterio.errors
@@ -143,7 +144,7 @@ def _surface_overlay(tif: Path, direction: int) -> tuple[str, list[list[float]],
 def _geojson(gdf: gpd.GeoDataFrame, name: str, style: Any, fields: dict[str, str], *,
              show: bool, popup: bool = False, marker: Any = None,
              style_columns: tuple[str, ...] = ()) -> folium.GeoJson:
-    """A GeoJSON layer whose property values are escaped.
+    """Build a GeoJSON layer whose property values are escaped.
 
     ``fields`` maps the columns shown in the popup or tooltip to their labels;
     ``style_columns`` are kept in the properties for the style function only.
@@ -332,7 +333,8 @@ def _level(b: _Builder, run_dir: Path, lid: str, info: LevelRecord, layers: RunL
                             {"repair_id": "repair", "zone": "zone", "depth_class": "depth class",
                              "area_rep": "area", "bid_item": "bid item"}, show=first, popup=True),
               True, _swatch_legend(f"{lname}: repairs (estimates for bidding)",
-                                    [(COLORS["repair"], "saw-cut repair outline; click for details")]))
+                                   [(COLORS["repair"],
+                                     "saw-cut repair outline; click for details")]))
     _readings(b, lid, lname, layers, kinds)
 
 
@@ -361,13 +363,13 @@ def _classes_layer(cls: gpd.GeoDataFrame, name: str, units: Any) -> folium.GeoJs
 
 
 def _styled(g: gpd.GeoDataFrame, name: str, fields: dict[str, str], style: Any) -> folium.GeoJson:
-    """A layer styled by its ``_c`` colour column (kept out of the tooltip)."""
+    """Build a layer styled by its ``_c`` colour column (kept out of the tooltip)."""
     return _geojson(g, name, lambda f: style(f["properties"].get("_c", "#999999")), fields,
                     show=False, style_columns=("_c",))
 
 
 def _zone_of(rep: gpd.GeoDataFrame, zones: gpd.GeoDataFrame | None) -> list[str]:
-    """The zone holding most of each repair's area ("" when there are no zones)."""
+    """Return the zone holding most of each repair's area ("" when there are no zones)."""
     if zones is None:
         return [""] * len(rep)
     out = []
@@ -392,7 +394,7 @@ def _kind(name: str) -> MeasurementKind | None:
 
 
 def _value_column(kind: str) -> str | None:
-    """The value column of a measurement kind (from the plugin registry)."""
+    """Return the value column of a measurement kind (from the plugin registry)."""
     k = _kind(kind)
     return (str(k.value_column) or None) if k is not None else None
 
@@ -472,7 +474,7 @@ def build_webmap(run_dir: str | Path, manifest: Manifest | None = None) -> str:
     fmap.default_js = []
     fmap.default_css = []
     js, css, licence = leaflet_assets()
-    root = fmap.get_root()
+    root = _page(fmap)
     root.header.add_child(folium.Element(f"<style>{css}</style><style>{_CSS}</style>"),
                           name="leaflet_css")
     root.header.add_child(folium.Element(f"<script>{js}</script>"), name="leaflet_js")
@@ -504,6 +506,17 @@ def build_webmap(run_dir: str | Path, manifest: Manifest | None = None) -> str:
     return root.render()
 
 
+def _page(fmap: folium.Map) -> folium.Figure:
+    """Return the page a map is drawn on (folium types ``get_root`` as a bare ``Element``)."""
+    import folium
+
+    root = fmap.get_root()
+    if not isinstance(root, folium.Figure):  # folium.Map puts itself on a Figure when made
+        raise ExportError(f"the web map is not on a page (found {type(root).__name__}); "
+                          "this folium version is not supported")
+    return root
+
+
 def _js(obj: Any) -> str:
     """JSON for an inline script: ``</`` escaped so no text can close the script element."""
     return json.dumps(obj).replace("</", "<\\/").replace("<!--", "<\\!--")
@@ -517,7 +530,7 @@ def _panels(fmap: folium.Map, b: _Builder, site: SiteRecord, man: Manifest,
     cautions = man.cautions or list(CAUTIONS)
     items = "".join(f"<li>{_e(c)}</li>" for c in cautions)
     owner = f" &middot; {_e(site.owner)}" if site.owner else ""
-    fmap.get_root().html.add_child(folium.Element(
+    _page(fmap).html.add_child(folium.Element(
         f'<div id="gc-title" class="gc-panel">{_e(site.name)}{owner}</div>'
         f'<div id="gc-cautions" class="gc-panel"><details open><summary><b>Cautions</b> '
         f"(survey data, not a structural assessment)</summary><ul>{items}</ul></details></div>"
@@ -530,6 +543,7 @@ def _panels(fmap: folium.Map, b: _Builder, site: SiteRecord, man: Manifest,
     names = sorted({n for lv in b.levels.values() for n in lv["overlays"]} |
                    {lv["base"] for lv in b.levels.values()})
     refs = ",".join(f"{json.dumps(n)}:{n}" for n in names)  # JS identifiers made by folium
+    # in the script, a line ending in a backslash goes on in the next: one line on the page
     script = f"""
 document.addEventListener('DOMContentLoaded', function(){{
   var map = {fmap.get_name()};
@@ -563,7 +577,8 @@ document.addEventListener('DOMContentLoaded', function(){{
   function showLevel(lid){{
     for (var id in levels) {{
       var lv = levels[id];
-      lv.overlays.forEach(function(n){{ if (id !== lid && map.hasLayer(L_[n])) map.removeLayer(L_[n]); }});
+      lv.overlays.forEach(function(n){{ if (id !== lid && map.hasLayer(L_[n])) \
+map.removeLayer(L_[n]); }});
     }}
     levels[lid].shown.forEach(function(n){{ if (!map.hasLayer(L_[n])) map.addLayer(L_[n]); }});
     current = lid; filterRows();
@@ -580,7 +595,7 @@ document.addEventListener('DOMContentLoaded', function(){{
   showLevel(first);
 }});
 """
-    fmap.get_root().script.add_child(folium.Element(script))
+    _page(fmap).script.add_child(folium.Element(script))
 
 
 def write_webmap(run_dir: str | Path, manifest: Manifest | None = None) -> Path:
