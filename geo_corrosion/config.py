@@ -503,7 +503,10 @@ class RunParams:
     to ``run.json`` as ``parameters``, where the exporters read them.
     """
 
-    cell_size_m: float = key("cell_size", "length", "1 ft", unit="m", help="Kriging grid cell")
+    cell_size_m: float = key(
+        "cell_size", "length", "1 ft", unit="m", ge=0.01, le=100.0, help="Kriging grid cell",
+        doc="A level's grid may hold at most 20 million cells: `check` refuses a smaller cell "
+            "before any work, saying the least cell size that fits.")
     max_distance_m: float = key(
         "max_distance", "length", "6 ft", unit="m",
         help="No surface farther than this from any reading",
@@ -512,14 +515,18 @@ class RunParams:
         "contour_interval_mv", "number", 50, unit="mV", gt=0,
         help="Potential contour interval; more than 100 mV is refused",
         doc="The 100 mV limit is checked by `check` and `run` before any work "
-            "[ASTM-C876-91 §6.2, from memory].")
+            "[ASTM-C876-91 §6.2, from memory]. An interval that would draw more than 200 "
+            "contour levels over a kind's readings is refused too.")
     contingency: float = key(
         "contingency", "number", 0.2, unit="fraction", ge=0, le=1,
         expect="a fraction from 0 to 1 (0.2 = 20 %)",
         help="Bid quantity allowance, shown as its own line",
         doc="Write 0.2 for 20 %, not 20.")
-    n_neighbors: int = key("n_neighbors", "integer", 16, unit="readings", ge=3,
-                           help="Kriging neighbourhood: the nearest readings used")
+    n_neighbors: int = key(
+        "n_neighbors", "integer", 16, unit="readings", ge=3, le=128,
+        help="Kriging neighbourhood: the nearest readings used",
+        doc="Each cell solves a system of this size (work grows with its cube); 8 to 64 is "
+            "common practice, more gains nothing on a survey grid.")
     variogram_model: str = key(
         "variogram_model", "string", "auto", choices=VARIOGRAM_MODELS,
         help="The variogram model fitted",

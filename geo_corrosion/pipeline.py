@@ -33,7 +33,12 @@ from geo_corrosion.model.results import LevelResult, RunResult
 from geo_corrosion.model.site import Site
 from geo_corrosion.model.surface import with_role
 from geo_corrosion.stages.assess_condition import assess_condition
-from geo_corrosion.stages.check_site import check_parameters, check_site, refuse_unrunnable
+from geo_corrosion.stages.check_site import (
+    check_parameters,
+    check_site,
+    check_work,
+    refuse_unrunnable,
+)
 from geo_corrosion.stages.map_surfaces import map_level
 from geo_corrosion.stages.open_site import open_site
 from geo_corrosion.stages.plan_repairs import (
@@ -71,6 +76,7 @@ def check(site: str | Path | SiteConfig, *, progress: Progress | None = None
     cfg = site if isinstance(site, SiteConfig) else read_site(site)
     check_parameters(cfg)
     opened = open_site(cfg, progress=progress)
+    check_work(opened)
     return opened, check_site(opened)
 
 
@@ -175,6 +181,7 @@ def run(
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", GeoCorrosionWarning)
         s = open_site(cfg, progress=progress)
+        check_work(s)
         flags = check_site(s)
         refuse_unrunnable(flags)
         result = process(s, flags, progress=progress)

@@ -6,6 +6,9 @@ the flag table; :func:`refuse_unrunnable` stops a run when a finding is an error
 
 from __future__ import annotations
 
+import math
+
+import numpy as np
 import pandas as pd
 
 from geo_corrosion import qa
@@ -15,8 +18,16 @@ from geo_corrosion.measurements import MEASUREMENTS, MeasurementKind
 from geo_corrosion.model.site import Site
 from geo_corrosion.qa.derived import derived_flags
 from geo_corrosion.stages.map_surfaces import check_kind_interval
+from geo_corrosion.units import LENGTH_TO_M
 
-__all__ = ["check_parameters", "check_site", "refuse_unrunnable"]
+__all__ = ["check_parameters", "check_site", "check_work", "refuse_unrunnable",
+           "MAX_GRID_CELLS", "MAX_CONTOUR_LEVELS"]
+
+#: Most cells of one level's kriging grid (memory and time grow with it; about 20 s and
+#: 1 GB per kind at this size on a 2-core machine).
+MAX_GRID_CELLS = 20_000_000
+#: Most contour levels drawn over one kind's readings (a map with more is unreadable).
+MAX_CONTOUR_LEVELS = 200
 
 
 def check_parameters(cfg: SiteConfig) -> None:
@@ -107,3 +118,44 @@ def refuse_unrunnable(flags: pd.DataFrame) -> None:
         lines = "\n".join(f"  - {r.where or r.survey_id!s}: {r.message!s}"
                           for r in errs.itertuples())
         raise QAError(f"the site cannot be run; QA found {len(errs)} error(s):\n{lines}")
+
+
+def check_work(site: Site) -> None:
+    """Refuse a run whose work would run away, before any of it: grid cells and contour levels.
+
+    Raises
+    ------
+    KrigingError
+        A level whose grid would hold more than :data:`MAX_GRID_CELLS` cells at the site
+        file's ``[run].cell_size``, or a kind whose contour interval would draw more than
+        :data:`MAX_CONTOUR_LEVELS` levels over its readings; the message names the key and the
+        least value that fits.
+    """
+    cfg = site.config
+    cell_m = cfg.run.cell_size_m
+    for lid, lv in site.levels.items():
+        per_m = LENGTH_TO_M[lv.unit]
+        x0, y0, x1, y1 = lv.deck.bounds
+        n = math.ceil((x1 - x0) * per_m / cell_m + 1) * math.ceil((y1 - y0) * per_m / cell_m + 1)
+        if n > MAX_GRID_CELLS:
+            least = math.sqrt((x1 - x0) * (y1 - y0) * per_m**2 / MAX_GRID_CELLS)
+            raise KrigingError(
+                f"{cfg.path}: [run].cell_size: a {cell_m:g} m cell makes about {n:,} cells on "
+                f"level {lid!r} (at most {MAX_GRID_CELLS:,}); give a cell size of at least "
+                f"{math.ceil(least * 1000) / 1000:g} m")
+        for kind in {s.kind.name: s.kind for s in site.surveys_of(lid)}.values():
+            interval = kind.contour_interval_for(cfg.run)
+            values = np.concatenate([s.frame[kind.value_column].to_numpy(float)
+                                     for s in site.surveys_of(lid, kind.name)])
+            values = values[np.isfinite(values)]
+            if not values.size or not interval or interval <= 0:
+                continue
+            levels = (float(values.max()) - float(values.min())) / interval
+            if levels > MAX_CONTOUR_LEVELS:
+                key = kind.contour_interval_setting or f"the {kind.name} contour interval"
+                least = (float(values.max()) - float(values.min())) / MAX_CONTOUR_LEVELS
+                raise KrigingError(
+                    f"{cfg.path}: {key}: an interval of {interval:g} {kind.canonical_unit} draws "
+                    f"about {levels:,.0f} contour levels over the {kind.name} readings of level "
+                    f"{lid!r} (at most {MAX_CONTOUR_LEVELS}); give at least "
+                    f"{least:.3g} {kind.canonical_unit}")
