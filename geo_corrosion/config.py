@@ -375,7 +375,7 @@ class GridConfig:
         "unit", "unit", choices=("m", "ft", "us-ft"), example='"ft"',
         help="Unit of local coordinates: ft, us-ft or m")
     spacing: float = key(
-        "spacing", "number", gt=0, unit="grid units", example="2.0",
+        "spacing", "number", gt=0, le=100, unit="grid units", example="2.0",
         help="Nominal reading spacing, grid units",
         doc="QA uses it for the adjacent-reading, duplicate (0.1 × spacing) and moved-point "
             "(0.5 × spacing) checks.")
@@ -383,7 +383,7 @@ class GridConfig:
         "origin", "pair", None, example="[583100.00, 4507200.00]", type_doc="`[E, N]`",
         help="Site coordinates of local (0, 0)", doc="Used when no control points are given.")
     rotation_deg: float = key(
-        "rotation_deg", "number", 0.0, unit="degrees", example="17.0",
+        "rotation_deg", "number", 0.0, unit="degrees", ge=-360, le=360, example="17.0",
         help="Counter-clockwise from east to the grid's x axis", doc="Used with `origin`.")
     control_points: tuple[ControlPoint, ...] = key(
         "control_points", "points", [], active=True,
@@ -425,12 +425,13 @@ class LevelConfig:
     grid: GridConfig = key("grid", "table", type_doc="table `[levels.grid]`",
                            help="The local survey grid")
     specified_cover_mm: float | None = key(
-        "specified_cover", "length", None, unit="mm", example='"2 in"',
+        "specified_cover", "length", None, unit="mm", le=300, example='"2 in"',
         help="Design cover of the top bars",
         doc="With `cover_tolerance` it sets the low-cover threshold (specified − tolerance; "
             "25 mm when not given).")
     cover_tolerance_mm: float | None = key(
-        "cover_tolerance", "length", None, unit="mm", ge=0, positive=False, example='"0.5 in"',
+        "cover_tolerance", "length", None, unit="mm", ge=0, le=100, positive=False,
+        example='"0.5 in"',
         help="Placement tolerance, subtracted from specified_cover")
 
 
@@ -461,14 +462,16 @@ class SurveyConfig:
         help="Potential only: cse, ag_agcl_sat_kcl, ag_agcl_3m_kcl, sce, she",
         doc="**Required for `potential`.** See below.")
     temperature_c: float | None = key(
-        "temperature_c", "number", None, unit="°C", example="22.0", active=True,
+        "temperature_c", "number", None, unit="°C", ge=-30, le=70, example="22.0", active=True,
         help="Electrode (potential) or concrete (resistivity) temperature",
         doc="A per-reading `temperature_c` column in the file takes precedence.")
     temperature_f: float | None = key(
-        "temperature_f", "number", None, unit="°F", example="71.6", alternative=True,
+        "temperature_f", "number", None, unit="°F", ge=-22, le=158, example="71.6",
+        alternative=True,
         help="The same in degF", doc="Give only one of `temperature_c` and `temperature_f`.")
     temperature_coefficient_mv_per_c: float | None = key(
-        "temperature_coefficient_mv_per_c", "number", None, unit="mV/°C", example="0.9",
+        "temperature_coefficient_mv_per_c", "number", None, unit="mV/°C", ge=-10, le=10,
+        example="0.9",
         default_doc="0.9 for `cse`, 0 otherwise", help="Temperature coefficient of the electrode")
     date: str | None = key("date", "date", None, example='"2026-09-14"', active=True,
                            help="Survey date, recorded in run.json")
@@ -508,7 +511,7 @@ class RunParams:
         doc="A level's grid may hold at most 20 million cells: `check` refuses a smaller cell "
             "before any work, saying the least cell size that fits.")
     max_distance_m: float = key(
-        "max_distance", "length", "6 ft", unit="m",
+        "max_distance", "length", "6 ft", unit="m", le=1000.0,
         help="No surface farther than this from any reading",
         doc="A cell farther than this from its nearest reading is left empty.")
     contour_interval_mv: float = key(

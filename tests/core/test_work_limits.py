@@ -6,6 +6,7 @@ A fuzz pass found `n_neighbors` in the millions running for more than ten minute
 
 from __future__ import annotations
 
+import re
 import time
 from pathlib import Path
 
@@ -58,3 +59,20 @@ def test_contour_interval_drawing_too_many_levels_refused(site_dir: Path) -> Non
     """An interval that would draw more than 200 contour levels over the readings is refused."""
     _run_table(site_dir, "contour_interval_mv = 0.01")
     _fails(site_dir, "contour_interval_mv", "contour levels", "at most 200")
+
+
+@pytest.mark.parametrize("line, key", [
+    ("spacing = 1e308", "grid.spacing"),
+    ("spacing = inf", "grid.spacing"),
+    ("rotation_deg = 1e9", "grid.rotation_deg"),
+])
+def test_absurd_grid_values_refused_by_their_key(site_dir: Path, line: str, key: str) -> None:
+    """Values no survey grid has are refused with the dotted key (issue 11: 1e308 was accepted)."""
+    toml = site_dir / "site.toml"
+    text = toml.read_text()
+    name = line.split(" = ")[0]
+    if re.search(rf"^{name} = .*$", text, flags=re.M):
+        toml.write_text(re.sub(rf"^{name} = .*$", line, text, count=1, flags=re.M))
+    else:
+        edit(toml, "[levels.grid]\n", f"[levels.grid]\n{line}\n")
+    _fails(site_dir, key)
