@@ -12,7 +12,7 @@ from __future__ import annotations
 import math
 import warnings
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, TypeAlias
+from typing import TYPE_CHECKING, Any, TypeAlias
 
 import numpy as np
 import shapely
@@ -84,36 +84,83 @@ def _dxf_features(ref: LayerRef) -> tuple[list[tuple[BaseGeometry, str, str]], s
         )
     out: list[tuple[BaseGeometry, str, str]] = []
     msp = doc.modelspace()
-    for i, e in enumerate(msp.query(f'*[layer=="{layers[ref.layer.upper()]}"]i')):
+    wanted = ref.layer.upper()
+    # compared by name, not through ezdxf's query language: a layer name may hold any
+    # character (a quote broke the query)
+    # typed Any: each entity is read by its dxftype() below, with that type's attributes
+    on_layer: list[Any] = [e for e in msp if str(e.dxf.get("layer", "")).upper() == wanted]
+    # arcs of bulged polylines, ellipses and splines are flattened to this chord distance:
+    # 1 mm in the drawing's unit (common practice for plan outlines)
+    chord = 0.001 / LENGTH_TO_M[unit]
+    for i, e in enumerate(on_layer):
         w = (f"{ref.path.name} layer {ref.layer} entity #{i + 1} ({e.dxftype()}, "
              f"handle {e.dxf.handle})")
         t = e.dxftype()
         try:
-            if t == "LWPOLYLINE":
+            if t == "LWPOLYLINE" and not any(b for *_xy, b in e.get_points("xyb")):
                 pts = [(p[0], p[1]) for p in e.get_points("xy")]
                 closed = e.closed or (len(pts) > 3 and pts[0] == pts[-1])
-                out.append((Polygon(pts) if closed and len(pts) >= 3 else LineString(pts), w, ""))
-            elif t == "POLYLINE":
+                geom: BaseGeometry = (Polygon(pts) if closed and len(pts) >= 3
+                                      else LineString(pts))
+            elif t == "POLYLINE" and not any(v.dxf.get("bulge", 0) for v in e.vertices):
                 pts = [(v.dxf.location.x, v.dxf.location.y) for v in e.vertices]
                 closed = e.is_closed or (len(pts) > 3 and pts[0] == pts[-1])
-                out.append((Polygon(pts) if closed and len(pts) >= 3 else LineString(pts), w, ""))
+                geom = Polygon(pts) if closed and len(pts) >= 3 else LineString(pts)
             elif t == "CIRCLE":
                 c = e.dxf.center
-                disc = Point(c.x, c.y).buffer(e.dxf.radius, quad_segs=CIRCLE_SEGMENTS // 4)
-                out.append((disc, w, ""))
+                if not e.dxf.radius > 0:
+                    raise IngestError(f"{ref.where}: {w} has radius {e.dxf.radius}; a "
+                                      "zero-radius circle outlines nothing: delete it or "
+                                      "redraw the outline")
+                geom = Point(c.x, c.y).buffer(e.dxf.radius, quad_segs=CIRCLE_SEGMENTS // 4)
+            elif t in ("LWPOLYLINE", "POLYLINE", "ELLIPSE", "SPLINE", "ARC"):
+                geom = _flattened(e, chord)
             elif t == "LINE":
                 s, f = e.dxf.start, e.dxf.end
-                out.append((LineString([(s.x, s.y), (f.x, f.y)]), w, ""))
+                geom = LineString([(s.x, s.y), (f.x, f.y)])
             elif t == "HATCH":
                 for path in e.paths:
                     verts = _hatch_path_vertices(path)
                     if len(verts) >= 3:
+                        _check_finite(Polygon(verts), ref, w)
                         out.append((Polygon(verts), w, ""))
-            elif t in ("TEXT", "MTEXT"):
                 continue
+            elif t in ("TEXT", "MTEXT", "POINT", "DIMENSION", "LEADER", "MULTILEADER"):
+                continue  # annotation: not an outline
+            elif t == "INSERT":
+                raise IngestError(
+                    f"{ref.where}: {w} is a block reference ({e.dxf.get('name', '?')}); "
+                    "outlines inside blocks are not read: explode the block in the drawing "
+                    "so its outlines sit on this layer")
+            else:
+                raise IngestError(
+                    f"{ref.where}: {w} is a {t}, which is not read as an outline; redraw it as "
+                    "a closed polyline, circle or hatch, or move it to another layer")
         except (ValueError, TypeError) as err:
             raise IngestError(f"{ref.where}: cannot read {w}: {err}") from err
+        _check_finite(geom, ref, w)
+        out.append((geom, w, ""))
     return out, unit
+
+
+def _flattened(e: Any, chord: float) -> BaseGeometry:
+    """Return an arc-bearing outline flattened to chords (a polygon when it closes)."""
+    from ezdxf import path as dxf_path
+
+    pts = [(v.x, v.y) for v in dxf_path.make_path(e).flattening(chord)]
+    closed = (len(pts) > 3 and math.dist(pts[0], pts[-1]) <= chord) or bool(
+        getattr(e, "closed", False) or getattr(e, "is_closed", False))
+    return Polygon(pts) if closed and len(pts) >= 3 else LineString(pts)
+
+
+def _check_finite(geom: BaseGeometry, ref: LayerRef, w: str) -> None:
+    """Refuse an outline with a NaN or infinite coordinate, naming the entity."""
+    if geom.is_empty:
+        return
+    xy = shapely.get_coordinates(geom)
+    if not np.isfinite(xy).all():
+        raise IngestError(f"{ref.where}: {w} has a coordinate that is not a finite number "
+                          "(NaN or infinite); fix or redraw the outline")
 
 
 def _hatch_path_vertices(path: object) -> list[tuple[float, float]]:
