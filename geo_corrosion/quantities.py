@@ -25,7 +25,7 @@ import geopandas as gpd
 import pandas as pd
 import shapely
 
-from geo_corrosion._io import atomic_write
+from geo_corrosion._io import atomic_write, safe_frame
 from geo_corrosion.errors import RepairError
 from geo_corrosion.units import ReportUnits
 
@@ -328,4 +328,5 @@ def write_quantities_csv(schedule: pd.DataFrame, path: str | os.PathLike[str]) -
                  else pd.Series(False, index=out.index))
         out["quantity"] = [f"{q:.0f}" if w else f"{q:.2f}"
                            for q, w in zip(out["quantity"], whole, strict=True)]
+    out = safe_frame(out)  # no text from the input read as a formula (OWASP CSV injection)
     return atomic_write(path, lambda tmp: out.to_csv(tmp, index=False), what="quantities CSV")

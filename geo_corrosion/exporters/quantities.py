@@ -84,12 +84,13 @@ class QuantitiesExporter(Exporter):
         from geo_corrosion.quantities import write_quantities_csv
 
         units = report_units(result.site.config.units)
-        from geo_corrosion._io import atomic_write
+        from geo_corrosion._io import atomic_write, safe_frame
 
         paths = [write_quantities_csv(result.schedule, out_dir / QUANTITIES_CSV)]
         cond = condition_table(result)
         if len(cond):
-            paths.append(atomic_write(out_dir / CONDITION_CSV, lambda tmp: cond.round(3).to_csv(
+            cond = safe_frame(cond.round(3))  # no input text read as a formula
+            paths.append(atomic_write(out_dir / CONDITION_CSV, lambda tmp: cond.to_csv(
                 tmp, index=False), what="condition areas CSV"))
         paths.append(write_schedule_xlsx(
             out_dir / QUANTITIES_XLSX, result.schedule,

@@ -4,6 +4,10 @@ Sheet ``Schedule``: one row per level and bid item with base, contingency and
 total quantities, the totals of all levels in bold, and the cautions below.  One
 sheet per level lists every repair; its headers carry the units, e.g.
 ``Area (ft2)``.
+
+The workbook writes no formulas of its own: every text cell is stored as text
+(openpyxl data type ``'s'``), and a text that a spreadsheet would read as a
+formula gets a leading ``'`` (:func:`geo_corrosion._io.safe_cell`).
 """
 
 from __future__ import annotations
@@ -15,7 +19,7 @@ from typing import Any
 
 import pandas as pd
 
-from geo_corrosion._io import atomic_write
+from geo_corrosion._io import atomic_write, safe_cell
 from geo_corrosion.quantities import ALL_LEVELS, schedule_table
 from geo_corrosion.units import ReportUnits
 
@@ -62,6 +66,21 @@ def _cell(v: Any) -> Any:
     if hasattr(v, "item"):
         return v.item()
     return v
+
+
+def _text_as_text(wb: Any) -> None:
+    """Store every text cell of ``wb`` as text, never as a formula (OWASP CSV injection).
+
+    openpyxl stores a string starting with ``=`` as a formula; the workbook has no
+    formulas of its own, so each text goes through :func:`safe_cell` and is marked
+    as a string (data type ``'s'``).
+    """
+    for ws in wb.worksheets:
+        for row in ws.iter_rows():
+            for c in row:
+                if isinstance(c.value, str):
+                    c.value = safe_cell(c.value)
+                    c.data_type = "s"
 
 
 def _widths(ws: Any, first_row: int, last_row: int) -> None:
@@ -161,4 +180,5 @@ def write_schedule_xlsx(path: str | os.PathLike[str], schedule: pd.DataFrame,
         wl.append([])
         wl.append([f"See the cautions on the {SCHEDULE_SHEET} sheet."])
         _widths(wl, 2, max(2, 2 + len(f)))
+    _text_as_text(wb)
     return atomic_write(Path(path), lambda tmp: wb.save(tmp))
