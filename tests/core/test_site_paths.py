@@ -95,14 +95,22 @@ def test_joints_and_instrument_files_outside_are_refused(site_dir: Path, tmp_pat
     _fails(site_dir, "[[levels]][0].joints.path", "outside the site folder")
 
 
-def test_transient_file_outside_is_refused(site_dir: Path, tmp_path: Path) -> None:
+@pytest.mark.parametrize("option", ["transients", "sweeps"])
+def test_instrument_file_outside_is_refused(site_dir: Path, tmp_path: Path, option: str) -> None:
     (tmp_path / "pulses.csv").write_text("location_id,t_s,e_mv,i_ua\n")
     (site_dir / "readings" / "G.csv").write_text("point_id,x,y\nT1,5,5\n")
     with (site_dir / "site.toml").open("a") as fh:
         fh.write('\n[[surveys]]\nid = "G"\nlevel = "D1"\nkind = "corrosion_rate"\n'
                  'path = "readings/G.csv"\nunit = "uA/cm2"\n[surveys.options]\n'
-                 'transients = "../pulses.csv"\npolarized_area_cm2 = 26.0\nb_mv = "active"\n')
-    _fails(site_dir, "[[surveys]][2].options.transients", "outside the site folder")
+                 f'{option} = "../pulses.csv"\npolarized_area_cm2 = 26.0\nb_mv = "active"\n')
+    _fails(site_dir, f"[[surveys]][2].options.{option}", "outside the site folder")
+
+
+def test_a_loop_of_symbolic_links_is_refused(site_dir: Path) -> None:
+    (site_dir / "readings" / "a.csv").symlink_to(site_dir / "readings" / "b.csv")
+    (site_dir / "readings" / "b.csv").symlink_to(site_dir / "readings" / "a.csv")
+    edit(site_dir / "site.toml", SURVEY, 'path = "readings/a.csv"')
+    _fails(site_dir, SURVEY_KEY, "cannot be resolved")
 
 
 def test_a_directory_is_refused(site_dir: Path) -> None:
