@@ -9,12 +9,99 @@ from __future__ import annotations
 
 import difflib
 import math
+import os
+import stat
+from pathlib import Path
 from typing import Any
 
+from geo_corrosion.config import ID_ALLOWED, ID_PATTERN, MAX_INPUT_BYTES
 from geo_corrosion.errors import SiteFileError
 from geo_corrosion.units import parse_length
 
-__all__ = ["Table", "OptionsTable"]
+__all__ = ["Table", "OptionsTable", "check_id", "site_path"]
+
+
+def check_id(value: str, where: str) -> str:
+    """Return an id (level, survey, control point) if it is of the safe set, else refuse it.
+
+    Ids become file names, GeoPackage layer names and DXF layer names, so no path separator,
+    dot, space or quote may reach them (:data:`~geo_corrosion.config.ID_PATTERN`).
+
+    Raises
+    ------
+    SiteFileError
+        Naming ``where`` (the file and dotted key), the id and the allowed set.
+    """
+    if not ID_PATTERN.fullmatch(value):
+        raise SiteFileError(f"{where}: the id {value!r} is not allowed; an id is used in file and "
+                            f"layer names, so give {ID_ALLOWED} (e.g. \"L2\", \"L2-east\")")
+    return value
+
+
+def site_path(raw: str, root: Path, where: str, *, allow_outside: bool = False) -> Path:
+    """Resolve a path of the site file and check it, before anything opens it.
+
+    The path is taken relative to the site folder ``root`` and resolved, symbolic links
+    followed.  It must lie inside ``root`` unless ``allow_outside``; if it exists it must be a
+    regular file (not a directory, device or pipe) of at most
+    :data:`~geo_corrosion.config.MAX_INPUT_BYTES`.  A path that does not exist is returned
+    resolved: the stage that reads it says it is missing.
+
+    Parameters
+    ----------
+    raw : str
+        The path as written in the site file.
+    root : Path
+        The site folder (resolved).
+    where : str
+        The site file and dotted key, for messages.
+    allow_outside : bool
+        The entry's ``allow_outside = true``: a path outside the site folder is accepted.
+
+    Returns
+    -------
+    Path
+        The resolved path.
+
+    Raises
+    ------
+    SiteFileError
+        A path outside the site folder, a directory, a device or pipe, an unreadable path or
+        a file too large; the message names ``where``, the path and what to do.
+    """
+    given = root / raw
+    try:
+        resolved = given.resolve()
+    except (OSError, RuntimeError) as err:  # a loop of symbolic links
+        raise SiteFileError(f"{where}: {raw!r} cannot be resolved ({err}); give the path of a "
+                            "regular file in the site folder") from err
+    link = (f" (through a symbolic link, to {resolved})"
+            if Path(os.path.normpath(given)) != resolved else "")
+    if not allow_outside and not resolved.is_relative_to(root):
+        raise SiteFileError(
+            f"{where}: {raw!r} is outside the site folder {root}{link}; copy the file into the "
+            "site folder and give its path relative to the site file, or, for a shared base plan "
+            "on a server, add allow_outside = true to this entry")
+    try:
+        st = os.stat(resolved)
+    except FileNotFoundError:
+        return resolved  # missing: said by the stage that reads it, with its own words
+    except OSError as err:
+        raise SiteFileError(f"{where}: {raw!r} cannot be read ({err.strerror}); check the path "
+                            "and its permissions") from err
+    if not stat.S_ISREG(st.st_mode):
+        what = ("a folder" if stat.S_ISDIR(st.st_mode)
+                else "a named pipe (FIFO)" if stat.S_ISFIFO(st.st_mode)
+                else "a device" if stat.S_ISCHR(st.st_mode) or stat.S_ISBLK(st.st_mode)
+                else "a socket" if stat.S_ISSOCK(st.st_mode) else "not a regular file")
+        raise SiteFileError(f"{where}: {raw!r} is {what}{link}, not a regular file; give the path "
+                            "of the file itself")
+    if st.st_size > MAX_INPUT_BYTES:
+        raise SiteFileError(
+            f"{where}: {raw!r} is {st.st_size / 1024**3:.1f} GiB, more than the "
+            f"{MAX_INPUT_BYTES // 1024**3} GiB an input file may be; give a smaller file (split "
+            "the survey into several [[surveys]] entries)")
+    return resolved
 
 
 class Table:

@@ -44,6 +44,10 @@ __all__ = [
     "LayoutParams",
     "SiteConfig",
     "COORDS",
+    "ID_ALLOWED",
+    "ID_MAX",
+    "ID_PATTERN",
+    "MAX_INPUT_BYTES",
     "OVERLAY_KINDS",
     "VARIOGRAM_MODELS",
     "REQUIRED",
@@ -62,6 +66,29 @@ __all__ = [
 COORDS = ("local", "site")
 OVERLAY_KINDS = ("delamination", "spall", "patch", "crack")
 VARIOGRAM_MODELS = ("auto", "spherical", "exponential", "gaussian", "matern")
+
+#: Longest id (level, survey, control point): ids become file names, GeoPackage layer names
+#: and DXF layer names, and 40 characters keep a name such as ``<id>_potential_classes`` well
+#: inside the 255 characters of a file name and the 255 of a DXF layer name (common practice).
+ID_MAX = 40
+#: An id: letters, digits, ``_`` and ``-``, starting with a letter or digit (no path separator,
+#: dot, space or quote can reach a file name or a layer name).
+ID_PATTERN = re.compile(rf"[A-Za-z0-9][A-Za-z0-9_-]{{0,{ID_MAX - 1}}}")
+#: The allowed set in words, for messages and the docs.
+ID_ALLOWED = (f"letters, digits, _ and -, starting with a letter or digit, at most {ID_MAX} "
+              "characters")
+#: Largest input file the site file may name (2 GiB): a larger one is refused when the site
+#: file is read, before any work (common practice: far above any survey or plan file).
+MAX_INPUT_BYTES = 2 * 1024**3
+#: What the docs say of every path of the site file.
+_PATH_DOC = ("It must be a regular file inside the site folder (symbolic links are followed), "
+             f"of at most {MAX_INPUT_BYTES // 1024**3} GiB, unless `allow_outside = true`.")
+#: The declaration of ``allow_outside``, a key of the layer and survey tables.
+_ALLOW_OUTSIDE = dict(
+    help="Allow a path outside the site folder; for a shared base plan on a server",
+    doc="The path is still checked to be a regular file (no directory, device or pipe) of at "
+        f"most {MAX_INPUT_BYTES // 1024**3} GiB. Without it, a path that resolves (symbolic "
+        "links followed) outside the site folder is refused.")
 
 
 # --------------------------------------------------------------------------- the declaration
@@ -89,7 +116,7 @@ _TYPE_DOC = {
     "integer": "whole number", "boolean": "boolean", "length": "length string",
     "area": "area string", "unit": "unit string", "pair": "`[x, y]`",
     "date": "string or TOML date", "table": "table", "tables": "tables",
-    "layer": "layer reference", "layers": "list of layer references",
+    "layer": "layer reference", "layers": "list of layer references", "id": "string (id)",
 }
 _NOUN = {"number": "number", "integer": "whole number", "length": "length", "area": "area"}
 
@@ -327,7 +354,7 @@ class LayerRef:
     path: Path = key(
         "path", "path", help="The file, relative to the site file",
         example='"plans/L1.dxf"', type_doc="string",
-        doc="`.dxf`, `.geojson`, `.gpkg` or `.shp`.")
+        doc="`.dxf`, `.geojson`, `.gpkg` or `.shp`. " + _PATH_DOC)
     layer: str | None = key(
         "layer", "string", None, help="The DXF layer or the GeoPackage layer",
         doc="A DXF layer is matched case-insensitively. **Required for DXF.**")
@@ -340,6 +367,7 @@ class LayerRef:
         "unit", "unit", None, choices=tuple(LENGTH_TO_M),
         help="The drawing unit of a DXF whose header does not say it ($INSUNITS = 0)",
         doc="Ignored when the DXF header says the unit.")
+    allow_outside: bool = key("allow_outside", "boolean", False, **_ALLOW_OUTSIDE)
     where: str
 
 
@@ -356,7 +384,7 @@ class OverlayRef:
 class ControlPoint:
     """A point known in both the local grid and the site CRS."""
 
-    id: str = key("id", "string", DERIVED, default_doc="`CP1`, `CP2`, …",
+    id: str = key("id", "id", DERIVED, default_doc="`CP1`, `CP2`, …", allowed_doc=ID_ALLOWED,
                   help="The point's name, for the residuals")
     local: tuple[float, float] = key("local", "pair", help="Its local grid coordinates")
     site: tuple[float, float] = key("site", "pair", help="Its site CRS coordinates")
@@ -400,7 +428,7 @@ class GridConfig:
 class LevelConfig:
     """One level (deck, slab) of the structure."""
 
-    id: str = key("id", "string", example='"L1"', help="Unique among levels",
+    id: str = key("id", "id", example='"L1"', help="Unique among levels", allowed_doc=ID_ALLOWED,
                   doc="Used in layer names, repair ids (`L2-R001`) and file names.")
     name: str = key("name", "string", DERIVED, default_doc="= `id`", example='"Level 1"',
                     active=True, help="Shown on maps, drawings and the report",
@@ -439,7 +467,8 @@ class LevelConfig:
 class SurveyConfig:
     """One survey file and what it holds."""
 
-    id: str = key("id", "string", example='"L1-potential"', help="Unique among surveys")
+    id: str = key("id", "id", example='"L1-potential"', help="Unique among surveys",
+                  allowed_doc=ID_ALLOWED, doc="Used in file and layer names.")
     level: str = key("level", "string", example='"L1"', help="The id of a declared level")
     kind: str = key(
         "kind", "string", example='"potential"',
@@ -449,7 +478,8 @@ class SurveyConfig:
         "path", "path", example='"readings/L1_potential.csv"', type_doc="string",
         help="CSV (point_id,x,y,value), GeoJSON or GeoPackage points",
         doc="A `.csv` or `.txt` file in our layout, or a `.geojson`, `.json`, `.gpkg` or `.shp` "
-            "file of points, relative to the site file. See [file-formats.md](file-formats.md).")
+            "file of points, relative to the site file. See [file-formats.md](file-formats.md). "
+            + _PATH_DOC)
     unit: str = key(
         "unit", "string", example='"mV"', help="Unit of the values; accepted by the kind",
         doc="It must be accepted for the kind (see *Units accepted*); it is checked when the "
@@ -480,6 +510,11 @@ class SurveyConfig:
                        help="CSV decimal mark; not the separator")
     layer: str | None = key("layer", "string", None, example='"points"',
                             help="The layer of a GeoPackage point file")
+    allow_outside: bool = key(
+        "allow_outside", "boolean", False, **{
+            **_ALLOW_OUTSIDE,
+            "doc": _ALLOW_OUTSIDE["doc"] + " It applies to `path` and to the instrument files "
+                   "of `[surveys.options]` (`transients`, `sweeps`)."})
     columns: Mapping[str, str] = key(
         "columns", "table", {}, type_doc="table `[surveys.columns]`",
         help="Our column name = the file's column name",

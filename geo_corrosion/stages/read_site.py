@@ -20,7 +20,7 @@ from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
-from geo_corrosion._toml import Table
+from geo_corrosion._toml import Table, check_id, site_path
 from geo_corrosion.config import (
     DERIVED,
     TABLES,
@@ -63,6 +63,8 @@ def _read(t: Table, k: Key, derived: Any = None) -> Any:
     v: Any
     if k.type in ("string", "path"):
         v = t.string(name, choices=k.choices)
+    elif k.type == "id":
+        v = check_id(t.string(name), where)
     elif k.type == "text":
         v = t.text(name)
     elif k.type in ("number", "integer"):
@@ -100,8 +102,10 @@ def _layer(data: object, where: str, root: Path) -> LayerRef:
         data = {"path": data}
     t = _table(data, where, "layer")
     keys = TABLES["layer"]
+    allow = _read(t, keys["allow_outside"])
     return LayerRef(
-        path=(root / _read(t, keys["path"])).resolve(),
+        path=site_path(_read(t, keys["path"]), root, t.key("path"), allow_outside=allow),
+        allow_outside=allow,
         layer=_read(t, keys["layer"]),
         coords=_read(t, keys["coords"]),
         unit=_read(t, keys["unit"]),
@@ -193,7 +197,9 @@ def _survey(data: object, where: str, root: Path, level_ids: set[str]) -> Survey
             f"{t.key('columns')}: expected a table of our column name = the file's column name"
         )
     kind = _read(t, keys["kind"])
-    options = _survey_options(t, kind, root)
+    allow = _read(t, keys["allow_outside"])
+    path = site_path(_read(t, keys["path"]), root, t.key("path"), allow_outside=allow)
+    options = _survey_options(t, kind, root, allow)
     sep = _read(t, keys["separator"])
     dec = _read(t, keys["decimal"])
     if sep == dec:
@@ -202,7 +208,7 @@ def _survey(data: object, where: str, root: Path, level_ids: set[str]) -> Survey
         id=sid,
         level=level,
         kind=kind,
-        path=(root / _read(t, keys["path"])).resolve(),
+        path=path,
         unit=_read(t, keys["unit"]),
         coords=_read(t, keys["coords"]),
         electrode=_read(t, keys["electrode"]),
@@ -216,11 +222,17 @@ def _survey(data: object, where: str, root: Path, level_ids: set[str]) -> Survey
         columns=dict(columns),
         where=where,
         options=options,
+        allow_outside=allow,
     )
 
 
-def _survey_options(t: Table, kind: str, root: Path) -> dict[str, Any]:
-    """Validate ``[surveys.options]`` through the survey's kind; {} when absent."""
+def _survey_options(t: Table, kind: str, root: Path, allow_outside: bool) -> dict[str, Any]:
+    """Validate ``[surveys.options]`` through the survey's kind; {} when absent.
+
+    Every path the kind returns (an instrument file: ``transients_path``, ``sweeps_path``, or a
+    plugin kind's) is checked as the survey's ``path`` is, with the survey's ``allow_outside``,
+    and named by its option key (``options.transients``).
+    """
     if not t.has("options"):
         return {}
     raw = t.data["options"]
@@ -233,7 +245,14 @@ def _survey_options(t: Table, kind: str, root: Path) -> dict[str, Any]:
     from geo_corrosion.measurements import get_kind  # lazy: kinds import this module's types
 
     kind_obj = get_kind(kind, where=f"{t.key('kind')}: ")
-    return dict(kind_obj.parse_options(raw, where=where, root=root))
+    out = dict(kind_obj.parse_options(raw, where=where, root=root))
+    for name, value in out.items():
+        if isinstance(value, Path):
+            option = name.removesuffix("_path") if name.removesuffix("_path") in raw else name
+            given = raw.get(option)
+            out[name] = site_path(given if isinstance(given, str) else str(value), root,
+                                  f"{where}.{option}", allow_outside=allow_outside)
+    return out
 
 
 def _variogram(t: Table) -> dict[str, dict[str, Any]]:
