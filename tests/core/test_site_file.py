@@ -167,6 +167,24 @@ def test_too_few_control_points(site_dir: Path) -> None:
     _fails(site_dir, "at least 2")
 
 
+def test_duplicate_control_point_id(site_dir: Path) -> None:
+    # common practice: one id per control point of a grid; a repeated id is refused when the
+    # site file is read, naming the file, the dotted key and the id
+    edit(site_dir / "site.toml", 'id = "CP3"', 'id = "CP1"')
+    with pytest.raises(GeoCorrosionError) as err:
+        read_site(site_dir)
+    msg = str(err.value)
+    assert msg.startswith(f"{site_dir / 'site.toml'}: [[levels]][0].grid.control_points[2].id: "
+                          "control point id 'CP1' is already used by control_points[0]")
+    _fails(site_dir, "control point id 'CP1' is already used")
+
+
+def test_distinct_control_point_ids_are_read(site_dir: Path) -> None:
+    # the other side: three points, three ids
+    cps = read_site(site_dir).levels[0].grid.control_points
+    assert [c.id for c in cps] == ["CP1", "CP2", "CP3"]
+
+
 def test_potential_survey_needs_electrode(site_dir: Path) -> None:
     edit(site_dir / "site.toml", 'electrode = "cse"\n', "")
     _fails(site_dir, "must name their reference electrode")
