@@ -420,6 +420,9 @@ ASSUMPTIONS_TO_CONFIRM: tuple[str, ...] = (
     "thresholds our own; that potentials of steel in concrete read negative vs CSE with the "
     "steel on the positive terminal is the sign convention of [ASTM-C876-22a], check the "
     "clause.",
+    "Grid control points: a residual of the least-squares tie above 0.1 m (0.33 ft) is "
+    "reported (crs.py RESIDUAL_TOLERANCE_M; GeoreferenceWarning, geo-corrosion check): common "
+    "practice, the tolerance our own.",
     "Default contour interval 50 mV (site key contour_interval_mv): common practice.",
     "Low cover: below the specified cover minus its tolerance, else below 25 mm (1 in) "
     "(stages/plan_repairs.py): common practice.",
