@@ -413,10 +413,16 @@ ASSUMPTIONS_TO_CONFIRM: tuple[str, ...] = (
     "[Coyle-Spragg-2019]; check for the concrete surveyed.",
     "Plausible ranges of resistivity 0.5-2000 kOhm.cm, corrosion rate 0.001-100 uA/cm2 and "
     "cover 3-200 mm (measurements/builtin.py): common practice.",
-    "Open lead (every potential within ±5 mV of 0, at least 3 readings), reversed leads "
-    "(median above +100 mV with more than 90 % positive), local spike (over 150 mV from all "
+    "Open lead (more than 90 % of the potentials within ±5 mV of 0 and an interquartile range "
+    "of at most 5 mV, at least 3 readings; QA-OPEN-LEAD), reversed leads (more than 90 % of "
+    "the potentials above +100 mV CSE; QA-REVERSED-LEADS), local spike (over 150 mV from all "
     "of two or more neighbours), control-point drift over 20 mV (qa/checks.py): common practice, "
-    "thresholds our own.",
+    "thresholds our own; that potentials of steel in concrete read negative vs CSE with the "
+    "steel on the positive terminal is the sign convention of [ASTM-C876-22a], check the "
+    "clause.",
+    "Grid control points: a residual of the least-squares tie above 0.1 m (0.33 ft) is "
+    "reported (crs.py RESIDUAL_TOLERANCE_M; GeoreferenceWarning, geo-corrosion check): common "
+    "practice, the tolerance our own.",
     "Default contour interval 50 mV (site key contour_interval_mv): common practice.",
     "Low cover: below the specified cover minus its tolerance, else below 25 mm (1 in) "
     "(stages/plan_repairs.py): common practice.",

@@ -6,11 +6,17 @@ site CRS by a similarity transform (rotation, uniform scale, translation):
 either declared (origin and rotation) or fitted by least squares to two or more
 control points, with the residuals reported.  The scale absorbs the
 projection's grid scale factor (e.g. 0.9996 on a UTM central meridian).
+
+A control point whose residual exceeds :data:`RESIDUAL_TOLERANCE_M` (0.1 m, common
+practice) is reported by a :class:`~geo_corrosion.errors.GeoreferenceWarning`.  With
+exactly two points the fit has no redundancy: the residuals are 0 by construction and
+say nothing about the tie.
 """
 
 from __future__ import annotations
 
 import math
+import warnings
 from collections.abc import Sequence
 from dataclasses import dataclass
 
@@ -21,14 +27,19 @@ from numpy.typing import ArrayLike, NDArray
 from shapely.geometry.base import BaseGeometry
 
 from geo_corrosion.config import ControlPoint, GridConfig
-from geo_corrosion.errors import CRSError, GeoreferenceError
+from geo_corrosion.errors import CRSError, GeoreferenceError, GeoreferenceWarning
 from geo_corrosion.units import LENGTH_TO_M
 
-__all__ = ["LocalGrid", "fit_similarity", "site_crs"]
+__all__ = ["LocalGrid", "fit_similarity", "site_crs", "RESIDUAL_TOLERANCE_M"]
 
 #: Largest accepted departure of the fitted scale from the unit ratio (1 %): more
 #: means the control points are in the wrong unit or mislabelled.
 MAX_SCALE_DEPARTURE = 0.01
+#: Largest control-point residual of a fitted tie taken without a warning, metres (common
+#: practice, our own choice): control points of a deck are surveyed and the grid laid out
+#: to a few centimetres, so 0.1 m is a mistyped coordinate or the wrong point, and it is
+#: small beside the reading spacings of a deck survey (0.3-1.5 m).
+RESIDUAL_TOLERANCE_M = 0.1
 
 
 @dataclass(frozen=True)
@@ -74,6 +85,40 @@ class LocalGrid:
             return 0.0
         sq = sum(dx * dx + dy * dy for _, dx, dy in self.residuals)
         return math.sqrt(sq / len(self.residuals))
+
+    @property
+    def redundant(self) -> bool:
+        """Whether the fit has residuals that test it: three or more control points."""
+        return len(self.residuals) >= 3
+
+    @property
+    def residual_tolerance(self) -> float:
+        """:data:`RESIDUAL_TOLERANCE_M` in site CRS units."""
+        return RESIDUAL_TOLERANCE_M / LENGTH_TO_M[self.crs_unit]
+
+    def large_residuals(self) -> list[tuple[str, float]]:
+        """Control points whose residual exceeds the tolerance, largest first (CRS units)."""
+        if not self.redundant:
+            return []
+        big = [(i, math.hypot(dx, dy)) for i, dx, dy in self.residuals]
+        return sorted(((i, r) for i, r in big if r > self.residual_tolerance),
+                      key=lambda ir: -ir[1])
+
+    def residual_warning(self, where: str = "") -> str | None:
+        """Message naming the control points beyond the tolerance, or ``None``."""
+        big = self.large_residuals()
+        if not big:
+            return None
+        u = self.crs_unit
+        items = ", ".join(f"{i!r} {r:.3f} {u}" for i, r in big)
+        head = f"{where}: " if where else ""
+        return (
+            f"{head}control point residual(s) above the {self.residual_tolerance:.3f} {u} "
+            f"tolerance (0.1 m, common practice): {items} (RMS {self.rms_residual:.3f} {u} over "
+            f"{len(self.residuals)} points). A control point's local or site coordinates are "
+            "wrong; with few points the error of one spreads over the others in the fit, so "
+            "check every control point of this grid, those listed first"
+        )
 
     def _abcd(self) -> tuple[float, float]:
         a = math.radians(self.rotation_deg)
@@ -158,6 +203,12 @@ def fit_similarity(
     ------
     GeoreferenceError
         Fewer than two points, coincident points, or a scale that shows a unit mix-up.
+
+    Warns
+    -----
+    GeoreferenceWarning
+        A control point's residual exceeds :data:`RESIDUAL_TOLERANCE_M` (three or more
+        points; with two the residuals are 0 by construction).
     """
     if len(points) < 2:
         raise GeoreferenceError(
@@ -187,7 +238,7 @@ def fit_similarity(
             "local and site coordinates belong together"
         )
     res = (A @ np.array([c, s]) - b).reshape(-1, 2)
-    return LocalGrid(
+    grid = LocalGrid(
         unit=unit,
         crs_unit=crs_unit,
         rotation_deg=math.degrees(math.atan2(s, c)),
@@ -196,6 +247,10 @@ def fit_similarity(
         ty=float(ty),
         residuals=tuple((p.id, float(r[0]), float(r[1])) for p, r in zip(points, res, strict=True)),
     )
+    message = grid.residual_warning(where)
+    if message:
+        warnings.warn(message, GeoreferenceWarning, stacklevel=2)
+    return grid
 
 
 def site_crs(text: object, *, where: str) -> tuple[pyproj.CRS, str]:

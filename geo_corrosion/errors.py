@@ -27,6 +27,7 @@ __all__ = [
     "QAWarning",
     "KrigingWarning",
     "GeometryWarning",
+    "GeoreferenceWarning",
     "PluginConflictWarning",
     "GeoCorrosionDeprecationWarning",
 ]
@@ -106,6 +107,10 @@ class KrigingWarning(GeoCorrosionWarning):
 
 class GeometryWarning(GeoCorrosionWarning):
     """An input shape was repaired or dropped."""
+
+
+class GeoreferenceWarning(GeoCorrosionWarning):
+    """A control point of a level's grid fits the tie worse than the tolerance."""
 
 
 class PluginConflictWarning(GeoCorrosionWarning):

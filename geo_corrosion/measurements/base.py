@@ -136,7 +136,7 @@ class MeasurementKind:
     grid_rules : bool
         The kind is a half-cell potential survey read on the level's grid (mV): QA takes the
         grid spacing and applies the potential rules (adjacent readings, repeatability and
-        reproducibility, drift, stability during the reading, open lead, inverted sign).
+        reproducibility, drift, stability during the reading, open lead, reversed leads).
     electrode_temperature : bool
         QA checks the reading temperatures against the reference electrode's range
         (``QA-TEMP-RANGE``).

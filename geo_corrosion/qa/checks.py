@@ -23,9 +23,10 @@ two or more axis neighbours (a local spike); repeat readings of one point_id in
 one survey against the 10 mV repeatability and, across the surveys of a level,
 against the 20 mV reproducibility [ASTM-C876-15 precision section, from memory],
 the difference reported in either case; and the survey-level errors:
-every potential within +-5 mV of 0 (open lead or short circuit), median above
-+100 mV with more than 90 % positive (leads reversed), every reading outside the
-slab, no usable reading; fewer than ``min_readings`` readings is a warning.
+more than 90 % of the potentials within +-5 mV of 0 with an interquartile range of
+at most 5 mV (open lead), more than 90 % of them above +100 mV CSE (leads
+reversed), every reading outside the slab, no usable reading; fewer than
+``min_readings`` readings is a warning.
 Thresholds marked common practice in :data:`QA_RULES` are our own choices.
 """
 
@@ -135,11 +136,16 @@ QA_RULES: dict[str, QARule] = {
         QARule("QA-DUP-SURVEYS", "warning",
                "two surveys of one level read the same location", _P),
         QARule("QA-OPEN-LEAD", "error",
-               "every potential within +-5 mV of 0: open lead or short circuit?",
-               "common practice"),
-        QARule("QA-INVERTED", "error",
-               "median potential > +100 mV with > 90 % positive: leads reversed?",
-               "common practice; thresholds chosen here"),
+               "more than 90 % of the potentials within +-5 mV of 0 and an interquartile "
+               "range of 5 mV or less: open circuit (broken lead, no contact) or a "
+               "disconnected reinforcement connection",
+               "common practice, thresholds chosen here; a potential map of steel in concrete "
+               "has spread [ASTM-C876-22a]"),
+        QARule("QA-REVERSED-LEADS", "error",
+               "more than 90 % of the potentials above +100 mV CSE: the leads are reversed",
+               "common practice, thresholds chosen here; sign convention: the steel is on the "
+               "voltmeter's positive terminal, so its potentials vs CSE read negative "
+               "[ASTM-C876-22a]"),
         QARule("QA-ALL-OUTSIDE", "error", "every reading is outside the slab", _P),
         QARule("QA-NO-VALUES", "error", "no reading has both a value and a location", _P),
         QARule("QA-FEW-READINGS", "warning", "fewer usable readings than needed", _P),
@@ -156,7 +162,7 @@ CONTRACT_COLUMNS: list[str] = [
 ]
 _SEVERITY_RANK = {"error": 0, "warning": 1, "info": 2}
 _UNIT_SUFFIXES = (("_kohm_cm", "kOhm.cm"), ("_ua_cm2", "uA/cm2"), ("_mv", "mV"), ("_mm", "mm"))
-_MIN_FOR_SURVEY_STATS = 3  # fewest readings for the open-lead / inverted-sign tests (our choice)
+_MIN_FOR_SURVEY_STATS = 3  # fewest readings for the open-lead / reversed-lead tests (our choice)
 
 
 def _unit_of(value_column: str) -> str:
@@ -317,8 +323,8 @@ def check_survey(
     reproducibility_mv: float = 20.0,
     min_readings: int = 10,
     open_lead_mv: float = 5.0,
-    inverted_median_mv: float = 100.0,
-    inverted_fraction: float = 0.9,
+    reversed_above_mv: float = 100.0,
+    survey_share: float = 0.9,
 ) -> pd.DataFrame:
     """Check the readings of one survey; return one row per finding.
 
@@ -345,7 +351,7 @@ def check_survey(
         neighbour distance for the adjacency and moved-point checks when ``None``.
     potential_rules : bool, optional
         Apply the half-cell potential rules (adjacent readings, repeatability in mV, drift,
-        stability, open lead, inverted sign): the pipeline passes the kind's ``grid_rules``.
+        stability, open lead, reversed leads): the pipeline passes the kind's ``grid_rules``.
         ``None``: apply them when ``value_column`` is in mV (ends in ``_mv``).
     duplicate_tolerance : float, optional
         Distance, local grid units, under which two readings share a location;
@@ -359,11 +365,14 @@ def check_survey(
     min_readings : int
         Fewer usable readings than this gives a ``QA-FEW-READINGS`` warning.
     open_lead_mv : float, mV
-        Half-width of the band around 0 mV of the open-lead test.
-    inverted_median_mv : float, mV
-        Median above which (with ``inverted_fraction`` positive) the sign is suspect.
-    inverted_fraction : float
-        Fraction (0-1) of positive readings above which the sign is suspect.
+        Half-width of the band around 0 mV of the open-lead test, and the largest
+        interquartile range of an open lead (5 mV, common practice).
+    reversed_above_mv : float, mV
+        Potential vs CSE above which a reading counts towards reversed leads
+        (+100 mV, common practice).
+    survey_share : float
+        Share (0-1) of the readings that must be in the open-lead band, or above
+        ``reversed_above_mv``, for the survey flag: more than 0.9 (common practice).
 
     Returns
     -------
@@ -458,23 +467,53 @@ def check_survey(
     elif n_ok < min_readings:
         out.append(r.survey_flag("QA-FEW-READINGS", f"only {n_ok} usable readings (fewer than "
                                  f"{min_readings}); the surface will be unreliable", n_ok))
-    vals = r.v[ok_v]
-    if potential and len(vals) >= _MIN_FOR_SURVEY_STATS:
-        if np.all(np.abs(vals) <= open_lead_mv):  # common practice
-            out.append(r.survey_flag(
-                "QA-OPEN-LEAD", f"every reading is within +-{open_lead_mv:g} mV of 0 "
-                f"(max |E| = {_fmt(float(np.max(np.abs(vals))))} mV): open lead or short "
-                "circuit? The survey cannot be used; check the lead and the connection to the "
-                "reinforcement", float(np.median(vals))))
-        med, frac = float(np.median(vals)), float(np.mean(vals > 0))
-        if med > inverted_median_mv and frac > inverted_fraction:  # common practice
-            out.append(r.survey_flag(
-                "QA-INVERTED", f"median potential {_fmt(med)} mV with {frac:.0%} of readings "
-                "positive: leads reversed (inverted sign)? Steel goes to the positive terminal; "
-                "the survey cannot be used as it is", med))
+    if potential:
+        out.append(_lead_flags(r, open_lead_mv, reversed_above_mv, survey_share))
     if all_outside:
         out.append(r.survey_flag("QA-ALL-OUTSIDE", "every reading is outside the slab outline: "
                                  "check the local grid origin, rotation and units of the survey"))
+    return _concat(out)
+
+
+def _lead_flags(r: _Readings, band_mv: float, above_mv: float, share: float) -> pd.DataFrame:
+    """Survey flags for an open lead or reversed leads (common practice, thresholds ours).
+
+    A potential map of steel in concrete spreads over tens to hundreds of mV and reads
+    negative vs CSE [ASTM-C876-22a]: more than ``share`` of the readings within
+    ``+-band_mv`` of 0 with an interquartile range of at most ``band_mv`` is an open
+    circuit; more than ``share`` above ``+above_mv`` is the leads swapped.
+    """
+    vals = r.v[r.ok_v]
+    if len(vals) < _MIN_FOR_SURVEY_STATS:
+        return _empty_flags()
+    med = float(np.median(vals))
+    q1, q3 = (float(q) for q in np.percentile(vals, [25, 75]))
+    iqr = q3 - q1
+    positive = float(np.mean(vals > 0))
+    in_band = float(np.mean(np.abs(vals) <= band_mv))
+    above = float(np.mean(vals > above_mv))
+    figures = (f"{positive:.0%} of the {len(vals)} readings positive, median {_fmt(med)} mV, "
+               f"interquartile range {_fmt(iqr)} mV ({_fmt(q1)} to {_fmt(q3)} mV), "
+               f"range {_fmt(float(vals.min()))} to {_fmt(float(vals.max()))} mV")
+    out = []
+    if in_band > share and iqr <= band_mv:
+        out.append(r.survey_flag(
+            "QA-OPEN-LEAD", f"open lead: {in_band:.0%} of the readings are within "
+            f"+-{band_mv:g} mV of 0 (more than {share:.0%}) with no spread; {figures}. "
+            "A potential map of steel in concrete is not flat at 0 mV: the circuit is open "
+            "(broken lead, dry or lifted electrode, no contact) or the connection to the "
+            "reinforcement is lost. Check the lead, the clamp on the steel and its continuity "
+            "(resistance between two far bars), then read the survey again; it cannot be used",
+            med))
+    if above > share:
+        out.append(r.survey_flag(
+            "QA-REVERSED-LEADS", f"leads reversed: {above:.0%} of the readings are above "
+            f"+{above_mv:g} mV CSE (more than {share:.0%}); {figures}. Corrosion potentials of "
+            "steel in concrete read negative vs CSE: the probable cause is the leads swapped at "
+            "the voltmeter. Check that the reinforcement connection is on the positive terminal "
+            "and the reference electrode on the negative (common) one, and the reading of a "
+            "known point; read the survey again rather than flip the signs, unless the field "
+            "notes confirm the swap", med))
     return _concat(out)
 
 

@@ -118,11 +118,19 @@ def _grid(data: object, where: str) -> GridConfig:
     keys = TABLES["levels.grid"]
     unit = _read(t, keys["unit"])
     cps = []
+    seen: dict[str, int] = {}
     for i, cp in enumerate(t.array("control_points")):
         ct = _table(cp, f"{t.key('control_points')}[{i}]", "levels.grid.control_points")
         ck = TABLES["levels.grid.control_points"]
-        cps.append(ControlPoint(_read(ct, ck["id"], f"CP{i + 1}"), _read(ct, ck["local"]),
-                                _read(ct, ck["site"])))
+        cp_id = _read(ct, ck["id"], f"CP{i + 1}")
+        if cp_id in seen:
+            raise SiteFileError(
+                f"{ct.key('id')}: control point id {cp_id!r} is already used by "
+                f"control_points[{seen[cp_id]}] of this grid; give each control point of the "
+                "level its own id (a point listed twice would weigh double in the grid fit)"
+            )
+        seen[cp_id] = i
+        cps.append(ControlPoint(cp_id, _read(ct, ck["local"]), _read(ct, ck["site"])))
     origin = _read(t, keys["origin"])
     if origin is None and not cps:
         raise SiteFileError(

@@ -248,7 +248,7 @@ def test_qa_applies_no_potential_rule_to_the_plugin(plugin_registered: None,
     assert "mV" not in by["D1-cl"]
     cl_rules = set(flags.loc[flags["survey_id"] == "D1-cl", "rule"])
     assert not cl_rules & {"QA-ADJ-150", "QA-ADJ-SPIKE", "QA-DRIFT", "QA-OPEN-LEAD",
-                           "QA-INVERTED", "QA-TEMP-RANGE"}
+                           "QA-REVERSED-LEADS", "QA-TEMP-RANGE"}
 
 
 def test_geopackage_class_layer(chloride_run: tuple[Path, np.ndarray]) -> None:

@@ -5,12 +5,15 @@ Each bad input: a clear message, a non-zero exit, nothing written.
 
 from __future__ import annotations
 
+import json
+import warnings
 from pathlib import Path
 
 import pytest
 from click.testing import CliRunner
 
 from geo_corrosion.cli.main import cli
+from geo_corrosion.crs import LocalGrid
 from geo_corrosion.errors import GeoCorrosionError
 from geo_corrosion.pipeline import run
 from geo_corrosion.stages.open_site import open_site
@@ -165,6 +168,86 @@ def test_too_few_control_points(site_dir: Path) -> None:
         text[:start] + 'control_points = [ { id = "CP1", local = [0.0, 0.0], '
         'site = [583100.0, 4507200.0] } ]\n' + text[end:])
     _fails(site_dir, "at least 2")
+
+
+def test_duplicate_control_point_id(site_dir: Path) -> None:
+    # common practice: one id per control point of a grid; a repeated id is refused when the
+    # site file is read, naming the file, the dotted key and the id
+    edit(site_dir / "site.toml", 'id = "CP3"', 'id = "CP1"')
+    with pytest.raises(GeoCorrosionError) as err:
+        read_site(site_dir)
+    msg = str(err.value)
+    assert msg.startswith(f"{site_dir / 'site.toml'}: [[levels]][0].grid.control_points[2].id: "
+                          "control point id 'CP1' is already used by control_points[0]")
+    _fails(site_dir, "control point id 'CP1' is already used")
+
+
+def test_distinct_control_point_ids_are_read(site_dir: Path) -> None:
+    # the other side: three points, three ids
+    cps = read_site(site_dir).levels[0].grid.control_points
+    assert [c.id for c in cps] == ["CP1", "CP2", "CP3"]
+
+
+def _five_control_points(site_dir: Path, centre_shift_m: float) -> None:
+    """Add CP4 at the far corner and CP5 at the centre to the synthetic grid.
+
+    Both are exact on the synthetic tie, CP5 then moved east by ``centre_shift_m``; CP5 is
+    the centroid of the five points.
+    """
+    cfg = read_site(site_dir)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        g = LocalGrid.from_config(cfg.levels[0].grid, cfg.crs_unit)
+    text = (site_dir / "site.toml").read_text()
+    start = text.index("control_points = [")
+    end = text.index("]\n", text.index("}", text.index("CP3"))) + 2
+    extra = []
+    for name, (x, y), shift in (("CP4", (60.0, 40.0), 0.0), ("CP5", (30.0, 20.0), centre_shift_m)):
+        X, Y = (float(v) for v in g.to_site(x, y))
+        extra.append(f'{{ id = "{name}", local = [{x}, {y}], site = [{X + shift:.4f}, {Y:.4f}] }}')
+    body = text[start:end].rstrip().removesuffix("]").rstrip()
+    (site_dir / "site.toml").write_text(
+        text[:start] + body + ", " + ", ".join(extra) + " ]\n" + text[end:])
+
+
+def test_control_point_residual_shown_by_check_and_recorded_by_run(site_dir: Path) -> None:
+    # hand computation: CP5 is the centroid of the five points, so a shift d of it leaves a
+    # residual of 0.8 d on it and 0.2 d on each corner; d = 0.25 m -> 0.200 m, above the
+    # 0.1 m tolerance (common practice), and 0.05 m on the corners, below it
+    _five_control_points(site_dir, 0.25)
+    res = CliRunner().invoke(cli, ["check", str(site_dir)])
+    assert res.exit_code == 0, res.output  # a warning, not an error
+    line = ("  WARNING level D1: control point residual(s) above the 0.100 m tolerance (0.1 m, "
+            "common practice): 'CP5' 0.200 m (RMS ")
+    assert line in res.output, res.output
+    assert "'CP1'" not in res.output.split(line, 1)[1].split("\n", 1)[0].split("(RMS", 1)[0]
+    assert "note: " not in res.output  # shown once, with its level, not again as a note
+    r = run(site_dir, site_dir.parent / "out", exporters=("geopackage",))
+    geo = [w for w in r.warnings if w.startswith("GeoreferenceWarning: ")]
+    assert len(geo) == 1 and "level 'D1' grid: control point residual(s)" in geo[0]
+    assert "'CP5' 0.200 m" in geo[0]
+    manifest = json.loads((site_dir.parent / "out" / "run.json").read_text())
+    assert geo[0] in manifest["warnings"]
+
+
+def test_control_point_residual_within_tolerance_and_two_points(site_dir: Path) -> None:
+    # the other side: d = 0.1 m -> 0.080 m on CP5, below the 0.1 m tolerance: no warning
+    _five_control_points(site_dir, 0.1)
+    res = CliRunner().invoke(cli, ["check", str(site_dir)])
+    assert res.exit_code == 0 and "control point residual(s)" not in res.output, res.output
+    assert "RMS control-point residual 0.0" in res.output
+    # two control points: no redundancy, said in words instead of "RMS 0.0000"
+    text = (site_dir / "site.toml").read_text()
+    start = text.index("control_points = [")
+    end = text.index("]\n", text.index("}", text.index("CP3"))) + 2
+    body = text[start:end]
+    (site_dir / "site.toml").write_text(
+        text[:start] + body[:body.index(", { id = \"CP3\"")] + " ]\n" + text[end:])
+    res = CliRunner().invoke(cli, ["check", str(site_dir)])
+    assert res.exit_code == 0, res.output
+    assert ("2 control points: no redundancy, the residuals are 0 by construction (a third "
+            "point would check the tie)") in res.output
+    assert "RMS control-point residual" not in res.output
 
 
 def test_potential_survey_needs_electrode(site_dir: Path) -> None:

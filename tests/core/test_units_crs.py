@@ -3,13 +3,20 @@
 from __future__ import annotations
 
 import math
+import warnings
 
 import numpy as np
 import pytest
 
 from geo_corrosion.config import ControlPoint
 from geo_corrosion.crs import LocalGrid, fit_similarity, site_crs
-from geo_corrosion.errors import CRSError, GeoreferenceError, SiteFileError, UnitError
+from geo_corrosion.errors import (
+    CRSError,
+    GeoreferenceError,
+    GeoreferenceWarning,
+    SiteFileError,
+    UnitError,
+)
 from geo_corrosion.units import convert, convert_with, normalize_unit, parse_length, report_units
 
 
@@ -103,3 +110,60 @@ def test_builtin_kinds_convert_exactly_as_before() -> None:
         assert set(kind.unit_factors()) == set(kind.accepted_units)
         for u in kind.accepted_units:
             assert np.array_equal(kind.to_canonical(v, u), convert(v, u, kind.canonical_unit))
+
+
+def _five_points(shift_m: float, crs_unit: str = "m") -> list[ControlPoint]:
+    """Four corners and the centre of a 180 x 120 ft grid, exact; the centre moved east."""
+    truth = LocalGrid("ft", crs_unit, 17.25, 1.0, 583100.0, 4507200.0)
+    pts = [(0, 0), (180, 0), (180, 120), (0, 120), (90, 60)]
+    cps = []
+    for i, (x, y) in enumerate(pts):
+        X, Y = truth.to_site(x, y)
+        cps.append(ControlPoint(f"CP{i}", (x, y), (float(X) + (shift_m if i == 4 else 0.0),
+                                                   float(Y))))
+    return cps
+
+
+def test_control_point_residual_above_tolerance_warns() -> None:
+    # hand computation: the centre point is the centroid of the five, so its centred local
+    # coordinates are 0 and it only moves the translation: a shift d of it leaves a residual
+    # d (1 - 1/5) = 0.8 d on it and d / 5 on each corner. Tolerance 0.1 m (common practice).
+    with pytest.warns(GeoreferenceWarning) as caught:
+        g = fit_similarity(_five_points(1.0), "ft", "m", where="site.toml: level 'L2' grid")
+    assert len(caught) == 1
+    msg = str(caught[0].message)
+    assert msg.startswith("site.toml: level 'L2' grid: control point residual(s) above the "
+                          "0.100 m tolerance (0.1 m, common practice): 'CP4' 0.800 m, ")
+    assert "'CP0' 0.200 m" in msg and "over 5 points" in msg
+    assert g.large_residuals()[0] == ("CP4", pytest.approx(0.8))
+    # 0.13 m: 0.104 m on the centre (above), 0.026 m on the corners (below)
+    with pytest.warns(GeoreferenceWarning, match=r": 'CP4' 0\.104 m \(RMS"):
+        g = fit_similarity(_five_points(0.13), "ft", "m")
+    assert [i for i, _ in g.large_residuals()] == ["CP4"]
+
+
+def test_control_point_residual_within_tolerance_is_quiet() -> None:
+    # 0.12 m: 0.096 m on the centre, below the 0.1 m tolerance -> no warning
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        g = fit_similarity(_five_points(0.12), "ft", "m")
+    assert g.redundant and g.large_residuals() == [] and g.residual_warning() is None
+    assert max(math.hypot(dx, dy) for _, dx, dy in g.residuals) == pytest.approx(0.096)
+    # a site CRS in feet: the tolerance is 0.1 m = 0.328 ft, and 0.096 m stays below it
+    assert LocalGrid("ft", "ft", 0.0, 1.0, 0.0, 0.0).residual_tolerance == pytest.approx(
+        0.1 / 0.3048)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        fit_similarity(_five_points(0.12 / 0.3048, "ft"), "ft", "ft")
+
+
+def test_two_control_points_have_no_redundancy() -> None:
+    # with two points the similarity fit is exact: residuals 0 by construction, nothing to warn
+    # about even when the points disagree by 0.5 % in distance (under the 1 % scale limit)
+    cps = [ControlPoint("A", (0.0, 0.0), (1000.0, 2000.0)),
+           ControlPoint("B", (100.0, 0.0), (1000.0 + 30.48 * 1.005, 2000.0))]
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        g = fit_similarity(cps, "ft", "m")
+    assert not g.redundant and g.large_residuals() == []
+    assert g.rms_residual == pytest.approx(0.0, abs=1e-9)

@@ -45,7 +45,10 @@ def test_catalogue_names_sources() -> None:
     # [ASTM-C876-91 §5.1, from memory]: the adjacent-difference rule
     assert "C876" in qa.QA_RULES["QA-ADJ-150"].source
     assert qa.QA_RULES["QA-OPEN-LEAD"].severity == "error"
-    assert qa.QA_RULES["QA-INVERTED"].severity == "error"
+    assert qa.QA_RULES["QA-REVERSED-LEADS"].severity == "error"
+    for code in ("QA-OPEN-LEAD", "QA-REVERSED-LEADS"):
+        assert "common practice" in qa.QA_RULES[code].source
+        assert "[ASTM-C876-22a]" in qa.QA_RULES[code].source
     assert qa.QA_RULES["QA-ALL-OUTSIDE"].severity == "error"
 
 
@@ -94,49 +97,81 @@ def test_nan_location_flagged(make_frame: Any) -> None:
 
 
 def test_open_lead_survey(make_frame: Any) -> None:
-    # common practice: every reading within +-5 mV of 0
+    # common practice: more than 90 % within +-5 mV of 0 and an IQR of 5 mV or less
     f = make_frame([0.0, 1.5, -2.0, 5.0, -5.0, 3.1])
     flags = check(f)
     lead = flags[flags["rule"] == "QA-OPEN-LEAD"]
     assert len(lead) == 1
     assert lead["reading_id"].iloc[0] == ""
     assert lead["severity"].iloc[0] == "error"
-    assert "open lead or short circuit?" in lead["message"].iloc[0]
+    msg = lead["message"].iloc[0]
+    assert msg.startswith("readings/L1_east.csv: open lead: 100% of the readings")
+    assert "median 0.8 mV" in msg and "interquartile range" in msg
+    assert "connection to the reinforcement" in msg
     assert lead["where"].iloc[0] == "readings/L1_east.csv"
+    assert lead["value"].iloc[0] == pytest.approx(0.75)  # median, by hand
     assert not qa.runnable(flags)
 
 
+def test_open_lead_noise_with_a_few_stray_readings(make_frame: Any) -> None:
+    # the fuzz case of issue 11: noise around 0 mV with a few readings beyond +-5 mV (common
+    # practice: "nearly all", not "every", reading in the band)
+    rng = np.random.default_rng(3)
+    vals = rng.normal(0.0, 1.5, 200)
+    vals[::25] = [-30.0, 12.0, -7.0, 25.0, 8.0, -9.0, 40.0, -6.0]  # 4 % outside the band
+    flags = check(make_frame(vals.tolist()))
+    lead = flags[flags["rule"] == "QA-OPEN-LEAD"]
+    assert len(lead) == 1
+    assert "96% of the readings are within +-5 mV" in lead["message"].iloc[0]
+
+
 def test_open_lead_other_side(make_frame: Any) -> None:
-    # common practice: one reading beyond 5 mV -> not an open lead
-    flags = check(make_frame([0.0, 1.5, -2.0, 5.0, -5.1, 3.1]))
+    # common practice: 9 of 10 in the band is not more than 90 % -> no flag
+    flags = check(make_frame([0.0, 1.5, -2.0, 4.0, -4.0, 3.1, 0.5, -0.5, 1.0, -250.0]))
     assert "QA-OPEN-LEAD" not in set(flags["rule"])
-    assert qa.runnable(flags)
+    # 19 of 20 in the band (95 %) -> flag
+    band = [0.0, 1.5, -2.0, 4.0, -4.0, 3.1, 0.5, -0.5, 1.0, -1.0]
+    flags = check(make_frame((band * 2)[:19] + [-250.0]))
+    assert "QA-OPEN-LEAD" in set(flags["rule"])
+    assert qa.runnable(check(make_frame([0.0, 1.5, -2.0, 5.0, -5.1, 3.1, -250.0])))
 
 
-def test_inverted_sign_survey(make_frame: Any) -> None:
-    # common practice: a sign flip over the whole survey -> leads reversed
+def test_open_lead_needs_a_small_spread(make_frame: Any) -> None:
+    # common practice: all within +-5 mV but spread out (IQR > 5 mV) is not flat at 0 mV
+    spread = [-5.0, -5.0, -5.0, -4.0, 4.0, 5.0, 5.0, 5.0]  # IQR 10 mV by hand
+    assert "QA-OPEN-LEAD" not in set(check(make_frame(spread))["rule"])
+    narrow = [-2.5, -2.5, -2.5, 2.5, 2.5, 2.5, 2.5, -2.5]  # IQR 5.0 mV: still an open lead
+    assert "QA-OPEN-LEAD" in set(check(make_frame(narrow))["rule"])
+
+
+def test_reversed_leads_survey(make_frame: Any) -> None:
+    # common practice: a survey read with the leads swapped, +150 to +420 mV CSE
     vals = [250.0, 310.0, 180.0, 420.0, 350.0, 290.0, 205.0, 330.0, 260.0, 300.0]
     flags = check(make_frame(vals))
-    inv = flags[flags["rule"] == "QA-INVERTED"]
+    inv = flags[flags["rule"] == "QA-REVERSED-LEADS"]
     assert len(inv) == 1 and inv["severity"].iloc[0] == "error"
-    assert "leads reversed (inverted sign)?" in inv["message"].iloc[0]
+    msg = inv["message"].iloc[0]
+    assert msg.startswith("readings/L1_east.csv: leads reversed: 100% of the readings are "
+                          "above +100 mV CSE")
+    assert "100% of the 10 readings positive, median 295.0 mV" in msg  # median by hand
+    assert "positive terminal" in msg
     assert inv["value"].iloc[0] == pytest.approx(float(np.median(vals)))
     assert not qa.runnable(flags)
     # the same survey read the right way round is fine
     flags = check(make_frame([-v for v in vals]))
-    assert "QA-INVERTED" not in set(flags["rule"])
+    assert "QA-REVERSED-LEADS" not in set(flags["rule"])
 
 
-def test_inverted_sign_thresholds(make_frame: Any) -> None:
-    # thresholds chosen here (common practice): median > +100 mV AND > 90 % positive
-    nine_of_ten = [150.0] * 9 + [-300.0]  # exactly 90 % positive: not > 90 %
-    assert "QA-INVERTED" not in set(check(make_frame(nine_of_ten))["rule"])
-    nineteen_of_twenty = [150.0] * 19 + [-300.0]  # 95 % positive
-    assert "QA-INVERTED" in set(check(make_frame(nineteen_of_twenty))["rule"])
-    median_100 = [100.0] * 20  # median exactly +100: not > +100
-    assert "QA-INVERTED" not in set(check(make_frame(median_100))["rule"])
-    median_101 = [101.0] * 20
-    assert "QA-INVERTED" in set(check(make_frame(median_101))["rule"])
+def test_reversed_leads_thresholds(make_frame: Any) -> None:
+    # thresholds chosen here (common practice): more than 90 % of the readings above +100 mV
+    nine_of_ten = [150.0] * 9 + [-300.0]  # exactly 90 %: not more than 90 %
+    assert "QA-REVERSED-LEADS" not in set(check(make_frame(nine_of_ten))["rule"])
+    nineteen_of_twenty = [150.0] * 19 + [-300.0]  # 95 %
+    assert "QA-REVERSED-LEADS" in set(check(make_frame(nineteen_of_twenty))["rule"])
+    at_100 = [100.0] * 20  # exactly +100 mV: not above +100 mV
+    assert "QA-REVERSED-LEADS" not in set(check(make_frame(at_100))["rule"])
+    at_101 = [101.0] * 20
+    assert "QA-REVERSED-LEADS" in set(check(make_frame(at_101))["rule"])
 
 
 def test_outside_slab_and_boundary(make_frame: Any) -> None:

@@ -3,12 +3,14 @@
 from __future__ import annotations
 
 import sys
+import warnings
 from pathlib import Path
 
 import click
 
 from geo_corrosion.cli.handlers import errors_handler
 from geo_corrosion.cli.options import progress_printer, quiet_opt, site_arg
+from geo_corrosion.errors import GeoCorrosionWarning, GeoreferenceWarning
 
 __all__ = ["check"]
 
@@ -26,12 +28,26 @@ def check(site: Path, quiet: bool, max_rows: int) -> None:
     from geo_corrosion import qa
     from geo_corrosion.pipeline import check as check_site
 
-    s, flags = check_site(site, progress=progress_printer(quiet))
+    # the control-point residual warnings are printed with their level below, not as notes
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", GeoCorrosionWarning)
+        s, flags = check_site(site, progress=progress_printer(quiet))
+    for w in caught:
+        if not issubclass(w.category, GeoreferenceWarning):
+            warnings.warn_explicit(w.message, w.category, w.filename, w.lineno)
     for lv in s.levels.values():
         g = lv.grid
-        click.echo(f"level {lv.id}: grid tie rotation {g.rotation_deg:.4f} deg, "
-                   f"scale {g.scale:.6f}, "
-                   f"RMS control-point residual {g.rms_residual:.4f} {g.crs_unit}")
+        tie = f"level {lv.id}: grid tie rotation {g.rotation_deg:.4f} deg, scale {g.scale:.6f}, "
+        if g.redundant:
+            click.echo(f"{tie}RMS control-point residual {g.rms_residual:.4f} {g.crs_unit}")
+        elif g.residuals:
+            click.echo(f"{tie}{len(g.residuals)} control points: no redundancy, the residuals "
+                       "are 0 by construction (a third point would check the tie)")
+        else:
+            click.echo(f"{tie}declared origin and rotation (no control points to check)")
+        message = g.residual_warning()
+        if message:
+            click.echo(f"  WARNING level {lv.id}: {message}")
     for sv in s.surveys:
         click.echo(f"survey {sv.id}: {len(sv.frame)} {sv.kind.name} readings "
                    f"({sv.kind.canonical_unit})")
