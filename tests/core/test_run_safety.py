@@ -16,6 +16,7 @@ import signal
 import subprocess
 import sys
 import time
+from collections.abc import Callable
 from pathlib import Path
 
 import pytest
@@ -152,22 +153,49 @@ def cli_run(site: Path, out: Path, log: Path) -> subprocess.Popen[bytes]:
              "--overwrite"], env=env, stdout=f, stderr=subprocess.STDOUT)
 
 
+def kill_when(proc: subprocess.Popen[bytes], ready: Callable[[], bool], delay: float) -> bool:
+    """SIGKILL ``proc`` ``delay`` seconds after ``ready()`` turns true; False if it ended first."""
+    while proc.poll() is None:
+        if ready():
+            time.sleep(delay)
+            proc.send_signal(signal.SIGKILL)
+            return True
+        time.sleep(0.0005)
+    return False
+
+
 @pytest.mark.slow
 def test_soak_sigkill_never_loses_output(site_dir: Path, tmp_path: Path) -> None:
     out = tmp_path / "out"
-    t0 = time.monotonic()
     log = tmp_path / "run.log"
+    t0 = time.monotonic()
     first = cli_run(site_dir, out, log)
     assert first.wait(timeout=300) == 0, log.read_text()
     duration = time.monotonic() - t0
     current = complete(out)["created_utc"]
+
+    def manifest_written() -> bool:  # run.json is the last file written before the swap
+        return any(tmp_path.glob(".out.partial-*/run.json"))
+
+    def deleting_old() -> bool:
+        return any(tmp_path.glob(".out.trash-*"))
+
+    # 6 SIGKILLs: two while computing/writing, three just before or during the swap, one
+    # while the previous output is being deleted
+    clock = {"start": 0.0}
+
+    def past(frac: float) -> Callable[[], bool]:
+        return lambda: time.monotonic() - clock["start"] > frac * duration
+
+    plans: list[tuple[str, Callable[[], bool], float]] = [
+        (f"at {frac:.0%} of a run", past(frac), 0.0) for frac in (0.3, 0.7)]
+    plans += [(f"{d * 1000:g} ms after run.json", manifest_written, d) for d in (0, 0.002, 0.02)]
+    plans.append(("while deleting the old output", deleting_old, 0.0))
     seen: list[str] = []
-    for frac in (0.15, 0.4, 0.6, 0.8, 0.95, 1.02):  # 6 SIGKILLs spread over a run
+    for what, ready, delay in plans:
+        clock["start"] = time.monotonic()
         proc = cli_run(site_dir, out, log)
-        try:
-            proc.wait(timeout=frac * duration)
-        except subprocess.TimeoutExpired:
-            proc.send_signal(signal.SIGKILL)
+        killed = kill_when(proc, ready, delay)
         proc.wait(timeout=60)
         left = leftovers(out)
         if out.exists():
@@ -177,17 +205,17 @@ def test_soak_sigkill_never_loses_output(site_dir: Path, tmp_path: Path) -> None
         else:  # killed between the renames: what the next run restores must be complete
             olds = [tmp_path / n for n in left if n.startswith(".out.old-")]
             assert len(olds) == 1, left
-            man = complete(olds[0])
-            assert man["created_utc"] == current
-            state = "previous as .old (restorable)"
-        seen.append(f"kill at {frac:.2f} (rc {proc.returncode}): {state}; beside: "
-                     f"{[n.split('-')[0] for n in left]}")
+            assert complete(olds[0])["created_utc"] == current
+            state = "missing, previous as .old (restorable)"
+        seen.append(f"kill {what}: {'killed' if killed else 'ended first'} rc {proc.returncode}"
+                    f"; out: {state}; beside: {[n.split('-')[0] for n in left]}")
     print("\n".join(seen))
     before = leftovers(out)
     final = cli_run(site_dir, out, log)
     assert final.wait(timeout=300) == 0, log.read_text()
+    text = log.read_text()
     for name in before:  # each leftover of the killed runs is removed, with a note
-        if ".partial-" in name or ".old-" in name:
-            assert f"removed {name}" in log.read_text() or "restored" in log.read_text()
+        if ".partial-" in name or ".old-" in name or ".trash-" in name:
+            assert f"removed {name}" in text or f"from {name}" in text, text
     assert complete(out)["created_utc"] != current
-    assert leftovers(out) == [], log.read_text()
+    assert leftovers(out) == [], text
