@@ -5,7 +5,10 @@
 :func:`run` does both, runs the exporters and writes the output folder atomically: every
 file is written into a temporary folder beside the target, which replaces the target only
 when everything succeeded.  A previous output folder is never overwritten unless
-``overwrite=True``.  This module computes nothing itself.
+``overwrite=True``.  A run holds a lock on its output folder from start to end (a second
+run into it is refused at once) and first repairs what an interrupted run left there
+(:mod:`geo_corrosion._io`): after any interruption, the previous output or the new one is
+in place.  This module computes nothing itself.
 """
 
 from __future__ import annotations
@@ -13,7 +16,6 @@ from __future__ import annotations
 import dataclasses
 import json
 import logging
-import os
 import shutil
 import tempfile
 import time
@@ -23,7 +25,7 @@ from pathlib import Path
 
 import pandas as pd
 
-from geo_corrosion._io import atomic_write
+from geo_corrosion._io import atomic_write, output_lock, recover_output, swap_in
 from geo_corrosion.config import SiteConfig
 from geo_corrosion.errors import ExportError, GeoCorrosionWarning
 from geo_corrosion.exporters import EXPORTERS
@@ -167,9 +169,30 @@ def run(
     ------
     GeoCorrosionError
         Any bad input; nothing is written then.
+    ExportError
+        If another run is writing into ``out_dir`` now (see :func:`geo_corrosion._io.output_lock`).
+
+    Notes
+    -----
+    Under the lock, the run first repairs what an interrupted run into ``out_dir`` left
+    (:func:`geo_corrosion._io.recover_output`): a previous output left as ``.<out>.old-*`` by a
+    run killed between its two renames is moved back if ``out_dir`` is missing, and unfinished
+    ``.<out>.partial-*`` folders are removed; each action is shown as a progress note.
     """
     started = time.perf_counter()
     out = Path(out_dir).resolve()
+    with output_lock(out):
+        return _run_locked(site, out, overwrite=overwrite, exporters=exporters,
+                           progress=progress, started=started)
+
+
+def _run_locked(site: str | Path | SiteConfig, out: Path, *, overwrite: bool,
+                exporters: Sequence[str] | None, progress: Progress | None,
+                started: float) -> RunResult:
+    """Do :func:`run` while holding the lock on ``out``: repair, compute, write, swap in."""
+    for n in recover_output(out):  # what an interrupted run into ``out`` left behind
+        if progress:
+            progress(f"note: {n}")
     if out.exists() and not overwrite:
         raise ExportError(f"{out} already exists; choose another --out or pass --overwrite")
     cfg = site if isinstance(site, SiteConfig) else read_site(site)
@@ -199,13 +222,7 @@ def run(
     before = len(result.warnings)
     try:
         write_outputs(result, tmp, exporters=exporters, progress=progress, started=started)
-        if out.exists():
-            old = out.with_name(f".{out.name}.old-{os.getpid()}")
-            os.replace(out, old)
-            os.replace(tmp, out)
-            shutil.rmtree(old, ignore_errors=True)
-        else:
-            os.replace(tmp, out)
+        swap_in(tmp, out)
     except BaseException:
         shutil.rmtree(tmp, ignore_errors=True)
         raise
