@@ -196,16 +196,13 @@ def _run_locked(site: str | Path | SiteConfig, out: Path, *, overwrite: bool,
     if out.exists() and not overwrite:
         raise ExportError(f"{out} already exists; choose another --out or pass --overwrite")
     cfg = site if isinstance(site, SiteConfig) else read_site(site)
-    check_parameters(cfg)
     if out == cfg.root or cfg.root.is_relative_to(out):
         raise ExportError(f"{out}: the output folder cannot be the site folder or hold it")
     # our warnings (fallback variograms, averaged repeats, repaired outlines) are
     # collected into run.json and shown as progress, never lost and never fatal
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", GeoCorrosionWarning)
-        s = open_site(cfg, progress=progress)
-        check_work(s)
-        flags = check_site(s)
+        s, flags = check(cfg, progress=progress)  # the same checks as `geo-corrosion check`
         refuse_unrunnable(flags)
         result = process(s, flags, progress=progress)
     notes = sorted({f"{w.category.__name__}: {w.message}" for w in caught
