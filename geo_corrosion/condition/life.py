@@ -13,6 +13,16 @@ Section loss
     section loss, or adjacent bars with more than 20 %, need an engineering
     decision on replacement or supplementing [UFGS-03931 §3.3.1.4].
 
+Indicative ranges, never a headline figure
+    Both estimates rest on one survey's rate readings (instantaneous rates that vary with
+    season, temperature and moisture by a factor of several [Andrade-Alonso-2004]) and on
+    model constants not confirmed against the original papers.  They are given only where
+    the readings support them (:func:`life_support`: at least :data:`LIFE_MIN_READINGS`
+    readings with a rate and a cover, spread over at least :data:`LIFE_MIN_SPREAD` of the
+    deck, a rule of this project), and then as the 10th to 90th percentile range over the
+    readings (:func:`indicative_range`), with the readings, the model, the source and the
+    assumptions to confirm beside them.
+
 Time to cover cracking
     Alonso, Andrade, Rodriguez & Diez (1998)
     [Alonso-Andrade-1998, from memory]: penetration to first visible
@@ -40,10 +50,25 @@ __all__ = [
     "bar_review_required",
     "critical_penetration_um",
     "time_to_cracking_years",
+    "LIFE_MIN_READINGS",
+    "LIFE_MIN_SPREAD",
+    "LIFE_PERCENTILES",
+    "LifeSupport",
+    "life_support",
+    "indicative_range",
 ]
 
 REVIEW_LOSS = 0.25  # [UFGS-03931 §3.3.1.4]
 REVIEW_ADJACENT_LOSS = 0.20  # [UFGS-03931 §3.3.1.4]
+
+#: Fewest readings (rate and cover both known) for an indicative life range: with 20 the
+#: 10th and 90th percentiles each rest on two readings (a rule of this project).
+LIFE_MIN_READINGS = 20
+#: Least share of the deck the readings must span (their convex hull over the deck area), so
+#: that the range describes the level and not one bay (a rule of this project).
+LIFE_MIN_SPREAD = 0.25
+#: Percentiles of an indicative range: low, middle, high.
+LIFE_PERCENTILES = (10.0, 50.0, 90.0)
 
 
 def _arr(x: ArrayLike, what: str) -> NDArray[np.float64]:
@@ -211,3 +236,87 @@ def time_to_cracking_years(
         raise ConditionError("corrosion current density must not be negative, in uA/cm2")
     with np.errstate(divide="ignore"):
         return x / (um_per_year_per_ua_cm2 * i)
+
+
+@dataclass(frozen=True)
+class LifeSupport:
+    """Whether a survey's readings support an indicative life range, and why.
+
+    Attributes
+    ----------
+    supported : bool
+    readings : int
+        Readings with a finite rate and a finite cover.
+    spread : float or None
+        Convex hull of those readings over the deck area (None without a deck area).
+    reason : str
+        One sentence for the reader, naming the counts against the rule.
+    """
+
+    supported: bool
+    readings: int
+    spread: float | None
+    reason: str
+
+
+def life_support(x: ArrayLike, y: ArrayLike, usable: ArrayLike, *,
+                 deck_area: float | None) -> LifeSupport:
+    """Decide whether the readings support an indicative life range.
+
+    The rule (this project's, see the module docstring): at least
+    :data:`LIFE_MIN_READINGS` usable readings whose convex hull covers at least
+    :data:`LIFE_MIN_SPREAD` of the deck.
+
+    Parameters
+    ----------
+    x, y : array_like
+        Reading positions, plan length units.
+    usable : array_like of bool
+        Readings with a finite rate and cover.
+    deck_area : float or None
+        Deck area in the same length units squared; None skips the spread test.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> g = np.arange(5.0)
+    >>> x, y = np.meshgrid(g, g)
+    >>> life_support(x.ravel(), y.ravel(), np.ones(25, bool), deck_area=32.0).supported
+    True
+    >>> life_support(x.ravel()[:12], y.ravel()[:12], np.ones(12, bool), deck_area=32.0).reason
+    '12 readings with a rate and a cover; an indicative range needs at least 20'
+    """
+    from shapely.geometry import MultiPoint
+
+    ok = np.asarray(usable, bool)
+    n = int(ok.sum())
+    if n < LIFE_MIN_READINGS:
+        return LifeSupport(False, n, None, f"{n} readings with a rate and a cover; an "
+                           f"indicative range needs at least {LIFE_MIN_READINGS}")
+    if deck_area is None or not deck_area > 0:
+        return LifeSupport(True, n, None, f"{n} readings with a rate and a cover")
+    pts = MultiPoint(np.column_stack([_arr(x, "x")[ok], _arr(y, "y")[ok]]))
+    spread = float(pts.convex_hull.area) / float(deck_area)
+    if spread < LIFE_MIN_SPREAD:
+        return LifeSupport(False, n, spread,
+                           f"the {n} readings span {100 * spread:.0f} % of the deck; an "
+                           f"indicative range needs readings over at least "
+                           f"{100 * LIFE_MIN_SPREAD:.0f} %")
+    return LifeSupport(True, n, spread, f"{n} readings with a rate and a cover, spread over "
+                       f"{100 * spread:.0f} % of the deck")
+
+
+def indicative_range(values: ArrayLike) -> dict[str, float] | None:
+    """Return the 10th, 50th and 90th percentiles of the finite values (None if none).
+
+    Examples
+    --------
+    >>> indicative_range(range(1, 12))
+    {'p10': 2.0, 'p50': 6.0, 'p90': 10.0}
+    """
+    v = _arr(values, "values").ravel()
+    v = v[~np.isnan(v)]
+    if not v.size:
+        return None
+    p = np.percentile(v, LIFE_PERCENTILES)
+    return {"p10": float(p[0]), "p50": float(p[1]), "p90": float(p[2])}

@@ -227,13 +227,15 @@ class MeasurementKind:
 
     def life_estimates(
         self, frame: pd.DataFrame, cover_mm: NDArray[np.float64] | None, *,
-        bar_diameter_mm: float,
+        bar_diameter_mm: float, deck_area: float | None = None,
     ) -> tuple[pd.DataFrame, dict[str, Any]] | None:
         """Return the survey's frame with life estimates added, and their summary; or None.
 
         Called for every survey of a level that has a surface.  ``cover_mm`` is the kriged
         cover at each reading (NaN off the cover surface), or None when the level has no
-        surface of the :attr:`Role.COVER` kind.  The frame given must not be changed.  The
+        surface of the :attr:`Role.COVER` kind.  ``deck_area`` is the level's deck area in
+        the plan length unit squared (None when unknown).  The frame given must not be
+        changed.  The
         base kind estimates nothing (None); the corrosion-rate kind gives section loss and
         time to cover cracking.
         """

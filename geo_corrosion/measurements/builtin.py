@@ -482,6 +482,7 @@ class CorrosionRate(MeasurementKind):
 
     def life_estimates(
         self, frame: pd.DataFrame, cover_mm: np.ndarray | None, *, bar_diameter_mm: float,
+        deck_area: float | None = None,
     ) -> tuple[pd.DataFrame, dict[str, Any]]:
         """Section loss and time to cover cracking at each corrosion-rate reading.
 
@@ -496,8 +497,18 @@ class CorrosionRate(MeasurementKind):
           is counted from corrosion initiation at the measured rate; it is **not** the time
           left from today (the corrosion that already took place is unknown), so it is an
           upper bound of the time left.
+
+        The summary never gives a single figure: where the readings support it
+        (:func:`geo_corrosion.condition.life.life_support`) it gives the 10th to 90th
+        percentile range over the readings, with its basis (readings, model, sources,
+        assumptions to confirm); otherwise the reason there is no range.
         """
-        from geo_corrosion.condition.life import section_loss, time_to_cracking_years
+        from geo_corrosion.condition.life import (
+            indicative_range,
+            life_support,
+            section_loss,
+            time_to_cracking_years,
+        )
 
         frame = frame.copy()  # the caller's frame is never changed
         i = frame[self.value_column].to_numpy(float)
@@ -507,7 +518,8 @@ class CorrosionRate(MeasurementKind):
             if np.isfinite(v) and v >= 0:
                 r = section_loss(bar_diameter_mm, float(v), SERVICE_HORIZON_YEARS)
                 loss[k], review[k] = 100.0 * r.loss_fraction, r.review_required
-        frame[f"section_loss_{int(SERVICE_HORIZON_YEARS)}yr_pct"] = loss
+        loss_col = f"section_loss_{int(SERVICE_HORIZON_YEARS)}yr_pct"
+        frame[loss_col] = loss
         frame["bar_review"] = review
         c = np.full(i.shape, np.nan) if cover_mm is None else np.asarray(cover_mm, float)
         frame["cover_at_reading_mm"] = c
@@ -517,16 +529,31 @@ class CorrosionRate(MeasurementKind):
             if ok.any():
                 t[ok] = time_to_cracking_years(c[ok], bar_diameter_mm, i[ok])
         frame["time_to_cracking_yr"] = t
+        support = life_support(frame["x_local"].to_numpy(float),
+                               frame["y_local"].to_numpy(float), ok, deck_area=deck_area)
         return frame, {
             "bar_diameter_mm": bar_diameter_mm, "horizon_years": SERVICE_HORIZON_YEARS,
             "readings_needing_bar_review": int(review.sum()),
             "readings": int(len(i)),
-            "median_time_to_cracking_yr": float(np.nanmedian(t)) if np.isfinite(t).any() else None,
+            "readings_used": support.readings,
+            "supported": support.supported,
+            "basis": support.reason,
+            "time_to_cracking_yr": indicative_range(t[ok]) if support.supported else None,
+            "section_loss_pct": indicative_range(loss[ok]) if support.supported else None,
             "time_to_cracking_meaning": "propagation time from corrosion initiation to the first "
                                         "visible crack at the measured rate; not the time left "
                                         "from today (an upper bound of it)",
+            "model": "uniform section loss by Faraday's law over "
+                     f"{SERVICE_HORIZON_YEARS:g} years at each reading's rate; time to the "
+                     "first visible crack x_crit / (11.6 i_corr), x_crit = 7.53 + 9.32 c/phi "
+                     "um with c the kriged cover at the reading",
             "sources": ["Faraday's law, derived", "25 % section loss [UFGS-03931 §3.3.1.4]",
                         "time to cracking [Alonso-Andrade-1998, from memory]"],
+            "assumptions": ["the time-to-cracking coefficients 7.53 and 9.32 are from memory "
+                            "[Alonso-Andrade-1998]: check against the paper",
+                            "one survey's instantaneous rates stand for the yearly mean rate; "
+                            "rates vary with season, temperature and moisture "
+                            "[Andrade-Alonso-2004]"],
         }
 
 

@@ -46,7 +46,7 @@ __all__ = ["MANIFEST_NAME", "FORMAT_VERSION", "manifest", "read_run", "result_ma
            "CrossValidationRecord", "ExperimentalVariogramRecord", "DirectionalVariogram",
            "DirectionalVariograms", "ClassArea", "ConditionRecord", "AreaBeyondThreshold",
            "SiteThreshold", "SiteThresholdUnavailable", "CombinedClassArea",
-           "CombinedClassRecord", "CombinedRuleRecord", "CombinedRules", "LifeSummary",
+           "CombinedClassRecord", "CombinedRuleRecord", "CombinedRules", "LifeRange", "LifeSummary",
            "PlanningNotes", "ZoningRuleRecord", "ZoneRecord", "ScheduleRow"]
 
 MANIFEST_NAME = "run.json"
@@ -788,16 +788,35 @@ class CombinedRules(_Record):
 
 
 @dataclass(frozen=True)
+class LifeRange(_Record):
+    """An indicative range: the 10th, 50th and 90th percentiles over the readings."""
+
+    p10: float
+    p50: float
+    p90: float
+
+
+@dataclass(frozen=True)
 class LifeSummary(_Record):
-    """``condition.life.<survey id>``: section loss and time to cracking of a rate survey."""
+    """``condition.life.<survey id>``: section loss and time to cracking of a rate survey.
+
+    The ranges are None where the readings do not support them (``supported`` false,
+    ``basis`` says why); never a single headline figure.
+    """
 
     bar_diameter_mm: float
     horizon_years: float
     readings_needing_bar_review: int
     readings: int
-    median_time_to_cracking_yr: float | None
+    readings_used: int
+    supported: bool
+    basis: str
+    time_to_cracking_yr: LifeRange | None
+    section_loss_pct: LifeRange | None
     time_to_cracking_meaning: str
+    model: str
     sources: tuple[str, ...]
+    assumptions: tuple[str, ...]
 
 
 _BEYOND = "_area_beyond_threshold"

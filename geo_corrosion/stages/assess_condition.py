@@ -81,7 +81,8 @@ def value_at_readings(surface: KindSurface, frame: pd.DataFrame) -> NDArray[np.f
 
 
 def life_estimates(frame: pd.DataFrame, cover: KindSurface | None, *, kind: MeasurementKind,
-                   bar_diameter_mm: float) -> tuple[pd.DataFrame, dict[str, Any]] | None:
+                   bar_diameter_mm: float, deck_area: float | None = None,
+                   ) -> tuple[pd.DataFrame, dict[str, Any]] | None:
     """Life estimates of one survey of ``kind`` (its ``life_estimates`` hook), or None.
 
     ``cover`` is the level's surface of the :attr:`Role.COVER` kind (None without one); its
@@ -91,7 +92,8 @@ def life_estimates(frame: pd.DataFrame, cover: KindSurface | None, *, kind: Meas
     frame (``frame`` is never changed) and the summary for ``run.json``.
     """
     cover_mm = value_at_readings(cover, frame) if cover is not None else None
-    return kind.life_estimates(frame, cover_mm, bar_diameter_mm=bar_diameter_mm)
+    return kind.life_estimates(frame, cover_mm, bar_diameter_mm=bar_diameter_mm,
+                               deck_area=deck_area)
 
 
 def _polygons(codes: NDArray[np.int64], surface: KindSurface, labels: list[tuple[str, str, str]],
@@ -216,7 +218,8 @@ def assess_condition(level: Level, mapped: LevelSurfaces, surveys: Sequence[Surv
     life: dict[str, Any] = {}
     cover = with_role(mapped.surfaces, Role.COVER)
     for sv in surveys:
-        est = life_estimates(sv.frame, cover, kind=sv.kind, bar_diameter_mm=bar_diameter_mm)
+        est = life_estimates(sv.frame, cover, kind=sv.kind, bar_diameter_mm=bar_diameter_mm,
+                             deck_area=float(level.deck.area))
         if est is not None:
             frames[sv.id], life[sv.id] = est
     if life:

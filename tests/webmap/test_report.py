@@ -243,11 +243,16 @@ def test_condition_statements_match_run_json(any_run: Path) -> None:
             a = f"{row['area_m2'] / (M2_PER_FT2 if system == 'us' else 1.0):,.2f}"
             assert f"{row['class']} {a}" in level_text, (lid, row)
         for sid, life in (cond.get("life") or {}).items():
-            med = life["median_time_to_cracking_yr"]
-            med_text = "n/a" if med is None else f"{med:.1f}"
-            assert (f"{sid} {life['readings']} {life['readings_needing_bar_review']} {med_text}"
-                    in level_text)
+            # issue 12: a range (10th to 90th percentile) with its basis, never one figure
+            def rng(r: dict[str, float] | None) -> str:
+                return "not given" if r is None else f"{r['p10']:.1f} to {r['p90']:.1f}"
+
+            assert (f"{sid} {life['readings_used']} {life['readings_needing_bar_review']} "
+                    f"{rng(life['time_to_cracking_yr'])} {rng(life['section_loss_pct'])}"
+                    in level_text), (lid, sid)
             assert _norm(life["time_to_cracking_meaning"]) in level_text
+            assert _norm(life["basis"]) in level_text
+            assert "median time to cracking" not in level_text.lower()
     assert checked >= len(man["levels"])  # at least the potential statement per level
 
 

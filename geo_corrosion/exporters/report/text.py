@@ -355,15 +355,29 @@ def _condition_block(info: LevelRecord, units: ReportUnits) -> str:
                                    ("share", "share of deck (%)")], cls="combined"))
     life = cond.life or {}
     if life:
-        parts.append("<h4>Life summary (corrosion-rate surveys)</h4>")
+        parts.append("<h4>Life indications (corrosion-rate surveys)</h4>")
+        parts.append('<p class="caution">Indicative ranges over one survey\'s readings, not '
+                     "predictions: instantaneous rates vary with season, temperature and "
+                     "moisture, and the model constants are listed under assumptions to "
+                     "confirm. A licensed engineer decides what they mean for the "
+                     "structure.</p>")
         rows, notes = [], []
+
+        def rng(r: Any, fmt: str) -> str:
+            return "not given" if r is None else (f"{format(float(r.p10), fmt)} to "
+                                                  f"{format(float(r.p90), fmt)}")
+
         for sid, v in life.items():
-            med = v.median_time_to_cracking_yr
-            rows.append({"survey": sid, "readings": v.readings,
+            rows.append({"survey": sid, "readings": v.readings_used,
                          "review": v.readings_needing_bar_review,
-                         "median": "n/a" if med is None else f"{float(med):.1f}"})
+                         "crack": rng(v.time_to_cracking_yr, ".1f"),
+                         "loss": rng(v.section_loss_pct, ".1f")})
+            word = "Basis" if v.supported else "No range given"
+            notes.append(f"{sid}: {word}: {v.basis}.")
             if v.time_to_cracking_meaning:
                 notes.append(f"Time to cracking: {v.time_to_cracking_meaning}.")
+            if v.model:
+                notes.append(f"Model: {v.model}.")
             if v.horizon_years is not None and v.bar_diameter_mm is not None:
                 d = float(v.bar_diameter_mm)
                 dtxt = (f"{d:g} mm ({float(units.small_from_mm(d)):.3g} in)"
@@ -373,10 +387,16 @@ def _condition_block(info: LevelRecord, units: ReportUnits) -> str:
                              f"diameter {dtxt}.")
             if v.sources:
                 notes.append("Sources: " + "; ".join(map(str, v.sources)) + ".")
-        parts.append(_table(rows, [("survey", "survey"), ("readings", "readings"),
+            for a in v.assumptions:
+                notes.append(f"Assumption to confirm: {a}.")
+        hy = next((float(v.horizon_years) for v in life.values()), 10.0)
+        parts.append(_table(rows, [("survey", "survey"), ("readings", "readings used"),
                                    ("review", "readings needing bar review"),
-                                   ("median", "median time to cracking (years)")],
-                            cls="life", num=("median",)))
+                                   ("crack", "time to cracking, 10th to 90th percentile "
+                                             "(years)"),
+                                   ("loss", f"section loss in {hy:g} years, 10th to 90th "
+                                            "percentile (%)")],
+                            cls="life", num=("crack", "loss")))
         parts.append("".join(f'<p class="src">{_e(n)}</p>' for n in dict.fromkeys(notes)))
     return "\n".join(parts)
 
