@@ -13,6 +13,7 @@ from geo_corrosion.qa.checks import (
     QARule,
     check_level,
     check_survey,
+    count_line,
     flag_points,
     format_flags,
     runnable,
@@ -30,4 +31,5 @@ __all__ = [
     "runnable",
     "flag_points",
     "format_flags",
+    "count_line",
 ]

@@ -57,6 +57,7 @@ __all__ = [
     "runnable",
     "flag_points",
     "format_flags",
+    "count_line",
 ]
 
 Severity = Literal["info", "warning", "error"]
@@ -771,6 +772,30 @@ def summarize(flags: pd.DataFrame) -> pd.DataFrame:
     out["_rank"] = out["severity"].map(_SEVERITY_RANK).fillna(9)
     out = out.sort_values(["level_id", "survey_id", "_rank", "rule"], kind="stable")
     return out.drop(columns="_rank").reset_index(drop=True)
+
+
+def count_line(flags: pd.DataFrame) -> str:
+    """Return the flags counted by severity in one line, most severe first.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> count_line(pd.DataFrame({"severity": ["info", "warning", "warning"]}))
+    '3 QA flags: 0 errors, 2 warnings, 1 note'
+    >>> count_line(pd.DataFrame({"severity": []}))
+    'no QA flags'
+    """
+    _require(flags, ["severity"])
+    if flags.empty:
+        return "no QA flags"
+    sev = flags["severity"]
+
+    def n(count: int, word: str) -> str:
+        return f"{count} {word}{'' if count == 1 else 's'}"
+
+    return (f"{n(len(flags), 'QA flag')}: {n(int((sev == 'error').sum()), 'error')}, "
+            f"{n(int((sev == 'warning').sum()), 'warning')}, "
+            f"{n(int((sev == 'info').sum()), 'note')}")
 
 
 def runnable(flags: pd.DataFrame) -> bool:

@@ -25,6 +25,7 @@ def run_out(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, Path]:
     out = root / "out"
     res = CliRunner().invoke(cli, ["run", str(site), "--out", str(out), "-q"])
     assert res.exit_code == 0, res.output
+    (root / "run_output.txt").write_text(res.output)
     return site, out
 
 
@@ -35,6 +36,35 @@ def test_outputs_exist(run_out: tuple[Path, Path]) -> None:
                  "rasters/D1_potential.tif", "rasters/D1_potential_variance.tif"):
         assert (out / name).is_file(), name
     assert not list(out.parent.glob(".out.partial-*"))
+
+
+def test_run_ends_with_the_qa_counts(run_out: tuple[Path, Path], tmp_path: Path) -> None:
+    # issue 14 item 4: `run` ends with a one-line QA summary (counts by severity, where to
+    # read them); the counts are those of the qa_flags layer read back with pyogrio
+    _site, out = run_out
+    last = (out.parent / "run_output.txt").read_text().strip().splitlines()[-1]
+    assert last == "no QA flags"  # the plain synthetic site is clean
+    from geo_corrosion.testing import make_synthetic_site
+
+    site = tmp_path / "site"
+    make_synthetic_site(site)
+    csv = site / "readings" / "potential.csv"
+    rows = csv.read_text().splitlines()
+    # one reading beyond the plausible range of a CSE potential, one taken twice
+    rows[5] = ",".join([*rows[5].split(",")[:3], "-1250.0"])
+    rows.append(rows[10])
+    csv.write_text("\n".join(rows) + "\n")
+    res = CliRunner().invoke(cli, ["run", str(site), "--out", str(tmp_path / "o"), "-q"])
+    assert res.exit_code == 0, res.output
+    last = res.output.strip().splitlines()[-1]
+    flags = pyogrio.read_dataframe(tmp_path / "o" / "survey.gpkg", layer="qa_flags")
+    sev = flags["severity"].value_counts()
+    n = len(flags)
+    assert n >= 2
+    assert last.startswith(f"{n} QA flags: {sev.get('error', 0)} error"), last
+    w, i = sev.get("warning", 0), sev.get("info", 0)
+    assert f" {w} warning{'' if w == 1 else 's'}, {i} note" in last, last
+    assert "qa_flags layer of survey.gpkg" in last
 
 
 def test_manifest(run_out: tuple[Path, Path]) -> None:

@@ -3,13 +3,17 @@
 from __future__ import annotations
 
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import click
 
 from geo_corrosion.cli.handlers import errors_handler
 from geo_corrosion.cli.options import out_opt, overwrite_opt, progress_printer, quiet_opt, site_arg
 
-__all__ = ["run"]
+if TYPE_CHECKING:
+    import pandas as pd
+
+__all__ = ["run", "qa_line"]
 
 
 @click.command()
@@ -34,3 +38,18 @@ def run(site: Path, out: Path | None, overwrite: bool, quiet: bool) -> None:
 
         click.echo("\nschedule of quantities (estimates for bidding):")
         click.echo(schedule_table(result.schedule).round(1).to_string(index=False))
+    click.echo("")
+    click.echo(qa_line(result.flags, result.files))
+
+
+def qa_line(flags: pd.DataFrame, files: list[str]) -> str:
+    """Return the run's closing line: the QA flags by severity and where to read them."""
+    from geo_corrosion.qa import count_line
+
+    line = count_line(flags)
+    if flags.empty:
+        return line
+    where = [w for f, w in (("report.pdf", "the QA section of report.pdf"),
+                            ("survey.gpkg", "the qa_flags layer of survey.gpkg"))
+             if f in files]
+    return f"{line}; read them in {' and '.join(where)}" if where else line
