@@ -16,8 +16,9 @@ import pytest
 from geo_corrosion.testing import make_synthetic_site
 from tests.fuzz.contract import TALLY
 
-#: xfailed (pending) cases per group, and the referenced soak's outcome.
+#: xfailed cases per group: pending another branch, and defects found here and unfixed.
 _XFAILED: dict[str, int] = {}
+_FOUND: dict[str, int] = {}
 _SOAK = "tests/core/test_run_safety.py::test_soak_sigkill_never_loses_output"
 _SOAK_KILLS = 6  # the soak's kill plans (see that test)
 _soak_outcome: list[str] = []
@@ -58,24 +59,27 @@ def pytest_runtest_logreport(report: pytest.TestReport) -> None:
         _soak_outcome.append(report.outcome)
     group = _group(report.nodeid)
     if group and hasattr(report, "wasxfail") and report.skipped:
-        _XFAILED[group] = _XFAILED.get(group, 0) + 1
+        into = _FOUND if "found by tests/fuzz" in report.wasxfail else _XFAILED
+        into[group] = into.get(group, 0) + 1
 
 
 def pytest_terminal_summary(terminalreporter: pytest.TerminalReporter) -> None:
     """Print how many broken site folders were tried and handled cleanly, per group."""
-    if not TALLY and not _XFAILED:
+    if not TALLY and not _XFAILED and not _FOUND:
         return
-    groups = sorted(set(TALLY) | set(_XFAILED))
+    groups = sorted(set(TALLY) | set(_XFAILED) | set(_FOUND))
     tried = sum(t for t, _ in TALLY.values())
     clean = sum(c for _, c in TALLY.values())
-    xfail = sum(_XFAILED.values())
+    xfail, found = sum(_XFAILED.values()), sum(_FOUND.values())
     parts = []
     for g in groups:
         t, c = TALLY.get(g, [0, 0])
-        x = _XFAILED.get(g, 0)
-        parts.append(f"{g} {c}/{t}" + (f" +{x} xfail" if x else ""))
+        x, f = _XFAILED.get(g, 0), _FOUND.get(g, 0)
+        parts.append(f"{g} {c}/{t}" + (f" +{x} pending" if x else "")
+                     + (f" +{f} found" if f else ""))
     soak = (f"interrupted runs: {_SOAK} {_soak_outcome[0]} ({_SOAK_KILLS} SIGKILLs)"
             if _soak_outcome else f"interrupted runs: {_SOAK} not run in this session")
     terminalreporter.write_line(
-        f"fuzz: {tried} broken site folders tried, {clean} handled cleanly, {xfail} xfailed "
-        f"pending h/validate (groups: {', '.join(parts)}); {soak}")
+        f"fuzz: {tried} broken site folders tried, {clean} handled cleanly; xfailed: {xfail} "
+        f"pending h/validate, {found} found here and unfixed (groups: {', '.join(parts)}); "
+        f"{soak}")

@@ -60,6 +60,10 @@ class Case:
     pending : str
         Non-empty: the case fails today for a reason another branch is fixing; it is marked
         ``xfail(strict=True)`` with this reason, so it fails the suite once the fix lands.
+    found : str
+        Non-empty: a defect this suite found that no branch fixes yet; marked
+        ``xfail(strict=True)`` with this reason and listed in the report, so that the fix turns
+        it into a failure and the mark is removed with it.
     slow : bool
         Marked ``slow`` (still run in CI).
     """
@@ -69,6 +73,7 @@ class Case:
     names: tuple[str, ...] = ()
     expect: str = "error"
     pending: str = ""
+    found: str = ""
     slow: bool = False
     marks: tuple[Any, ...] = field(default=())
 
@@ -78,6 +83,9 @@ class Case:
         if self.pending:
             marks.append(pytest.mark.xfail(strict=True, reason=f"pending h/validate: "
                                            f"{self.pending}"))
+        if self.found:
+            marks.append(pytest.mark.xfail(strict=True, reason=f"found by tests/fuzz, unfixed: "
+                                           f"{self.found}"))
         if self.slow:
             marks.append(pytest.mark.slow)
         return pytest.param(self, id=self.id, marks=marks)
