@@ -78,3 +78,37 @@ def test_any_unsafe_id_is_refused(fuzz_template: Path, tmp_path_factory: pytest.
     case = where(bad)  # type: ignore[operator]
     case.breaks(site)
     holds(site, case, GROUP, run=False)
+
+
+def class_key(bad: str) -> Case:
+    """A class key of ``[condition.combined]`` (it names a class layer and legend entry)."""
+    def breaks(site: Path) -> None:
+        toml = site / "site.toml"
+        toml.write_text(toml.read_text() + (
+            f'\n[condition.combined]\ndefault = "ok"\nclasses = [ {{ key = {_toml_str(bad)} }}, '
+            f'{{ key = "ok" }} ]\n[[condition.combined.rules]]\nclass = {_toml_str(bad)}\n'
+            'potential = ["high"]\n'))
+    return Case(f"class-key-{bad!r}", breaks,
+                ("site.toml", "[condition.combined].classes[0].key"),
+                pending="class keys and zoning names as safe ids")
+
+
+def zoning_name(bad: str) -> Case:
+    """The name of a ``[[zoning]]`` entry (it names zones in the layers and the schedule)."""
+    return Case(f"zoning-name-{bad!r}", lambda s: (s / "site.toml").write_text(
+        (s / "site.toml").read_text() + f'\n[[zoning]]\nrule = "repair"\nname = '
+                                        f'{_toml_str(bad)}\n'),
+                ("site.toml", "[[zoning]][0].name"),
+                pending="class keys and zoning names as safe ids")
+
+
+# an empty zoning name is refused today (ZoningRule.check_parameters); the others are pending
+PENDING_CASES = [class_key(b) for b in ("../../../escaped", "L2/sub", "a b", "x:y")] + [
+    zoning_name(b) for b in ("../../../escaped", "L2/sub", "x:y", "x" * (ID_MAX + 1))]
+
+
+@pytest.mark.parametrize("case", [c.param() for c in PENDING_CASES])
+def test_unsafe_class_key_or_zoning_name_is_refused(site: Path, case: Case) -> None:
+    """Class keys and zoning names are held to the same safe set (issue 11)."""
+    case.breaks(site)
+    holds(site, case, GROUP)

@@ -124,6 +124,30 @@ for _which, (_, _, _dotted) in KEYS.items():
                           ("site.toml", _key, *_frags)))
 
 
+def _shapefile_companion(ext: str, target: str) -> Case:
+    """The slab as a Shapefile whose companion ``slab<ext>`` links outside the site folder."""
+    def breaks(site: Path) -> None:
+        import geopandas as gpd
+
+        gpd.read_file(site / "plans" / "slab.geojson").to_file(site / "plans" / "slab.shp")
+        comp = site / "plans" / f"slab{ext}"
+        if target == "copy":
+            out = site.parent / f"outside{ext}"
+            comp.rename(out)
+        else:
+            comp.unlink()
+            out = Path(target)
+        comp.symlink_to(out)
+        edit(site / "site.toml", "plans/slab.geojson", "plans/slab.shp")
+    return Case(f"shapefile-{ext[1:]}-links-to-{Path(target).name}", breaks,
+                ("site.toml", "[[levels]][0].slab.path", f"slab{ext}", "outside the site folder"),
+                pending="Shapefile companion files path-checked")
+
+
+CASES += [_shapefile_companion(ext, t) for ext in (".dbf", ".shx", ".prj")
+          for t in ("copy", "/etc/passwd")]
+
+
 @pytest.mark.parametrize("case", [c.param() for c in CASES])
 def test_path_outside_or_unreadable_is_refused(site: Path, case: Case) -> None:
     """Every bad path in every kind of path key: refused naming file and key (issue 11)."""
