@@ -170,3 +170,28 @@ def holds(site: Path, case: Case, group: str, *, run: bool = True) -> str:
     assert snapshot(site) == before, "an input file changed or a file was added"
     tally[1] += 1
     return text
+
+
+def runs(site: Path, case: Case, group: str) -> Path:
+    """Assert that a site that must be read runs: exit 0, a complete output, names warned.
+
+    For ``expect="warning"`` the case's ``names`` must be in the run's output (the run is not
+    silent about it); for every case no traceback, nothing left beside the output folder, and
+    every input byte-identical.  Returns the output folder.
+    """
+    tally = TALLY.setdefault(group, [0, 0])
+    tally[0] += 1
+    before = snapshot(site)
+    outs = site.parent / "outs"
+    outs.mkdir(exist_ok=True)
+    out_dir = outs / "out"
+    res = _invoke(["run", str(site), "--out", str(out_dir)])
+    out = _clean(res, "run")
+    assert res.exit_code == 0, f"run refused a site it should run:\n{out}"
+    for frag in case.names:
+        assert frag.lower() in out.lower(), f"run: {frag!r} not in the output:\n{out}"
+    assert (out_dir / "run.json").is_file(), "run.json, written last, is missing"
+    assert sorted(os.listdir(outs)) == ["out"], f"left beside OUT: {os.listdir(outs)}"
+    assert snapshot(site) == before, "an input file changed or a file was added"
+    tally[1] += 1
+    return out_dir
