@@ -9,6 +9,7 @@ covers interrupted runs.
 from __future__ import annotations
 
 import shutil
+from collections.abc import Iterator
 from pathlib import Path
 
 import pytest
@@ -63,8 +64,13 @@ def pytest_runtest_logreport(report: pytest.TestReport) -> None:
         into[group] = into.get(group, 0) + 1
 
 
-def pytest_terminal_summary(terminalreporter: pytest.TerminalReporter) -> None:
-    """Print how many broken site folders were tried and handled cleanly, per group."""
+@pytest.hookimpl(hookwrapper=True, tryfirst=True)
+def pytest_terminal_summary(terminalreporter: pytest.TerminalReporter) -> Iterator[None]:
+    """Print how many broken site folders were tried and handled cleanly, per group.
+
+    The outermost wrapper: printed after the short test summary, at the end of the run.
+    """
+    yield
     if not TALLY and not _XFAILED and not _FOUND:
         return
     groups = sorted(set(TALLY) | set(_XFAILED) | set(_FOUND))
