@@ -15,8 +15,11 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from geo_corrosion.testing import SYNTHETIC_TIE
+from tests.fuzz.conftest import fresh_site
 from tests.fuzz.contract import Case, edit, holds
 
 GROUP = "data"
@@ -108,6 +111,14 @@ CASES = [
          ("potential.csv", "line 58", "'value'")),
     Case("empty-value", _values(lambda i, v: "" if i == 33 else f"{v:.1f}"),
          ("potential.csv line 33", "QA-NAN-VALUE"), expect="warning"),
+    # a non-finite reading is dropped with a warning naming its line (QA-NAN-VALUE)
+    *(Case(f"reading-{v}", _values(lambda i, x, v=v: v if i == 58 else f"{x:.1f}"),
+           ("potential.csv line 58", "QA-NAN-VALUE"), expect="warning")
+      for v in ("inf", "-inf", "1e999")),
+    Case("reading-1e300", _values(lambda i, v: "1e300" if i == 58 else f"{v:.1f}"),
+         ("potential.csv line 58",),
+         found="one reading of 1e300 mV is refused as a contour-interval runaway naming "
+               "[run].contour_interval_mv ('give at least 5e+297 mV'), not the reading's line"),
     Case("empty-file", _lines(lambda L: []), ("potential.csv", "empty")),
     Case("header-only", _lines(lambda L: L[:1]), ("potential.csv", "no readings")),
     Case("missing-column", _lines(lambda L: [",".join(ln.split(",")[:3]) for ln in L]),
@@ -135,3 +146,32 @@ def test_wrong_data_is_named(site: Path, case: Case) -> None:
     """Each wrong datum: refused naming file and row or key, or warned naming it (issue 11)."""
     case.breaks(site)
     holds(site, case, GROUP)
+
+
+def _not_a_number(text: str) -> bool:
+    """Whether pandas reads ``text`` (stripped) as neither a number nor a blank (the reader's)."""
+    import pandas as pd
+
+    s = text.strip()
+    if s == "" or s.lower() in ("nan", "na", "none"):
+        return False
+    return bool(pd.isna(pd.to_numeric(pd.Series([s]), errors="coerce")).iloc[0])
+
+
+_junk = st.text(alphabet=st.characters(codec="utf-8", exclude_categories=("Cs", "Cc", "Zl", "Zp"),
+                                       exclude_characters=',"\r\n'),
+                min_size=1, max_size=12).filter(_not_a_number)
+
+
+@settings(derandomize=True, database=None, deadline=None, max_examples=10,
+          suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(line=st.integers(min_value=2, max_value=601), junk=_junk)
+def test_text_in_any_value_is_named_by_its_line(fuzz_template: Path, tmp_path_factory:
+                                                pytest.TempPathFactory, line: int,
+                                                junk: str) -> None:
+    """Text drawn by hypothesis (fixed seed) in the value of a drawn line: named by that line."""
+    site = fresh_site(fuzz_template, tmp_path_factory.mktemp("junk"))
+    case = Case(f"junk-line-{line}", _values(lambda i, v: junk if i == line else f"{v:.1f}"),
+                (f"potential.csv line {line}", "'value'"))
+    case.breaks(site)
+    holds(site, case, GROUP, run=False)
