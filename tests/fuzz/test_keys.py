@@ -182,3 +182,23 @@ def test_malformed_site_file_is_refused_with_its_line_or_key(site: Path, case: C
     """Malformed TOML names the file and line; a wrong type the key (issue 11)."""
     case.breaks(site)
     holds(site, case, GROUP)
+
+
+def _zoning_cases() -> list[Case]:
+    """Every parameter of every zoning rule of the registry set to ``nan`` (no rule takes it)."""
+    from geo_corrosion.zoning import ZONING_RULES
+
+    out = []
+    for rule in ZONING_RULES.names():
+        for param in ZONING_RULES.get(rule).parameters():
+            out.append(Case(f"[[zoning]][0].{param}=nan ({rule})",
+                            _append(f'\n[[zoning]]\nrule = "{rule}"\n{param} = nan\n'),
+                            ("site.toml", f"[[zoning]][0].{param}")))
+    return out
+
+
+@pytest.mark.parametrize("case", [c.param() for c in _zoning_cases()])
+def test_nan_zoning_parameter_is_refused_by_its_key(site: Path, case: Case) -> None:
+    """A NaN in each parameter of each registered zoning rule: named by its key (issue 11)."""
+    case.breaks(site)
+    holds(site, case, GROUP, run=False)
