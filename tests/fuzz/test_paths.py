@@ -152,5 +152,6 @@ CASES += [_shapefile_companion(ext, t) for ext in (".dbf", ".shx", ".prj")
 def test_path_outside_or_unreadable_is_refused(site: Path, case: Case) -> None:
     """Every bad path in every kind of path key: refused naming file and key (issue 11)."""
     case.breaks(site)
-    out = holds(site, case, GROUP)
+    # `run` goes through the same pipeline.check chain as `check`: tried for two of the keys
+    out = holds(site, case, GROUP, run=case.id.startswith(("survey-", "slab-")))
     assert "root:" not in out  # nothing of /etc/passwd is shown (common practice)
