@@ -108,6 +108,9 @@ def _dxf_features(ref: LayerRef) -> tuple[list[tuple[BaseGeometry, str, str]], s
                 geom = Polygon(pts) if closed and len(pts) >= 3 else LineString(pts)
             elif t == "CIRCLE":
                 c = e.dxf.center
+                if not (math.isfinite(c.x) and math.isfinite(c.y)):
+                    raise IngestError(f"{ref.where}: {w} has a centre that is not a finite "
+                                      "number (NaN or infinite); fix or redraw the outline")
                 if not e.dxf.radius > 0:
                     raise IngestError(f"{ref.where}: {w} has radius {e.dxf.radius}; a "
                                       "zero-radius circle outlines nothing: delete it or "

@@ -409,8 +409,9 @@ def check_survey(
 
     # -- missing values / locations (common practice)
     idx = np.flatnonzero(~ok_v)
-    out.append(r.flags(idx, "QA-NAN-VALUE", [f"{w}: no {value_column} value (empty or NaN)"
-                                             for w in r.where[idx]]))
+    why = ["infinite" if np.isinf(v) else "empty or NaN" for v in r.v[idx]]
+    out.append(r.flags(idx, "QA-NAN-VALUE", [f"{w}: no usable {value_column} value ({y})"
+                                             for w, y in zip(r.where[idx], why, strict=True)]))
     idx = np.flatnonzero(~ok_xy)
     out.append(r.flags(idx, "QA-NAN-XY", [f"{w}: no local x/y location" for w in r.where[idx]]))
 

@@ -148,6 +148,10 @@ def check_work(site: Site) -> None:
             values = np.concatenate([s.frame[kind.value_column].to_numpy(float)
                                      for s in site.surveys_of(lid, kind.name)])
             values = values[np.isfinite(values)]
+            lo, hi = kind.plausible_range or (-math.inf, math.inf)
+            # readings beyond the kind's plausible range are flagged by QA and left out of
+            # the surface: they draw no contour, so they do not count here
+            values = values[(values >= lo) & (values <= hi)]
             if not values.size or not interval or interval <= 0:
                 continue
             levels = (float(values.max()) - float(values.min())) / interval

@@ -71,9 +71,7 @@ ERRORS = [
         ("sounding.dxf", "layer DELAM", "handle", "not a finite number")),
     Case("nan-circle-centre", drawing(lambda m: m.add_circle((float("nan"), 20), 1.0,
                                                              dxfattribs=D)),
-         ("sounding.dxf", "layer DELAM", "handle"),
-         found="a circle with a NaN centre is taken without a word (io/plans.py checks the "
-               "vertices of polylines only)"),
+         ("sounding.dxf", "layer DELAM", "handle", "not a finite number")),
     Case("zero-radius-circle", drawing(lambda m: m.add_circle((20, 20), 0.0, dxfattribs=D)),
          ("sounding.dxf", "layer DELAM", "handle", "zero-radius circle")),
     Case("block-insert", drawing(_insert),
