@@ -70,10 +70,33 @@ def _read_csv(cfg: SurveyConfig, name: str) -> tuple[pd.DataFrame, list[int]]:
                           f"{err}") from err
     if df.empty:
         raise IngestError(f"{name}: the file has a header but no readings")
+    _refuse_repeated_headers(text, cfg.separator, name)
     df.columns = [str(c).strip() for c in df.columns]
     # line numbers in the file (header is line 1), counting skipped blank lines
     lines = [i + 1 for i, ln in enumerate(text.splitlines()) if ln.strip()][1:]
     return df, lines[: len(df)]
+
+
+def _refuse_repeated_headers(text: str, sep: str, name: str) -> None:
+    """Refuse a header row that names a column twice (pandas would rename one ``x.1``).
+
+    Which of the two columns holds the readings cannot be told, so neither is guessed
+    (the contract of issue 11: every bad input refused by name).
+
+    Raises
+    ------
+    SchemaError
+        Naming the file, the header and both column positions (1-based).
+    """
+    first = next((ln for ln in text.splitlines() if ln.strip()), "")
+    header = next(csv.reader([first], delimiter=sep, skipinitialspace=True), [])
+    seen: dict[str, int] = {}
+    for pos, h in enumerate((h.strip() for h in header), start=1):
+        if h and h in seen:  # empty headers (trailing separators) name no column
+            raise SchemaError(
+                f"{name} line 1: the header {h!r} is given twice, in columns {seen[h]} and {pos}; "
+                "which one holds the readings cannot be told. Rename or remove one of them")
+        seen[h] = pos
 
 
 def _read_vector(cfg: SurveyConfig, name: str, site_crs: pyproj.CRS

@@ -73,6 +73,20 @@ def test_missing_column(site_dir: Path) -> None:
     _fails(site_dir, "column 'value' (for value) is missing", "point_id, x, y, rho")
 
 
+@pytest.mark.parametrize("header", ["point_id,x,y,x", "point_id,value,x,y,value"])
+def test_repeated_header_is_refused(site_dir: Path, header: str) -> None:
+    # the contract of issue 11: pandas would rename the second column 'x.1' and read the first
+    p = site_dir / "readings" / "resistivity.csv"
+    lines = p.read_text().splitlines()
+    lines[0] = header
+    if header.count(",") == 4:
+        lines[1:] = [ln.split(",")[3] + "," + ln for ln in lines[1:]]
+    p.write_text("\n".join(lines) + "\n")
+    name, first, second = ("'x'", 2, 4) if header.endswith(",x") else ("'value'", 2, 5)
+    _fails(site_dir, "resistivity.csv line 1", f"the header {name} is given twice",
+           f"columns {first} and {second}", "Rename or remove one")
+
+
 def test_text_where_numbers_belong(site_dir: Path) -> None:
     p = site_dir / "readings" / "potential.csv"
     lines = p.read_text().splitlines()
