@@ -51,6 +51,11 @@ READING_COLUMNS = ["reading_id", "survey_id", "level_id", "row", "where", "point
                    "x_local", "y_local", "raw_value", "raw_unit"]
 
 
+#: A '.' read as a thousands mark in a decimal-comma file: no leading zero, groups of three,
+#: and a decimal comma after them or at least two groups (common practice of such locales).
+_THOUSANDS_DOT = r"[-+]?[1-9]\d{0,2}(?:(?:\.\d{3})+,\d+|(?:\.\d{3}){2,})"
+
+
 def _rel(path: Path, root: Path | None) -> str:
     try:
         return str(path.relative_to(root)) if root else path.name
@@ -129,16 +134,20 @@ def _numbers(series: pd.Series, col: str, decimal: str, name: str, rows: list[in
              required: bool) -> np.ndarray:
     s = series.astype(str).str.strip()
     if decimal == ",":
-        # '.' may only be a thousands mark here (1.234,5); anything else is ambiguous
+        # '.' may only be a thousands mark here, and only where nothing else can be meant:
+        # before a decimal comma (1.234,5) or in two or more groups (1.234.567).  A lone
+        # '1.234' or '-0.400' may be a decimal point typed by mistake (the contract of
+        # issue 11: read unambiguously or refuse, naming the row).
         dotted = s.str.contains(".", regex=False)
-        thousands = s.str.fullmatch(r"[-+]?\d{1,3}(\.\d{3})+(,\d*)?")
+        thousands = s.str.fullmatch(_THOUSANDS_DOT)
         bad_dot = dotted & ~thousands.fillna(False)
         if bad_dot.any():
             i = int(np.flatnonzero(bad_dot.to_numpy())[0])
             raise SchemaError(
                 f"{name} {unit_row} {rows[i]}: column {col!r} holds {series.iloc[i]!r} with a "
-                "'.' although this survey's decimal separator is ','; fix the value or set "
-                "decimal = \".\" for this file"
+                "'.' although this survey's decimal separator is ','; whether the '.' is a "
+                "decimal point or a thousands mark cannot be told. Write it with a decimal "
+                "comma (or no thousands mark), or set decimal = \".\" for this file"
             )
         s = s.str.replace(".", "", regex=False).str.replace(",", ".", regex=False)
     blank = s.eq("") | s.str.lower().isin(["nan", "na", "none"])
@@ -171,6 +180,11 @@ def _stability_ranges(col: pd.Series, kind: MeasurementKind, unit: str, dec: str
         if not text or text.lower() == "nan":
             continue
         parts = [p for p in re.split(r"[\s|]+", text) if p]
+        if dec == "," and "." in text:
+            raise SchemaError(
+                f"{name} {row_word} {r}: stability series {cell!r} holds a '.' although this "
+                "survey's decimal separator is ','; write its values with a decimal comma, or "
+                "set decimal = \".\" for this file")
         try:
             vals = np.array([float(p.replace(",", ".") if dec == "," else p) for p in parts])
         except ValueError:

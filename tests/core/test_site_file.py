@@ -387,6 +387,29 @@ def test_decimal_comma_file_with_a_stray_point(site_dir: Path) -> None:
     assert f["raw_value"].iloc[2] == 1234.5
 
 
+@pytest.mark.parametrize(("given", "read"), [("1.234", None), ("-0.400", None), ("0.234,5", None),
+                                             ("12.34,5", None), ("1.234,5", 1234.5),
+                                             ("-1.234.567", -1234567.0), ("1234,5", 1234.5)])
+def test_decimal_comma_dots_read_unambiguously_or_refused(site_dir: Path, given: str,
+                                                          read: float | None) -> None:
+    # the contract of issue 11: '1.234' in a decimal-comma file may be 1234 (thousands mark)
+    # or 1.234 (a decimal point typed by mistake); only groups of three after a non-zero
+    # lead with a decimal comma, or two or more groups, are a thousands mark (common practice)
+    p = site_dir / "readings" / "resistivity.csv"
+    lines = p.read_text().splitlines()
+    out = [lines[0].replace(",", ";")] + [
+        ";".join(v.replace(".", ",") for v in ln.split(",")) for ln in lines[1:]]
+    out[3] = out[3].rsplit(";", 1)[0] + ";" + given
+    p.write_text("\n".join(out) + "\n")
+    edit(site_dir / "site.toml", 'unit = "kohm.cm"',
+         'unit = "kohm.cm"\nseparator = ";"\ndecimal = ","')
+    if read is None:
+        _fails(site_dir, "resistivity.csv line 4", repr(given), "cannot be told",
+               'set decimal = "."')
+    else:
+        assert open_site(site_dir).surveys[1].frame["raw_value"].iloc[2] == read
+
+
 # --------------------------------------------------------------------------- the init template
 
 DOCS = Path(__file__).resolve().parents[2] / "docs" / "site-file.md"
@@ -603,3 +626,18 @@ def test_stability_series_flags_unstable_readings(site_dir: Path) -> None:
     lines[7] = lines[7][:-1] + ",-250 abc"
     p.write_text("\n".join(lines) + "\n")
     _fails(site_dir, "line 8: stability series")
+
+
+def test_stability_series_with_a_dot_in_a_decimal_comma_file(site_dir: Path) -> None:
+    # the contract of issue 11: as for the value column, a '.' in a decimal-comma file is
+    # not silently taken as a decimal point
+    p = site_dir / "readings" / "potential.csv"
+    lines = p.read_text().splitlines()
+    lines[0] = lines[0].replace(",", ";") + ";stability"
+    lines[1:] = [";".join(v.replace(".", ",") for v in ln.split(",")) + ";" for ln in lines[1:]]
+    lines[5] += "-250,5 -262.5"
+    p.write_text("\n".join(lines) + "\n")
+    edit(site_dir / "site.toml", 'path = "readings/potential.csv"',
+         'path = "readings/potential.csv"\nseparator = ";"\ndecimal = ","')
+    _fails(site_dir, "potential.csv line 6: stability series '-250,5 -262.5' holds a '.'",
+           'set decimal = "."')
