@@ -72,14 +72,45 @@ def _read_csv(cfg: SurveyConfig, name: str) -> tuple[pd.DataFrame, list[int]]:
                          skipinitialspace=True, quoting=csv.QUOTE_MINIMAL, skip_blank_lines=True)
     except pd.errors.ParserError as err:
         raise IngestError(f"{name}: cannot read as CSV with separator {cfg.separator!r}: "
-                          f"{err}") from err
+                          f"{err}.{_separator_advice(text, cfg.separator, cfg)}") from err
     if df.empty:
         raise IngestError(f"{name}: the file has a header but no readings")
     _refuse_repeated_headers(text, cfg.separator, name)
     df.columns = [str(c).strip() for c in df.columns]
+    df.attrs["separator_advice"] = _separator_advice(text, cfg.separator, cfg)
     # line numbers in the file (header is line 1), counting skipped blank lines
     lines = [i + 1 for i, ln in enumerate(text.splitlines()) if ln.strip()][1:]
     return df, lines[: len(df)]
+
+
+#: Field separators a header row is tried with when the survey's own finds no column.
+_SEPARATORS = (",", ";", "\t", "|")
+
+
+def _other_separator(text: str, sep: str) -> str | None:
+    """Return the separator the header row seems to use when it is not ``sep``, else None.
+
+    A header that splits into more fields on another common separator than on ``sep`` was
+    written with that one (common practice: loggers write ``;`` where the decimal is ``,``).
+    """
+    first = next((ln for ln in text.splitlines() if ln.strip()), "")
+
+    def fields(s: str) -> int:
+        return len(next(csv.reader([first], delimiter=s), []))
+
+    best = max((s for s in _SEPARATORS if s != sep), key=fields)
+    return best if fields(best) > max(fields(sep), 1) else None
+
+
+def _separator_advice(text: str, sep: str, cfg: SurveyConfig) -> str:
+    """Say which separator to set, when the header row holds another one; else ''."""
+    other = _other_separator(text, sep)
+    if other is None:
+        return ""
+    first = next((ln for ln in text.splitlines() if ln.strip()), "").strip()
+    toml = '"\\t"' if other == "\t" else f"'{other}'"
+    return (f" The header {first!r} is separated by {other!r}, not {sep!r}: set separator = "
+            f"{toml} for survey {cfg.id!r} ({cfg.where}.separator)")
 
 
 def _refuse_repeated_headers(text: str, sep: str, name: str) -> None:
@@ -261,6 +292,10 @@ def read_readings(
                         f"({', '.join(raw_cols)}; see docs/raw-readings.md)")
                 if present_raw:
                     hint += f"; the file has {', '.join(present_raw)}, which is not enough"
+            advice = str(df.attrs.get("separator_advice", ""))
+            if advice:
+                raise SchemaError(f"{name} line 1: column {theirs!r} (for {ours}) is missing."
+                                  f"{advice}")
             raise SchemaError(
                 f"{name}: column {theirs!r} (for {ours}) is missing; the file has columns "
                 f"{', '.join(c for c in df.columns if not c.startswith('__'))}. Add "

@@ -211,7 +211,10 @@ def _survey(data: object, where: str, root: Path, level_ids: set[str]) -> Survey
     sep = _read(t, keys["separator"])
     dec = _read(t, keys["decimal"])
     if sep == dec:
-        raise SiteFileError(f"{where}: separator and decimal cannot both be {sep!r}")
+        raise SiteFileError(
+            f"{t.key('separator')}: separator and decimal cannot both be {sep!r}; a file with "
+            "decimal commas is separated by another character: set separator = ';' (or the one "
+            "the file uses), or decimal = \".\"")
     return SurveyConfig(
         id=sid,
         level=level,

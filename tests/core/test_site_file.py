@@ -641,3 +641,28 @@ def test_stability_series_with_a_dot_in_a_decimal_comma_file(site_dir: Path) -> 
          'path = "readings/potential.csv"\nseparator = ";"\ndecimal = ","')
     _fails(site_dir, "potential.csv line 6: stability series '-250,5 -262.5' holds a '.'",
            'set decimal = "."')
+
+
+@pytest.mark.parametrize(("file_sep", "site_sep", "advice"),
+                         [(";", ",", "set separator = ';'"), (",", ";", "set separator = ','"),
+                          ("\t", ",", 'set separator = "\\t"')])
+def test_wrong_separator_names_the_column_and_the_setting(site_dir: Path, file_sep: str,
+                                                          site_sep: str, advice: str) -> None:
+    # the contract of issue 11: the message names the missing column, the header and what to
+    # set, not a bare "column missing" nor the decimal setting
+    p = site_dir / "readings" / "resistivity.csv"
+    p.write_text(p.read_text().replace(",", file_sep))
+    if site_sep != ",":
+        edit(site_dir / "site.toml", 'unit = "kohm.cm"',
+             f'unit = "kohm.cm"\nseparator = "{site_sep}"')
+    out = _fails(site_dir, "resistivity.csv line 1: column 'x' (for x) is missing",
+                 f"is separated by {file_sep!r}, not {site_sep!r}", advice,
+                 "site.toml: [[surveys]][1].separator")
+    assert "decimal" not in out
+
+
+def test_decimal_comma_with_the_default_separator_says_to_set_it(site_dir: Path) -> None:
+    # the contract of issue 11: decimal = "," with separator left at "," says what to set
+    edit(site_dir / "site.toml", 'unit = "kohm.cm"', 'unit = "kohm.cm"\ndecimal = ","')
+    _fails(site_dir, "site.toml: [[surveys]][1].separator: separator and decimal cannot both "
+           "be ','", "set separator = ';'")
