@@ -185,6 +185,9 @@ class Table:
             or not all(isinstance(c, int | float) and not isinstance(c, bool) for c in v)
         ):
             raise SiteFileError(f"{self.key(name)}: expected two numbers [x, y], got {v!r}")
+        if not all(math.isfinite(c) for c in v):  # nan and inf are TOML numbers, no coordinate
+            raise SiteFileError(f"{self.key(name)}: expected two finite numbers [x, y], got "
+                                f"{v!r}; give the coordinates (nan and inf are none)")
         return (float(v[0]), float(v[1]))
 
     def array(self, name: str) -> list[Any]:
@@ -211,8 +214,8 @@ class OptionsTable(Table):
         return v
 
     def opt_positive(self, name: str) -> float | None:
-        """Return a positive number, or None when absent."""
-        return self.num(name, positive=True) if name in self.data else None
+        """Return a positive finite number, or None when absent."""
+        return self.num(name, positive=True, finite=True) if name in self.data else None
 
     def flag(self, name: str, default: bool = False) -> bool:
         """Return a boolean (``true`` / ``false``)."""

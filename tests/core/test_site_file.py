@@ -6,6 +6,7 @@ Each bad input: a clear message, a non-zero exit, nothing written.
 from __future__ import annotations
 
 import json
+import re
 import warnings
 from pathlib import Path
 
@@ -587,6 +588,36 @@ def test_non_finite_run_values_refused(site_dir: Path, text: str) -> None:
     if key == "cell_size":
         edit(site_dir / "site.toml", 'cell_size = "1 ft"\n', "")
     with pytest.raises(GeoCorrosionError, match=rf"site.toml: \[run\]\.{key}: "):
+        read_site(site_dir)
+
+
+@pytest.mark.parametrize("value", ["inf", "-inf", "nan"])
+@pytest.mark.parametrize(("old", "new", "key"), [
+    ("control_points = [", "origin = [{v}, 0.0]\ncontrol_points = [",
+     r"\[\[levels\]\]\[0\]\.grid\.origin: expected two finite numbers"),
+    ("local = [0.0, 0.0]", "local = [0.0, {v}]",
+     r"\[\[levels\]\]\[0\]\.grid\.control_points\[0\]\.local: expected two finite"),
+    ("site = [", "site = [{v}, 0.0], x = [",
+     r"\[\[levels\]\]\[0\]\.grid\.control_points\[0\]\.site: expected two finite"),
+    ('temperature_c = 20.0', 'temperature_c = 20.0\n[surveys.options]\n'
+     'polarized_area_cm2 = {v}\nb_mv = 26', r"\[\[surveys\]\]\[1\]\.options\.polarized_area"),
+    ('temperature_c = 20.0', 'temperature_c = 20.0\n[surveys.options]\nb_mv = {v}',
+     r"\[\[surveys\]\]\[1\]\.options\.b_mv: expected a finite number"),
+])
+def test_non_finite_coordinates_and_options_refused(site_dir: Path, value: str, old: str,
+                                                    new: str, key: str) -> None:
+    # the contract of issue 11: nan and inf are TOML numbers but no coordinate, area or
+    # Stern-Geary constant; refused when the site file is read, naming the dotted key
+    text = (site_dir / "site.toml").read_text()
+    if "options" in new:  # the resistivity survey becomes a corrosion-rate one
+        text = text.replace('kind = "resistivity"', 'kind = "corrosion_rate"').replace(
+            'unit = "kohm.cm"', 'unit = "uA/cm2"')
+    if old == "site = [":  # the first control point's site coordinates
+        text = re.sub(r"site = \[[^\]]*\]", f"site = [{value}, 0.0]", text, count=1)
+    else:
+        text = text.replace(old, new.format(v=value), 1)
+    (site_dir / "site.toml").write_text(text)
+    with pytest.raises(GeoCorrosionError, match=rf"site.toml: {key}"):
         read_site(site_dir)
 
 
