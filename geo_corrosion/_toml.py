@@ -21,11 +21,12 @@ from geo_corrosion.units import parse_length
 __all__ = ["Table", "OptionsTable", "check_id", "site_path"]
 
 
-def check_id(value: str, where: str) -> str:
+def check_id(value: str, where: str, *, example: str = '"L2", "L2-east"') -> str:
     """Return an id (level, survey, control point) if it is of the safe set, else refuse it.
 
     Ids become file names, GeoPackage layer names and DXF layer names, so no path separator,
-    dot, space or quote may reach them (:data:`~geo_corrosion.config.ID_PATTERN`).
+    dot, space or quote may reach them (:data:`~geo_corrosion.config.ID_PATTERN`).  Condition
+    class keys and zone names are checked the same way; ``example`` shows good ones.
 
     Raises
     ------
@@ -34,7 +35,7 @@ def check_id(value: str, where: str) -> str:
     """
     if not ID_PATTERN.fullmatch(value):
         raise SiteFileError(f"{where}: the id {value!r} is not allowed; an id is used in file and "
-                            f"layer names, so give {ID_ALLOWED} (e.g. \"L2\", \"L2-east\")")
+                            f"layer names, so give {ID_ALLOWED} (e.g. {example})")
     return value
 
 

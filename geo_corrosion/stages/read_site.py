@@ -392,6 +392,13 @@ def _zoning(rules: list[Any], where: str) -> tuple[tuple[str, dict[str, Any]], .
         if unknown:
             raise SiteFileError(f"{w}: rule {r['rule']!r} takes no parameter(s) {unknown}; "
                                 f"it takes: {', '.join(sorted(allowed)) or 'none'}")
+        # the zone's name becomes GeoPackage values, DXF layer names (GC-ZONE-<name>) and
+        # report rows: an id of the safe set, as level ids (the contract of issue 11)
+        if isinstance(kw.get("name"), str) and kw["name"].strip():
+            check_id(kw["name"], f"{w}.name", example='"repair", "anodes"')
+        elif "name" not in kw and isinstance(getattr(cls, "name", None), str) and cls.name:
+            check_id(cls.name, f"{w}.rule: the zone name of rule {r['rule']!r}",
+                     example='"repair", "anodes"')
         check = getattr(cls, "check_parameters", None)
         try:
             if check is not None:
@@ -480,7 +487,8 @@ def _condition(data: object, where: str) -> dict[str, Any] | None:
         classes: list[str] = []
         for j, c in enumerate(ct.array("classes")):
             kt = _table(c, f"{ct.key('classes')}[{j}]", "condition.combined.classes")
-            key = kt.string("key")
+            # a class key names class layers, legend entries and columns: an id of the safe set
+            key = check_id(kt.string("key"), kt.key("key"), example='"act_now", "watch"')
             if key in classes:
                 raise SiteFileError(f"{kt.key('key')}: class key {key!r} is given twice; keys "
                                     "must be unique")

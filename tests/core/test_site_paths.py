@@ -188,3 +188,35 @@ def test_ids_of_the_allowed_set_are_accepted(site_dir: Path) -> None:
     text = (site_dir / "site.toml").read_text().replace('"D1"', f'"{good}"')
     (site_dir / "site.toml").write_text(text)
     assert read_site(site_dir).levels[0].id == good
+
+
+@pytest.mark.parametrize("bad", ["../../escaped", "Repair zone A", "a" * (ID_MAX + 1), "-x",
+                                 "z.1"])
+def test_bad_zone_names_and_class_keys_are_refused(site_dir: Path, bad: str) -> None:
+    # the contract of issue 11: a zone's name becomes a DXF layer (GC-ZONE-<name>) and
+    # GeoPackage values, a class key class layers and legend entries: the id set of levels
+    p = site_dir / "site.toml"
+    text = p.read_text()
+    p.write_text(text + f'\n[[zoning]]\nrule = "repair"\n[[zoning]]\nrule = "no_action"\n'
+                        f'name = "{bad}"\n')
+    _fails(site_dir, "[[zoning]][1].name", repr(bad), "letters, digits, _ and -",
+           f"at most {ID_MAX} characters")
+    p.write_text(text + '\n[condition.combined]\ndefault = "ok"\n'
+                        f'classes = [ {{ key = "{bad}" }}, {{ key = "ok" }} ]\n'
+                        '[[condition.combined.rules]]\nname = "r"\npotential = "high"\n'
+                        f'class = "{bad}"\n')
+    _fails(site_dir, "[condition.combined].classes[0].key", repr(bad), "letters, digits, _ and -")
+
+
+def test_zone_names_and_class_keys_of_the_allowed_set_are_accepted(site_dir: Path) -> None:
+    good = "Zone_A-" + "x" * (ID_MAX - 7)  # exactly 40 characters
+    p = site_dir / "site.toml"
+    p.write_text(p.read_text() + f'\n[[zoning]]\nrule = "repair"\nname = "{good}"\n'
+                 '[condition.combined]\ndefault = "ok"\n'
+                 f'classes = [ {{ key = "{good}" }}, {{ key = "ok" }} ]\n'
+                 '[[condition.combined.rules]]\nname = "r"\npotential = "high"\n'
+                 f'class = "{good}"\n')
+    cfg = read_site(site_dir)
+    assert cfg.zoning[0] == ("repair", {"name": good})
+    assert cfg.combined_rules is not None
+    assert cfg.combined_rules["classes"][0]["key"] == good
