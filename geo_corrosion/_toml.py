@@ -102,7 +102,33 @@ def site_path(raw: str, root: Path, where: str, *, allow_outside: bool = False) 
             f"{where}: {raw!r} is {st.st_size / 1024**3:.1f} GiB, more than the "
             f"{MAX_INPUT_BYTES // 1024**3} GiB an input file may be; give a smaller file (split "
             "the survey into several [[surveys]] entries)")
+    if resolved.suffix.lower() == ".shp":
+        _check_companions(resolved, root, where, allow_outside=allow_outside)
     return resolved
+
+
+#: Files GDAL reads beside a shapefile ``x.shp``: index, attributes, CRS, code page and the
+#: spatial indexes (common practice: the ESRI shapefile's companion files).
+SHAPEFILE_COMPANIONS = (".shx", ".dbf", ".prj", ".cpg", ".qix", ".sbn", ".sbx")
+
+
+def _check_companions(shp: Path, root: Path, where: str, *, allow_outside: bool) -> None:
+    """Check each companion file of a shapefile that exists as :func:`site_path` checks a path.
+
+    GDAL opens ``x.shx``, ``x.dbf``, ... beside the ``x.shp`` it is given (in either case of
+    the suffix), so a companion that is a symbolic link out of the site folder, a folder, a
+    device or a huge file is refused as the ``.shp`` itself would be (the contract of
+    issue 11); the message names the key and the companion.
+    """
+    for suffix in SHAPEFILE_COMPANIONS:
+        for s in dict.fromkeys((suffix, suffix.upper())):
+            companion = shp.with_suffix(s)
+            if not os.path.lexists(companion):
+                continue
+            raw = (str(companion.relative_to(root)) if companion.is_relative_to(root)
+                   else str(companion))
+            site_path(raw, root, f"{where} (the companion {companion.name} of {shp.name})",
+                      allow_outside=allow_outside)
 
 
 class Table:

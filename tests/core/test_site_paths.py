@@ -163,6 +163,45 @@ def test_a_symlink_inside_the_site_folder_is_accepted(site_dir: Path) -> None:
     assert read_site(site_dir).surveys[0].path == site_dir / "readings" / "potential.csv"
 
 
+def _slab_as_shapefile(site_dir: Path) -> Path:
+    """Write the slab outline as plans/slab.shp (+ .shx, .dbf, .prj, .cpg) and use it."""
+    import pyogrio
+
+    shp = site_dir / "plans" / "slab.shp"
+    pyogrio.write_dataframe(pyogrio.read_dataframe(site_dir / "plans" / "slab.geojson"), shp)
+    edit(site_dir / "site.toml", 'slab = { path = "plans/slab.geojson" }',
+         'slab = { path = "plans/slab.shp" }')
+    return shp
+
+
+@pytest.mark.parametrize("companion", [".shx", ".dbf", ".prj", ".cpg"])
+def test_shapefile_companion_linked_outside_is_refused(site_dir: Path, tmp_path: Path,
+                                                       companion: str) -> None:
+    # the contract of issue 11: GDAL reads x.shx, x.dbf, ... beside x.shp, so each is checked
+    # as the .shp itself; a link out of the site folder is refused naming the key
+    shp = _slab_as_shapefile(site_dir)
+    assert read_site(site_dir).levels[0].slab.path == shp  # the plain shapefile is read
+    res = CliRunner().invoke(cli, ["check", str(site_dir)])
+    assert res.exit_code == 0, res.output
+    elsewhere = tmp_path / "elsewhere"
+    elsewhere.mkdir()
+    part = shp.with_suffix(companion)
+    part.rename(elsewhere / part.name)
+    part.symlink_to(elsewhere / part.name)
+    _fails(site_dir, "[[levels]][0].slab.path", f"the companion slab{companion} of slab.shp",
+           f"'plans/slab{companion}' is outside the site folder", "symbolic link",
+           str(elsewhere / part.name))
+
+
+def test_shapefile_companion_that_is_a_folder_is_refused(site_dir: Path) -> None:
+    # the contract of issue 11: as for the .shp, a companion must be a regular file
+    shp = _slab_as_shapefile(site_dir)
+    shp.with_suffix(".dbf").unlink()
+    shp.with_suffix(".DBF").mkdir()
+    _fails(site_dir, "[[levels]][0].slab.path", "the companion slab.DBF of slab.shp",
+           "'plans/slab.DBF' is a folder")
+
+
 # --------------------------------------------------------------------------- ids
 
 
