@@ -484,7 +484,7 @@ class SurveyConfig:
             + _PATH_DOC)
     unit: str = key(
         "unit", "string", example='"mV"', help="Unit of the values; accepted by the kind",
-        doc="It must be accepted for the kind (see *Units accepted*); it is checked when the "
+        doc="It must be accepted for the kind (see *Units accepted*); it is checked when the site "
             "file is read.")
     coords: str = key("coords", "string", "local", choices=COORDS,
                       help="Grid or site coordinates, as for layers",

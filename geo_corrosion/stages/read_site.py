@@ -208,6 +208,7 @@ def _survey(data: object, where: str, root: Path, level_ids: set[str]) -> Survey
     allow = _read(t, keys["allow_outside"])
     path = site_path(_read(t, keys["path"]), root, t.key("path"), allow_outside=allow)
     options = _survey_options(t, kind, root, allow)
+    unit = _survey_unit(t, kind, path, root, columns)
     sep = _read(t, keys["separator"])
     dec = _read(t, keys["decimal"])
     if sep == dec:
@@ -220,7 +221,7 @@ def _survey(data: object, where: str, root: Path, level_ids: set[str]) -> Survey
         level=level,
         kind=kind,
         path=path,
-        unit=_read(t, keys["unit"]),
+        unit=unit,
         coords=_read(t, keys["coords"]),
         electrode=_read(t, keys["electrode"]),
         temperature_c=temp,
@@ -235,6 +236,33 @@ def _survey(data: object, where: str, root: Path, level_ids: set[str]) -> Survey
         options=options,
         allow_outside=allow,
     )
+
+
+def _survey_unit(t: Table, kind: str, path: Path, root: Path, columns: Mapping[str, Any]
+                 ) -> str:
+    """Read a survey's ``unit`` and check it against its kind's accepted units, at read time.
+
+    An unknown unit, or one of another quantity (``"ohm"`` for potentials), is refused naming
+    the dotted key, the file and the column it applies to, and the accepted units (the
+    contract of issue 11); ingest converts with the same table.
+    """
+    unit: str = _read(t, TABLES["surveys"]["unit"])
+    from geo_corrosion.errors import PluginError
+    from geo_corrosion.measurements import get_kind  # lazy: kinds import this module's types
+
+    try:
+        kind_obj = get_kind(kind, where=f"{t.key('kind')}: ")
+    except PluginError:
+        return unit  # an unknown or broken kind: said where the survey is opened
+    try:
+        normalize_unit(unit, accepted=tuple(kind_obj.unit_factors()))
+    except UnitError as err:
+        name = path.relative_to(root) if path.is_relative_to(root) else path
+        column = columns.get("value", "value")
+        raise SiteFileError(
+            f"{t.key('unit')}: {err} (the unit of column {column!r} of {name}, {kind} "
+            "readings); give the unit the values of that column are in") from err
+    return unit
 
 
 def _survey_options(t: Table, kind: str, root: Path, allow_outside: bool) -> dict[str, Any]:

@@ -68,6 +68,21 @@ def test_unit_of_the_wrong_kind(site_dir: Path) -> None:
     _fails(site_dir, "not accepted here", "resistivity")
 
 
+@pytest.mark.parametrize(("unit", "why"), [("ohm", "unknown unit 'ohm'"),
+                                         ("kohm.cm", "unit 'kohm.cm' is not accepted here")])
+def test_survey_unit_refused_at_read_time_with_key_file_and_column(site_dir: Path, unit: str,
+                                                                   why: str) -> None:
+    # the contract of issue 11: an unknown unit, or one of another quantity, is refused when
+    # the site file is read, naming the dotted key, the file, the column and the accepted units
+    edit(site_dir / "site.toml", 'unit = "mV"', f'unit = "{unit}"')
+    with pytest.raises(GeoCorrosionError) as err:
+        read_site(site_dir)
+    assert str(err.value).startswith(f"{site_dir / 'site.toml'}: [[surveys]][0].unit: {why}; "
+                                     "expected one of: mV, V (the unit of column 'value' of "
+                                     "readings/potential.csv, potential readings)")
+    _fails(site_dir, "[[surveys]][0].unit", why, "expected one of: mV, V")
+
+
 def test_missing_column(site_dir: Path) -> None:
     p = site_dir / "readings" / "resistivity.csv"
     p.write_text(p.read_text().replace("point_id,x,y,value", "point_id,x,y,rho", 1))
