@@ -21,11 +21,12 @@ from geo_corrosion.units import parse_length
 __all__ = ["Table", "OptionsTable", "check_id", "site_path"]
 
 
-def check_id(value: str, where: str) -> str:
+def check_id(value: str, where: str, *, example: str = '"L2", "L2-east"') -> str:
     """Return an id (level, survey, control point) if it is of the safe set, else refuse it.
 
     Ids become file names, GeoPackage layer names and DXF layer names, so no path separator,
-    dot, space or quote may reach them (:data:`~geo_corrosion.config.ID_PATTERN`).
+    dot, space or quote may reach them (:data:`~geo_corrosion.config.ID_PATTERN`).  Condition
+    class keys and zone names are checked the same way; ``example`` shows good ones.
 
     Raises
     ------
@@ -34,7 +35,7 @@ def check_id(value: str, where: str) -> str:
     """
     if not ID_PATTERN.fullmatch(value):
         raise SiteFileError(f"{where}: the id {value!r} is not allowed; an id is used in file and "
-                            f"layer names, so give {ID_ALLOWED} (e.g. \"L2\", \"L2-east\")")
+                            f"layer names, so give {ID_ALLOWED} (e.g. {example})")
     return value
 
 
@@ -101,7 +102,33 @@ def site_path(raw: str, root: Path, where: str, *, allow_outside: bool = False) 
             f"{where}: {raw!r} is {st.st_size / 1024**3:.1f} GiB, more than the "
             f"{MAX_INPUT_BYTES // 1024**3} GiB an input file may be; give a smaller file (split "
             "the survey into several [[surveys]] entries)")
+    if resolved.suffix.lower() == ".shp":
+        _check_companions(resolved, root, where, allow_outside=allow_outside)
     return resolved
+
+
+#: Files GDAL reads beside a shapefile ``x.shp``: index, attributes, CRS, code page and the
+#: spatial indexes (common practice: the ESRI shapefile's companion files).
+SHAPEFILE_COMPANIONS = (".shx", ".dbf", ".prj", ".cpg", ".qix", ".sbn", ".sbx")
+
+
+def _check_companions(shp: Path, root: Path, where: str, *, allow_outside: bool) -> None:
+    """Check each companion file of a shapefile that exists as :func:`site_path` checks a path.
+
+    GDAL opens ``x.shx``, ``x.dbf``, ... beside the ``x.shp`` it is given (in either case of
+    the suffix), so a companion that is a symbolic link out of the site folder, a folder, a
+    device or a huge file is refused as the ``.shp`` itself would be (the contract of
+    issue 11); the message names the key and the companion.
+    """
+    for suffix in SHAPEFILE_COMPANIONS:
+        for s in dict.fromkeys((suffix, suffix.upper())):
+            companion = shp.with_suffix(s)
+            if not os.path.lexists(companion):
+                continue
+            raw = (str(companion.relative_to(root)) if companion.is_relative_to(root)
+                   else str(companion))
+            site_path(raw, root, f"{where} (the companion {companion.name} of {shp.name})",
+                      allow_outside=allow_outside)
 
 
 class Table:
@@ -185,6 +212,9 @@ class Table:
             or not all(isinstance(c, int | float) and not isinstance(c, bool) for c in v)
         ):
             raise SiteFileError(f"{self.key(name)}: expected two numbers [x, y], got {v!r}")
+        if not all(math.isfinite(c) for c in v):  # nan and inf are TOML numbers, no coordinate
+            raise SiteFileError(f"{self.key(name)}: expected two finite numbers [x, y], got "
+                                f"{v!r}; give the coordinates (nan and inf are none)")
         return (float(v[0]), float(v[1]))
 
     def array(self, name: str) -> list[Any]:
@@ -211,8 +241,8 @@ class OptionsTable(Table):
         return v
 
     def opt_positive(self, name: str) -> float | None:
-        """Return a positive number, or None when absent."""
-        return self.num(name, positive=True) if name in self.data else None
+        """Return a positive finite number, or None when absent."""
+        return self.num(name, positive=True, finite=True) if name in self.data else None
 
     def flag(self, name: str, default: bool = False) -> bool:
         """Return a boolean (``true`` / ``false``)."""

@@ -82,7 +82,9 @@ ID_ALLOWED = (f"letters, digits, _ and -, starting with a letter or digit, at mo
 MAX_INPUT_BYTES = 2 * 1024**3
 #: What the docs say of every path of the site file.
 _PATH_DOC = ("It must be a regular file inside the site folder (symbolic links are followed), "
-             f"of at most {MAX_INPUT_BYTES // 1024**3} GiB, unless `allow_outside = true`.")
+             f"of at most {MAX_INPUT_BYTES // 1024**3} GiB, unless `allow_outside = true`. "
+             "The companions of a `.shp` (`.shx`, `.dbf`, `.prj`, `.cpg`, spatial indexes) are "
+             "checked the same way.")
 #: The declaration of ``allow_outside``, a key of the layer and survey tables.
 _ALLOW_OUTSIDE = dict(
     help="Allow a path outside the site folder; for a shared base plan on a server",
@@ -482,7 +484,7 @@ class SurveyConfig:
             + _PATH_DOC)
     unit: str = key(
         "unit", "string", example='"mV"', help="Unit of the values; accepted by the kind",
-        doc="It must be accepted for the kind (see *Units accepted*); it is checked when the "
+        doc="It must be accepted for the kind (see *Units accepted*); it is checked when the site "
             "file is read.")
     coords: str = key("coords", "string", "local", choices=COORDS,
                       help="Grid or site coordinates, as for layers",

@@ -51,6 +51,11 @@ READING_COLUMNS = ["reading_id", "survey_id", "level_id", "row", "where", "point
                    "x_local", "y_local", "raw_value", "raw_unit"]
 
 
+#: A '.' read as a thousands mark in a decimal-comma file: no leading zero, groups of three,
+#: and a decimal comma after them or at least two groups (common practice of such locales).
+_THOUSANDS_DOT = r"[-+]?[1-9]\d{0,2}(?:(?:\.\d{3})+,\d+|(?:\.\d{3}){2,})"
+
+
 def _rel(path: Path, root: Path | None) -> str:
     try:
         return str(path.relative_to(root)) if root else path.name
@@ -67,13 +72,67 @@ def _read_csv(cfg: SurveyConfig, name: str) -> tuple[pd.DataFrame, list[int]]:
                          skipinitialspace=True, quoting=csv.QUOTE_MINIMAL, skip_blank_lines=True)
     except pd.errors.ParserError as err:
         raise IngestError(f"{name}: cannot read as CSV with separator {cfg.separator!r}: "
-                          f"{err}") from err
+                          f"{err}.{_separator_advice(text, cfg.separator, cfg)}") from err
     if df.empty:
         raise IngestError(f"{name}: the file has a header but no readings")
+    _refuse_repeated_headers(text, cfg.separator, name)
     df.columns = [str(c).strip() for c in df.columns]
+    df.attrs["separator_advice"] = _separator_advice(text, cfg.separator, cfg)
     # line numbers in the file (header is line 1), counting skipped blank lines
     lines = [i + 1 for i, ln in enumerate(text.splitlines()) if ln.strip()][1:]
     return df, lines[: len(df)]
+
+
+#: Field separators a header row is tried with when the survey's own finds no column.
+_SEPARATORS = (",", ";", "\t", "|")
+
+
+def _other_separator(text: str, sep: str) -> str | None:
+    """Return the separator the header row seems to use when it is not ``sep``, else None.
+
+    A header that splits into more fields on another common separator than on ``sep`` was
+    written with that one (common practice: loggers write ``;`` where the decimal is ``,``).
+    """
+    first = next((ln for ln in text.splitlines() if ln.strip()), "")
+
+    def fields(s: str) -> int:
+        return len(next(csv.reader([first], delimiter=s), []))
+
+    best = max((s for s in _SEPARATORS if s != sep), key=fields)
+    return best if fields(best) > max(fields(sep), 1) else None
+
+
+def _separator_advice(text: str, sep: str, cfg: SurveyConfig) -> str:
+    """Say which separator to set, when the header row holds another one; else ''."""
+    other = _other_separator(text, sep)
+    if other is None:
+        return ""
+    first = next((ln for ln in text.splitlines() if ln.strip()), "").strip()
+    toml = '"\\t"' if other == "\t" else f"'{other}'"
+    return (f" The header {first!r} is separated by {other!r}, not {sep!r}: set separator = "
+            f"{toml} for survey {cfg.id!r} ({cfg.where}.separator)")
+
+
+def _refuse_repeated_headers(text: str, sep: str, name: str) -> None:
+    """Refuse a header row that names a column twice (pandas would rename one ``x.1``).
+
+    Which of the two columns holds the readings cannot be told, so neither is guessed
+    (the contract of issue 11: every bad input refused by name).
+
+    Raises
+    ------
+    SchemaError
+        Naming the file, the header and both column positions (1-based).
+    """
+    first = next((ln for ln in text.splitlines() if ln.strip()), "")
+    header = next(csv.reader([first], delimiter=sep, skipinitialspace=True), [])
+    seen: dict[str, int] = {}
+    for pos, h in enumerate((h.strip() for h in header), start=1):
+        if h and h in seen:  # empty headers (trailing separators) name no column
+            raise SchemaError(
+                f"{name} line 1: the header {h!r} is given twice, in columns {seen[h]} and {pos}; "
+                "which one holds the readings cannot be told. Rename or remove one of them")
+        seen[h] = pos
 
 
 def _read_vector(cfg: SurveyConfig, name: str, site_crs: pyproj.CRS
@@ -106,16 +165,20 @@ def _numbers(series: pd.Series, col: str, decimal: str, name: str, rows: list[in
              required: bool) -> np.ndarray:
     s = series.astype(str).str.strip()
     if decimal == ",":
-        # '.' may only be a thousands mark here (1.234,5); anything else is ambiguous
+        # '.' may only be a thousands mark here, and only where nothing else can be meant:
+        # before a decimal comma (1.234,5) or in two or more groups (1.234.567).  A lone
+        # '1.234' or '-0.400' may be a decimal point typed by mistake (the contract of
+        # issue 11: read unambiguously or refuse, naming the row).
         dotted = s.str.contains(".", regex=False)
-        thousands = s.str.fullmatch(r"[-+]?\d{1,3}(\.\d{3})+(,\d*)?")
+        thousands = s.str.fullmatch(_THOUSANDS_DOT)
         bad_dot = dotted & ~thousands.fillna(False)
         if bad_dot.any():
             i = int(np.flatnonzero(bad_dot.to_numpy())[0])
             raise SchemaError(
                 f"{name} {unit_row} {rows[i]}: column {col!r} holds {series.iloc[i]!r} with a "
-                "'.' although this survey's decimal separator is ','; fix the value or set "
-                "decimal = \".\" for this file"
+                "'.' although this survey's decimal separator is ','; whether the '.' is a "
+                "decimal point or a thousands mark cannot be told. Write it with a decimal "
+                "comma (or no thousands mark), or set decimal = \".\" for this file"
             )
         s = s.str.replace(".", "", regex=False).str.replace(",", ".", regex=False)
     blank = s.eq("") | s.str.lower().isin(["nan", "na", "none"])
@@ -148,6 +211,11 @@ def _stability_ranges(col: pd.Series, kind: MeasurementKind, unit: str, dec: str
         if not text or text.lower() == "nan":
             continue
         parts = [p for p in re.split(r"[\s|]+", text) if p]
+        if dec == "," and "." in text:
+            raise SchemaError(
+                f"{name} {row_word} {r}: stability series {cell!r} holds a '.' although this "
+                "survey's decimal separator is ','; write its values with a decimal comma, or "
+                "set decimal = \".\" for this file")
         try:
             vals = np.array([float(p.replace(",", ".") if dec == "," else p) for p in parts])
         except ValueError:
@@ -224,6 +292,10 @@ def read_readings(
                         f"({', '.join(raw_cols)}; see docs/raw-readings.md)")
                 if present_raw:
                     hint += f"; the file has {', '.join(present_raw)}, which is not enough"
+            advice = str(df.attrs.get("separator_advice", ""))
+            if advice:
+                raise SchemaError(f"{name} line 1: column {theirs!r} (for {ours}) is missing."
+                                  f"{advice}")
             raise SchemaError(
                 f"{name}: column {theirs!r} (for {ours}) is missing; the file has columns "
                 f"{', '.join(c for c in df.columns if not c.startswith('__'))}. Add "

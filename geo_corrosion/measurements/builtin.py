@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 from collections.abc import Collection, Mapping
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, ClassVar
@@ -389,6 +390,9 @@ class CorrosionRate(MeasurementKind):
             if isinstance(b, bool) or not isinstance(b, int | float | str):
                 raise SiteFileError(f"{t.key('b_mv')}: expected a number in mV or \"active\" / "
                                     f"\"passive\", got {b!r}")
+            if not isinstance(b, str) and not math.isfinite(b):
+                raise SiteFileError(f"{t.key('b_mv')}: expected a finite number in mV or "
+                                    f"\"active\" / \"passive\", got {b!r}")
             try:
                 out["b_mv"] = float(resolve_b_mv([b])[0])
             except ConditionError as err:
@@ -414,7 +418,7 @@ class CorrosionRate(MeasurementKind):
                 "not both"
             )
         if t.has("polarized_area_cm2"):
-            out["polarized_area_cm2"] = t.num("polarized_area_cm2", positive=True)
+            out["polarized_area_cm2"] = t.num("polarized_area_cm2", positive=True, finite=True)
             out["area_source"] = "[surveys.options] polarized_area_cm2"
         elif any(geometric):
             if not all(geometric):

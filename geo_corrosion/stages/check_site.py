@@ -111,13 +111,40 @@ def check_site(site: Site) -> pd.DataFrame:
     return pd.concat(parts, ignore_index=True)
 
 
+#: Most QA errors listed in the message that stops a run (``geo-corrosion check`` lists all).
+MAX_LISTED_ERRORS = 20
+
+
+def _error_line(r: object) -> str:
+    """One QA error as a line: its file and row (or survey), its message and its rule.
+
+    The flags' messages mostly start with their ``where`` already; it is not repeated.
+    """
+    where, message = str(getattr(r, "where", "") or ""), str(getattr(r, "message", ""))
+    if not where:
+        sid, lid = getattr(r, "survey_id", ""), getattr(r, "level_id", "")
+        where = f"survey {sid}" if sid else f"level {lid}" if lid else "the site"
+    text = message if message.startswith(where) else f"{where}: {message}"
+    return f"{text} ({getattr(r, 'rule', '')})"
+
+
 def refuse_unrunnable(flags: pd.DataFrame) -> None:
-    """Raise :class:`~geo_corrosion.errors.QAError` listing the errors when the site cannot run."""
+    """Raise :class:`~geo_corrosion.errors.QAError` listing the errors when the site cannot run.
+
+    Each error is one line naming its file and row (or its survey), what was found and the
+    QA rule; a single error is said on one line.
+    """
     if len(flags) and not qa.runnable(flags):
         errs = flags[flags["severity"] == "error"]
-        lines = "\n".join(f"  - {r.where or r.survey_id!s}: {r.message!s}"
-                          for r in errs.itertuples())
-        raise QAError(f"the site cannot be run; QA found {len(errs)} error(s):\n{lines}")
+        lines = [_error_line(r) for r in errs.itertuples()]
+        if len(lines) == 1:
+            raise QAError(f"the site cannot be run: {lines[0]}. Fix it and run again "
+                          "(geo-corrosion check lists every QA finding)")
+        more = len(lines) - MAX_LISTED_ERRORS
+        listed = "\n".join(f"  - {ln}" for ln in lines[:MAX_LISTED_ERRORS])
+        tail = f"\n  ... and {more} more (geo-corrosion check lists them all)" if more > 0 else ""
+        raise QAError(f"the site cannot be run; QA found {len(lines)} errors. Fix them and run "
+                      f"again:\n{listed}{tail}")
 
 
 def check_work(site: Site) -> None:

@@ -208,16 +208,20 @@ def _survey(data: object, where: str, root: Path, level_ids: set[str]) -> Survey
     allow = _read(t, keys["allow_outside"])
     path = site_path(_read(t, keys["path"]), root, t.key("path"), allow_outside=allow)
     options = _survey_options(t, kind, root, allow)
+    unit = _survey_unit(t, kind, path, root, columns)
     sep = _read(t, keys["separator"])
     dec = _read(t, keys["decimal"])
     if sep == dec:
-        raise SiteFileError(f"{where}: separator and decimal cannot both be {sep!r}")
+        raise SiteFileError(
+            f"{t.key('separator')}: separator and decimal cannot both be {sep!r}; a file with "
+            "decimal commas is separated by another character: set separator = ';' (or the one "
+            "the file uses), or decimal = \".\"")
     return SurveyConfig(
         id=sid,
         level=level,
         kind=kind,
         path=path,
-        unit=_read(t, keys["unit"]),
+        unit=unit,
         coords=_read(t, keys["coords"]),
         electrode=_read(t, keys["electrode"]),
         temperature_c=temp,
@@ -232,6 +236,33 @@ def _survey(data: object, where: str, root: Path, level_ids: set[str]) -> Survey
         options=options,
         allow_outside=allow,
     )
+
+
+def _survey_unit(t: Table, kind: str, path: Path, root: Path, columns: Mapping[str, Any]
+                 ) -> str:
+    """Read a survey's ``unit`` and check it against its kind's accepted units, at read time.
+
+    An unknown unit, or one of another quantity (``"ohm"`` for potentials), is refused naming
+    the dotted key, the file and the column it applies to, and the accepted units (the
+    contract of issue 11); ingest converts with the same table.
+    """
+    unit: str = _read(t, TABLES["surveys"]["unit"])
+    from geo_corrosion.errors import PluginError
+    from geo_corrosion.measurements import get_kind  # lazy: kinds import this module's types
+
+    try:
+        kind_obj = get_kind(kind, where=f"{t.key('kind')}: ")
+    except PluginError:
+        return unit  # an unknown or broken kind: said where the survey is opened
+    try:
+        normalize_unit(unit, accepted=tuple(kind_obj.unit_factors()))
+    except UnitError as err:
+        name = path.relative_to(root) if path.is_relative_to(root) else path
+        column = columns.get("value", "value")
+        raise SiteFileError(
+            f"{t.key('unit')}: {err} (the unit of column {column!r} of {name}, {kind} "
+            "readings); give the unit the values of that column are in") from err
+    return unit
 
 
 def _survey_options(t: Table, kind: str, root: Path, allow_outside: bool) -> dict[str, Any]:
@@ -389,6 +420,13 @@ def _zoning(rules: list[Any], where: str) -> tuple[tuple[str, dict[str, Any]], .
         if unknown:
             raise SiteFileError(f"{w}: rule {r['rule']!r} takes no parameter(s) {unknown}; "
                                 f"it takes: {', '.join(sorted(allowed)) or 'none'}")
+        # the zone's name becomes GeoPackage values, DXF layer names (GC-ZONE-<name>) and
+        # report rows: an id of the safe set, as level ids (the contract of issue 11)
+        if isinstance(kw.get("name"), str) and kw["name"].strip():
+            check_id(kw["name"], f"{w}.name", example='"repair", "anodes"')
+        elif "name" not in kw and isinstance(getattr(cls, "name", None), str) and cls.name:
+            check_id(cls.name, f"{w}.rule: the zone name of rule {r['rule']!r}",
+                     example='"repair", "anodes"')
         check = getattr(cls, "check_parameters", None)
         try:
             if check is not None:
@@ -477,7 +515,8 @@ def _condition(data: object, where: str) -> dict[str, Any] | None:
         classes: list[str] = []
         for j, c in enumerate(ct.array("classes")):
             kt = _table(c, f"{ct.key('classes')}[{j}]", "condition.combined.classes")
-            key = kt.string("key")
+            # a class key names class layers, legend entries and columns: an id of the safe set
+            key = check_id(kt.string("key"), kt.key("key"), example='"act_now", "watch"')
             if key in classes:
                 raise SiteFileError(f"{kt.key('key')}: class key {key!r} is given twice; keys "
                                     "must be unique")

@@ -6,6 +6,7 @@ Each bad input: a clear message, a non-zero exit, nothing written.
 from __future__ import annotations
 
 import json
+import re
 import warnings
 from pathlib import Path
 
@@ -67,10 +68,39 @@ def test_unit_of_the_wrong_kind(site_dir: Path) -> None:
     _fails(site_dir, "not accepted here", "resistivity")
 
 
+@pytest.mark.parametrize(("unit", "why"), [("ohm", "unknown unit 'ohm'"),
+                                         ("kohm.cm", "unit 'kohm.cm' is not accepted here")])
+def test_survey_unit_refused_at_read_time_with_key_file_and_column(site_dir: Path, unit: str,
+                                                                   why: str) -> None:
+    # the contract of issue 11: an unknown unit, or one of another quantity, is refused when
+    # the site file is read, naming the dotted key, the file, the column and the accepted units
+    edit(site_dir / "site.toml", 'unit = "mV"', f'unit = "{unit}"')
+    with pytest.raises(GeoCorrosionError) as err:
+        read_site(site_dir)
+    assert str(err.value).startswith(f"{site_dir / 'site.toml'}: [[surveys]][0].unit: {why}; "
+                                     "expected one of: mV, V (the unit of column 'value' of "
+                                     "readings/potential.csv, potential readings)")
+    _fails(site_dir, "[[surveys]][0].unit", why, "expected one of: mV, V")
+
+
 def test_missing_column(site_dir: Path) -> None:
     p = site_dir / "readings" / "resistivity.csv"
     p.write_text(p.read_text().replace("point_id,x,y,value", "point_id,x,y,rho", 1))
     _fails(site_dir, "column 'value' (for value) is missing", "point_id, x, y, rho")
+
+
+@pytest.mark.parametrize("header", ["point_id,x,y,x", "point_id,value,x,y,value"])
+def test_repeated_header_is_refused(site_dir: Path, header: str) -> None:
+    # the contract of issue 11: pandas would rename the second column 'x.1' and read the first
+    p = site_dir / "readings" / "resistivity.csv"
+    lines = p.read_text().splitlines()
+    lines[0] = header
+    if header.count(",") == 4:
+        lines[1:] = [ln.split(",")[3] + "," + ln for ln in lines[1:]]
+    p.write_text("\n".join(lines) + "\n")
+    name, first, second = ("'x'", 2, 4) if header.endswith(",x") else ("'value'", 2, 5)
+    _fails(site_dir, "resistivity.csv line 1", f"the header {name} is given twice",
+           f"columns {first} and {second}", "Rename or remove one")
 
 
 def test_text_where_numbers_belong(site_dir: Path) -> None:
@@ -373,6 +403,29 @@ def test_decimal_comma_file_with_a_stray_point(site_dir: Path) -> None:
     assert f["raw_value"].iloc[2] == 1234.5
 
 
+@pytest.mark.parametrize(("given", "read"), [("1.234", None), ("-0.400", None), ("0.234,5", None),
+                                             ("12.34,5", None), ("1.234,5", 1234.5),
+                                             ("-1.234.567", -1234567.0), ("1234,5", 1234.5)])
+def test_decimal_comma_dots_read_unambiguously_or_refused(site_dir: Path, given: str,
+                                                          read: float | None) -> None:
+    # the contract of issue 11: '1.234' in a decimal-comma file may be 1234 (thousands mark)
+    # or 1.234 (a decimal point typed by mistake); only groups of three after a non-zero
+    # lead with a decimal comma, or two or more groups, are a thousands mark (common practice)
+    p = site_dir / "readings" / "resistivity.csv"
+    lines = p.read_text().splitlines()
+    out = [lines[0].replace(",", ";")] + [
+        ";".join(v.replace(".", ",") for v in ln.split(",")) for ln in lines[1:]]
+    out[3] = out[3].rsplit(";", 1)[0] + ";" + given
+    p.write_text("\n".join(out) + "\n")
+    edit(site_dir / "site.toml", 'unit = "kohm.cm"',
+         'unit = "kohm.cm"\nseparator = ";"\ndecimal = ","')
+    if read is None:
+        _fails(site_dir, "resistivity.csv line 4", repr(given), "cannot be told",
+               'set decimal = "."')
+    else:
+        assert open_site(site_dir).surveys[1].frame["raw_value"].iloc[2] == read
+
+
 # --------------------------------------------------------------------------- the init template
 
 DOCS = Path(__file__).resolve().parents[2] / "docs" / "site-file.md"
@@ -553,6 +606,36 @@ def test_non_finite_run_values_refused(site_dir: Path, text: str) -> None:
         read_site(site_dir)
 
 
+@pytest.mark.parametrize("value", ["inf", "-inf", "nan"])
+@pytest.mark.parametrize(("old", "new", "key"), [
+    ("control_points = [", "origin = [{v}, 0.0]\ncontrol_points = [",
+     r"\[\[levels\]\]\[0\]\.grid\.origin: expected two finite numbers"),
+    ("local = [0.0, 0.0]", "local = [0.0, {v}]",
+     r"\[\[levels\]\]\[0\]\.grid\.control_points\[0\]\.local: expected two finite"),
+    ("site = [", "site = [{v}, 0.0], x = [",
+     r"\[\[levels\]\]\[0\]\.grid\.control_points\[0\]\.site: expected two finite"),
+    ('temperature_c = 20.0', 'temperature_c = 20.0\n[surveys.options]\n'
+     'polarized_area_cm2 = {v}\nb_mv = 26', r"\[\[surveys\]\]\[1\]\.options\.polarized_area"),
+    ('temperature_c = 20.0', 'temperature_c = 20.0\n[surveys.options]\nb_mv = {v}',
+     r"\[\[surveys\]\]\[1\]\.options\.b_mv: expected a finite number"),
+])
+def test_non_finite_coordinates_and_options_refused(site_dir: Path, value: str, old: str,
+                                                    new: str, key: str) -> None:
+    # the contract of issue 11: nan and inf are TOML numbers but no coordinate, area or
+    # Stern-Geary constant; refused when the site file is read, naming the dotted key
+    text = (site_dir / "site.toml").read_text()
+    if "options" in new:  # the resistivity survey becomes a corrosion-rate one
+        text = text.replace('kind = "resistivity"', 'kind = "corrosion_rate"').replace(
+            'unit = "kohm.cm"', 'unit = "uA/cm2"')
+    if old == "site = [":  # the first control point's site coordinates
+        text = re.sub(r"site = \[[^\]]*\]", f"site = [{value}, 0.0]", text, count=1)
+    else:
+        text = text.replace(old, new.format(v=value), 1)
+    (site_dir / "site.toml").write_text(text)
+    with pytest.raises(GeoCorrosionError, match=rf"site.toml: {key}"):
+        read_site(site_dir)
+
+
 def test_two_levels_with_one_name_are_refused(site_dir: Path) -> None:
     # every map, drawing and report section is named after its level (common practice)
     text = (site_dir / "site.toml").read_text()
@@ -589,3 +672,43 @@ def test_stability_series_flags_unstable_readings(site_dir: Path) -> None:
     lines[7] = lines[7][:-1] + ",-250 abc"
     p.write_text("\n".join(lines) + "\n")
     _fails(site_dir, "line 8: stability series")
+
+
+def test_stability_series_with_a_dot_in_a_decimal_comma_file(site_dir: Path) -> None:
+    # the contract of issue 11: as for the value column, a '.' in a decimal-comma file is
+    # not silently taken as a decimal point
+    p = site_dir / "readings" / "potential.csv"
+    lines = p.read_text().splitlines()
+    lines[0] = lines[0].replace(",", ";") + ";stability"
+    lines[1:] = [";".join(v.replace(".", ",") for v in ln.split(",")) + ";" for ln in lines[1:]]
+    lines[5] += "-250,5 -262.5"
+    p.write_text("\n".join(lines) + "\n")
+    edit(site_dir / "site.toml", 'path = "readings/potential.csv"',
+         'path = "readings/potential.csv"\nseparator = ";"\ndecimal = ","')
+    _fails(site_dir, "potential.csv line 6: stability series '-250,5 -262.5' holds a '.'",
+           'set decimal = "."')
+
+
+@pytest.mark.parametrize(("file_sep", "site_sep", "advice"),
+                         [(";", ",", "set separator = ';'"), (",", ";", "set separator = ','"),
+                          ("\t", ",", 'set separator = "\\t"')])
+def test_wrong_separator_names_the_column_and_the_setting(site_dir: Path, file_sep: str,
+                                                          site_sep: str, advice: str) -> None:
+    # the contract of issue 11: the message names the missing column, the header and what to
+    # set, not a bare "column missing" nor the decimal setting
+    p = site_dir / "readings" / "resistivity.csv"
+    p.write_text(p.read_text().replace(",", file_sep))
+    if site_sep != ",":
+        edit(site_dir / "site.toml", 'unit = "kohm.cm"',
+             f'unit = "kohm.cm"\nseparator = "{site_sep}"')
+    out = _fails(site_dir, "resistivity.csv line 1: column 'x' (for x) is missing",
+                 f"is separated by {file_sep!r}, not {site_sep!r}", advice,
+                 "site.toml: [[surveys]][1].separator")
+    assert "decimal" not in out
+
+
+def test_decimal_comma_with_the_default_separator_says_to_set_it(site_dir: Path) -> None:
+    # the contract of issue 11: decimal = "," with separator left at "," says what to set
+    edit(site_dir / "site.toml", 'unit = "kohm.cm"', 'unit = "kohm.cm"\ndecimal = ","')
+    _fails(site_dir, "site.toml: [[surveys]][1].separator: separator and decimal cannot both "
+           "be ','", "set separator = ';'")

@@ -163,6 +163,45 @@ def test_a_symlink_inside_the_site_folder_is_accepted(site_dir: Path) -> None:
     assert read_site(site_dir).surveys[0].path == site_dir / "readings" / "potential.csv"
 
 
+def _slab_as_shapefile(site_dir: Path) -> Path:
+    """Write the slab outline as plans/slab.shp (+ .shx, .dbf, .prj, .cpg) and use it."""
+    import pyogrio
+
+    shp = site_dir / "plans" / "slab.shp"
+    pyogrio.write_dataframe(pyogrio.read_dataframe(site_dir / "plans" / "slab.geojson"), shp)
+    edit(site_dir / "site.toml", 'slab = { path = "plans/slab.geojson" }',
+         'slab = { path = "plans/slab.shp" }')
+    return shp
+
+
+@pytest.mark.parametrize("companion", [".shx", ".dbf", ".prj", ".cpg"])
+def test_shapefile_companion_linked_outside_is_refused(site_dir: Path, tmp_path: Path,
+                                                       companion: str) -> None:
+    # the contract of issue 11: GDAL reads x.shx, x.dbf, ... beside x.shp, so each is checked
+    # as the .shp itself; a link out of the site folder is refused naming the key
+    shp = _slab_as_shapefile(site_dir)
+    assert read_site(site_dir).levels[0].slab.path == shp  # the plain shapefile is read
+    res = CliRunner().invoke(cli, ["check", str(site_dir)])
+    assert res.exit_code == 0, res.output
+    elsewhere = tmp_path / "elsewhere"
+    elsewhere.mkdir()
+    part = shp.with_suffix(companion)
+    part.rename(elsewhere / part.name)
+    part.symlink_to(elsewhere / part.name)
+    _fails(site_dir, "[[levels]][0].slab.path", f"the companion slab{companion} of slab.shp",
+           f"'plans/slab{companion}' is outside the site folder", "symbolic link",
+           str(elsewhere / part.name))
+
+
+def test_shapefile_companion_that_is_a_folder_is_refused(site_dir: Path) -> None:
+    # the contract of issue 11: as for the .shp, a companion must be a regular file
+    shp = _slab_as_shapefile(site_dir)
+    shp.with_suffix(".dbf").unlink()
+    shp.with_suffix(".DBF").mkdir()
+    _fails(site_dir, "[[levels]][0].slab.path", "the companion slab.DBF of slab.shp",
+           "'plans/slab.DBF' is a folder")
+
+
 # --------------------------------------------------------------------------- ids
 
 
@@ -188,3 +227,35 @@ def test_ids_of_the_allowed_set_are_accepted(site_dir: Path) -> None:
     text = (site_dir / "site.toml").read_text().replace('"D1"', f'"{good}"')
     (site_dir / "site.toml").write_text(text)
     assert read_site(site_dir).levels[0].id == good
+
+
+@pytest.mark.parametrize("bad", ["../../escaped", "Repair zone A", "a" * (ID_MAX + 1), "-x",
+                                 "z.1"])
+def test_bad_zone_names_and_class_keys_are_refused(site_dir: Path, bad: str) -> None:
+    # the contract of issue 11: a zone's name becomes a DXF layer (GC-ZONE-<name>) and
+    # GeoPackage values, a class key class layers and legend entries: the id set of levels
+    p = site_dir / "site.toml"
+    text = p.read_text()
+    p.write_text(text + f'\n[[zoning]]\nrule = "repair"\n[[zoning]]\nrule = "no_action"\n'
+                        f'name = "{bad}"\n')
+    _fails(site_dir, "[[zoning]][1].name", repr(bad), "letters, digits, _ and -",
+           f"at most {ID_MAX} characters")
+    p.write_text(text + '\n[condition.combined]\ndefault = "ok"\n'
+                        f'classes = [ {{ key = "{bad}" }}, {{ key = "ok" }} ]\n'
+                        '[[condition.combined.rules]]\nname = "r"\npotential = "high"\n'
+                        f'class = "{bad}"\n')
+    _fails(site_dir, "[condition.combined].classes[0].key", repr(bad), "letters, digits, _ and -")
+
+
+def test_zone_names_and_class_keys_of_the_allowed_set_are_accepted(site_dir: Path) -> None:
+    good = "Zone_A-" + "x" * (ID_MAX - 7)  # exactly 40 characters
+    p = site_dir / "site.toml"
+    p.write_text(p.read_text() + f'\n[[zoning]]\nrule = "repair"\nname = "{good}"\n'
+                 '[condition.combined]\ndefault = "ok"\n'
+                 f'classes = [ {{ key = "{good}" }}, {{ key = "ok" }} ]\n'
+                 '[[condition.combined.rules]]\nname = "r"\npotential = "high"\n'
+                 f'class = "{good}"\n')
+    cfg = read_site(site_dir)
+    assert cfg.zoning[0] == ("repair", {"name": good})
+    assert cfg.combined_rules is not None
+    assert cfg.combined_rules["classes"][0]["key"] == good

@@ -199,3 +199,36 @@ def test_flags_refer_to_readings(values: list[float], seed: int) -> None:
     rng_ids = set(flags.loc[flags["rule"].isin(["QA-RANGE-LOW", "QA-RANGE-HIGH"]), "reading_id"])
     v = np.asarray(values)
     assert rng_ids == {f"S1:{k}" for k in np.flatnonzero((v < -1000.0) | (v > 200.0))}
+
+
+def test_refusal_names_each_error_once_with_its_file(make_frame: Any) -> None:
+    # the contract of issue 11: the message that stops a run names the file of each QA error
+    # once (the flags' messages start with it), the rule, and reads well for a single error
+    from geo_corrosion.stages.check_site import MAX_LISTED_ERRORS, refuse_unrunnable
+
+    far = [(10.0, 10.0), (11.0, 10.0), (12.0, 10.0)]
+    one = qa.check_survey(make_frame([-300.0] * 3, xy=far, file="readings/L1_east.csv"),
+                          **LEVEL, plausible_range=(-1000.0, 200.0),
+                          slab_local=shapely.box(0, 0, 4, 4))
+    with pytest.raises(QAError) as err:
+        refuse_unrunnable(one)
+    text = str(err.value)
+    assert text.startswith("the site cannot be run: readings/L1_east.csv: every reading is "
+                           "outside the slab outline")
+    assert text.count("readings/L1_east.csv") == 1 and "(QA-ALL-OUTSIDE)" in text
+    assert "error(s)" not in text and "\n" not in text
+    files = [f"readings/L1_{i}.csv" for i in range(MAX_LISTED_ERRORS + 2)]
+    many = pd.concat([qa.check_survey(make_frame([-300.0] * 3, xy=far, file=f, survey_id=f[9:-4]),
+                                      **LEVEL, plausible_range=(-1000.0, 200.0),
+                                      slab_local=shapely.box(0, 0, 4, 4))
+                      for f in files], ignore_index=True)
+    many.loc[many["rule"] == "QA-ALL-OUTSIDE", "where"] = ""  # a flag without a place
+    with pytest.raises(QAError) as err:
+        refuse_unrunnable(many)
+    lines = str(err.value).splitlines()
+    assert lines[0] == (f"the site cannot be run; QA found {len(files)} errors. Fix them and "
+                        "run again:")
+    assert lines[1] == ("  - survey L1_0: readings/L1_0.csv: every reading is outside the slab "
+                        "outline: check the local grid origin, rotation and units of the survey "
+                        "(QA-ALL-OUTSIDE)")
+    assert len(lines) == MAX_LISTED_ERRORS + 2 and lines[-1].startswith("  ... and 2 more")
