@@ -175,7 +175,7 @@ def check_work(site: Site) -> None:
             values = np.concatenate([s.frame[kind.value_column].to_numpy(float)
                                      for s in site.surveys_of(lid, kind.name)])
             values = values[np.isfinite(values)]
-            lo, hi = kind.plausible_range or (-math.inf, math.inf)
+            lo, hi = kind.plausible_range
             # readings beyond the kind's plausible range are flagged by QA and left out of
             # the surface: they draw no contour, so they do not count here
             values = values[(values >= lo) & (values <= hi)]

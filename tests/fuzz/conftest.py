@@ -87,5 +87,5 @@ def pytest_terminal_summary(terminalreporter: pytest.TerminalReporter) -> Iterat
             if _soak_outcome else f"interrupted runs: {_SOAK} not run in this session")
     terminalreporter.write_line(
         f"fuzz: {tried} broken site folders tried, {clean} handled cleanly; xfailed: {xfail} "
-        f"pending h/validate, {found} found here and unfixed (groups: {', '.join(parts)}); "
+        f"pending a fix, {found} found here and unfixed (groups: {', '.join(parts)}); "
         f"{soak}")

@@ -81,7 +81,7 @@ class Case:
         """Return the case as a pytest parameter with its marks."""
         marks = list(self.marks)
         if self.pending:
-            marks.append(pytest.mark.xfail(strict=True, reason=f"pending h/validate: "
+            marks.append(pytest.mark.xfail(strict=True, reason=f"pending a fix: "
                                            f"{self.pending}"))
         if self.found:
             marks.append(pytest.mark.xfail(strict=True, reason=f"found by tests/fuzz, unfixed: "

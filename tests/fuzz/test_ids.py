@@ -89,8 +89,7 @@ def class_key(bad: str) -> Case:
             f'{{ key = "ok" }} ]\n[[condition.combined.rules]]\nclass = {_toml_str(bad)}\n'
             'potential = ["high"]\n'))
     return Case(f"class-key-{bad!r}", breaks,
-                ("site.toml", "[condition.combined].classes[0].key"),
-                pending="class keys and zoning names as safe ids")
+                ("site.toml", "[condition.combined].classes[0].key"))
 
 
 def zoning_name(bad: str) -> Case:
@@ -98,8 +97,7 @@ def zoning_name(bad: str) -> Case:
     return Case(f"zoning-name-{bad!r}", lambda s: (s / "site.toml").write_text(
         (s / "site.toml").read_text() + f'\n[[zoning]]\nrule = "repair"\nname = '
                                         f'{_toml_str(bad)}\n'),
-                ("site.toml", "[[zoning]][0].name"),
-                pending="class keys and zoning names as safe ids")
+                ("site.toml", "[[zoning]][0].name"))
 
 
 # an empty zoning name is refused today (ZoningRule.check_parameters); the others are pending

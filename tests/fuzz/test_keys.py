@@ -91,17 +91,13 @@ def set_key(site: Path, slot: Slot, k: Key, text: str) -> None:
     toml.write_text(src[:start] + new + src[end:])
 
 
-#: Non-finite pairs: accepted (origin, unused beside control points) or an internal error
-#: (control-point coordinates: "SVD did not converge", a RuntimeWarning) today.
-PAIRS_PENDING = "inf/nan keys naming key/file (pairs: origin, control-point local and site)"
 
 
 def key_case(slot: Slot, k: Key, v: float) -> Case:
     """A case: key ``k`` set to ``v``, refused naming the site file and its dotted key."""
     text = _toml_value(k, v)
     return Case(f"{slot.dotted.format(k.name)}={text}",
-                lambda s: set_key(s, slot, k, text), ("site.toml", slot.dotted.format(k.name)),
-                pending=PAIRS_PENDING if k.type == "pair" else "")
+                lambda s: set_key(s, slot, k, text), ("site.toml", slot.dotted.format(k.name)))
 
 
 CASES = [key_case(slot, k, v) for slot, k in KEYS

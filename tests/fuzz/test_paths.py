@@ -140,8 +140,7 @@ def _shapefile_companion(ext: str, target: str) -> Case:
         comp.symlink_to(out)
         edit(site / "site.toml", "plans/slab.geojson", "plans/slab.shp")
     return Case(f"shapefile-{ext[1:]}-links-to-{Path(target).name}", breaks,
-                ("site.toml", "[[levels]][0].slab.path", f"slab{ext}", "outside the site folder"),
-                pending="Shapefile companion files path-checked")
+                ("site.toml", "[[levels]][0].slab.path", f"slab{ext}", "outside the site folder"))
 
 
 CASES += [_shapefile_companion(ext, t) for ext in (".dbf", ".shx", ".prj")
