@@ -25,6 +25,7 @@ from typing import Any
 
 import geopandas as gpd
 import numpy as np
+import shapely
 from shapely.geometry import LineString, Point, Polygon, box
 from shapely.geometry.base import BaseGeometry
 
@@ -276,6 +277,7 @@ def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
     for s in spalls:
         outline(s, LAYER_SPALL)
     zone_shapes: list[BaseGeometry] = []
+    deck = slab.difference(shapely.union_all(list(exclusions))) if exclusions else slab
     if zones is not None and len(zones):
         for k, z in enumerate(zones.itertuples(index=False)):
             zname = getattr(z, "zone", f"Z{k}")
@@ -283,7 +285,7 @@ def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
                         f"Zone: {str(zname).replace('_', ' ')}")
             geom = z.geometry
             if zone_tolerance:
-                geom = clean_outline(geom, zone_tolerance)
+                geom = clean_outline(geom, zone_tolerance, within=deck)
             outline(geom, lay)
             zone_shapes.append(T(geom))
     repair_shapes: list[BaseGeometry] = []

@@ -12,7 +12,7 @@ this project's own design.
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 
 import shapely
@@ -354,50 +354,86 @@ def _leader(b: Polygon, shape: BaseGeometry, h: float) -> LineString | None:
 # --------------------------------------------------------------------------- outlines
 
 
-def clean_outline(geom: BaseGeometry, tolerance: float, *, max_change: float = 0.02
-                  ) -> BaseGeometry:
+def clean_outline(geom: BaseGeometry, tolerance: float, *, max_change: float = 0.02,
+                  within: BaseGeometry | None = None) -> BaseGeometry:
     """Return a zone outline without the raster's staircase.
 
-    Simplified with a tolerance of about one cell (shapely ``simplify``, topology kept),
-    then near-orthogonal edges squared: a vertex whose x (or y) differs from the previous
-    one by less than the tolerance takes the previous one's x (or y).  The area may change
-    by less than ``max_change`` (2 %) of the original; otherwise the outline is only
-    simplified, and failing that left as it was.
+    Collinear vertices are dropped, then each run of steps (edges no longer than 2.5
+    ``tolerance``, about a kriging cell) is replaced by the line through the steps'
+    midpoints, which keeps the area the steps enclose; the outline is then simplified with
+    the tolerance, or a half or a quarter of it where that keeps the area (shapely
+    ``simplify``,
+    topology kept) and its near-orthogonal edges squared: a vertex whose x (or y) differs
+    from the previous one's by less than the tolerance takes the previous one's.  With
+    ``within`` (the deck: slab less exclusions), the result is clipped to it, so the deck's
+    own edges, notches and openings stay as drawn.  The area may change by less than
+    ``max_change`` (2 %) of the original; otherwise the outline is only simplified, and
+    failing that left as it was.
     """
     if geom is None or geom.is_empty or tolerance <= 0:
         return geom
     area = geom.area
-    simple = geom.simplify(tolerance, preserve_topology=True)
-    squared = _square(simple, tolerance)
-    for g in (squared, simple):
+
+    def clip(g: BaseGeometry) -> BaseGeometry:
+        return g if within is None else shapely.make_valid(g.intersection(within))
+
+    destaired = _polygons(geom.simplify(0), lambda r: _destair(r, tolerance))
+    tries = []
+    for t in (tolerance, tolerance / 2, tolerance / 4):  # a cell first, then finer
+        simple = clip(destaired.simplify(t, preserve_topology=True))
+        tries += [clip(_polygons(simple, lambda r: _square_ring(r, tolerance))), simple]
+    tries.append(clip(geom.simplify(tolerance / 4, preserve_topology=True)))
+    for g in tries:
+        g = _polygons(g, lambda r: [(float(c[0]), float(c[1])) for c in r[:-1]])
         if g.is_valid and not g.is_empty and abs(g.area - area) < max_change * area:
             return g
     return geom
 
 
-def _square(geom: BaseGeometry, tol: float) -> BaseGeometry:
-    def ring(coords: Sequence[tuple[float, float]]) -> list[tuple[float, float]]:
-        pts = [tuple(map(float, c[:2])) for c in coords[:-1]]
-        out: list[tuple[float, float]] = []
-        for x, y in pts:
-            if out:
-                px, py = out[-1]
-                if abs(x - px) < tol and abs(y - py) >= tol:
-                    x = px
-                elif abs(y - py) < tol and abs(x - px) >= tol:
-                    y = py
-            out.append((x, y))
-        return out
+def _destair(coords: Sequence[tuple[float, float]], tol: float) -> list[tuple[float, float]]:
+    """Replace steps (short edges) of a closed ring by their midpoints."""
+    pts = [(float(c[0]), float(c[1])) for c in coords[:-1]]
+    n = len(pts)
+    if n < 4:
+        return pts
+    short = [math.dist(pts[i], pts[(i + 1) % n]) <= 2.5 * tol for i in range(n)]
+    out: list[tuple[float, float]] = []
+    for i in range(n):
+        if not short[i - 1] or not short[i]:
+            out.append(pts[i])  # a corner at a long edge stays
+        if short[i]:
+            (ax, ay), (bx, by) = pts[i], pts[(i + 1) % n]
+            out.append(((ax + bx) / 2, (ay + by) / 2))
+    return out if len(out) >= 3 else pts
 
+
+def _square_ring(coords: Sequence[tuple[float, float]], tol: float
+                 ) -> list[tuple[float, float]]:
+    pts = [(float(c[0]), float(c[1])) for c in coords[:-1]]
+    out: list[tuple[float, float]] = []
+    for x, y in pts:
+        if out:
+            px, py = out[-1]
+            if abs(x - px) < tol and abs(y - py) >= tol:
+                x = px
+            elif abs(y - py) < tol and abs(x - px) >= tol:
+                y = py
+        out.append((x, y))
+    return out
+
+
+def _polygons(geom: BaseGeometry,
+              fix: Callable[[Sequence[tuple[float, float]]], list[tuple[float, float]]]
+              ) -> BaseGeometry:
+    """Apply a change to every ring of a (multi)polygon; a valid geometry comes back."""
     polys = []
     for p in getattr(geom, "geoms", [geom]):
         if p.geom_type != "Polygon":
             continue
-        ext = ring(list(p.exterior.coords))
-        holes = [ring(list(r.coords)) for r in p.interiors]
+        ext = fix(list(p.exterior.coords))
+        holes = [fix(list(r.coords)) for r in p.interiors]
         if len(ext) >= 3:
             polys.append(Polygon(ext, [r for r in holes if len(r) >= 3]))
     if not polys:
         return geom
-    return shapely.make_valid(shapely.union_all(polys)) if len(polys) > 1 else \
-        shapely.make_valid(polys[0])
+    return shapely.make_valid(shapely.union_all(polys) if len(polys) > 1 else polys[0])
