@@ -71,7 +71,7 @@ def test_labels_in_a_crowd_do_not_overlap() -> None:
 
 def test_labels_avoid_soft_lines_when_they_can() -> None:
     shape = box(0, 0, 1, 1)
-    wall = LineString([(1.1, -5), (1.1, 5)])  # a joint just east of the repair
+    wall = LineString([(1.25, -5), (1.25, 5)])  # a joint just east of the repair
     (p,) = place_labels([Label("R1", shape, ("R1",))], h=0.2, hard=[shape], soft=[wall])
     assert not p.box.intersects(wall)
 
@@ -84,3 +84,21 @@ def test_staircase_cleaned_within_two_percent() -> None:
     assert len(clean.exterior.coords) < len(stair.exterior.coords) / 4
     assert abs(clean.area - stair.area) < 0.02 * stair.area  # the stated share
     assert clean.is_valid
+
+
+def test_drawings_keys_read_and_checked(tmp_path) -> None:
+    from geo_corrosion.errors import SiteFileError
+    from geo_corrosion.stages.read_site import read_site
+    from geo_corrosion.testing import make_synthetic_site
+
+    make_synthetic_site(tmp_path)
+    site = tmp_path / "site.toml"
+    text = site.read_text()
+    assert read_site(site).drawings.coords == "grid"  # the default (config.py)
+    site.write_text(text + '\n[drawings]\ncoords = "site"\nsheet = "ISO-A0"\n'
+                           'engineer = "A. Engineer"\n')
+    d = read_site(site).drawings
+    assert (d.coords, d.sheet, d.engineer) == ("site", "ISO-A0", "A. Engineer")
+    site.write_text(text + '\n[drawings]\nsheet = "A4"\n')
+    with pytest.raises(SiteFileError, match=r"\[drawings\]\.sheet.*ANSI-D"):
+        read_site(site)
