@@ -381,8 +381,10 @@ def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
     unit_name = {"m": "m", "ft": "ft", "us-ft": "US survey ft"}[unit]
     coords = ("Coordinates: site CRS" if to_model is not None else
               f"Coordinates: survey grid, {unit_name}")
+    refs = ("Column grid as on the plans" if grid_lines else
+            f"Stations along grid x, offsets along grid y ({unit_name})")
     info = SheetInfo(**{**info.__dict__, "coords_note": info.coords_note or (
-        f"{coords}. Stations along grid x, offsets along grid y ({unit_name}). Sides of "
+        f"{coords}. {refs}. Repair corners in the survey grid ({unit_name}). Sides of "
         f"repairs in {'feet and inches' if system == 'us' else 'mm'}.")})
     header = ["REPAIR", "SIDES", f"AREA {units.area}", "CLASS", "BID ITEM",
               f"CORNER X, Y ({unit_name})"]

@@ -261,9 +261,10 @@ def place_labels(labels: Sequence[Label], *, h: float,
     A simple search: for each label in turn, boxes on eight sides of its shape at growing
     distances, nearest first; the first box that overlaps no placed label or leader, no
     ``hard`` line and no ``soft`` line (keeping a gap of ``h / 4``) is taken, with a leader
-    from the box to the shape when it stands off more than ``h``.  When no box is free of
-    the soft lines, they are given up; when no box is free of the hard ones either, the
-    box of the least hard crossing is taken (never one on another label).
+    from the box to the shape when it stands off more than ``h``.  Near the shape (up to
+    five text heights) a box may cross soft lines before a box farther out is sought;
+    when no box is free of the hard lines, the box of the least hard crossing is taken
+    (never one on another label).
 
     Parameters
     ----------
@@ -304,8 +305,10 @@ def place_labels(labels: Sequence[Label], *, h: float,
         cands = _candidates(lab.shape, w, bh, h)
         taken_u = prep(shapely.union_all(taken)) if taken else None
         best: tuple[float, Polygon, LineString | None] | None = None
-        for level in (0, 1, 2):
-            for bx, by in cands:
+        near = len(_DIRECTIONS) * sum(1 for d in _DISTANCES if d <= 5.0)
+        for level, pool in ((0, cands[:near]), (1, cands[:near]), (0, cands), (1, cands),
+                            (2, cands)):
+            for bx, by in pool:
                 b = box(bx, by, bx + w, by + bh)
                 grown = b.buffer(gap, join_style="mitre")
                 if within_p is not None and not within_p.contains(b):

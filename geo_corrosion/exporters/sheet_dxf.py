@@ -215,11 +215,13 @@ def draw_sheet(layout: Any, frame: SheetFrame, scale: Scale, info: SheetInfo, *,
                           dxfattribs={"layer": LAYER_SHEET, "lineweight": 25})
     text("N", ncx + ux * (rad + 4.0), ncy + uy * (rad + 4.0), 4.0, A.MIDDLE_CENTER)
     text("GRID NORTH", ncx, y + 1.0, _CAP, A.BOTTOM_CENTER)
-    # scale bar: four divisions of a round model length
+    # scale bar in the reporting system's unit: four divisions of a round length
+    bar_unit = "ft" if system == "us" else "m"
+    fb = scale.model_per_mm(bar_unit)
     bx0 = cx0 + 45.0
-    avail = cx1 - pad - bx0
-    step = _bar_step(avail / 4 * f)
-    seg = step / f
+    avail = cx1 - pad - 12.0 - bx0
+    step = _bar_step(avail / 4 * fb)
+    seg = step / fb
     by = y + block / 2 - 2.0
     for i in range(4):
         xs = bx0 + i * seg
@@ -228,7 +230,6 @@ def draw_sheet(layout: Any, frame: SheetFrame, scale: Scale, info: SheetInfo, *,
             h2 = layout.add_hatch(color=7, dxfattribs={"layer": LAYER_SHEET})
             h2.paths.add_polyline_path([(xs, by), (xs + seg, by), (xs + seg, by + 3.0),
                                         (xs, by + 3.0)], is_closed=True)
-    bar_unit = {"m": "m", "ft": "ft", "us-ft": "ft"}.get(model_unit, model_unit)
     for i in range(5):
         text(f"{i * step:g}", bx0 + i * seg, by - 1.5 - _TEXT, _TEXT, A.LEFT if i == 0 else
              A.CENTER if i < 4 else A.RIGHT)

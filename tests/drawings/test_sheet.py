@@ -130,6 +130,16 @@ def test_title_block_and_scale_in_paper_space(sheet) -> None:
     assert len(vps) == 1
     vp = vps[0]
     assert vp.dxf.view_height / vp.dxf.height == pytest.approx(10.0 / 25.4)
+    # scale bar in feet: its divisions of 10 ft are 1 in = 25.4 mm apart at 1" = 10' (hand
+    # computation)
+    marks = {}
+    for t in paper.query('TEXT[layer=="GC-SHEET-TEXT"]'):
+        if t.dxf.text in ("0", "10", "20", "ft"):
+            _, p, _ = t.get_placement()
+            marks.setdefault(round(p.y, 3), {})[t.dxf.text] = p.x
+    (bar,) = [m for m in marks.values() if {"0", "10", "20"} <= set(m)]
+    assert bar["10"] - bar["0"] == pytest.approx(25.4)
+    assert bar["20"] - bar["10"] == pytest.approx(25.4)
     # the sheet is ANSI D, 34 x 22 in (common practice for US sites)
     assert (paper.dxf.paper_width, paper.dxf.paper_height) == pytest.approx((863.6, 558.8))
 
