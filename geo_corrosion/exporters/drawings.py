@@ -47,7 +47,8 @@ class DrawingsExporter(Exporter):
                 title=lv.config.name, number=f"R-{i}", of=n,
                 date=today, sheet="" if params.sheet == "auto" else params.sheet,
                 north_deg=90.0 if site else 90.0 - grid.rotation_deg,
-                revisions=(("0", today, "Issued for review: survey findings"),))
+                revisions=(("0", today, "Issued for review: survey findings"),),
+                where=f"{cfg.path}: [drawings].sheet")
 
             def to_site(g: BaseGeometry, grid: LocalGrid = grid) -> BaseGeometry:
                 return grid.geom_to_site(g)

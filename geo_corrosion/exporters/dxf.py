@@ -225,11 +225,11 @@ def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
                               notes=tuple(cautions))
     if sheet is not None and not info.notes:
         info = SheetInfo(**{**info.__dict__, "notes": tuple(cautions)})
-    frame = sheet_frame(info.sheet or DEFAULT_SHEET[system])
+    frame = sheet_frame(info.sheet or DEFAULT_SHEET[system], where=info.where)
     slab_m = T(slab)
     x0, y0, x1, y1 = slab_m.bounds
     scale: Scale = choose_scale((x0, y0, x1, y1), mu, system, frame,
-                                what=f"the plan of {title}")
+                                what=f"the plan of {title}", where=info.where)
     f = scale.model_per_mm(mu)          # model units per paper mm
     f_local = scale.model_per_mm(unit)  # local-grid units per paper mm
     h = text_height or 2.5 * f

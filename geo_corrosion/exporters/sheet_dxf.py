@@ -11,7 +11,7 @@ from __future__ import annotations
 import math
 import textwrap
 from collections.abc import Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Any
 
 from geo_corrosion.exporters.sheet import CHAR_WIDTH, Scale, SheetFrame
@@ -57,6 +57,8 @@ class SheetInfo:
     revisions : tuple of (rev, date, description)
     coords_note : str
         What the model coordinates are.
+    where : str
+        The site-file key that chose the sheet, for messages (``site.toml: [drawings].sheet``).
     """
 
     project: str
@@ -71,7 +73,7 @@ class SheetInfo:
     notes: tuple[str, ...] = ()
     revisions: tuple[tuple[str, str, str], ...] = ()
     coords_note: str = ""
-    extra: dict[str, Any] = field(default_factory=dict)
+    where: str = "[drawings].sheet"
 
 
 _CAP = 1.8    # caption height, mm

@@ -247,6 +247,15 @@ def test_plan_too_big_is_refused(tmp_path) -> None:
                         repairs=None, zones=None, delaminations=[], unit="ft", title="Big",
                         cautions=[], units=report_units("us"))
     assert not list(tmp_path.iterdir())
+    # the exporter names the site file and the key (exporters/drawings.py)
+    named = SheetInfo(project="P", owner="O", engineer="E", title="Big", sheet="ANSI-C",
+                      where="/x/site.toml: [drawings].sheet")
+    with pytest.raises(ExportError, match=r"^/x/site\.toml: \[drawings\]\.sheet: the plan of "
+                                          r"Big \(3000 x 2000 ft\) does not fit .* ANSI-C"):
+        write_level_dxf(tmp_path / "big.dxf", slab=big, exclusions=[], joints=[],
+                        repairs=None, zones=None, delaminations=[], unit="ft", title="Big",
+                        cautions=[], units=report_units("us"), sheet=named)
+    assert not list(tmp_path.iterdir())
 
 
 @pytest.mark.skipif(shutil.which("pdftotext") is None, reason="poppler's pdftotext needed")
