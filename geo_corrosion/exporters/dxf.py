@@ -46,7 +46,7 @@ from geo_corrosion.exporters.sheet import (
 )
 from geo_corrosion.exporters.sheet_dxf import LegendRow, SheetInfo, draw_sheet
 from geo_corrosion.repair import polygon_parts
-from geo_corrosion.units import ReportUnits, report_units
+from geo_corrosion.units import LENGTH_TO_M, ReportUnits, report_units
 
 __all__ = ["LAYER_SLAB", "LAYER_EXCLUSION", "LAYER_JOINT", "LAYER_DELAM", "LAYER_TEXT",
            "LAYER_SPALL", "LAYER_LABEL", "LAYER_COLUMN_GRID", "LAYER_STATION", "DEPTH_HATCH",
@@ -100,18 +100,27 @@ def _rings(geom: BaseGeometry) -> list[list[tuple[float, float]]]:
     return out
 
 
-def repair_dimensions(row: Any, geom: BaseGeometry) -> tuple[float, float, bool]:
-    """Return a repair's two sides in its plan unit, longer first, and whether it is a rectangle.
+def repair_dimensions(row: Any, geom: BaseGeometry, unit: str) -> tuple[float, float, bool]:
+    """Return a repair's two sides in its plan unit and whether it is a rectangle.
 
-    Read from the repair's attributes when the layout gives them (``dim_long`` and
-    ``dim_short``, plan unit), else computed from its outline
-    (:func:`~geo_corrosion.exporters.sheet.rectangle_sides`).
+    Read from the repair's attributes when the layout gives them (``size_x_m`` and
+    ``size_y_m``, its overall size along the saw-cut axes, in metres), else computed from its
+    outline, longer side first (:func:`~geo_corrosion.exporters.sheet.rectangle_sides`).
     """
-    a, b = getattr(row, "dim_long", None), getattr(row, "dim_short", None)
-    if a is not None and b is not None and np.isfinite(a) and np.isfinite(b):
-        is_rect = rectangle_sides(geom)[2]
-        return max(float(a), float(b)), min(float(a), float(b)), is_rect
+    sx, sy = getattr(row, "size_x_m", None), getattr(row, "size_y_m", None)
+    is_rect = rectangle_sides(geom)[2]
+    try:
+        if sx is not None and sy is not None and np.isfinite(sx) and np.isfinite(sy):
+            return float(sx) / LENGTH_TO_M[unit], float(sy) / LENGTH_TO_M[unit], is_rect
+    except TypeError:
+        pass
     return rectangle_sides(geom)
+
+
+def _attr_text(row: Any, name: str) -> str | None:
+    """Return a text attribute of a repair, or None when it has none."""
+    v = getattr(row, name, None)
+    return v if isinstance(v, str) and v.strip() else None
 
 
 def _column_lines(column_grid: Sequence[Any]) -> list[tuple[str, LineString]]:
@@ -309,16 +318,18 @@ def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
             for ring_no, ring in enumerate(_rings(gm)):
                 hatch.paths.add_polyline_path(ring, is_closed=True, flags=1 if ring_no == 0
                                               else 0)
-            a, b, is_rect = repair_dimensions(r, r.geometry)
-            dims = f"{format_length(a, unit, system)} x {format_length(b, unit, system)}"
+            a, b, is_rect = repair_dimensions(r, r.geometry, unit)
+            dims = _attr_text(r, "dimensions") or (
+                f"{format_length(a, unit, system)} x {format_length(b, unit, system)}")
             if not is_rect:
                 dims += " max"
             labels.append(Label(str(r.repair_id), gm, (f"{r.repair_id} {code}", dims)))
             area = float(units.area_from_m2(float(r.area_m2)))
             item = str(getattr(r, "bid_item", "") or DEPTH_CLASS_ITEMS.get(cls, ""))
             lx, ly = r.geometry.bounds[:2]
-            rows.append([str(r.repair_id), dims, f"{area:.1f}", code, item,
-                         f"{lx:.1f}, {ly:.1f}" if unit != "m" else f"{lx:.2f}, {ly:.2f}"])
+            where = _attr_text(r, "location") or (
+                f"{lx:.1f}, {ly:.1f}" if unit != "m" else f"{lx:.2f}, {ly:.2f}")
+            rows.append([str(r.repair_id), dims, f"{area:.1f}", code, item, where])
 
     hard: list[BaseGeometry] = [*repair_shapes, *(T(d) for d in delaminations),
                                 *(T(s) for s in spalls)]
@@ -386,8 +397,9 @@ def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
     info = SheetInfo(**{**info.__dict__, "coords_note": info.coords_note or (
         f"{coords}. {refs}. Repair corners in the survey grid ({unit_name}). Sides of "
         f"repairs in {'feet and inches' if system == 'us' else 'mm'}.")})
+    located = repairs is not None and "location" in repairs.columns
     header = ["REPAIR", "SIDES", f"AREA {units.area}", "CLASS", "BID ITEM",
-              f"CORNER X, Y ({unit_name})"]
+              "LOCATION" if located else f"CORNER X, Y ({unit_name})"]
     widths = [24.0, 48.0, 20.0, 14.0, 30.0, 44.0]
     paper: Any = doc.layouts.get("Layout1")
     name = f"{title[:60]} sheet".replace("/", "-")

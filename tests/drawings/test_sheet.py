@@ -274,3 +274,23 @@ def test_pdf_reads_back(tmp_path, sheet) -> None:
     # one page of 34 x 22 in = 2448 x 1584 pt (common practice: ANSI D)
     assert re.search(r"Page size:\s+2448(\.\d+)? x 1584(\.\d+)? pts", info)
     assert re.search(r"Pages:\s+1\b", info)
+
+
+def test_sides_and_location_from_the_repairs_attributes(tmp_path, level) -> None:
+    # the layout's own figures win where it gives them (size_x_m, size_y_m in metres; the
+    # contractor's text 'dimensions'; 'location'): the sheet then agrees with the schedule
+    rep, zones = level
+    rep = rep.copy()
+    rep["size_x_m"] = 2.5 * 0.3048  # 2'-6" (NIST SP 811: 1 ft = 0.3048 m exactly)
+    rep["size_y_m"] = 4.5 * 0.3048
+    rep["dimensions"] = None
+    rep.loc[rep.index[0], "dimensions"] = "2'-6\" x 4'-6\" (as cut)"
+    rep["location"] = [f"near B/{i}" for i in range(len(rep))]
+    doc = ezdxf.readfile(_write(tmp_path / "a.dxf", level, repairs=rep))
+    blocks = {b[0].dxf.text.split()[0]: [t.dxf.text for t in b] for b in _labels(doc)}
+    first, *others = rep.repair_id
+    assert blocks[first][1].startswith("2'-6\" x 4'-6\" (as cut)")
+    for rid in others:
+        assert blocks[rid][1].removesuffix(" max") == "2'-6\" x 4'-6\""
+    paper = [t.dxf.text for t in _paper(doc).query("TEXT")]
+    assert "LOCATION" in paper and "near B/0" in paper
