@@ -38,7 +38,7 @@ from geo_corrosion.exporters.sheet import (
     Placed,
     Scale,
     choose_scale,
-    clean_outline,
+    clean_zones,
     format_length,
     place_labels,
     rectangle_sides,
@@ -273,6 +273,21 @@ def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
     layer(LAYER_DELAM, 1, "Delamination (sounding)")
     if spalls:
         layer(LAYER_SPALL, 6, "Spall (sounding)")
+    # zones first, so that the slab's and the repairs' own lines are drawn over their edges
+    zone_shapes: list[BaseGeometry] = []
+    deck = slab.difference(shapely.union_all(list(exclusions))) if exclusions else slab
+    if zones is not None and len(zones):
+        names = [str(getattr(z, "zone", f"Z{k}")) for k, z in
+                 enumerate(zones.itertuples(index=False))]
+        geoms = list(zones.geometry)
+        if zone_tolerance:  # the repair zone is priced as drawn: kept exact
+            geoms = clean_zones(geoms, zone_tolerance, deck,
+                                exact=[n == "repair" for n in names])
+        for k, (zname, geom) in enumerate(zip(names, geoms, strict=True)):
+            lay = layer(layer_name("GC-ZONE", zname), _ZONE_COLOURS[k % len(_ZONE_COLOURS)],
+                        f"Zone: {zname.replace('_', ' ')}")
+            outline(geom, lay)
+            zone_shapes.append(T(geom))
     outline(slab, LAYER_SLAB)
     for e in exclusions:
         outline(e, LAYER_EXCLUSION)
@@ -285,18 +300,6 @@ def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
         outline(d, LAYER_DELAM)
     for s in spalls:
         outline(s, LAYER_SPALL)
-    zone_shapes: list[BaseGeometry] = []
-    deck = slab.difference(shapely.union_all(list(exclusions))) if exclusions else slab
-    if zones is not None and len(zones):
-        for k, z in enumerate(zones.itertuples(index=False)):
-            zname = getattr(z, "zone", f"Z{k}")
-            lay = layer(layer_name("GC-ZONE", zname), _ZONE_COLOURS[k % len(_ZONE_COLOURS)],
-                        f"Zone: {str(zname).replace('_', ' ')}")
-            geom = z.geometry
-            if zone_tolerance:
-                geom = clean_outline(geom, zone_tolerance, within=deck)
-            outline(geom, lay)
-            zone_shapes.append(T(geom))
     repair_shapes: list[BaseGeometry] = []
     labels: list[Label] = []
     rows: list[list[str]] = []

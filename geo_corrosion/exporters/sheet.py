@@ -36,6 +36,7 @@ __all__ = [
     "SheetFrame",
     "choose_scale",
     "clean_outline",
+    "clean_zones",
     "format_length",
     "place_labels",
     "rectangle_sides",
@@ -391,6 +392,42 @@ def clean_outline(geom: BaseGeometry, tolerance: float, *, max_change: float = 0
         if g.is_valid and not g.is_empty and abs(g.area - area) < max_change * area:
             return g
     return geom
+
+
+def clean_zones(zones: Sequence[BaseGeometry], tolerance: float, deck: BaseGeometry, *,
+                exact: Sequence[bool] = (), max_change: float = 0.02) -> list[BaseGeometry]:
+    """Return the outlines of zones that partition the deck, cleaned so that they still do.
+
+    In order: a zone marked ``exact`` is kept as it is (the repairs, priced as drawn); any
+    other is cleaned (:func:`clean_outline`, clipped to the deck) less the zones before it;
+    the last zone, when the zones cover the deck, is the rest of the deck.  So neighbouring
+    zones share their edges and the deck's outline stays as drawn.  When a zone's area
+    changes by ``max_change`` (2 %) or more, or the zones do not cover the deck, the zones
+    are returned as given.
+    """
+    zs = list(zones)
+    if not zs:
+        return zs
+    exact = list(exact) + [False] * (len(zs) - len(exact))
+    covered = shapely.union_all(zs)
+    if abs(covered.area - deck.area) > 1e-3 * deck.area:
+        return zs
+    out: list[BaseGeometry] = []
+    taken: BaseGeometry = Polygon()
+    for i, (z, keep) in enumerate(zip(zs, exact, strict=True)):
+        if i == len(zs) - 1 and not keep:
+            g = deck.difference(taken)
+        elif keep:
+            g = z
+        else:
+            g = clean_outline(z, tolerance, within=deck).difference(taken)
+        g = _polygons(shapely.make_valid(g),
+                      lambda r: [(float(c[0]), float(c[1])) for c in r[:-1]])
+        if z.area > 0 and abs(g.area - z.area) >= max_change * z.area:
+            return zs
+        out.append(g)
+        taken = shapely.union_all([taken, g])
+    return out
 
 
 def _destair(coords: Sequence[tuple[float, float]], tol: float) -> list[tuple[float, float]]:

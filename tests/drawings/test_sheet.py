@@ -211,6 +211,15 @@ def test_zone_outlines_cleaned(sheet, level) -> None:
         assert drawn.intersection(EXCL[0]).area < 1e-9, z.zone
         n_in = shapely.get_num_coordinates(z.geometry)
         assert shapely.get_num_coordinates(drawn) <= n_in, z.zone
+    # the cleaned zones still partition the deck: neighbours share their edges, no gap and
+    # no overlap (derived: the zones partition the deck before cleaning)
+    drawn = [_drawn(doc, f"GC-ZONE-{n.upper().replace('_', '-')}") for n in zones.zone]
+    deck = SLAB.difference(EXCL[0])
+    assert sum(d.area for d in drawn) == pytest.approx(deck.area, rel=1e-9)
+    assert unary_union(drawn).symmetric_difference(deck).area < 1e-9
+    # the repair zone is priced as drawn: it stays exact
+    rep_zone = zones.geometry[list(zones.zone).index("repair")]
+    assert drawn[list(zones.zone).index("repair")].symmetric_difference(rep_zone).area < 1e-9
 
 
 def test_column_grid_drawn_when_given(tmp_path, level) -> None:

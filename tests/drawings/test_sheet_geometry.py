@@ -14,6 +14,7 @@ from geo_corrosion.exporters.sheet import (
     Label,
     choose_scale,
     clean_outline,
+    clean_zones,
     format_length,
     place_labels,
     sheet_frame,
@@ -102,3 +103,25 @@ def test_drawings_keys_read_and_checked(tmp_path) -> None:
     site.write_text(text + '\n[drawings]\nsheet = "A4"\n')
     with pytest.raises(SiteFileError, match=r"\[drawings\]\.sheet.*ANSI-D"):
         read_site(site)
+
+
+def test_cleaned_zones_still_partition_the_deck() -> None:
+    # a staircase zone A with an exact zone R cut into its steps, and the rest B: cleaning A
+    # must neither overlap R nor leave a gap (derived: the inputs partition the deck)
+    deck = box(0, 0, 40, 40)
+    stair = shapely.union_all([box(i, 0, i + 1, 40 - i) for i in range(40)])
+    r = box(19.5, 19.5, 21.5, 21.5)  # short sides: a cleaned neighbour would cut into it
+    a = stair.difference(r)
+    b = deck.difference(stair).difference(r)
+    out = clean_zones([r, a, b], 1.0, deck, exact=[True, False, False])
+    assert out[0].equals(r)  # exact: as given
+    assert shapely.get_num_coordinates(out[1]) < shapely.get_num_coordinates(a) / 2
+    assert sum(g.area for g in out) == pytest.approx(deck.area, rel=1e-9)
+    for g, h in combinations(out, 2):
+        assert g.intersection(h).area < 1e-9
+    for g, z in zip(out, (r, a, b), strict=True):
+        assert abs(g.area - z.area) < 0.02 * z.area  # the stated share
+    # a staircase zone marked exact is not cleaned
+    kept = clean_zones([stair, deck.difference(stair)], 1.0, deck, exact=[True, False])
+    assert kept[0].equals(stair)
+    assert not clean_zones([stair, deck.difference(stair)], 1.0, deck)[0].equals(stair)
