@@ -701,6 +701,31 @@ class LayoutParams:
         _check_declared(self, "repair layout", RepairError)
 
 
+#: Sheets of ``[drawings].sheet`` (common practice: ANSI/ASME Y14.1 and ISO 216 sizes).
+SHEETS = ("auto", "ANSI-C", "ANSI-D", "ANSI-E", "ISO-A2", "ISO-A1", "ISO-A0")
+
+
+@dataclass(frozen=True)
+class DrawingParams:
+    """The drawing sheets' settings, from ``[drawings]``."""
+
+    coords: str = key(
+        "coords", "string", "grid", choices=("grid", "site"),
+        help="Model space in the survey grid, or in the site CRS",
+        doc="`\"grid\"` draws each level square to the sheet in its local survey grid; "
+            "`\"site\"` draws it in the site CRS, for pasting into a surveyed base plan (north "
+            "is then up on the sheet).")
+    sheet: str = key(
+        "sheet", "string", "auto", choices=SHEETS,
+        help="Sheet size; auto: ANSI-D (34 x 22 in) for us units, ISO-A1 for metric",
+        doc="The plan is drawn at the largest standard scale that fits (1\" = 10', 20', 30', "
+            "40', 50', 60', 80', 100'; or 1:50, 1:100, 1:200, 1:250, 1:500, 1:1000); a plan "
+            "that fits at none of them is refused, naming this key.")
+    engineer: str = key(
+        "engineer", "string", "(engineer not given)", example='"Engineer of record"',
+        help="The engineer named in the title block")
+
+
 @dataclass(frozen=True, kw_only=True)
 class SiteConfig:
     """A parsed, validated site file."""
@@ -733,6 +758,8 @@ class SiteConfig:
     zoning: tuple[tuple[str, dict[str, Any]], ...] = ()
     #: the combined-condition rule table as given in [condition.combined] (None = default)
     combined_rules: dict[str, Any] | None = None
+    #: the drawing sheets' settings, from [drawings]
+    drawings: DrawingParams = field(default_factory=DrawingParams)
 
     def level(self, level_id: str) -> LevelConfig:
         """Return the level with this id."""
@@ -839,6 +866,7 @@ TABLES: dict[str, TableSpec] = {t.name: t for t in (
             default_doc="fitted", help="Major axis, degrees counter-clockwise from grid x"),
     )),
     TableSpec("webmap", keys_of(RunParams, "webmap", home="run")),
+    TableSpec("drawings", keys_of(DrawingParams, "drawings")),
     TableSpec("levels", keys_of(LevelConfig, "levels")),
     TableSpec("layer", keys_of(LayerRef, "layer")),
     TableSpec("levels.overlays", keys_of(OverlayRef, "levels.overlays")
@@ -912,6 +940,7 @@ TOP = TableSpec("", _in(
     Key("zoning", "tables", None, help="The zoning rules, in order"),
     Key("condition", "table", None, help="The combined condition rules"),
     Key("webmap", "table", None, help="A street basemap of the web map"),
+    Key("drawings", "table", None, help="The drawing sheets"),
 ))
 
 

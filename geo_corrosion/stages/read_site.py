@@ -26,6 +26,7 @@ from geo_corrosion.config import (
     TABLES,
     TOP,
     ControlPoint,
+    DrawingParams,
     GridConfig,
     Key,
     LayerRef,
@@ -360,6 +361,12 @@ def _run(data: object, where: str) -> tuple[dict[str, Any], LayoutParams]:
     return run, params
 
 
+def _drawings(data: object, where: str) -> DrawingParams:
+    """Read the [drawings] table: the drawing sheets' coordinates, size and engineer."""
+    t = _table(data, where, "drawings")
+    return DrawingParams(**{k.field: _read(t, k) for k in TABLES["drawings"].keys})
+
+
 def _webmap(data: object, where: str) -> dict[str, Any]:
     """Read the [webmap] table: an optional street basemap for ``webmap.html``.
 
@@ -639,4 +646,5 @@ def read_site(path: str | Path) -> SiteConfig:
         layout=layout,
         zoning=_zoning(_array(top, "zoning"), f"{p}: [[zoning]]"),
         combined_rules=_condition(data.get("condition"), f"{p}: [condition]"),
+        drawings=_drawings(data.get("drawings", {}), f"{p}: [drawings]"),
     )

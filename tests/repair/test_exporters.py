@@ -41,7 +41,7 @@ def test_dxf_read_back(tmp_path, level) -> None:
     doc = ezdxf.readfile(out)
     assert doc.header["$INSUNITS"] == 2  # DXF code 2 = feet (ezdxf.units.FT)
     names = {ly.dxf.name for ly in doc.layers}
-    assert {"GC-SLAB", "GC-EXCLUSION", "GC-JOINT", "GC-DELAM", "GC-TEXT",
+    assert {"GC-SLAB", "GC-EXCLUSION", "GC-JOINT", "GC-DELAM", "GC-LABEL",
             "GC-REPAIR-PARTIAL-BELOW-BARS", "GC-ZONE-LOW-COVER", "GC-ZONE-NO-ACTION"} <= names
     msp = doc.modelspace()
     polys = msp.query('LWPOLYLINE[layer=="GC-REPAIR-PARTIAL-BELOW-BARS"]')
@@ -51,9 +51,12 @@ def test_dxf_read_back(tmp_path, level) -> None:
                   for g in rep.geometry)
     assert got == want
     texts = [t.dxf.text for t in msp.query("TEXT")]
-    assert "P1-R001" in texts and "P1-R002" in texts
-    assert "9.00 ft2" in texts  # the 9.00 ft2 repair labelled in reporting units
-    assert any("CAUTIONS" in m.text and "tendons" in m.text for m in msp.query("MTEXT"))
+    assert "P1-R001 PB" in texts and "P1-R002 PB" in texts  # id and depth class
+    # the 9.00 ft2 repair's area in reporting units, in the sheet's repair table
+    paper = [t.dxf.text for lay in doc.layouts if not lay.is_modelspace
+             for t in lay.query("TEXT")]
+    assert "9.0" in paper
+    assert any("tendons" in t for t in paper)  # the cautions are the sheet's general notes
     assert [p.name for p in tmp_path.iterdir()] == ["P1.dxf"]
 
 
