@@ -40,6 +40,7 @@ __all__ = [
     "GridConfig",
     "LevelConfig",
     "SurveyConfig",
+    "QuantitiesConfig",
     "RunParams",
     "LayoutParams",
     "SiteConfig",
@@ -700,6 +701,22 @@ class LayoutParams:
 
 
 @dataclass(frozen=True, kw_only=True)
+class QuantitiesConfig:
+    """The ``[quantities]`` table: the price list of the engineer's estimate."""
+
+    price_list: Path | None = key(
+        "price_list", "path", None, example='"prices.csv"', type_doc="string",
+        help="A price list (CSV) for the engineer's estimate",
+        doc="Columns `item`, `description`, `unit`, `unit_price`, `currency`, one row per bid "
+            "item ([file-formats.md](file-formats.md#price-list)). With it the schedule carries "
+            "unit prices and amounts, a subtotal, contingency and total per level, and the "
+            "workbook computes them as formulas. " + _PATH_DOC)
+    allow_outside: bool = key("allow_outside", "boolean", False, **{
+        **_ALLOW_OUTSIDE, "help": "Allow a price list outside the site folder; a firm's "
+                                  "shared list"})
+
+
+@dataclass(frozen=True, kw_only=True)
 class SiteConfig:
     """A parsed, validated site file."""
 
@@ -731,6 +748,8 @@ class SiteConfig:
     zoning: tuple[tuple[str, dict[str, Any]], ...] = ()
     #: the combined-condition rule table as given in [condition.combined] (None = default)
     combined_rules: dict[str, Any] | None = None
+    #: the [quantities] table: the price list of the estimate
+    quantities: QuantitiesConfig = field(default_factory=QuantitiesConfig)
 
     def level(self, level_id: str) -> LevelConfig:
         """Return the level with this id."""
@@ -837,6 +856,7 @@ TABLES: dict[str, TableSpec] = {t.name: t for t in (
             default_doc="fitted", help="Major axis, degrees counter-clockwise from grid x"),
     )),
     TableSpec("webmap", keys_of(RunParams, "webmap", home="run")),
+    TableSpec("quantities", keys_of(QuantitiesConfig, "quantities")),
     TableSpec("levels", keys_of(LevelConfig, "levels")),
     TableSpec("layer", keys_of(LayerRef, "layer")),
     TableSpec("levels.overlays", keys_of(OverlayRef, "levels.overlays")
@@ -910,6 +930,7 @@ TOP = TableSpec("", _in(
     Key("zoning", "tables", None, help="The zoning rules, in order"),
     Key("condition", "table", None, help="The combined condition rules"),
     Key("webmap", "table", None, help="A street basemap of the web map"),
+    Key("quantities", "table", None, help="The price list of the estimate"),
 ))
 
 
