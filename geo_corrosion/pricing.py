@@ -31,7 +31,7 @@ from geo_corrosion.quantities import ALL_LEVELS, BidItem
 from geo_corrosion.units import ReportUnits
 
 __all__ = ["PRICE_COLUMNS", "Price", "PriceList", "read_price_list", "price_schedule",
-           "estimate_lines", "unpriced_items"]
+           "estimate_lines", "estimate_text", "unpriced_items"]
 
 #: Columns of a price list, in order.
 PRICE_COLUMNS: tuple[str, ...] = ("item", "description", "unit", "unit_price", "currency")
@@ -232,7 +232,7 @@ def estimate_lines(schedule: pd.DataFrame) -> pd.DataFrame:
     [1000.0, 200.0, 1200.0]
     """
     cols = ["level_id", "line", "amount"]
-    if "amount" not in schedule or schedule.empty:
+    if "amount" not in schedule or not schedule["amount"].notna().any():
         return pd.DataFrame({c: pd.Series(dtype=object) for c in cols})
     rows = []
     levels = list(dict.fromkeys(map(str, schedule["level_id"])))
@@ -246,3 +246,21 @@ def estimate_lines(schedule: pd.DataFrame) -> pd.DataFrame:
         rows += [(lid, "subtotal", base), (lid, "contingency", cont),
                  (lid, "total", round(base + cont, 2))]
     return pd.DataFrame(rows, columns=cols)
+
+
+def estimate_text(schedule: pd.DataFrame) -> str:
+    """Return the estimate of a priced schedule as a text table: one row per level.
+
+    Columns subtotal, contingency and total, with the currency; ``""`` without prices.
+    """
+    est = estimate_lines(schedule)
+    if est.empty:
+        return ""
+    w = est.pivot(index="level_id", columns="line", values="amount")
+    w = w.reindex(list(dict.fromkeys(est["level_id"])))[["subtotal", "contingency", "total"]]
+    cur = str(schedule["currency"].dropna().iloc[0]) if "currency" in schedule else ""
+    text = w.map(lambda v: f"{v:,.2f}").rename_axis(f"level ({cur})").to_string()
+    missing = unpriced_items(schedule)
+    if missing:
+        text += f"\nnot priced, left out of the totals: {', '.join(map(str, missing))}"
+    return text

@@ -372,7 +372,7 @@ def schedule_table(schedule: pd.DataFrame) -> pd.DataFrame:
     ``amount`` (of the base quantity) and ``contingency_amount``.
     """
     cols = ["level_id", "item", "description", "unit", "base", "contingency", "total"]
-    priced = "unit_price" in schedule.columns
+    priced = "unit_price" in schedule.columns and bool(schedule["unit_price"].notna().any())
     if priced:
         cols += ["unit_price", "amount", "contingency_amount"]
     if schedule.empty:
