@@ -284,3 +284,23 @@ def test_bad_price_list_stops_check_and_run_before_any_output(tmp_path: Path) ->
     res = CliRunner().invoke(cli, ["check", str(site)])
     assert res.exit_code == 1 and "[quantities].price_list" in res.output, res.output
     assert "outside the site folder" in res.output
+
+
+def test_unpriced_item_warns_in_the_stage(tmp_path: Path) -> None:
+    # an item of the schedule missing from the price list: a warning naming the file and the
+    # item (it is left out of the totals, said in the workbook too)
+    from types import SimpleNamespace
+
+    from geo_corrosion.errors import GeoCorrosionWarning
+    from geo_corrosion.stages.plan_repairs import schedule_quantities
+    from repair.test_quantities import repairs_ft
+
+    (tmp_path / "p.csv").write_text(HEADER + "REP-PD-BARS,x,ft2,95,USD\n", encoding="utf-8")
+    prices = read_price_list(tmp_path / "p.csv", items=DEFAULT_BID_ITEMS, units=US)
+    level = SimpleNamespace(repairs=repairs_ft([(0, 0, 20, 25)]), zones=None)
+    with pytest.warns(GeoCorrosionWarning, match=r"p.csv: no unit price for REP-VOL, SAWCUT"):
+        s = schedule_quantities([level], units=US, contingency=0.2,  # type: ignore[list-item]
+                                anode_spacing_mm=None, prices=prices)
+    base = s[(s.level_id == "P1") & (s.line == "base")].set_index("item")
+    assert base.loc["REP-PD-BARS", "amount"] == 500 * 95.0  # 20 x 25 ft (hand-worked)
+    assert base["amount"].isna().sum() == 2
