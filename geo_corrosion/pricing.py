@@ -259,7 +259,9 @@ def estimate_text(schedule: pd.DataFrame) -> str:
     w = est.pivot(index="level_id", columns="line", values="amount")
     w = w.reindex(list(dict.fromkeys(est["level_id"])))[["subtotal", "contingency", "total"]]
     cur = str(schedule["currency"].dropna().iloc[0]) if "currency" in schedule else ""
-    text = w.map(lambda v: f"{v:,.2f}").rename_axis(f"level ({cur})").to_string()
+    w.columns.name = None
+    w.index.name = f"level ({cur})"
+    text = w.map(lambda v: f"{v:,.2f}").reset_index().to_string(index=False)
     missing = unpriced_items(schedule)
     if missing:
         text += f"\nnot priced, left out of the totals: {', '.join(map(str, missing))}"
