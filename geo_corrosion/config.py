@@ -40,6 +40,7 @@ __all__ = [
     "GridConfig",
     "LevelConfig",
     "SurveyConfig",
+    "QuantitiesConfig",
     "RunParams",
     "LayoutParams",
     "SiteConfig",
@@ -727,6 +728,22 @@ class DrawingParams:
 
 
 @dataclass(frozen=True, kw_only=True)
+class QuantitiesConfig:
+    """The ``[quantities]`` table: the price list of the engineer's estimate."""
+
+    price_list: Path | None = key(
+        "price_list", "path", None, example='"prices.csv"', type_doc="string",
+        help="A price list (CSV) for the engineer's estimate",
+        doc="Columns `item`, `description`, `unit`, `unit_price`, `currency`, one row per bid "
+            "item ([file-formats.md](file-formats.md#price-list)). With it the schedule carries "
+            "unit prices and amounts, a subtotal, contingency and total per level, and the "
+            "workbook computes them as formulas. " + _PATH_DOC)
+    allow_outside: bool = key("allow_outside", "boolean", False, **{
+        **_ALLOW_OUTSIDE, "help": "Allow a price list outside the site folder; a firm's "
+                                  "shared list"})
+
+
+@dataclass(frozen=True, kw_only=True)
 class SiteConfig:
     """A parsed, validated site file."""
 
@@ -760,6 +777,8 @@ class SiteConfig:
     combined_rules: dict[str, Any] | None = None
     #: the drawing sheets' settings, from [drawings]
     drawings: DrawingParams = field(default_factory=DrawingParams)
+    #: the [quantities] table: the price list of the estimate
+    quantities: QuantitiesConfig = field(default_factory=QuantitiesConfig)
 
     def level(self, level_id: str) -> LevelConfig:
         """Return the level with this id."""
@@ -867,6 +886,7 @@ TABLES: dict[str, TableSpec] = {t.name: t for t in (
     )),
     TableSpec("webmap", keys_of(RunParams, "webmap", home="run")),
     TableSpec("drawings", keys_of(DrawingParams, "drawings")),
+    TableSpec("quantities", keys_of(QuantitiesConfig, "quantities")),
     TableSpec("levels", keys_of(LevelConfig, "levels")),
     TableSpec("layer", keys_of(LayerRef, "layer")),
     TableSpec("levels.overlays", keys_of(OverlayRef, "levels.overlays")
@@ -941,6 +961,7 @@ TOP = TableSpec("", _in(
     Key("condition", "table", None, help="The combined condition rules"),
     Key("webmap", "table", None, help="A street basemap of the web map"),
     Key("drawings", "table", None, help="The drawing sheets"),
+    Key("quantities", "table", None, help="The price list of the estimate"),
 ))
 
 

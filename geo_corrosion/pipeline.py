@@ -120,7 +120,8 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
     surveys = tuple(dataclasses.replace(s, frame=frames[s.id]) if s.id in frames else s
                     for s in site.surveys)
     schedule = schedule_quantities(levels.values(), units=units, contingency=params.contingency,
-                                   anode_spacing_mm=params.anode_spacing_mm)
+                                   anode_spacing_mm=params.anode_spacing_mm,
+                                   prices=site.prices)
     return RunResult(dataclasses.replace(site, surveys=surveys), flags, levels, schedule)
 
 

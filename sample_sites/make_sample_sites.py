@@ -37,6 +37,7 @@ from __future__ import annotations
 
 import argparse
 import csv
+import io
 import json
 import math
 import shutil
@@ -588,6 +589,29 @@ def _control_points(plan: Plan, seed: int) -> list[tuple[str, float, float, floa
 LEVEL_NAMES = {"L2": "Level 2 (supported slab)", "RF": "Roof level (exposed, top of structure)"}
 
 
+#: Invented unit prices of the demonstration estimate (USD; not market prices): item, its
+#: description, unit as the schedule gives it for US units, unit price.
+PRICES = (
+    ("REP-PD-SURF", "Partial-depth repair, above the bars", "ft2", "65.00"),
+    ("REP-PD-BARS", "Partial-depth repair, bars undercut", "ft2", "95.00"),
+    ("REP-FD", "Full-depth slab repair", "ft2", "160.00"),
+    ("REP-VOL", "Repair material supplied, by volume removed", "CY", "450.00"),
+    ("SAWCUT", "Perimeter saw cut", "LF", "6.50"),
+    ("ANODE", "Embedded galvanic anode", "EA", "45.00"),
+    ("TREAT-ACTIVE", "Surface-applied corrosion inhibitor", "ft2", "4.25"),
+    ("PROTECT-LOWCOVER", "Penetrating sealer", "ft2", "3.50"),
+)
+
+
+def _prices_csv() -> str:
+    """Return the sample's price list (invented prices), as CSV text."""
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")  # quotes the descriptions holding a comma
+    w.writerow(["item", "description", "unit", "unit_price", "currency"])
+    w.writerows([item, descr, unit, price, "USD"] for item, descr, unit, price in PRICES)
+    return buf.getvalue()
+
+
 def _site_toml(seed: int) -> str:
     t = [
         f"# Site file of the invented sample site. Written by {MARKER}",
@@ -607,6 +631,10 @@ def _site_toml(seed: int) -> str:
         'max_distance = "6 ft"',
         "contour_interval_mv = 50",
         'repair_margin = "6 in"',
+        "",
+        "[quantities]",
+        "# invented unit prices (USD) for the demonstration engineer's estimate",
+        'price_list = "prices.csv"',
     ]
     for lid in LEVEL_IDS:
         plan = make_plan(lid)
@@ -698,6 +726,7 @@ noise, so the least-squares fit has small residuals.
 | File | What |
 |---|---|
 | `site.toml` | the site file |
+| `prices.csv` | invented unit prices (USD) for the engineer's estimate, `[quantities]` |
 | `plans/L2.dxf`, `plans/RF.dxf` | layers SLAB, COLUMNS, OPENINGS, JOINTS, DRAINS; feet |
 | `sounding/L2.dxf`, `sounding/RF.dxf` | chain-drag sounding [ASTM-D4580-23]: DELAM, SPALL; \
 one RF delamination is a CIRCLE |
@@ -820,6 +849,7 @@ def _generate(out: Path, seed: int) -> Manifest:
                 encoding="utf-8"))["features"]),
         }
     (out / "site.toml").write_text(_site_toml(seed), encoding="utf-8")
+    (out / "prices.csv").write_text(_prices_csv(), encoding="utf-8")
     (out / "README.md").write_text(_readme(flaws, counts, seed), encoding="utf-8")
     files = tuple(sorted(p for p in out.rglob("*") if p.is_file()))
     return Manifest(out, files, tuple(flaws), counts)

@@ -96,5 +96,7 @@ class QuantitiesExporter(Exporter):
             out_dir / QUANTITIES_XLSX, result.schedule,
             {lid: repair_table(result, lid) for lid in result.levels},
             units=units, cautions=list(CAUTIONS),
-            title=f"{result.site.config.name}: schedule of repair quantities"))
+            title=f"{result.site.config.name}: schedule of repair quantities",
+            price_list=(None if result.site.prices is None
+                        else result.site.prices.path.name)))
         return paths

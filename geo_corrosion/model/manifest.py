@@ -70,6 +70,8 @@ def input_files(cfg: SiteConfig) -> list[dict[str, Any]]:
                 *[o.ref for o in lv.overlays]]
         paths.update(r.path for r in refs)
     paths.update(s.path for s in cfg.surveys)
+    if cfg.quantities.price_list is not None:
+        paths.add(cfg.quantities.price_list)
     out = []
     for p in sorted(paths):
         try:
@@ -921,7 +923,13 @@ class LevelRecord(_Record):
 
 @dataclass(frozen=True)
 class ScheduleRow(_Record):
-    """``schedule[]``: a row of ``quantities.csv`` at full precision."""
+    """``schedule[]``: a row of ``quantities.csv``, with its quantity before rounding.
+
+    ``quantity`` is the bid quantity (rounded up to its unit's increment, as in
+    ``quantities.csv``), ``quantity_unrounded`` the value computed; ``unit_price``,
+    ``amount`` and ``currency`` are present when the site gives a price list and prices
+    the item.
+    """
 
     level_id: str
     item: str
@@ -930,6 +938,10 @@ class ScheduleRow(_Record):
     unit: str
     line: str
     quantity: float
+    quantity_unrounded: float | None = field(default=None, metadata=_meta(optional=True))
+    unit_price: float | None = field(default=None, metadata=_meta(optional=True))
+    amount: float | None = field(default=None, metadata=_meta(optional=True))
+    currency: str | None = field(default=None, metadata=_meta(optional=True))
 
 
 @dataclass(frozen=True)
@@ -1004,7 +1016,8 @@ def _manifest_dict(result: RunResult, started: float) -> dict[str, Any]:
     cfg = result.site.config
     flags = result.flags
     summary = (qa.summarize(flags).to_dict("records") if len(flags) else [])
-    sched = result.schedule.to_dict("records") if len(result.schedule) else []
+    sched = [{k: v for k, v in r.items() if not (isinstance(v, float) and v != v)}  # NaN: none
+             for r in (result.schedule.to_dict("records") if len(result.schedule) else [])]
     return {
         "geo_corrosion_run": FORMAT_VERSION,
         "site": {"name": cfg.name, "owner": cfg.owner, "crs": cfg.crs.to_string(),

@@ -21,6 +21,7 @@ from geo_corrosion.config import LevelConfig, SiteConfig, SurveyConfig
 from geo_corrosion.crs import LocalGrid
 from geo_corrosion.io.plans import Feature
 from geo_corrosion.measurements import MeasurementKind
+from geo_corrosion.pricing import PriceList
 
 __all__ = ["Level", "Survey", "Site"]
 
@@ -107,6 +108,8 @@ class Site:
     config: SiteConfig
     levels: dict[str, Level]
     surveys: tuple[Survey, ...]
+    #: the price list of ``[quantities].price_list``, read and checked (None: no estimate)
+    prices: PriceList | None = None
 
     @property
     def crs(self) -> pyproj.CRS:

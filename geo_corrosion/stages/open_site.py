@@ -19,7 +19,10 @@ from geo_corrosion.io.plans import Feature, read_lines, read_polygons
 from geo_corrosion.io.readings import read_readings
 from geo_corrosion.measurements import get_kind
 from geo_corrosion.model.site import Level, Site, Survey
+from geo_corrosion.pricing import read_price_list
+from geo_corrosion.stages.plan_repairs import site_bid_items
 from geo_corrosion.stages.read_site import read_site
+from geo_corrosion.units import report_units
 
 __all__ = ["open_site", "read_level", "read_survey", "correct"]
 
@@ -116,4 +119,9 @@ def open_site(path: str | Path | SiteConfig, *, progress: Progress | None = None
         surveys.append(correct(read_survey(s, levels[s.level], cfg), cfg.run))
     if not surveys:
         raise SiteFileError(f"{cfg.path}: no [[surveys]] declared; nothing to map")
-    return Site(cfg, levels, tuple(surveys))
+    prices = None
+    if cfg.quantities.price_list is not None:
+        say(f"price list: reading {cfg.quantities.price_list.name}")
+        prices = read_price_list(cfg.quantities.price_list, items=site_bid_items(cfg),
+                                 units=report_units(cfg.units))
+    return Site(cfg, levels, tuple(surveys), prices)

@@ -25,18 +25,19 @@ from shapely.geometry import shape
 from shapely.geometry.base import BaseGeometry
 
 from geo_corrosion.config import LayoutParams, SiteConfig
-from geo_corrosion.errors import GeometryWarning
+from geo_corrosion.errors import GeoCorrosionWarning, GeometryWarning
 from geo_corrosion.measurements import Role
 from geo_corrosion.model.results import LevelResult
 from geo_corrosion.model.site import Level
 from geo_corrosion.model.surface import KindSurface, with_role
-from geo_corrosion.quantities import bid_schedule
+from geo_corrosion.pricing import PriceList, price_schedule, unpriced_items
+from geo_corrosion.quantities import DEFAULT_BID_ITEMS, BidItem, bid_schedule
 from geo_corrosion.repair import layout_repairs
 from geo_corrosion.units import ReportUnits
 from geo_corrosion.zoning import CLASSES_ROLE, ZONING_RULES, ZoningLayers, default_rules, zone
 
 __all__ = ["PlanningParams", "low_cover_mask", "low_cover_threshold_mm", "plan_level",
-           "planning_params", "raster_region"]
+           "planning_params", "raster_region", "schedule_quantities", "site_bid_items"]
 
 #: Default low-cover threshold when the level gives no specified cover, mm
 #: (25 mm / 1 in, common practice).
@@ -183,9 +184,25 @@ def planning_params(cfg: SiteConfig) -> PlanningParams:
                           smoothing_m=p.zone_smoothing_m, rules=rules)
 
 
+def site_bid_items(cfg: SiteConfig) -> dict[str, BidItem]:
+    """Return every bid item a schedule of this site can hold: built-in and its zoning rules'."""
+    items: dict[str, BidItem] = dict(DEFAULT_BID_ITEMS)
+    for rule in planning_params(cfg).rules or default_rules():
+        code = getattr(rule, "bid_item", None)
+        if code:
+            items.setdefault(str(code), BidItem(str(code), str(rule.treatment or code), "area"))
+    return items
+
+
 def schedule_quantities(levels: Iterable[LevelResult], *, units: ReportUnits, contingency: float,
-                        anode_spacing_mm: float | None) -> pd.DataFrame:
-    """Return the bid schedule of every level's repairs and zones (empty when neither)."""
+                        anode_spacing_mm: float | None,
+                        prices: PriceList | None = None) -> pd.DataFrame:
+    """Return the bid schedule of every level's repairs and zones (empty when neither).
+
+    With a price list, the schedule carries ``unit_price``, ``amount`` and ``currency``
+    (:func:`geo_corrosion.pricing.price_schedule`); an item the list does not price warns
+    (:class:`~geo_corrosion.errors.GeoCorrosionWarning`) and is left out of the totals.
+    """
     def _cat(frames: list[gpd.GeoDataFrame | None]) -> gpd.GeoDataFrame | None:
         kept = [f for f in frames if f is not None and len(f)]
         return (gpd.GeoDataFrame(pd.concat(kept, ignore_index=True), geometry="geometry")
@@ -196,5 +213,12 @@ def schedule_quantities(levels: Iterable[LevelResult], *, units: ReportUnits, co
     zones = _cat([lr.zones for lr in levels])
     if repairs is None and zones is None:
         return pd.DataFrame()
-    return bid_schedule(repairs, zones, units=units, contingency=contingency,
-                        anode_spacing_mm=anode_spacing_mm)
+    schedule = price_schedule(bid_schedule(repairs, zones, units=units,
+                                           contingency=contingency,
+                                           anode_spacing_mm=anode_spacing_mm), prices)
+    missing = unpriced_items(schedule)
+    if prices is not None and missing:
+        warnings.warn(f"{prices.path.name}: no unit price for {', '.join(missing)}; their "
+                      "amounts are left blank and out of the estimate's totals; add a row for "
+                      "each to the price list", GeoCorrosionWarning, stacklevel=2)
+    return schedule

@@ -33,6 +33,7 @@ from geo_corrosion.config import (
     LayoutParams,
     LevelConfig,
     OverlayRef,
+    QuantitiesConfig,
     RunParams,
     SiteConfig,
     SurveyConfig,
@@ -401,6 +402,17 @@ def _webmap(data: object, where: str) -> dict[str, Any]:
     return {"basemap_url": url, "basemap_attribution": attribution}
 
 
+def _quantities(data: object, where: str, root: Path) -> QuantitiesConfig:
+    """Read the [quantities] table: the price list of the estimate, its path checked."""
+    t = _table(data, where, "quantities")
+    keys = TABLES["quantities"]
+    allow = _read(t, keys["allow_outside"])
+    raw = _read(t, keys["price_list"])
+    path = None if raw is None else site_path(raw, root, t.key("price_list"),
+                                              allow_outside=allow)
+    return QuantitiesConfig(price_list=path, allow_outside=allow)
+
+
 def _zoning(rules: list[Any], where: str) -> tuple[tuple[str, dict[str, Any]], ...]:
     """Ordered zoning rules, each ``{ rule = "name", <its keyword parameters> }``.
 
@@ -647,4 +659,5 @@ def read_site(path: str | Path) -> SiteConfig:
         zoning=_zoning(_array(top, "zoning"), f"{p}: [[zoning]]"),
         combined_rules=_condition(data.get("condition"), f"{p}: [condition]"),
         drawings=_drawings(data.get("drawings", {}), f"{p}: [drawings]"),
+        quantities=_quantities(data.get("quantities", {}), f"{p}: [quantities]", root),
     )

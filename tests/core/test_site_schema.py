@@ -47,7 +47,7 @@ def test_docs_key_tables_are_generated_from_the_declaration() -> None:
     blocks = {m.group("table") for m in config._BLOCK.finditer(text)}
     assert blocks == {"site", "run", "run.variogram.<kind>", "webmap", "drawings", "levels",
                       "layer", "levels.grid", "surveys", "condition.combined",
-                      "condition.combined.rules"}
+                      "condition.combined.rules", "quantities"}
     for name in blocks:  # every declared key has its row
         for k in TABLES[name].keys:
             assert f"| `{k.name}` |" in text, (name, k.name)

@@ -15,7 +15,7 @@ from geo_corrosion.quantities import bid_schedule
 from geo_corrosion.repair import LayoutParams, layout_repairs
 from geo_corrosion.units import report_units
 from geo_corrosion.zoning import ZoningLayers, default_rules, zone
-from repair.helpers import sources
+from repair.helpers import evaluate_xlsx, sources
 
 US = report_units("us")
 SLAB = box(0, 0, 60, 40)  # feet
@@ -94,9 +94,13 @@ def test_xlsx_read_back(tmp_path, level) -> None:
     body = {(r[0], r[1]): r for r in rows[hdr + 1:] if r[1]}
     rep_ft2 = float(US.area_from_m2(rep.area_m2.sum()))  # 9 + 6 ft2 (hand-worked)
     assert rep_ft2 == pytest.approx(15.0)
-    assert body[("ALL", "REP-PD-BARS")][3:] == ["ft2", pytest.approx(15.0), pytest.approx(3.0),
-                                                pytest.approx(18.0)]
     all_row = [i for i, r in enumerate(rows) if r[:2] == ["ALL", "REP-PD-BARS"]][0] + 1
+    # the ALL line's quantities are formulas over the level's lines, evaluated by the
+    # formulas library: 15 ft2 + 20 % = 3 ft2, total 18 ft2 (hand-worked)
+    assert body[("ALL", "REP-PD-BARS")][3] == "ft2"
+    got = evaluate_xlsx(out)
+    assert [got[("SCHEDULE", f"{c}{all_row}")] for c in "EFG"] == pytest.approx([15, 3, 18])
+    assert hdr + 2 == [i for i, r in enumerate(rows) if r[0] == "P1"][0] + 1  # no empty row
     assert ws.cell(row=all_row, column=1).font.bold  # totals in bold
     assert not ws.cell(row=hdr + 2, column=1).font.bold
     assert ("P1", "PROTECT-LOWCOVER") in body

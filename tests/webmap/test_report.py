@@ -153,10 +153,12 @@ def test_pdf_holds_every_bid_item_and_the_site_totals(any_run: Path) -> None:
     base_all = [r for r in schedule if r["level_id"] == "ALL" and r["line"] == "base"]
     assert base_all
     for r in base_all:
-        # as in quantities.csv (docs/file-formats.md §3.3): 2 decimals, EA and LS whole,
-        # with thousands separators in the report (common practice, no source)
+        # as in quantities.csv (docs/file-formats.md §3.3): the bid quantity with its unit's
+        # decimals (whole ft2, LF, EA, LS; 0.1 CY, m2, m; 0.01 m3), with thousands
+        # separators in the report (common practice, no source)
         q = float(r["quantity"])
-        base = f"{q:,.0f}" if r["unit"] in ("EA", "LS") else f"{q:,.2f}"
+        nd = {"CY": 1, "m2": 1, "m": 1, "m3": 2}.get(r["unit"], 0)
+        base = f"{q:,.{nd}f}"
         row = rf"ALL {re.escape(r['item'])} .*? {re.escape(r['unit'])} {re.escape(base)} "
         assert re.search(row, text), (r["item"], base)
 

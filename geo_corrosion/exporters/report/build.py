@@ -222,7 +222,7 @@ def _repair_list(rep: gpd.GeoDataFrame | None, units: ReportUnits) -> str:
 def _quantities(schedule: tuple[ScheduleRow, ...], lid: str | None) -> str:
     import pandas as pd
 
-    from geo_corrosion.quantities import schedule_table
+    from geo_corrosion.quantities import bid_decimals, schedule_table
 
     if not schedule:
         return '<p class="none">no quantities</p>'
@@ -231,8 +231,8 @@ def _quantities(schedule: tuple[ScheduleRow, ...], lid: str | None) -> str:
         t = t[t["level_id"].astype(str) == lid]
     rows = []
     for r in t.to_dict("records"):
-        # as in quantities.csv: 2 decimals, counts and lump sums as whole numbers
-        fmt = "{:,.0f}" if str(r.get("unit")) in ("EA", "LS") else "{:,.2f}"
+        # as in quantities.csv: the bid quantities with their unit's decimals
+        fmt = f"{{:,.{bid_decimals(str(r.get('unit')))}f}}"
         totals = {c: fmt.format(float(r[c])) for c in ("base", "contingency", "total")}
         rows.append({**{str(k): v for k, v in r.items()}, **totals})
     return _table(rows, [("level_id", "level"), ("item", "item"), ("description", "description"),

@@ -133,13 +133,20 @@ def test_quantities_never_below_polygon_area(c, unit, system) -> None:
     u = report_units(system)
     s = bid_schedule(rep, None, units=u, contingency=0.15)
     area_items = s[(s.unit_kind == "area") & (s.level_id == ALL_LEVELS)]
-    base = area_items.loc[area_items.line == "base", "quantity"].sum()
+    base = area_items.loc[area_items.line == "base", "quantity_unrounded"].sum()
     poly_area = float(u.area_from_m2(shapely.union_all(list(rep.geometry)).area
                                      * LENGTH_TO_M[unit] ** 2))
     assert base >= poly_area * (1 - 1e-9)
     assert base <= poly_area * (1 + 1e-9) + 1e-12  # and not counted twice
-    cont = area_items.loc[area_items.line == "contingency", "quantity"].sum()
+    cont = area_items.loc[area_items.line == "contingency", "quantity_unrounded"].sum()
     assert cont >= 0.15 * poly_area * (1 - 1e-9)
+    # the bid quantity is rounded up, by less than one increment per line (common practice:
+    # whole ft2 or 0.1 m2)
+    inc = 1.0 if system == "us" else 0.1
+    for line, exact in (("base", base), ("contingency", cont)):
+        rows = area_items[area_items.line == line]
+        bid = rows["quantity"].sum()
+        assert exact * (1 - 1e-9) - 1e-9 <= bid < exact + inc * len(rows) + 1e-9, line
 
 
 @SETTINGS
