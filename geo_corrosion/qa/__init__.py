@@ -15,6 +15,7 @@ from geo_corrosion.qa.checks import (
     check_survey,
     flag_points,
     format_flags,
+    ground_connection_flags,
     runnable,
     summarize,
 )
@@ -30,4 +31,5 @@ __all__ = [
     "runnable",
     "flag_points",
     "format_flags",
+    "ground_connection_flags",
 ]
