@@ -145,7 +145,8 @@ id = "D1"
 name = "Test deck"
 slab = {{ path = "plans/slab.geojson" }}
 exclusions = [ {{ path = "plans/columns.geojson" }} ]
-{joints_line}overlays = [ {{ kind = "delamination", path = "sounding/sounding.dxf", layer = "DELAM" }},
+{joints_line}\
+overlays = [ {{ kind = "delamination", path = "sounding/sounding.dxf", layer = "DELAM" }},
              {{ kind = "spall", path = "sounding/sounding.dxf", layer = "SPALL" }} ]
 [levels.grid]
 unit = "ft"

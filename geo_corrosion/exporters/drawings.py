@@ -31,7 +31,9 @@ class DrawingsExporter(Exporter):
             lv = lr.level
             paths.append(write_level_dxf(
                 ddir / f"{lid}_repairs.dxf", slab=lv.slab, exclusions=lv.exclusion_polygons(),
-                joints=[j.geometry for j in lv.joints], repairs=lr.repairs, zones=lr.zones,
+                joints=[j.geometry for j in lv.joints
+                        if not getattr(j, "breaks_continuity", False)],
+                breaking_joints=lv.breaking_joints, repairs=lr.repairs, zones=lr.zones,
                 delaminations=[f.geometry for k in ("delamination", "spall")
                                for f in lv.overlays.get(k, ())],
                 unit=lv.unit, title=f"{result.site.config.name} - {lv.config.name}",

@@ -1,7 +1,9 @@
 """DXF drawing of one level's repair layout (ezdxf).
 
 Layers, with names of this project's own: ``GC-SLAB``, ``GC-EXCLUSION``,
-``GC-JOINT``, ``GC-DELAM`` (sounded delaminations and spalls),
+``GC-JOINT`` (construction and control joints), ``GC-JOINT-BREAK`` (expansion and isolation
+joints, which break the mat's continuity; only when a level has one), ``GC-DELAM`` (sounded
+delaminations and spalls),
 ``GC-REPAIR-<DEPTH CLASS>`` (one per depth class), ``GC-ZONE-<ZONE NAME>`` (one per
 zone) and ``GC-TEXT`` (repair ids and areas, title, cautions).  Coordinates are the
 level's local grid in its plan unit, and ``$INSUNITS`` says which.
@@ -24,12 +26,15 @@ from geo_corrosion.errors import ExportError
 from geo_corrosion.repair import polygon_parts
 from geo_corrosion.units import ReportUnits, report_units
 
-__all__ = ["LAYER_SLAB", "LAYER_EXCLUSION", "LAYER_JOINT", "LAYER_DELAM", "LAYER_TEXT",
-           "layer_name", "write_level_dxf"]
+__all__ = ["LAYER_SLAB", "LAYER_EXCLUSION", "LAYER_JOINT", "LAYER_JOINT_BREAK", "LAYER_DELAM",
+           "LAYER_TEXT", "layer_name", "write_level_dxf"]
 
 LAYER_SLAB = "GC-SLAB"
 LAYER_EXCLUSION = "GC-EXCLUSION"
 LAYER_JOINT = "GC-JOINT"
+#: Joints that break the electrical continuity of the mat (expansion, isolation): a layer of
+#: their own, added only when a level has one.
+LAYER_JOINT_BREAK = "GC-JOINT-BREAK"
 LAYER_DELAM = "GC-DELAM"
 LAYER_TEXT = "GC-TEXT"
 
@@ -65,7 +70,8 @@ def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
                     repairs: gpd.GeoDataFrame | None, zones: gpd.GeoDataFrame | None,
                     delaminations: Sequence[BaseGeometry], unit: str, title: str,
                     cautions: list[str], units: ReportUnits | None = None,
-                    text_height: float | None = None) -> Path:
+                    text_height: float | None = None,
+                    breaking_joints: Sequence[BaseGeometry] = ()) -> Path:
     """Write the DXF drawing of one level.
 
     Parameters
@@ -90,6 +96,9 @@ def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
         Reporting units of the area labels (default: metric for "m", US for feet).
     text_height : float, optional
         Text height in the plan unit (default: 1/100 of the slab's larger side).
+    breaking_joints : sequence of geometry
+        Joint lines that break the mat's electrical continuity (expansion, isolation), drawn
+        on :data:`LAYER_JOINT_BREAK`; ``joints`` holds the others.
 
     Returns
     -------
@@ -132,11 +141,13 @@ def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
     outline(slab, LAYER_SLAB)
     for e in exclusions:
         outline(e, LAYER_EXCLUSION)
-    for j in joints:
-        if j is not None and not j.is_empty:
-            for part in getattr(j, "geoms", [j]):
-                msp.add_lwpolyline([(float(x), float(y)) for x, y in part.coords],
-                                   dxfattribs={"layer": LAYER_JOINT})
+    for lay, lines in ((LAYER_JOINT, joints), (LAYER_JOINT_BREAK, breaking_joints)):
+        for j in lines:
+            if j is not None and not j.is_empty:
+                layer(lay, 6)  # GC-JOINT is declared above; the breaking layer when used
+                for part in getattr(j, "geoms", [j]):
+                    msp.add_lwpolyline([(float(x), float(y)) for x, y in part.coords],
+                                       dxfattribs={"layer": lay})
     for d in delaminations:
         outline(d, LAYER_DELAM)
     if zones is not None and len(zones):

@@ -37,6 +37,7 @@ from geo_corrosion.surfaces import (
     check_contour_interval,
     contour_bands,
     contour_lines,
+    contours_by_region,
     cross_validate,
     experimental_variogram,
     fit_variogram,
@@ -225,13 +226,14 @@ def build_surface(
     directional = directional_variograms(x, y, z, kind, fit, groups=groups)
     deck = level.deck
     grid = grid_for_polygon(deck, cell)
+    cell_region = None
     if groups is None:
         mask = surface_mask(grid, deck, x, y, max_distance=max_d)
         mean, var = krige_grid(x, y, z, grid, fit.model, mask=mask,
                                n_neighbors=params.n_neighbors, transform=kind.krige_transform,
                                progress=progress)
     else:
-        mask, mean, var, region_notes = krige_regions(
+        cell_region, mean, var, region_notes = krige_regions(
             x, y, z, groups, regions, grid, fit.model, max_distance=max_d,
             n_neighbors=params.n_neighbors, transform=kind.krige_transform)
         counts = ", ".join(str(int((groups == r).sum())) for r in range(len(regions)))
@@ -244,11 +246,15 @@ def build_surface(
                         "residual": np.asarray(cv.residuals, float)})
     interval = kind.contour_interval_for(params)
     check_kind_interval(kind, interval)
-    lines = contour_lines(mean, grid, interval=interval)
-    bands = contour_bands(mean, grid, interval=interval)
+    if cell_region is None:
+        lines = contour_lines(mean, grid, interval=interval)
+        bands = contour_bands(mean, grid, interval=interval)
+    else:  # traced region by region: no contour runs along a breaking joint
+        lines, bands = contours_by_region(mean, grid, cell_region, interval=interval)
     classes = _class_polygons(kind, mean, grid, deck, class_set)
     return KindSurface(kind, grid, mean, var, fit, cv.to_dict(value_unit=kind.canonical_unit),
-                       res, len(z), interval, lines, bands, classes, directional)
+                       res, len(z), interval, lines, bands, classes, directional,
+                       regions=cell_region)
 
 
 def check_kind_interval(kind: MeasurementKind, interval: float) -> None:

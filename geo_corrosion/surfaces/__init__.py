@@ -10,6 +10,7 @@ from geo_corrosion.surfaces.fitting import CandidateFit, VariogramFit, fit_vario
 from geo_corrosion.surfaces.grid import GridSpec, grid_for_polygon, krige_grid, surface_mask
 from geo_corrosion.surfaces.kriging import CrossValidation, KrigingEngine, cross_validate, krige
 from geo_corrosion.surfaces.regions import (
+    contours_by_region,
     dangling_lines,
     krige_regions,
     region_labels,
@@ -46,4 +47,5 @@ __all__ = [
     "region_labels",
     "dangling_lines",
     "krige_regions",
+    "contours_by_region",
 ]

@@ -11,16 +11,19 @@ Plain functions on shapely geometries and arrays, in plan units.
 from __future__ import annotations
 
 from collections.abc import Sequence
+from typing import Any
 
 import numpy as np
 import shapely
 from numpy.typing import ArrayLike, NDArray
 from shapely.geometry.base import BaseGeometry
 
+from geo_corrosion.surfaces.contours import contour_bands, contour_lines
 from geo_corrosion.surfaces.grid import GridSpec, krige_grid, surface_mask
 from geo_corrosion.surfaces.variogram import VariogramModel
 
-__all__ = ["split_at_lines", "region_labels", "dangling_lines", "krige_regions"]
+__all__ = ["split_at_lines", "region_labels", "dangling_lines", "krige_regions",
+           "contours_by_region"]
 
 
 def split_at_lines(area: BaseGeometry, lines: Sequence[BaseGeometry], tol: float
@@ -98,7 +101,7 @@ def krige_regions(
     max_distance: float | None,
     n_neighbors: int = 16,
     transform: str | None = None,
-) -> tuple[NDArray[np.bool_], NDArray[np.float64], NDArray[np.float64], list[str]]:
+) -> tuple[NDArray[np.intp], NDArray[np.float64], NDArray[np.float64], list[str]]:
     """Krige each region on one grid from its own readings only.
 
     A cell belongs to the region containing its centre and is kriged from that region's
@@ -107,12 +110,14 @@ def krige_regions(
 
     Returns
     -------
-    mask, mean, var : ndarray, shape ``(ny, nx)``
-        The cells drawn, the estimate and the kriging variance (NaN off the mask).
+    cell_region : ndarray of int, shape ``(ny, nx)``
+        The region of each cell drawn (index into ``regions``); -1 where nothing is drawn.
+    mean, var : ndarray, shape ``(ny, nx)``
+        The estimate and the kriging variance (NaN where nothing is drawn).
     notes : list of str
         One line per region left unmapped.
     """
-    mask = np.zeros(grid.shape, dtype=bool)
+    cell_region = np.full(grid.shape, -1, dtype=np.intp)
     mean = np.full(grid.shape, np.nan)
     var = np.full(grid.shape, np.nan)
     notes = []
@@ -125,11 +130,40 @@ def krige_regions(
                          "reading(s): left unmapped (a surface needs 3)")
             continue
         m = surface_mask(grid, region, x[sel], y[sel], max_distance=max_distance)
-        m &= ~mask  # a cell centre on a boundary goes to the first region
+        m &= cell_region < 0  # a cell centre on a boundary goes to the first region
         if not m.any():
             continue
         mu, v = krige_grid(x[sel], y[sel], z[sel], grid, model, mask=m,
                            n_neighbors=n_neighbors, transform=transform)
         mean[m], var[m] = mu[m], v[m]
-        mask |= m
-    return mask, mean, var, notes
+        cell_region[m] = r
+    return cell_region, mean, var, notes
+
+
+def contours_by_region(
+    mean: NDArray[np.float64], grid: GridSpec, cell_region: NDArray[np.intp], *,
+    interval: float,
+) -> tuple[list[tuple[float, shapely.MultiLineString]],
+           list[tuple[float, float, shapely.MultiPolygon]]]:
+    """Contour lines and bands of each region traced apart, then gathered by level.
+
+    A contour traced over the whole grid would run along a breaking joint wherever the
+    surface steps across it; traced region by region, no line or band crosses a joint.
+
+    Returns
+    -------
+    lines : list of (level, MultiLineString)
+    bands : list of (lo, hi, MultiPolygon)
+        As :func:`~geo_corrosion.surfaces.contours.contour_lines` and
+        :func:`~geo_corrosion.surfaces.contours.contour_bands`, ascending.
+    """
+    lines: dict[float, list[Any]] = {}
+    bands: dict[tuple[float, float], list[Any]] = {}
+    for r in sorted(set(cell_region[cell_region >= 0].tolist())):
+        part = np.where(cell_region == r, mean, np.nan)
+        for lev, ml in contour_lines(part, grid, interval=interval):
+            lines.setdefault(lev, []).extend(ml.geoms)
+        for lo, hi, mp in contour_bands(part, grid, interval=interval):
+            bands.setdefault((lo, hi), []).extend(mp.geoms)
+    return ([(lev, shapely.MultiLineString(lines[lev])) for lev in sorted(lines)],
+            [(lo, hi, shapely.MultiPolygon(bands[(lo, hi)])) for lo, hi in sorted(bands)])

@@ -168,6 +168,21 @@ def _repair_layout_png(gpkg: RunLayers, lid: str) -> str | None:
         g = gpkg.get(f"{lid}_{what}")
         if g is not None:
             g.plot(ax=ax, **kw)
+    joints = gpkg.get(f"{lid}_joints")
+    joint_note = ""
+    if joints is not None and len(joints):
+        from geo_corrosion.condition.plots import JOINT_STYLES
+
+        brk = (joints["breaks_continuity"].astype(bool) if "breaks_continuity" in joints.columns
+               else [False] * len(joints))
+        for geom, b in zip(joints.geometry, brk, strict=True):
+            st = JOINT_STYLES[bool(b)]
+            for part in getattr(geom, "geoms", [geom]):
+                xy = list(part.coords)
+                ax.plot([p[0] for p in xy], [p[1] for p in xy], color=st["color"],
+                        lw=st["lw"], linestyle=st["ls"])
+        joint_note = (", joints (dashed; thick purple: expansion/isolation, the mat is not "
+                      "continuous across it)")
     if rep is not None:
         rep.boundary.plot(ax=ax, color="#0072B2", linewidth=1.0)
         for rid, geom in zip(rep["repair_id"], rep.geometry, strict=True):
@@ -181,7 +196,7 @@ def _repair_layout_png(gpkg: RunLayers, lid: str) -> str | None:
     ax.ticklabel_format(useOffset=False, style="plain")
     ax.tick_params(labelsize=6)
     ax.set_title("repair layout: saw-cut outlines (blue, numbered as in the repair list), "
-                 "delaminations (vermillion), spalls (pink)", fontsize=7)
+                 f"delaminations (vermillion), spalls (pink){joint_note}", fontsize=7)
     fig.text(0.01, 0.005, SHORT_CAUTION, fontsize=6, wrap=True)
     buf = io.BytesIO()
     fig.savefig(buf, format="png", bbox_inches="tight")
