@@ -181,7 +181,7 @@ def _repair_layout_png(gpkg: RunLayers, lid: str) -> str | None:
                 xy = list(part.coords)
                 ax.plot([p[0] for p in xy], [p[1] for p in xy], color=st["color"],
                         lw=st["lw"], linestyle=st["ls"])
-        joint_note = (", joints (dashed; thick purple: expansion/isolation, the mat is not "
+        joint_note = ("\njoints dashed (thick purple: expansion/isolation, the mat is not "
                       "continuous across it)")
     if rep is not None:
         rep.boundary.plot(ax=ax, color="#0072B2", linewidth=1.0)
