@@ -296,6 +296,9 @@ def test_joint_plot_and_report(joint_run: Path) -> None:
     assert (joint_run / "plots" / "D1_potential_classes.png").stat().st_size > 10_000
     html = (joint_run / "report.html").read_text()
     assert "data:image/png" in html
+    # the report says which joints split the deck and that the potential was kriged apart
+    assert "1 joint line(s) of type expansion break the electrical continuity" in html
+    assert "The potential surface was kriged in each region" in html
 
 
 def test_no_joint_by_default(tmp_path: Path) -> None:

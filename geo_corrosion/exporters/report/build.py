@@ -19,6 +19,7 @@ import dataclasses
 import importlib
 import io
 import logging
+from collections.abc import Mapping
 from pathlib import Path
 from types import ModuleType
 from typing import TYPE_CHECKING, Any, ClassVar
@@ -259,6 +260,27 @@ def _quantities(schedule: tuple[ScheduleRow, ...], lid: str | None) -> str:
 # --------------------------------------------------------------------------- sections
 
 
+def _joints_note(gpkg: RunLayers, lid: str, kinds: Mapping[str, Any]) -> str:
+    """Say which joints break the mat's continuity and how the surfaces treated them."""
+    j = gpkg.get(f"{lid}_joints")
+    if j is None or not len(j) or "breaks_continuity" not in j.columns:
+        return ""
+    brk = j["breaks_continuity"].astype(bool)
+    if not brk.any():
+        return ""
+    types = ", ".join(sorted({str(t) for t in j.loc[brk, "joint_type"]}))
+    split = [k.replace("_", " ") for k, v in kinds.items()
+             if v.surface is not None
+             and any("continuity regions" in n for n in v.surface.variogram.notes)]
+    how = (f" The {', '.join(split)} surface{'s were' if len(split) > 1 else ' was'} kriged in "
+           "each region from that region's readings only; no contour crosses such a joint."
+           if split else "")
+    return (f'<p class="joints">{int(brk.sum())} joint line(s) of type {_e(types)} break the '
+            "electrical continuity of the reinforcing mat and split the deck into continuity "
+            f"regions (drawn thick and dashed).{_e(how)} A half-cell reading needs a connection "
+            "to the mat it is on [ACI-222R-19, from memory; ASTM-C876-22a].</p>")
+
+
 def _level_section(run_dir: Path, lid: str, info: LevelRecord, man: Manifest,
                    units: ReportUnits, gpkg: RunLayers) -> str:
     plots = run_dir / "plots"
@@ -287,7 +309,9 @@ def _level_section(run_dir: Path, lid: str, info: LevelRecord, man: Manifest,
                                        ("share", "share of deck (%)")]) + "</div>")
     parts.append("</div>")
     parts.append(_condition_block(info, units))
-    parts.append('<h3 class="maps">Maps</h3><div class="figs">')
+    parts.append('<h3 class="maps">Maps</h3>')
+    parts.append(_joints_note(gpkg, lid, kinds))
+    parts.append('<div class="figs">')
     for k in kinds:
         parts.append(_figure(plots / f"{lid}_{k}_classes.png", f"{info.name}: "
                              f"{k.replace('_', ' ')} classes"))
