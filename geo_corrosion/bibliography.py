@@ -260,6 +260,18 @@ _ALL: tuple[Source, ...] = (
            "Guide for the Design and Construction of Durable Concrete Parking Structures",
            2012, "ACI 362.1R-12", "ACI 362.1R-12",
            "Contents read; the cover table is from memory. Not used."),
+    Source("ACI-222R-19", "ACI Committee 222",
+           "Guide to Protection of Reinforcing Steel in Concrete Against Corrosion", 2019,
+           "ACI 222R-19", "ACI 222R-19",
+           "From memory: half-cell surveys need an electrical connection to reinforcement "
+           "that is continuous; mats separated by joints are tested for continuity and "
+           "connected separately. Not read again."),
+    Source("ACI-224.3R-95", "ACI Committee 224",
+           "Joints in Concrete Construction", 1995, "ACI 224.3R-95 (reapproved 2013)",
+           "ACI 224.3R-95",
+           "From memory: expansion and isolation joints separate members (no bar crosses "
+           "them); construction joints carry the bars through; contraction (control) joints "
+           "may cut part of the bars. Not read again."),
     Source("ACI-228.2R-13", "ACI Committee 228",
            "Report on Nondestructive Test Methods for Evaluation of Concrete in Structures",
            2013, "ACI 228.2R-13", "ACI 228.2R-13", "Abstract and front matter read."),
@@ -397,6 +409,12 @@ ASSUMPTIONS_TO_CONFIRM: tuple[str, ...] = (
     "practice, from memory "
     "[Webster-Oliver-2007 §8.3; Goovaerts-1997 ch. 7; Journel-1980; Cressie-1993 §3.2]; "
     "check.",
+    "Joints: expansion and isolation joints break the electrical continuity of the "
+    "reinforcing mat, construction and control joints do not (config.JOINT_TYPES, "
+    "BREAKING_JOINT_TYPES; a joint layer without a type is taken as construction joints, "
+    "common practice); a half-cell survey needs a ground connection in each continuity region "
+    "(QA-GROUND-CONNECTION): from memory [ACI-224.3R-95; ACI-222R-19; ASTM-C876-22a]; check "
+    "the clauses.",
     "Open items of the project's notes not used by the code yet: RILEM continuity limits "
     "(< 1 ohm, < 1 mV) and grid sizes 0.15-1.0 m [RILEM-TC154-2003]; cylinder correction "
     "factors [Morris-Moreno-1996]; the T 358 lime-water curing factor 1.1 "

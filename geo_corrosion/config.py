@@ -36,6 +36,8 @@ from geo_corrosion.units import LENGTH_TO_M, UnitSystem, parse_area, parse_lengt
 __all__ = [
     "LayerRef",
     "OverlayRef",
+    "JointRef",
+    "GroundConnection",
     "ControlPoint",
     "GridConfig",
     "LevelConfig",
@@ -50,6 +52,8 @@ __all__ = [
     "ID_PATTERN",
     "MAX_INPUT_BYTES",
     "OVERLAY_KINDS",
+    "JOINT_TYPES",
+    "BREAKING_JOINT_TYPES",
     "VARIOGRAM_MODELS",
     "REQUIRED",
     "DERIVED",
@@ -67,6 +71,14 @@ __all__ = [
 COORDS = ("local", "site")
 OVERLAY_KINDS = ("delamination", "spall", "patch", "crack")
 VARIOGRAM_MODELS = ("auto", "spherical", "exponential", "gaussian", "matern")
+#: Kinds of joint line.  Expansion and isolation joints separate two members and their
+#: reinforcing mats (no bar crosses them); construction and control (contraction) joints
+#: normally carry continuous or tied bars [ACI-224.3R-95, from memory].
+JOINT_TYPES = ("expansion", "isolation", "construction", "control")
+#: The joint types that break the electrical continuity of the reinforcement by default: a
+#: half-cell survey needs a connection to the mat on each side (common practice)
+#: [ACI-222R-19, from memory; ASTM-C876-22a].
+BREAKING_JOINT_TYPES = ("expansion", "isolation")
 
 #: Longest id (level, survey, control point): ids become file names, GeoPackage layer names
 #: and DXF layer names, and 40 characters keep a name such as ``<id>_potential_classes`` well
@@ -383,6 +395,54 @@ class OverlayRef:
     ref: LayerRef
 
 
+@dataclass(frozen=True, kw_only=True)
+class JointRef:
+    """A layer of joint lines and the kind of joint they are.
+
+    ``breaks_continuity`` is None when the site file does not say it; then it follows from
+    ``joint_type`` (:attr:`breaks`).
+    """
+
+    joint_type: str = key(
+        "type", "string", "construction", choices=JOINT_TYPES, table="levels.joints",
+        help="The kind of joint every line of the layer is",
+        doc="Expansion and isolation joints separate two reinforcing mats that are not "
+            "electrically continuous; construction and control joints normally carry "
+            "continuous or tied bars [ACI-224.3R-95, from memory]. A layer without `type` is "
+            "taken as construction joints (common practice: most joints drawn on a deck are "
+            "construction or control joints); give expansion joints their own layer with "
+            "`type = \"expansion\"`.")
+    breaks_continuity: bool | None = key(
+        "breaks_continuity", "boolean", None, table="levels.joints",
+        default_doc="`true` for expansion and isolation, `false` for construction and control",
+        help="Whether the bars are electrically discontinuous across these joints",
+        doc="A breaking joint splits the deck into continuity regions: potential surfaces are "
+            "kriged in each region from its own readings only, and a potential survey spanning "
+            "two regions names a ground connection in each [ACI-222R-19, from memory]. Set "
+            "`true` for a construction joint found discontinuous by a continuity test, `false` "
+            "for an expansion joint whose mats are bonded across it.")
+    ref: LayerRef
+
+    @property
+    def breaks(self) -> bool:
+        """Whether these joints break the electrical continuity of the mat."""
+        if self.breaks_continuity is not None:
+            return bool(self.breaks_continuity)
+        return self.joint_type in BREAKING_JOINT_TYPES
+
+
+@dataclass(frozen=True, kw_only=True)
+class GroundConnection:
+    """A connection of the half-cell voltmeter to the reinforcing mat, in survey-grid coords."""
+
+    x: float = key("x", "number", table="surveys.ground_connections", unit="grid units",
+                   help="Its x in the level's survey grid")
+    y: float = key("y", "number", table="surveys.ground_connections", unit="grid units",
+                   help="Its y in the level's survey grid")
+    label: str = key("label", "string", DERIVED, table="surveys.ground_connections",
+                     default_doc="`G1`, `G2`, …", help="Its name, for messages and maps")
+
+
 @dataclass(frozen=True)
 class ControlPoint:
     """A point known in both the local grid and the site CRS."""
@@ -443,11 +503,15 @@ class LevelConfig:
         example='[ { path = "plans/L1.dxf", layer = "COLUMNS" } ]',
         help="Columns, cores, ramps and openings",
         doc="They are holes in the deck, and repairs stop at them.")
-    joints: LayerRef | None = key(
-        "joints", "layer", None, active=True,
-        example='{ path = "plans/L1.dxf", layer = "JOINTS" }',
+    joints: tuple[JointRef, ...] = key(
+        "joints", "joints", [], active=True,
+        type_doc="joint layer reference, or a list of them",
+        example='[\n  { path = "plans/L1.dxf", layer = "JOINTS", type = "construction" },\n'
+                '  { path = "plans/L1.dxf", layer = "EXP-JOINTS", type = "expansion" },\n]',
         help="Joint lines; a repair never crosses one",
-        doc="No saw cut is counted along a joint.")
+        doc="No saw cut is counted along a joint. Each layer reference may say the joint "
+            "`type` and whether it `breaks_continuity` (see *Joints*); one reference "
+            "`{ path, layer }` is a list of one.")
     overlays: tuple[OverlayRef, ...] = key(
         "overlays", "overlays", [], active=True, type_doc="list of overlay references",
         example='[\n  { kind = "delamination", path = "sounding/L1.dxf", layer = "DELAM" },\n'
@@ -518,6 +582,16 @@ class SurveyConfig:
             **_ALLOW_OUTSIDE,
             "doc": _ALLOW_OUTSIDE["doc"] + " It applies to `path` and to the instrument files "
                    "of `[surveys.options]` (`transients`, `sweeps`)."})
+    ground_connections: tuple[GroundConnection, ...] = key(
+        "ground_connections", "connections", [],
+        type_doc="list of `{ x, y, label }`",
+        example='[ { x = 10.0, y = 4.0, label = "G1" }, { x = 150.0, y = 4.0, label = "G2" } ]',
+        help="Where the voltmeter was connected to the bars, survey-grid coordinates",
+        doc="Potentials only. A half-cell reading needs a connection to the mat it is on: a "
+            "potential survey whose readings lie in two or more continuity regions (split by "
+            "breaking joints) names a connection in each, or QA flags it "
+            "(`QA-GROUND-CONNECTION`) [ACI-222R-19, from memory; ASTM-C876-22a]. A connection "
+            "outside the slab is refused.")
     columns: Mapping[str, str] = key(
         "columns", "table", {}, type_doc="table `[surveys.columns]`",
         help="Our column name = the file's column name",
@@ -891,9 +965,13 @@ TABLES: dict[str, TableSpec] = {t.name: t for t in (
     TableSpec("layer", keys_of(LayerRef, "layer")),
     TableSpec("levels.overlays", keys_of(OverlayRef, "levels.overlays")
               + keys_of(LayerRef, "layer")),
+    TableSpec("levels.joints", keys_of(JointRef, "levels.joints")
+              + keys_of(LayerRef, "layer")),
     TableSpec("levels.grid", keys_of(GridConfig, "levels.grid")),
     TableSpec("levels.grid.control_points", keys_of(ControlPoint, "levels.grid.control_points")),
     TableSpec("surveys", keys_of(SurveyConfig, "surveys")),
+    TableSpec("surveys.ground_connections", keys_of(GroundConnection,
+                                                    "surveys.ground_connections")),
     TableSpec("condition", _in(
         "condition", Key("combined", "table", None, help="The combined condition rule table"))),
     TableSpec("condition.combined", _in(

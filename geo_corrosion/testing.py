@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import json
 import math
+from collections.abc import Sequence
 from pathlib import Path
 from typing import TypedDict
 
@@ -50,8 +51,17 @@ def make_synthetic_site(
     extra_site: str = "",
     electrode: str = "cse",
     temperature_c: float = 22.2,
+    joint_type: str | None = None,
+    joint_x: float | None = None,
+    step_mv: float = 0.0,
+    ground_connections: Sequence[tuple[float, float, str]] | None = None,
 ) -> Path:
     """Write a one-level synthetic site (GeoJSON plans, DXF sounding, CSV readings).
+
+    With ``joint_type`` (``"expansion"``, ``"construction"``, ...), a joint line across the
+    deck at ``x = joint_x`` (default: mid-width) is written to ``plans/joints.geojson`` and
+    declared with that type; ``step_mv`` is added to the potentials beyond it (a mat at
+    another potential).  ``ground_connections`` (x, y, label) go to the potential survey.
 
     Returns
     -------
@@ -90,6 +100,20 @@ def make_synthetic_site(
     x, y = X.ravel(), Y.ravel()
     act = _field(x, y)
     e_cse = -150 - 380 * act + rng.normal(0, 8, x.size)
+    jx = width_ft / 2 if joint_x is None else joint_x
+    joints_line = ""
+    if joint_type is not None:
+        e_cse = e_cse + np.where(x > jx, step_mv, 0.0)
+        joint = {"type": "FeatureCollection", "features": [
+            {"type": "Feature", "properties": {"name": "J1"},
+             "geometry": {"type": "LineString", "coordinates": [[jx, 0], [jx, depth_ft]]}}]}
+        (root / "plans" / "joints.geojson").write_text(json.dumps(joint))
+        joints_line = (f'joints = {{ path = "plans/joints.geojson", type = "{joint_type}" }}\n')
+    gc_line = ""
+    if ground_connections:
+        gc_line = "ground_connections = [ " + ", ".join(
+            f'{{ x = {gx}, y = {gy}, label = "{gl}" }}' for gx, gy, gl in ground_connections
+        ) + " ]\n"
     from geo_corrosion.corrections import cse_temperature_correction_mv, electrode_offset_mv
 
     e_file = e_cse - electrode_offset_mv(electrode) - (
@@ -121,6 +145,7 @@ id = "D1"
 name = "Test deck"
 slab = {{ path = "plans/slab.geojson" }}
 exclusions = [ {{ path = "plans/columns.geojson" }} ]
+{joints_line}\
 overlays = [ {{ kind = "delamination", path = "sounding/sounding.dxf", layer = "DELAM" }},
              {{ kind = "spall", path = "sounding/sounding.dxf", layer = "SPALL" }} ]
 [levels.grid]
@@ -136,7 +161,7 @@ path = "readings/potential.csv"
 unit = "mV"
 electrode = "{electrode}"
 temperature_c = {temperature_c}
-
+{gc_line}
 [[surveys]]
 id = "D1-res"
 level = "D1"

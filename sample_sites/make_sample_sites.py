@@ -100,6 +100,11 @@ class Plan:
     drains: tuple[tuple[float, float], ...]
     low_cover: tuple[tuple[float, float, float, float, float, float], ...]  # cx, cy, a, b, deg, mm
     control_local: tuple[tuple[str, float, float], ...]
+    #: indices into ``joints`` of the expansion joints: drawn on layer EXP-JOINTS and declared
+    #: ``type = "expansion"`` (the reinforcing mats on their two sides are not continuous)
+    expansion: tuple[int, ...] = ()
+    #: ground connections of each potential survey of the level, (x, y, label) in grid feet
+    ground: tuple[tuple[str, tuple[tuple[float, float, str], ...]], ...] = ()
 
     @property
     def exclusions(self) -> Polygon:
@@ -142,13 +147,19 @@ def make_plan(level_id: str) -> Plan:
             "RF", slab,
             tuple(_sq(x, y) for x, y in poles),  # light-pole bases on the column lines
             (*core, box(120.0, 92.0, 170.0, 112.0)),  # stair, elevator, ramp down to L2
+            # the expansion joint runs across the deck, through the ramp opening, so the
+            # mats east and west of it are two electrical circuits
             (("LINE", ((60.0, 0.0), (60.0, 120.0))),
-             ("LWPOLYLINE", ((120.0, 0.0), (120.0, 46.0), (120.0, 92.0)))),  # expansion joint
+             ("LWPOLYLINE", ((120.0, 0.0), (120.0, 46.0), (120.0, 92.0), (120.0, 120.0)))),
             ((15.0, 15.0), (75.0, 15.0), (135.0, 15.0), (172.0, 55.0), (100.0, 62.0),
              (40.0, 58.0), (60.0, 105.0), (100.0, 100.0)),
             ((40.0, 28.0, 12.0, 5.0, 10.0, 20.0), (150.0, 72.0, 15.0, 6.0, -20.0, 18.0),
              (90.0, 108.0, 9.0, 4.0, 0.0, 14.0)),
             (("CP1", 0.0, 120.0), ("CP2", 180.0, 120.0), ("CP3", 90.0, 0.0)),
+            expansion=(1,),
+            # the crew connected to the bars on each side of the expansion joint
+            ground=(("RF-hcp-south", ((4.0, 4.0, "GS-W"), (176.0, 4.0, "GS-E"))),
+                    ("RF-hcp-north", ((4.0, 116.0, "GN-W"), (176.0, 116.0, "GN-E")))),
         )
     raise ValueError(f"unknown level {level_id!r}; expected one of {LEVEL_IDS}")
 
@@ -541,18 +552,22 @@ def _save_dxf(doc: ezdxf.document.Drawing, path: Path) -> None:
 
 
 def _write_plan(path: Path, plan: Plan) -> None:
-    doc = _new_dxf((("SLAB", 7), ("COLUMNS", 8), ("OPENINGS", 4), ("JOINTS", 3), ("DRAINS", 5)))
+    layers = [("SLAB", 7), ("COLUMNS", 8), ("OPENINGS", 4), ("JOINTS", 3), ("DRAINS", 5)]
+    if plan.expansion:
+        layers.append(("EXP-JOINTS", 6))
+    doc = _new_dxf(tuple(layers))
     msp = doc.modelspace()
     msp.add_lwpolyline(_ring(plan.slab), close=True, dxfattribs={"layer": "SLAB"})
     for c in plan.columns:
         msp.add_lwpolyline(_ring(c), close=True, dxfattribs={"layer": "COLUMNS"})
     for o in plan.openings:
         msp.add_lwpolyline(_ring(o), close=True, dxfattribs={"layer": "OPENINGS"})
-    for kind, verts in plan.joints:
+    for k, (kind, verts) in enumerate(plan.joints):
+        lay = "EXP-JOINTS" if k in plan.expansion else "JOINTS"
         if kind == "LINE":
-            msp.add_line(verts[0], verts[1], dxfattribs={"layer": "JOINTS"})
+            msp.add_line(verts[0], verts[1], dxfattribs={"layer": lay})
         else:
-            msp.add_lwpolyline(verts, close=False, dxfattribs={"layer": "JOINTS"})
+            msp.add_lwpolyline(verts, close=False, dxfattribs={"layer": lay})
     for x, y in plan.drains:
         msp.add_circle((x, y), 0.5, dxfattribs={"layer": "DRAINS"})
     _save_dxf(doc, path)
@@ -646,7 +661,12 @@ def _site_toml(seed: int) -> str:
             f'slab = {{ path = "plans/{lid}.dxf", layer = "SLAB" }}',
             f'exclusions = [ {{ path = "plans/{lid}.dxf", layer = "COLUMNS" }}, '
             f'{{ path = "plans/{lid}.dxf", layer = "OPENINGS" }} ]',
-            f'joints = {{ path = "plans/{lid}.dxf", layer = "JOINTS" }}',
+            *([f'joints = {{ path = "plans/{lid}.dxf", layer = "JOINTS" }}'] if not plan.expansion
+              else ["# construction joints carry the bars; the expansion joint separates two mats",
+                    f'joints = [ {{ path = "plans/{lid}.dxf", layer = "JOINTS", '
+                    'type = "construction" },',
+                    f'           {{ path = "plans/{lid}.dxf", layer = "EXP-JOINTS", '
+                    'type = "expansion" } ]']),
             f'overlays = [ {{ kind = "delamination", path = "sounding/{lid}.dxf", '
             f'layer = "DELAM" }}, '
             f'{{ kind = "spall", path = "sounding/{lid}.dxf", layer = "SPALL" }} ]',
@@ -676,6 +696,12 @@ def _site_toml(seed: int) -> str:
               f'unit = "{"V" if sid == "RF-hcp-north" else "mV"}"',
               f'electrode = "{el}"          # cse | ag_agcl_sat_kcl | ag_agcl_3m_kcl | sce | she',
               f"temperature_c = {temp:.1f}", f'date = "{date}"']
+        ground = dict(make_plan(lid).ground).get(sid)
+        if ground:
+            t += ["# where the voltmeter was connected to the bars: one per mat (expansion joint)",
+                  "ground_connections = [ " + ", ".join(
+                      f'{{ x = {gx:.1f}, y = {gy:.1f}, label = "{gl}" }}' for gx, gy, gl in ground)
+                  + " ]"]
         if el != "cse":
             t += ["# ASTM C876 gives a temperature coefficient for the CSE only; the crew's",
                   "# electrode was checked to drift like a CSE, so correct it the same way",
@@ -714,7 +740,9 @@ A three-storey cast-in-place parking garage, 180 ft x 120 ft. Two levels were su
   core, two construction joints (x = 75 ft and x = 135 ft) and six floor drains.
 * **RF**, the roof level: exposed to weather and de-icing salt, so more corrosion;
   light-pole bases on the column lines, the stair/elevator core, a ramp opening, a
-  construction joint and an expansion joint, and eight floor drains.
+  construction joint and an expansion joint (x = 120 ft, across the deck through the ramp
+  opening: the mats on its two sides are not electrically continuous, so the potential
+  surveys name a ground connection on each side), and eight floor drains.
 
 Local survey grid in feet (x east along the long side, y north), potentials every 2 ft.
 The grid is tied to EPSG:26918 (NAD83 / UTM zone 18N) by three control points per level
@@ -727,7 +755,8 @@ noise, so the least-squares fit has small residuals.
 |---|---|
 | `site.toml` | the site file |
 | `prices.csv` | invented unit prices (USD) for the engineer's estimate, `[quantities]` |
-| `plans/L2.dxf`, `plans/RF.dxf` | layers SLAB, COLUMNS, OPENINGS, JOINTS, DRAINS; feet |
+| `plans/L2.dxf`, `plans/RF.dxf` | layers SLAB, COLUMNS, OPENINGS, JOINTS, DRAINS; \
+EXP-JOINTS on RF; feet |
 | `sounding/L2.dxf`, `sounding/RF.dxf` | chain-drag sounding [ASTM-D4580-23]: DELAM, SPALL; \
 one RF delamination is a CIRCLE |
 | `readings/L2_potential_east.csv` | CSE, 24 degC, mV, with a `note` column |

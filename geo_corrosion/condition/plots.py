@@ -23,6 +23,7 @@ import numpy as np
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.colors import BoundaryNorm, ListedColormap
 from matplotlib.figure import Figure
+from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
 from numpy.typing import ArrayLike
 from scipy import stats
@@ -38,6 +39,7 @@ __all__ = [
     "plot_cumulative_frequency",
     "plot_class_map",
     "plot_potential_vs_resistivity",
+    "JOINT_STYLES",
 ]
 
 #: Footer printed on every figure (wording ours, after [ASTM-C876-22a §4.8]).
@@ -218,6 +220,16 @@ def _polygon_rings(poly: Any) -> list[np.ndarray]:
     return [a]
 
 
+#: How a joint is drawn on a plan map: breaking (expansion, isolation) or not (construction,
+#: control); Okabe & Ito reddish purple and grey, told apart by width and dash as well.
+JOINT_STYLES: dict[bool, dict[str, Any]] = {
+    True: {"color": "#CC79A7", "lw": 2.4, "ls": (0, (6, 2)),
+           "label": "expansion/isolation joint (mat not continuous)"},
+    False: {"color": "#555555", "lw": 1.0, "ls": (0, (2, 2)),
+            "label": "construction/control joint"},
+}
+
+
 def plot_class_map(
     grid: ArrayLike,
     extent: tuple[float, float, float, float],
@@ -232,6 +244,8 @@ def plot_class_map(
     origin: str = "lower",
     title: str | None = None,
     dpi: int = 150,
+    joints: Sequence[tuple[Any, bool]] | None = None,
+    contour_groups: ArrayLike | None = None,
 ) -> Path:
     """Write a plan map of classes with value contours and optional polygons.
 
@@ -254,6 +268,14 @@ def plot_class_map(
         Shapely polygons or (n, 2) coordinate arrays drawn as outlines.
     origin : {"lower", "upper"}
         Row 0 of ``grid`` at ``ymin`` ("lower") or at ``ymax`` ("upper").
+    joints : sequence of (line, breaks), optional
+        Joint lines (shapely lineal geometries or (n, 2) arrays) and whether each breaks the
+        mat's electrical continuity: breaking joints (expansion, isolation) are drawn thick
+        and dashed, the others (construction, control) thin, each kind in the legend.
+    contour_groups : array_like of int, optional
+        Same shape and orientation as ``grid``: the continuity region of each cell (-1 for
+        none).  Contours are then traced region by region, so none runs along a breaking
+        joint where the surface steps across it.
     """
     try:
         g = np.asarray(grid, dtype=float)
@@ -287,19 +309,40 @@ def plot_class_map(
         fmin, fmax = float(np.nanmin(g)), float(np.nanmax(g))
         levels = np.arange(np.ceil(fmin / contour_interval) * contour_interval, fmax + 1e-9,
                            contour_interval)
-        if levels.size:
-            cs = ax.contour(xs, ys, np.ma.masked_invalid(gg), levels=levels, colors="#333333",
-                            linestyles="solid", linewidths=0.6)
-            ax.clabel(cs, fontsize=6, fmt="%g")
+        if contour_groups is None:
+            parts = [gg]
+        else:
+            grp = np.asarray(contour_groups)
+            if grp.shape != g.shape:
+                raise ConditionError(f"contour_groups has shape {grp.shape}, the grid {g.shape}")
+            grp = grp if origin == "lower" else grp[::-1]
+            parts = [np.where(grp == k, gg, np.nan) for k in np.unique(grp[grp >= 0])]
+        for part in parts:
+            if levels.size and np.isfinite(part).any():
+                cs = ax.contour(xs, ys, np.ma.masked_invalid(part), levels=levels,
+                                colors="#333333", linestyles="solid", linewidths=0.6)
+                ax.clabel(cs, fontsize=6, fmt="%g")
     if polygons:
         for k, poly in enumerate(polygons):
             for ring in _polygon_rings(poly):
                 ax.plot(ring[:, 0], ring[:, 1], color="black", lw=1.2,
                         label=polygon_label if k == 0 else None)
-    handles = [Patch(color=c, label=lab)
-               for c, lab in zip(class_set.colors, class_set.labels, strict=True)]
+    handles: list[Any] = [Patch(color=c, label=lab)
+                          for c, lab in zip(class_set.colors, class_set.labels, strict=True)]
     if polygons:
         handles.append(Patch(facecolor="none", edgecolor="black", label=polygon_label))
+    kinds_drawn = set()
+    for line, breaks in joints or ():
+        style = JOINT_STYLES[bool(breaks)]
+        kinds_drawn.add(bool(breaks))
+        for part in getattr(line, "geoms", [line]):
+            xy = np.asarray(part.coords if hasattr(part, "coords") else part, dtype=float)
+            ax.plot(xy[:, 0], xy[:, 1], color=style["color"], lw=style["lw"],
+                    linestyle=style["ls"], solid_capstyle="butt")
+    for breaks in sorted(kinds_drawn, reverse=True):
+        style = JOINT_STYLES[breaks]
+        handles.append(Line2D([], [], color=style["color"], lw=style["lw"],
+                              linestyle=style["ls"], label=style["label"]))
     ax.legend(handles=handles, fontsize=7, loc="upper left", bbox_to_anchor=(1.01, 1.0),
               title=f"{quantity} ({_UNIT_LABEL.get(class_set.unit, class_set.unit)})",
               title_fontsize=7)

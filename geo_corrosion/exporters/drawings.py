@@ -55,7 +55,9 @@ class DrawingsExporter(Exporter):
 
             dxf = write_level_dxf(
                 ddir / f"{lid}_repairs.dxf", slab=lv.slab, exclusions=lv.exclusion_polygons(),
-                joints=[j.geometry for j in lv.joints], repairs=lr.repairs, zones=lr.zones,
+                joints=[j.geometry for j in lv.joints
+                        if not getattr(j, "breaks_continuity", False)],
+                breaking_joints=lv.breaking_joints, repairs=lr.repairs, zones=lr.zones,
                 delaminations=[f.geometry for f in lv.overlays.get("delamination", ())],
                 spalls=[f.geometry for f in lv.overlays.get("spall", ())],
                 column_grid=tuple(getattr(lv, "column_grid", None) or ()),

@@ -1,7 +1,9 @@
 """DXF drawing sheet of one level's repair layout (ezdxf).
 
 Model space holds the plan.  Layers, with names of this project's own: ``GC-SLAB``,
-``GC-EXCLUSION``, ``GC-JOINT``, ``GC-DELAM`` (sounded delaminations), ``GC-SPALL``
+``GC-EXCLUSION``, ``GC-JOINT`` (construction and control joints), ``GC-JOINT-BREAK``
+(expansion and isolation joints, which break the mat's continuity; only when a level has
+one), ``GC-DELAM`` (sounded delaminations), ``GC-SPALL``
 (spalls), ``GC-REPAIR-<DEPTH CLASS>`` (one per depth class, outline and hatch),
 ``GC-ZONE-<ZONE NAME>`` (one per zone, outlines cleaned of the raster's staircase),
 ``GC-LABEL`` (repair labels and their leaders), ``GC-COLUMN-GRID`` (column lines and
@@ -48,13 +50,16 @@ from geo_corrosion.exporters.sheet_dxf import LegendRow, SheetInfo, draw_sheet
 from geo_corrosion.repair import polygon_parts
 from geo_corrosion.units import LENGTH_TO_M, ReportUnits, report_units
 
-__all__ = ["LAYER_SLAB", "LAYER_EXCLUSION", "LAYER_JOINT", "LAYER_DELAM", "LAYER_TEXT",
-           "LAYER_SPALL", "LAYER_LABEL", "LAYER_COLUMN_GRID", "LAYER_STATION", "DEPTH_HATCH",
-           "layer_name", "repair_dimensions", "write_level_dxf"]
+__all__ = ["LAYER_SLAB", "LAYER_EXCLUSION", "LAYER_JOINT", "LAYER_JOINT_BREAK", "LAYER_DELAM",
+           "LAYER_TEXT", "LAYER_SPALL", "LAYER_LABEL", "LAYER_COLUMN_GRID", "LAYER_STATION",
+           "DEPTH_HATCH", "layer_name", "repair_dimensions", "write_level_dxf"]
 
 LAYER_SLAB = "GC-SLAB"
 LAYER_EXCLUSION = "GC-EXCLUSION"
 LAYER_JOINT = "GC-JOINT"
+#: Joints that break the electrical continuity of the mat (expansion, isolation): a layer of
+#: their own, added only when a level has one.
+LAYER_JOINT_BREAK = "GC-JOINT-BREAK"
 LAYER_DELAM = "GC-DELAM"
 LAYER_TEXT = "GC-TEXT"
 LAYER_SPALL = "GC-SPALL"
@@ -163,7 +168,8 @@ def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
                     column_grid: Sequence[Any] = (), sheet: SheetInfo | None = None,
                     to_model: Callable[[BaseGeometry], BaseGeometry] | None = None,
                     model_unit: str | None = None,
-                    zone_tolerance: float | None = None) -> Path:
+                    zone_tolerance: float | None = None,
+                    breaking_joints: Sequence[BaseGeometry] = ()) -> Path:
     """Write the DXF drawing sheet of one level.
 
     Parameters
@@ -203,6 +209,9 @@ def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
     zone_tolerance : float, optional
         Tolerance of the zone outlines' cleaning, plan unit (about a kriging cell); None:
         zone outlines as given.
+    breaking_joints : sequence of geometry
+        Joint lines that break the mat's electrical continuity (expansion, isolation), drawn
+        on :data:`LAYER_JOINT_BREAK`; ``joints`` holds the others.
 
     Returns
     -------
@@ -291,11 +300,15 @@ def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
     outline(slab, LAYER_SLAB)
     for e in exclusions:
         outline(e, LAYER_EXCLUSION)
-    for j in joints:
-        if j is not None and not j.is_empty:
-            for part in getattr(T(j), "geoms", [T(j)]):
-                msp.add_lwpolyline([(float(x), float(y)) for x, y in part.coords],
-                                   dxfattribs={"layer": LAYER_JOINT})
+    if any(j is not None and not j.is_empty for j in breaking_joints):
+        layer(LAYER_JOINT_BREAK, 6, "Joint breaking continuity (expansion, isolation)",
+              linetype="DASHED")
+    for lay, lines in ((LAYER_JOINT, joints), (LAYER_JOINT_BREAK, breaking_joints)):
+        for j in lines:
+            if j is not None and not j.is_empty:
+                for part in getattr(T(j), "geoms", [T(j)]):
+                    msp.add_lwpolyline([(float(x), float(y)) for x, y in part.coords],
+                                       dxfattribs={"layer": lay})
     for d in delaminations:
         outline(d, LAYER_DELAM)
     for s in spalls:

@@ -55,7 +55,10 @@ def level_layers(lr: LevelResult, crs: Any) -> dict[str, gpd.GeoDataFrame]:
     if lv.exclusions:
         out["exclusions"] = to_site_frame(_feature_rows(lv.exclusions), lr, crs)
     if lv.joints:
-        out["joints"] = to_site_frame(_feature_rows(lv.joints), lr, crs)
+        out["joints"] = to_site_frame(
+            [{**r, "joint_type": getattr(j, "joint_type", "construction"),
+              "breaks_continuity": bool(getattr(j, "breaks_continuity", False))}
+             for r, j in zip(_feature_rows(lv.joints), lv.joints, strict=True)], lr, crs)
     for kind, feats in lv.overlays.items():
         rows = _feature_rows(feats, kind=kind)
         for r in rows:

@@ -52,6 +52,9 @@ class PlotsExporter(Exporter):
                         quantity=s.kind.label.split(" (")[0], plan_unit=lr.level.unit,
                         contour_interval=s.interval if s.kind.class_map_contours else None,
                         polygons=[f.geometry for f in lr.level.overlays.get("delamination", ())],
+                        joints=[(j.geometry, bool(getattr(j, "breaks_continuity", False)))
+                                for j in lr.level.joints],
+                        contour_groups=s.regions,
                         origin="upper",
                         title=f"{lname}: {s.kind.label.split(' (')[0].lower()} classes"))
             # the potential plots, named after the role: the kind playing it, whatever its name

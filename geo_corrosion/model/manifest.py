@@ -66,7 +66,7 @@ def input_files(cfg: SiteConfig) -> list[dict[str, Any]]:
     """Every input file of a site with its path (relative to the site folder), SHA-256 and size."""
     paths = {cfg.path}
     for lv in cfg.levels:
-        refs = [lv.slab, *lv.exclusions, *([lv.joints] if lv.joints else []),
+        refs = [lv.slab, *lv.exclusions, *[j.ref for j in lv.joints],
                 *[o.ref for o in lv.overlays]]
         paths.update(r.path for r in refs)
     paths.update(s.path for s in cfg.surveys)

@@ -58,6 +58,10 @@ class KindSurface:
         Contour lines ``(level, geometry)`` and bands ``(lo, hi, geometry)``.
     classes : DataFrame
         Class polygons with ``class``, ``color``, ``area_local`` (local units squared).
+    regions : ndarray of int, optional
+        ``(ny, nx)``: the continuity region of each cell drawn (-1 elsewhere) when the kind
+        was kriged region by region (the deck split by breaking joints); None otherwise.
+        Maps trace contours region by region with it.
     """
 
     kind: MeasurementKind
@@ -73,6 +77,7 @@ class KindSurface:
     bands: Sequence[tuple[float, float, BaseGeometry]] = field(default_factory=list)
     classes: pd.DataFrame | None = None
     directional: dict[str, Any] = field(default_factory=dict)
+    regions: NDArray[np.intp] | None = None
 
     def values_at(self, x_local: NDArray[np.float64], y_local: NDArray[np.float64]
                   ) -> NDArray[np.float64]:

@@ -50,6 +50,7 @@ from shapely.geometry.polygon import orient
 
 from geo_corrosion.config import LayoutParams
 from geo_corrosion.errors import GeometryWarning, RepairError
+from geo_corrosion.surfaces.regions import split_at_lines
 from geo_corrosion.units import LENGTH_TO_M, MM_PER_INCH
 
 __all__ = [
@@ -364,13 +365,7 @@ def _close(geom: BaseGeometry, gap: float) -> BaseGeometry:
 
 def _panels(slab: Polygon, joints: Sequence[BaseGeometry], tol: float) -> list[Polygon]:
     """Split the slab at its joint lines (joints that do not cut it through are ignored)."""
-    if not joints:
-        return [slab]
-    lines = [slab.exterior, *slab.interiors, *[j for j in joints if not j.is_empty]]
-    faces = shapely.polygonize(shapely.get_parts(shapely.union_all(lines)))
-    panels = [f for f in shapely.get_parts(faces)
-              if f.area > tol and slab.contains(f.representative_point())]
-    return panels or [slab]
+    return [p for p in split_at_lines(slab, joints, tol) if isinstance(p, Polygon)]
 
 
 @dataclass

@@ -37,11 +37,14 @@ from geo_corrosion.surfaces import (
     check_contour_interval,
     contour_bands,
     contour_lines,
+    contours_by_region,
     cross_validate,
     experimental_variogram,
     fit_variogram,
     grid_for_polygon,
     krige_grid,
+    krige_regions,
+    region_labels,
     surface_mask,
 )
 from geo_corrosion.units import LENGTH_TO_M, ReportUnits
@@ -92,14 +95,15 @@ def merge_repeats(readings: pd.DataFrame, value_column: str) -> pd.DataFrame:
 
 def directional_variograms(
     x: NDArray[np.float64], y: NDArray[np.float64], z: NDArray[np.float64],
-    kind: MeasurementKind, fit: VariogramFit,
+    kind: MeasurementKind, fit: VariogramFit, *, groups: NDArray[np.intp] | None = None,
 ) -> dict[str, Any]:
     """Experimental variograms along the grid axes (the deck's bar directions).
 
     Reported with an anisotropy indication: the ratio of the mean semivariance
     over lags up to half the fitted range, along x to along y (1 = isotropic).
     The engine does not fit anisotropy automatically; fix it in the site file
-    (``[run.variogram.<kind>] anisotropy_ratio, anisotropy_angle_deg``).
+    (``[run.variogram.<kind>] anisotropy_ratio, anisotropy_angle_deg``).  ``groups`` (the
+    continuity region of each reading) keeps pairs within one region.
     """
     zz = np.log(z) if kind.krige_transform == "log" else z
     ev0 = fit.experimental  # None when the fit fell back (too few readings to estimate)
@@ -107,7 +111,7 @@ def directional_variograms(
     out: dict[str, Any] = {}
     means = {}
     for label, ang in (("along_x", 0.0), ("along_y", 90.0)):
-        ev = experimental_variogram(x, y, zz, max_lag=max_lag, direction_deg=ang)
+        ev = experimental_variogram(x, y, zz, max_lag=max_lag, direction_deg=ang, groups=groups)
         sel = (ev.lags <= 0.5 * fit.model.range) & (ev.counts > 0)
         means[label] = float(np.mean(ev.gamma[sel])) if sel.any() else float("nan")
         out[label] = {"direction_deg": ang, "lags": ev.lags.tolist(), "gamma": ev.gamma.tolist(),
@@ -209,27 +213,48 @@ def build_surface(
     chosen = fixed.get("model") or params.variogram_model
     models = (("spherical", "exponential", "gaussian", "matern") if chosen == "auto"
               else (chosen,))
+    # a kind read against the mat is kriged per continuity region (the deck split at the
+    # joints that break the mat): pairs, neighbours and cross-validation stay in one region
+    regions = level.continuity_regions() if kind.needs_continuity else []
+    groups = region_labels(regions, x, y) if len(regions) > 1 else None
     fit = fit_variogram(x, y, z, models=models, transform=kind.krige_transform,
-                        n_neighbors=params.n_neighbors, fixed=fixed or None)
+                        n_neighbors=params.n_neighbors, fixed=fixed or None, groups=groups)
     cv = cross_validate(x, y, z, fit.model, n_neighbors=params.n_neighbors,
-                        transform=kind.krige_transform)
+                        transform=kind.krige_transform, groups=groups)
     if params.calibrate_variance and not ({"nugget", "psill"} & set(fixed)):
         fit, cv = calibrate_variance(fit, cv)
-    directional = directional_variograms(x, y, z, kind, fit)
+    directional = directional_variograms(x, y, z, kind, fit, groups=groups)
     deck = level.deck
     grid = grid_for_polygon(deck, cell)
-    mask = surface_mask(grid, deck, x, y, max_distance=max_d)
-    mean, var = krige_grid(x, y, z, grid, fit.model, mask=mask, n_neighbors=params.n_neighbors,
-                           transform=kind.krige_transform, progress=progress)
+    cell_region = None
+    if groups is None:
+        mask = surface_mask(grid, deck, x, y, max_distance=max_d)
+        mean, var = krige_grid(x, y, z, grid, fit.model, mask=mask,
+                               n_neighbors=params.n_neighbors, transform=kind.krige_transform,
+                               progress=progress)
+    else:
+        cell_region, mean, var, region_notes = krige_regions(
+            x, y, z, groups, regions, grid, fit.model, max_distance=max_d,
+            n_neighbors=params.n_neighbors, transform=kind.krige_transform)
+        counts = ", ".join(str(int((groups == r).sum())) for r in range(len(regions)))
+        fit = dataclasses.replace(fit, notes=(
+            *fit.notes,
+            f"kriged in {len(regions)} continuity regions split by joints that break the "
+            f"mat's continuity ({counts} readings): one variogram fitted on pairs within a "
+            "region, each region kriged from its own readings only", *region_notes))
     res = pd.DataFrame({"reading_id": readings["reading_id"], "x_local": x, "y_local": y,
                         "residual": np.asarray(cv.residuals, float)})
     interval = kind.contour_interval_for(params)
     check_kind_interval(kind, interval)
-    lines = contour_lines(mean, grid, interval=interval)
-    bands = contour_bands(mean, grid, interval=interval)
+    if cell_region is None:
+        lines = contour_lines(mean, grid, interval=interval)
+        bands = contour_bands(mean, grid, interval=interval)
+    else:  # traced region by region: no contour runs along a breaking joint
+        lines, bands = contours_by_region(mean, grid, cell_region, interval=interval)
     classes = _class_polygons(kind, mean, grid, deck, class_set)
     return KindSurface(kind, grid, mean, var, fit, cv.to_dict(value_unit=kind.canonical_unit),
-                       res, len(z), interval, lines, bands, classes, directional)
+                       res, len(z), interval, lines, bands, classes, directional,
+                       regions=cell_region)
 
 
 def check_kind_interval(kind: MeasurementKind, interval: float) -> None:

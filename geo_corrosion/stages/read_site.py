@@ -28,6 +28,8 @@ from geo_corrosion.config import (
     ControlPoint,
     DrawingParams,
     GridConfig,
+    GroundConnection,
+    JointRef,
     Key,
     LayerRef,
     LayoutParams,
@@ -115,6 +117,45 @@ def _layer(data: object, where: str, root: Path) -> LayerRef:
     )
 
 
+def _joints(t: Table, root: Path) -> tuple[JointRef, ...]:
+    """Read ``joints``: one joint layer reference (a table or a path) or a list of them."""
+    if not t.has("joints"):
+        return ()
+    raw = t.data["joints"]
+    many = isinstance(raw, list)
+    items = raw if many else [raw]
+    out = []
+    for i, item in enumerate(items):
+        jw = f"{t.key('joints')}[{i}]" if many else t.key("joints")
+        if isinstance(item, str):
+            item = {"path": item}
+        jt = _table(item, jw, "levels.joints")
+        keys = TABLES["levels.joints"]
+        rest = {k: v for k, v in jt.data.items() if k not in ("type", "breaks_continuity")}
+        out.append(JointRef(joint_type=_read(jt, keys["type"]),
+                            breaks_continuity=_read(jt, keys["breaks_continuity"]),
+                            ref=_layer(rest, jw, root)))
+    return tuple(out)
+
+
+def _ground_connections(t: Table) -> tuple[GroundConnection, ...]:
+    """Read a survey's ``ground_connections``: a list of ``{ x, y, label }``."""
+    out = []
+    seen: dict[str, int] = {}
+    for i, g in enumerate(t.array("ground_connections")):
+        gw = f"{t.key('ground_connections')}[{i}]"
+        gt = _table(g, gw, "surveys.ground_connections")
+        keys = TABLES["surveys.ground_connections"]
+        label = _read(gt, keys["label"], f"G{i + 1}")
+        if label in seen:
+            raise SiteFileError(
+                f"{gt.key('label')}: ground connection {label!r} is already named by "
+                f"ground_connections[{seen[label]}] of this survey; give each its own label")
+        seen[label] = i
+        out.append(GroundConnection(x=_read(gt, keys["x"]), y=_read(gt, keys["y"]), label=label))
+    return tuple(out)
+
+
 def _grid(data: object, where: str) -> GridConfig:
     t = _table(data, where, "levels.grid")
     keys = TABLES["levels.grid"]
@@ -177,7 +218,7 @@ def _level(data: object, where: str, root: Path) -> LevelConfig:
             _layer(e, f"{t.key('exclusions')}[{i}]", root)
             for i, e in enumerate(t.array("exclusions"))
         ),
-        joints=_layer(t.data["joints"], t.key("joints"), root) if t.has("joints") else None,
+        joints=_joints(t, root),
         overlays=tuple(overlays),
         grid=_grid(t.data["grid"], t.key("grid")),
         specified_cover_mm=_read(t, keys["specified_cover"]),
@@ -237,6 +278,7 @@ def _survey(data: object, where: str, root: Path, level_ids: set[str]) -> Survey
         where=where,
         options=options,
         allow_outside=allow,
+        ground_connections=_ground_connections(t),
     )
 
 

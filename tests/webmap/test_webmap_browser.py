@@ -53,6 +53,7 @@ def _expected_layers(run_dir: Path) -> dict[str, list[str]]:
                             ("classes_corrosion_rate", "corrosion rate classes"),
                             ("combined_classes", "combined condition"),
                             ("delaminations", "delaminations"), ("spalls", "spalls"),
+                            ("joints", "joints"),
                             ("zones", "zones"), ("repairs", "repairs")):
             if f"{lid}_{what}" in layers:
                 want.append(f"{name}: {label}")

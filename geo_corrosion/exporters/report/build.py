@@ -19,6 +19,7 @@ import dataclasses
 import importlib
 import io
 import logging
+from collections.abc import Mapping
 from pathlib import Path
 from types import ModuleType
 from typing import TYPE_CHECKING, Any, ClassVar
@@ -168,6 +169,21 @@ def _repair_layout_png(gpkg: RunLayers, lid: str) -> str | None:
         g = gpkg.get(f"{lid}_{what}")
         if g is not None:
             g.plot(ax=ax, **kw)
+    joints = gpkg.get(f"{lid}_joints")
+    joint_note = ""
+    if joints is not None and len(joints):
+        from geo_corrosion.condition.plots import JOINT_STYLES
+
+        brk = (joints["breaks_continuity"].astype(bool) if "breaks_continuity" in joints.columns
+               else [False] * len(joints))
+        for geom, b in zip(joints.geometry, brk, strict=True):
+            st = JOINT_STYLES[bool(b)]
+            for part in getattr(geom, "geoms", [geom]):
+                xy = list(part.coords)
+                ax.plot([p[0] for p in xy], [p[1] for p in xy], color=st["color"],
+                        lw=st["lw"], linestyle=st["ls"])
+        joint_note = ("\njoints dashed (thick purple: expansion/isolation, the mat is not "
+                      "continuous across it)")
     if rep is not None:
         rep.boundary.plot(ax=ax, color="#0072B2", linewidth=1.0)
         for rid, geom in zip(rep["repair_id"], rep.geometry, strict=True):
@@ -181,7 +197,7 @@ def _repair_layout_png(gpkg: RunLayers, lid: str) -> str | None:
     ax.ticklabel_format(useOffset=False, style="plain")
     ax.tick_params(labelsize=6)
     ax.set_title("repair layout: saw-cut outlines (blue, numbered as in the repair list), "
-                 "delaminations (vermillion), spalls (pink)", fontsize=7)
+                 f"delaminations (vermillion), spalls (pink){joint_note}", fontsize=7)
     fig.text(0.01, 0.005, SHORT_CAUTION, fontsize=6, wrap=True)
     buf = io.BytesIO()
     fig.savefig(buf, format="png", bbox_inches="tight")
@@ -244,6 +260,27 @@ def _quantities(schedule: tuple[ScheduleRow, ...], lid: str | None) -> str:
 # --------------------------------------------------------------------------- sections
 
 
+def _joints_note(gpkg: RunLayers, lid: str, kinds: Mapping[str, Any]) -> str:
+    """Say which joints break the mat's continuity and how the surfaces treated them."""
+    j = gpkg.get(f"{lid}_joints")
+    if j is None or not len(j) or "breaks_continuity" not in j.columns:
+        return ""
+    brk = j["breaks_continuity"].astype(bool)
+    if not brk.any():
+        return ""
+    types = ", ".join(sorted({str(t) for t in j.loc[brk, "joint_type"]}))
+    split = [k.replace("_", " ") for k, v in kinds.items()
+             if v.surface is not None
+             and any("continuity regions" in n for n in v.surface.variogram.notes)]
+    how = (f" The {', '.join(split)} surface{'s were' if len(split) > 1 else ' was'} kriged in "
+           "each region from that region's readings only; no contour crosses such a joint."
+           if split else "")
+    return (f'<p class="joints">{int(brk.sum())} joint line(s) of type {_e(types)} break the '
+            "electrical continuity of the reinforcing mat and split the deck into continuity "
+            f"regions (drawn thick and dashed).{_e(how)} A half-cell reading needs a connection "
+            "to the mat it is on [ACI-222R-19, from memory; ASTM-C876-22a].</p>")
+
+
 def _level_section(run_dir: Path, lid: str, info: LevelRecord, man: Manifest,
                    units: ReportUnits, gpkg: RunLayers) -> str:
     plots = run_dir / "plots"
@@ -272,7 +309,9 @@ def _level_section(run_dir: Path, lid: str, info: LevelRecord, man: Manifest,
                                        ("share", "share of deck (%)")]) + "</div>")
     parts.append("</div>")
     parts.append(_condition_block(info, units))
-    parts.append('<h3 class="maps">Maps</h3><div class="figs">')
+    parts.append('<h3 class="maps">Maps</h3>')
+    parts.append(_joints_note(gpkg, lid, kinds))
+    parts.append('<div class="figs">')
     for k in kinds:
         parts.append(_figure(plots / f"{lid}_{k}_classes.png", f"{info.name}: "
                              f"{k.replace('_', ' ')} classes"))

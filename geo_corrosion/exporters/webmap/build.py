@@ -29,6 +29,7 @@ import numpy as np
 
 from geo_corrosion._io import atomic_write
 from geo_corrosion.cautions import CAUTIONS
+from geo_corrosion.config import BREAKING_JOINT_TYPES
 from geo_corrosion.errors import ExportError
 from geo_corrosion.exporters._html import escape, png_data_url
 from geo_corrosion.exporters.base import Exporter
@@ -66,6 +67,14 @@ COLORS = {"slab": "#303030", "delamination": "#D55E00", "spall": "#CC79A7",
           "repair": "#0072B2", "exclusion": "#999999", "contour": "#000000",
           "flag": "#000000"}
 NO_ACTION_COLOR = "#AAAAAA"
+#: Joint lines: breaking (expansion, isolation: the mat is not continuous across them) and
+#: not (construction, control), told apart by colour, width and dash (Okabe & Ito hues).
+JOINT_STYLES = {
+    "break": {"color": "#CC79A7", "weight": 4, "dashArray": "10 4", "opacity": 0.95},
+    "cont": {"color": "#555555", "weight": 2, "dashArray": "3 4", "opacity": 0.9},
+}
+JOINT_LABELS = {"break": "expansion/isolation joint (mat not continuous across it)",
+                "cont": "construction/control joint"}
 ZONE_COLORS = ("#0072B2", "#009E73", "#56B4E9", "#E69F00", "#CC79A7", "#F0E442", "#D55E00")
 _HEX = re.compile(r"^#[0-9A-Fa-f]{6}$")
 
@@ -305,6 +314,7 @@ def _level(b: _Builder, run_dir: Path, lid: str, info: LevelRecord, layers: RunL
                             {"label": "label", "area_rep": f"area ({units.area})",
                              "source": "source"}, show=first),
               True, _swatch_legend(f"{lname}: sounding", [(color, what + "s (from the plans)")]))
+    _joints(b, lid, lname, layers, first)
     zones = layers.get(f"{lid}_zones")
     if zones is not None:
         zones = zones.reset_index(drop=True)
@@ -336,6 +346,30 @@ def _level(b: _Builder, run_dir: Path, lid: str, info: LevelRecord, layers: RunL
                                    [(COLORS["repair"],
                                      "saw-cut repair outline; click for details")]))
     _readings(b, lid, lname, layers, kinds)
+
+
+def _joints(b: _Builder, lid: str, lname: str, layers: RunLayers, first: bool) -> None:
+    """Add a level's joint lines, breaking and not styled apart, with their legend."""
+    j = layers.get(f"{lid}_joints")
+    if j is None or not len(j):
+        return
+    j = j.reset_index(drop=True)
+    if "joint_type" not in j.columns:  # a run folder written before joints had types
+        j["joint_type"] = "construction"
+    brk = (j["breaks_continuity"].astype(bool) if "breaks_continuity" in j.columns
+           else j["joint_type"].isin(BREAKING_JOINT_TYPES))
+    j["_c"] = ["break" if v else "cont" for v in brk]
+    j["continuity"] = ["broken: kriged apart" if v else "continuous" for v in brk]
+    used = [k for k in ("break", "cont") if k in set(j["_c"])]
+    items = "".join(
+        f'<div><span class="gc-sw gc-line" style="background:{JOINT_STYLES[k]["color"]};'
+        f'height:{JOINT_STYLES[k]["weight"]}px"></span>{JOINT_LABELS[k]}</div>' for k in used)
+    b.add(lid, _geojson(j, f"{lname}: joints",
+                        lambda f: JOINT_STYLES.get(f["properties"].get("_c", "cont"),
+                                                   JOINT_STYLES["cont"]),
+                        {"joint_type": "joint type", "continuity": "bar continuity",
+                         "source": "source"}, show=first, style_columns=("_c",)),
+          True, f'<div class="gc-leg-title">{lname}: joints</div>{items}')
 
 
 def _class_layers(lid: str, kinds: dict[str, KindRecord], layers: RunLayers
