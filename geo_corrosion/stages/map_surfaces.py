@@ -30,6 +30,7 @@ from geo_corrosion.errors import KrigingError
 from geo_corrosion.measurements import MeasurementKind
 from geo_corrosion.model.site import Level, Survey
 from geo_corrosion.model.surface import KindSurface, LevelSurfaces
+from geo_corrosion.stages.map_points import kind_points, points_record
 from geo_corrosion.surfaces import (
     CrossValidation,
     GridSpec,
@@ -43,6 +44,16 @@ from geo_corrosion.surfaces import (
     grid_for_polygon,
     krige_grid,
     surface_mask,
+)
+from geo_corrosion.surfaces.density import MIN_READINGS_FOR_SURFACE as DEFAULT_MIN_READINGS
+from geo_corrosion.surfaces.density import (
+    SparseReadingsError,
+    count_reason,
+    density_rule,
+    kind_neighbourhood,
+    nearest_neighbour_spacing,
+    spacing_reason,
+    surface_reason,
 )
 from geo_corrosion.units import LENGTH_TO_M, ReportUnits
 
@@ -193,7 +204,6 @@ def build_surface(
     """
     u = LENGTH_TO_M[level.unit]
     cell = params.cell_size_m / u
-    max_d = params.max_distance_m / u
     col = kind.value_column
     readings = merge_repeats(readings, col)
     x = readings["x_local"].to_numpy(float)
@@ -211,6 +221,14 @@ def build_surface(
               else (chosen,))
     fit = fit_variogram(x, y, z, models=models, transform=kind.krige_transform,
                         n_neighbors=params.n_neighbors, fixed=fixed or None)
+    # the density rule and the kind's own neighbourhood (surfaces/density.py)
+    spacing = nearest_neighbour_spacing(x, y)
+    sparse = spacing_reason(spacing, float(fit.model.range), density_rule(params.kinds, kind.name),
+                            level.unit)
+    if sparse is not None:
+        raise SparseReadingsError(sparse)
+    hood = kind_neighbourhood(params.kinds, params.max_distance_m, kind.name, spacing,
+                              float(fit.model.range), u)
     cv = cross_validate(x, y, z, fit.model, n_neighbors=params.n_neighbors,
                         transform=kind.krige_transform)
     if params.calibrate_variance and not ({"nugget", "psill"} & set(fixed)):
@@ -218,9 +236,10 @@ def build_surface(
     directional = directional_variograms(x, y, z, kind, fit)
     deck = level.deck
     grid = grid_for_polygon(deck, cell)
-    mask = surface_mask(grid, deck, x, y, max_distance=max_d)
+    mask = surface_mask(grid, deck, x, y, max_distance=hood.mask_distance)
     mean, var = krige_grid(x, y, z, grid, fit.model, mask=mask, n_neighbors=params.n_neighbors,
-                           transform=kind.krige_transform, progress=progress)
+                           radius=hood.search_radius, transform=kind.krige_transform,
+                           progress=progress)
     res = pd.DataFrame({"reading_id": readings["reading_id"], "x_local": x, "y_local": y,
                         "residual": np.asarray(cv.residuals, float)})
     interval = kind.contour_interval_for(params)
@@ -229,7 +248,7 @@ def build_surface(
     bands = contour_bands(mean, grid, interval=interval)
     classes = _class_polygons(kind, mean, grid, deck, class_set)
     return KindSurface(kind, grid, mean, var, fit, cv.to_dict(value_unit=kind.canonical_unit),
-                       res, len(z), interval, lines, bands, classes, directional)
+                       res, len(z), interval, lines, bands, classes, directional, hood)
 
 
 def check_kind_interval(kind: MeasurementKind, interval: float) -> None:
@@ -245,8 +264,9 @@ def check_kind_interval(kind: MeasurementKind, interval: float) -> None:
                            what=f"{kind.name} surfaces")
 
 
-#: Fewest usable readings for which a kind is kriged on a level.
-MIN_READINGS_FOR_SURFACE = 30
+#: Fewest usable readings for which a kind is kriged on a level (the default of the density
+#: rule, :mod:`geo_corrosion.surfaces.density`; ``[run.kinds.<kind>] min_readings_for_surface``).
+MIN_READINGS_FOR_SURFACE = DEFAULT_MIN_READINGS
 
 
 def reading_statistics(values: NDArray[np.float64]) -> dict[str, float]:
@@ -298,23 +318,32 @@ def map_level(level: Level, surveys: Sequence[Survey], flags: pd.DataFrame, para
             entry["class_share_of_readings"] = {str(k): float(v / len(readings))
                                                 for k, v in vc.items()}
         out.kinds[name] = entry
-        if len(readings) < MIN_READINGS_FOR_SURFACE:
-            out.skipped[name] = (f"{len(readings)} usable readings; a kriged surface needs at "
-                                 f"least {MIN_READINGS_FOR_SURFACE}")
-            entry["surface"] = None
-            entry["surface_skipped"] = out.skipped[name]
-            say(f"level {level.id}: {name}: no surface ({out.skipped[name]})")
-            continue
-        say(f"level {level.id}: kriging {len(readings)} {name} readings")
         class_set = next((sv.config.options.get("class_set") for sv in of_kind
                           if sv.config.options.get("class_set")), None)
+        rule = density_rule(params.kinds, name)
+        spacing = (nearest_neighbour_spacing(readings["x_local"], readings["y_local"])
+                   if len(readings) else float("nan"))
+        few = (count_reason(len(readings), rule) if len(readings)
+               else "no usable readings, so there is nothing to map")
+        entry["representation"] = "points" if len(readings) else None
+        entry["representation_reason"] = few
+        entry["spacing"] = {"median_nearest_neighbour": spacing if math.isfinite(spacing)
+                            else None, "unit": level.unit}
+        entry["density_rule"] = rule.to_dict()
+        if few is not None:
+            _show_as_points(out, entry, level, kind, readings, few, class_set)
+            say(f"level {level.id}: {name}: points, no surface ({few})")
+            continue
+        say(f"level {level.id}: kriging {len(readings)} {name} readings")
         try:
             s = build_surface(level, kind, readings, params, class_set=class_set)
-        except KrigingError as err:
-            out.skipped[name] = str(err)
-            entry["surface_skipped"] = str(err)
-            say(f"level {level.id}: {name}: no surface: {err}")
+        except KrigingError as err:  # SparseReadingsError too: readings too far apart
+            _show_as_points(out, entry, level, kind, readings, str(err), class_set)
+            say(f"level {level.id}: {name}: points, no surface: {err}")
             continue
+        entry["representation"] = "surface"
+        entry["representation_reason"] = surface_reason(
+            len(readings), spacing, float(s.fit.model.range), rule, level.unit)
         out.surfaces[name] = s
         out.readings[name] = readings
         vunit = (kind.canonical_unit if kind.krige_transform is None
@@ -329,6 +358,8 @@ def map_level(level: Level, surveys: Sequence[Survey], flags: pd.DataFrame, para
             "directional_variograms": s.directional,
             "contour_interval": s.interval, "kriged_in": s.kind.krige_transform or "linear",
         }
+        if s.neighbourhood is not None:
+            entry["neighbourhood"] = s.neighbourhood.to_dict(level.unit)
         if s.classes is not None and len(s.classes):
             deck_area = level.deck.area * a2
             entry["class_areas"] = [
@@ -338,3 +369,19 @@ def map_level(level: Level, surveys: Sequence[Survey], flags: pd.DataFrame, para
                  "share_of_deck": r["area_local"] * a2 / deck_area}
                 for r in s.classes.to_dict("records")]
     return out
+
+
+def _show_as_points(out: LevelSurfaces, entry: dict[str, Any], level: Level,
+                    kind: MeasurementKind, readings: pd.DataFrame, reason: str,
+                    class_set: str | None) -> None:
+    """Record a kind that gets no surface; with usable readings, show them as points."""
+    out.skipped[kind.name] = reason
+    entry["surface"] = None
+    entry["surface_skipped"] = reason
+    entry["representation_reason"] = reason
+    if not len(readings):
+        return
+    entry["representation"] = "points"
+    p = kind_points(kind, readings, level.deck, reason, class_set=class_set)
+    out.points[kind.name] = p
+    entry["points"] = points_record(p, a2=LENGTH_TO_M[level.unit] ** 2)
