@@ -859,8 +859,8 @@ TABLES: dict[str, TableSpec] = {t.name: t for t in (
             le=1000.0, example='"20 ft"', default_doc="derived: see below",
             help="No surface of this kind farther than this from its readings",
             doc="Overrides `[run] max_distance` for this kind. Derived: max(2.5 x median "
-                "nearest-neighbour spacing, min(fitted practical range, 5 x spacing)); the "
-                "search radius is the same, never less than `max_distance`."),
+                "nearest-neighbour spacing, min(fitted practical range, 5 x spacing)). The "
+                "search radius is the larger of this and the fitted practical range."),
     )),
     TableSpec("webmap", keys_of(RunParams, "webmap", home="run")),
     TableSpec("levels", keys_of(LevelConfig, "levels")),

@@ -604,7 +604,8 @@ def _site_toml(seed: int) -> str:
         "",
         "[run]",
         'cell_size = "1 ft"',
-        'max_distance = "6 ft"',
+        "# no max_distance: each kind's search radius and mask distance come from its own",
+        "# reading spacing and fitted range (docs/methods.md §3.4)",
         "contour_interval_mv = 50",
         'repair_margin = "6 in"',
     ]

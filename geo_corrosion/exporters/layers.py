@@ -146,7 +146,8 @@ def site_layers(result: RunResult) -> dict[str, gpd.GeoDataFrame]:
         if not flags.empty:
             f = (flags[flags["reading_id"] != ""].groupby("reading_id")["rule"]
                  .agg(lambda r: ",".join(sorted(set(r)))))
-            df["qa_flags"] = df["reading_id"].map(f).fillna("")
+            # object first: a kind none of whose readings is flagged maps to all-NaN floats
+            df["qa_flags"] = df["reading_id"].map(f).astype(object).fillna("")
         else:
             df["qa_flags"] = ""
         layers[f"readings_{kind}"] = df

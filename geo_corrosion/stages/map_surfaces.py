@@ -48,6 +48,7 @@ from geo_corrosion.surfaces import (
 from geo_corrosion.surfaces.density import MIN_READINGS_FOR_SURFACE as DEFAULT_MIN_READINGS
 from geo_corrosion.surfaces.density import (
     SparseReadingsError,
+    binding_radius,
     count_reason,
     density_rule,
     kind_neighbourhood,
@@ -237,9 +238,12 @@ def build_surface(
     deck = level.deck
     grid = grid_for_polygon(deck, cell)
     mask = surface_mask(grid, deck, x, y, max_distance=hood.mask_distance)
+    cx, cy = grid.row_centers(slice(None))
+    flat = mask.ravel()
+    radius = binding_radius(x, y, cx[flat], cy[flat], params.n_neighbors, hood.search_radius,
+                            fit.model.transform_coords)
     mean, var = krige_grid(x, y, z, grid, fit.model, mask=mask, n_neighbors=params.n_neighbors,
-                           radius=hood.search_radius, transform=kind.krige_transform,
-                           progress=progress)
+                           radius=radius, transform=kind.krige_transform, progress=progress)
     res = pd.DataFrame({"reading_id": readings["reading_id"], "x_local": x, "y_local": y,
                         "residual": np.asarray(cv.residuals, float)})
     interval = kind.contour_interval_for(params)

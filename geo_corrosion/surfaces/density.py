@@ -18,18 +18,21 @@ per level:
 
 Otherwise the kind is shown as its readings, coloured by class (``"points"``).
 
-**Neighbourhood.**  A surfaced kind's search radius (readings farther than this from a cell
-are not used for it) and mask distance (a cell farther than this from every reading is left
-empty) are derived from that kind's spacing ``s`` and fitted practical range ``R``::
+**Neighbourhood.**  A surfaced kind's mask distance (a cell farther than this from every
+reading is left empty) and search radius (readings farther than this from a cell are not
+used for it; within it, the ``n_neighbors`` nearest are) are derived from that kind's
+spacing ``s`` and fitted practical range ``R``::
 
-    radius = max(2.5 s, min(R, 5 s))
+    mask distance = max(2.5 s, min(R, 5 s))
+    search radius = max(mask distance, R)
 
 2.5 spacings put about twenty readings of a regular grid within reach of every cell; beyond
 the range a reading carries no information about the cell, and 5 spacings keep a dense
-survey with a long range from being extrapolated far past its readings.  The mask distance
-is the same length.  ``max_distance`` (per kind in ``[run.kinds.<kind>]``, else site-wide in
-``[run]``) overrides the mask distance; the search radius is then never less than it, so
-every cell drawn has a reading in reach.
+survey with a long range from being extrapolated far past its readings.  The search radius
+reaches at least the range, so a cell is kriged from every correlated reading among its
+nearest, and at least the mask distance, so every cell drawn has a reading in reach.
+``max_distance`` (per kind in ``[run.kinds.<kind>]``, else site-wide in ``[run]``) overrides
+the mask distance.
 """
 
 from __future__ import annotations
@@ -49,7 +52,7 @@ __all__ = ["MIN_READINGS_FOR_SURFACE", "MAX_SPACING_TO_RANGE", "SEARCH_SPACINGS"
            "MAX_SPACINGS", "DensityRule", "Neighbourhood", "nearest_neighbour_spacing",
            "density_rule", "count_reason", "spacing_reason", "neighbourhood",
            "DENSITY_RULE_TEXT", "NEIGHBOURHOOD_RULE_TEXT", "SparseReadingsError",
-           "surface_reason", "kind_neighbourhood"]
+           "surface_reason", "kind_neighbourhood", "binding_radius"]
 
 
 class SparseReadingsError(KrigingError):
@@ -60,7 +63,7 @@ class SparseReadingsError(KrigingError):
 MIN_READINGS_FOR_SURFACE = 30
 #: Largest median nearest-neighbour spacing, as a fraction of the practical range (default).
 MAX_SPACING_TO_RANGE = 0.5
-#: The search radius is at least this many median spacings.
+#: The mask distance is at least this many median spacings.
 SEARCH_SPACINGS = 2.5
 #: ... and, unless the range is shorter, at most this many.
 MAX_SPACINGS = 5.0
@@ -68,9 +71,9 @@ MAX_SPACINGS = 5.0
 DENSITY_RULE_TEXT = ("a surface needs at least min_readings_for_surface usable readings and a "
                      "median nearest-neighbour spacing of at most max_spacing_to_range times "
                      "the fitted practical range")
-NEIGHBOURHOOD_RULE_TEXT = ("search radius = mask distance = max(2.5 x median nearest-neighbour "
-                           "spacing, min(fitted practical range, 5 x spacing)); max_distance "
-                           "overrides the mask distance and the search radius is never less")
+NEIGHBOURHOOD_RULE_TEXT = ("mask distance = max(2.5 x median nearest-neighbour spacing, "
+                           "min(fitted practical range, 5 x spacing)), or max_distance when "
+                           "given; search radius = max(mask distance, fitted practical range)")
 
 
 @dataclass(frozen=True)
@@ -161,11 +164,12 @@ def neighbourhood(spacing: float, practical_range: float, *,
         An explicit mask distance (``max_distance`` of the site file); ``basis`` names it.
     """
     s = spacing if math.isfinite(spacing) and spacing > 0 else practical_range
-    radius = max(SEARCH_SPACINGS * s, min(practical_range, MAX_SPACINGS * s))
-    if max_distance is None:
-        return Neighbourhood(radius, radius, spacing, practical_range, "derived")
-    return Neighbourhood(max(radius, max_distance), max_distance, spacing, practical_range,
-                         basis)
+    mask = max(SEARCH_SPACINGS * s, min(practical_range, MAX_SPACINGS * s))
+    if max_distance is not None:
+        mask = max_distance
+    else:
+        basis = "derived"
+    return Neighbourhood(max(mask, practical_range), mask, spacing, practical_range, basis)
 
 
 def surface_reason(n: int, spacing: float, practical_range: float, rule: DensityRule,
@@ -193,3 +197,24 @@ def kind_neighbourhood(kinds: Mapping[str, Mapping[str, Any]], site_max_distance
                              max_distance=site_max_distance_m / m_per_unit,
                              basis="[run] max_distance")
     return neighbourhood(spacing, practical_range)
+
+
+def binding_radius(x: ArrayLike, y: ArrayLike, cx: ArrayLike, cy: ArrayLike, n_neighbors: int,
+                   radius: float, transform: Any = None) -> float | None:
+    """Return ``radius`` when it leaves out one of some cell's ``n_neighbors`` nearest readings.
+
+    Otherwise None: every cell's nearest readings lie within the radius, so the kriging
+    neighbourhood is the same without it (and the search need not rank readings at equal
+    distances differently).  ``transform`` maps plan coordinates into the variogram's
+    isotropic space (``VariogramModel.transform_coords``), where the radius applies.
+    """
+    xa, ya = np.asarray(x, float).ravel(), np.asarray(y, float).ravel()
+    qa, qb = np.asarray(cx, float).ravel(), np.asarray(cy, float).ravel()
+    if transform is not None:
+        xa, ya = transform(xa, ya)
+        qa, qb = transform(qa, qb)
+    if not qa.size or not xa.size:
+        return None
+    k = min(int(n_neighbors), xa.size)
+    d, _ = cKDTree(np.column_stack([xa, ya])).query(np.column_stack([qa, qb]), k=[k])
+    return radius if float(np.max(d)) > radius else None
