@@ -362,7 +362,8 @@ def _points(b: _Builder, lid: str, lname: str, kind: str, kv: KindRecord, layers
     fields = {"point_id": "point", "value_unit": "value", "class": "class",
               "representation": "shown as"}
     if "class" in pts and "color" in pts:
-        seen = dict.fromkeys(zip(pts["_c"], pts["class"], strict=True))
+        order = pts.sort_values("class_code") if "class_code" in pts else pts
+        seen = dict.fromkeys(zip(order["_c"], order["class"], strict=True))
         items = [(c, _e(k)) for c, k in seen]
     else:
         items = [("#0072B2", "reading")]
