@@ -7,8 +7,8 @@ per level:
 
 1. it has at least ``min_readings_for_surface`` usable readings (default
    :data:`MIN_READINGS_FOR_SURFACE`, 30): with fewer, the experimental variogram has too few
-   pairs per lag to be fitted [Webster-Oliver-2007 §4.5, from memory: 100 to 150 readings
-   for a reliable variogram, fewer give an unstable one];
+   pairs per lag to be fitted (100 to 150 readings give a reliable variogram, fewer an
+   unstable one [Webster-Oliver-2007 §4.5, from memory]);
 2. the median nearest-neighbour spacing of its readings is at most
    ``max_spacing_to_range`` (default :data:`MAX_SPACING_TO_RANGE`, 0.5) times the fitted
    practical range: readings farther apart than half the range leave most of the deck
