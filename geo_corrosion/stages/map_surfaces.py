@@ -4,9 +4,10 @@ For each level and measurement kind: the readings fit for mapping (QA errors,
 implausible values and readings outside the deck left out, never deleted), a
 fitted variogram chosen by cross-validation, local ordinary kriging onto a grid
 aligned with the level's survey grid, clipped to the slab minus exclusions and
-masked beyond ``max_distance`` of any reading, contour lines and bands, and the
-class areas of the kind's class set.  Geometry is produced in local grid
-coordinates; exporters transform it to the site CRS.
+masked beyond the kind's mask distance of any reading (its own, from its spacing and
+fitted range, or ``max_distance``), contour lines and bands, and the class areas of the
+kind's class set.  A kind too sparse for a surface is shown as its readings (points).
+Geometry is produced in local grid coordinates; exporters transform it to the site CRS.
 """
 
 from __future__ import annotations
@@ -289,8 +290,11 @@ def map_level(level: Level, surveys: Sequence[Survey], flags: pd.DataFrame, para
               ) -> LevelSurfaces:
     """Krige every kind surveyed on a level, with the statistics ``run.json`` keeps.
 
-    A kind with fewer than :data:`MIN_READINGS_FOR_SURFACE` usable readings, or whose
-    kriging fails, gets no surface; the reason is kept in ``skipped``.
+    A kind below the density rule of :mod:`geo_corrosion.surfaces.density` (fewer than
+    ``min_readings_for_surface`` usable readings, or readings too far apart for the fitted
+    range), or whose kriging fails, gets no surface: it is shown as points
+    (``LevelSurfaces.points``, :mod:`geo_corrosion.stages.map_points`) and the reason is kept
+    in ``skipped`` and in the kind's record (``representation``, ``representation_reason``).
 
     Parameters
     ----------
