@@ -622,10 +622,13 @@ class RunParams:
         "cell_size", "length", "1 ft", unit="m", ge=0.01, le=100.0, help="Kriging grid cell",
         doc="A level's grid may hold at most 20 million cells: `check` refuses a smaller cell "
             "before any work, saying the least cell size that fits.")
-    max_distance_m: float = key(
-        "max_distance", "length", "6 ft", unit="m", le=1000.0,
-        help="No surface farther than this from any reading",
-        doc="A cell farther than this from its nearest reading is left empty.")
+    max_distance_m: float | None = key(
+        "max_distance", "length", None, unit="m", gt=0, le=1000.0, example='"6 ft"',
+        default_doc="derived per kind",
+        help="No surface farther than this from any reading, for every kind",
+        doc="A cell farther than this from its nearest reading is left empty. Without it, each "
+            "kind's distance is derived from its reading spacing and fitted range (see "
+            "`[run.kinds.<kind>]`); `[run.kinds.<kind>] max_distance` overrides it for a kind.")
     contour_interval_mv: float = key(
         "contour_interval_mv", "number", 50, unit="mV", gt=0,
         help="Potential contour interval; more than 100 mV is refused",
@@ -688,6 +691,13 @@ class RunParams:
         "variogram", "tables", {}, type_doc="tables `[run.variogram.<kind>]`",
         default_doc="none: every parameter is fitted",
         help="Fixed variogram parameters of a measurement kind",
+        doc="One table per kind; see below.")
+    #: kind -> its surface rule and neighbourhood (``max_distance_m`` in metres), from
+    #: [run.kinds.<kind>]
+    kinds: dict[str, dict[str, Any]] = key(
+        "kinds", "tables", {}, type_doc="tables `[run.kinds.<kind>]`",
+        default_doc="none: the defaults below",
+        help="When a kind gets a surface, and how far it reaches",
         doc="One table per kind; see below.")
     #: [webmap].basemap_url: street-tile URL template (https, with {z}, {x}, {y}); None = none
     basemap_url: str | None = key(
@@ -923,7 +933,7 @@ _RUN_ORDER = (
     "resistivity_reference_c", "activation_energy_kj_mol", "cse_reference_c",
     "correct_only_outside_band", "calibrate_variance", "bar_diameter", "max_aggregate",
     "slab_thickness", "sawcut_depth", "axis_angle_deg", "anode_spacing", "min_zone_area",
-    "zone_smoothing", "variogram",
+    "zone_smoothing", "variogram", "kinds",
 )
 
 _CLASS_KEYS_DOC = "class key or list of class keys"
@@ -957,6 +967,22 @@ TABLES: dict[str, TableSpec] = {t.name: t for t in (
             default_doc="fitted", help="Minor/major range ratio"),
         Key("anisotropy_angle_deg", "number", None, unit="degrees", example="0.0",
             default_doc="fitted", help="Major axis, degrees counter-clockwise from grid x"),
+    )),
+    TableSpec("run.kinds.<kind>", _in(
+        "run.kinds.<kind>",
+        Key("min_readings_for_surface", "integer", 30, unit="readings", ge=3,
+            help="Fewest usable readings for a kriged surface",
+            doc="With fewer, the kind is shown as its readings, coloured by class, with their "
+                "Thiessen cells ([methods.md](methods.md) §3.4)."),
+        Key("max_spacing_to_range", "number", 0.5, unit="fraction", gt=0, le=10,
+            help="Largest median reading spacing, as a fraction of the fitted practical range",
+            doc="Readings farther apart are shown as points too."),
+        Key("max_distance", "length", None, unit="m", field="max_distance_m", gt=0,
+            le=1000.0, example='"20 ft"', default_doc="derived: see below",
+            help="No surface of this kind farther than this from its readings",
+            doc="Overrides `[run] max_distance` for this kind. Derived: max(2.5 x median "
+                "nearest-neighbour spacing, min(fitted practical range, 5 x spacing)). The "
+                "search radius is the larger of this and the fitted practical range."),
     )),
     TableSpec("webmap", keys_of(RunParams, "webmap", home="run")),
     TableSpec("drawings", keys_of(DrawingParams, "drawings")),

@@ -116,7 +116,7 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
         stats["planning"] = notes
         levels[lid] = LevelResult(lv, surfaces=mapped.surfaces, repairs=repairs, zones=zones,
                                   stats=stats, skipped=mapped.skipped, condition=condition,
-                                  readings=mapped.readings)
+                                  readings=mapped.readings, points=mapped.points)
     surveys = tuple(dataclasses.replace(s, frame=frames[s.id]) if s.id in frames else s
                     for s in site.surveys)
     schedule = schedule_quantities(levels.values(), units=units, contingency=params.contingency,

@@ -40,6 +40,7 @@ __all__ = [
     "plot_class_map",
     "plot_potential_vs_resistivity",
     "JOINT_STYLES",
+    "plot_class_points",
 ]
 
 #: Footer printed on every figure (wording ours, after [ASTM-C876-22a §4.8]).
@@ -408,4 +409,76 @@ def plot_potential_vs_resistivity(
     ax.set_title(title or "Potential vs resistivity (dashed: C876 limits; dotted: "
                  f"{resistivity_class_set.name} limits)", fontsize=9)
     ax.legend(fontsize=8, loc="lower right")
+    return _finish(fig, path, dpi)
+
+
+def plot_class_points(
+    x: ArrayLike,
+    y: ArrayLike,
+    values: ArrayLike,
+    path: str | os.PathLike[str],
+    *,
+    class_set: ClassSet | None,
+    reason: str,
+    quantity: str = "Corrosion rate",
+    unit: str = "",
+    plan_unit: str = "m",
+    cells: Sequence[Any] | None = None,
+    cell_label: str = "Thiessen (nearest-reading) cells, not a surface",
+    outline: Any = None,
+    title: str | None = None,
+    dpi: int = 150,
+) -> Path:
+    """Write a plan of readings coloured by class, for a kind too sparse for a surface.
+
+    Parameters
+    ----------
+    x, y, values : array_like
+        Reading locations (plan units) and values (the class set's unit); one reading is enough.
+    class_set : ClassSet or None
+        Colours the points by class; None: one colour.
+    reason : str
+        Why there is no surface; printed under the title.
+    cells : sequence of shapely polygons, optional
+        The readings' Thiessen cells, shaded lightly in the class colour and labelled as such.
+    outline : shapely geometry, optional
+        The deck, drawn as an outline.
+    """
+    xa = np.asarray(x, dtype=float).ravel()
+    ya = np.asarray(y, dtype=float).ravel()
+    v = np.asarray(values, dtype=float).ravel()
+    if not (xa.size == ya.size == v.size) or xa.size == 0:
+        raise ConditionError("plot_class_points needs one x, y and value per reading, at least one")
+    if class_set is not None:
+        codes = class_set.codes(v)
+        colors = [class_set.colors[c] if c >= 0 else "#999999" for c in codes]
+    else:
+        colors = ["#0072B2"] * v.size
+    fig = _figure(7.5, 6.0)
+    ax = fig.add_subplot(1, 1, 1)
+    if outline is not None:
+        for ring in _polygon_rings(outline):
+            ax.plot(ring[:, 0], ring[:, 1], color="#303030", lw=1.0)
+    if cells is not None:
+        for cell, col in zip(cells, colors, strict=True):
+            for ring in _polygon_rings(cell):
+                ax.fill(ring[:, 0], ring[:, 1], facecolor=col, alpha=0.18, edgecolor="#777777",
+                        lw=0.5)
+    ax.scatter(xa, ya, c=colors, s=46, edgecolors="black", linewidths=0.7, zorder=3,
+               label="reading")
+    handles: list[Any] = []
+    if class_set is not None:
+        handles = [Patch(color=c, label=lab)
+                   for c, lab in zip(class_set.colors, class_set.labels, strict=True)]
+    if cells is not None:
+        handles.append(Patch(facecolor="#DDDDDD", edgecolor="#777777", label=cell_label))
+    if handles:
+        ax.legend(handles=handles, fontsize=7, loc="upper left", bbox_to_anchor=(1.01, 1.0),
+                  title=f"{quantity} ({_UNIT_LABEL.get(unit, unit)})", title_fontsize=7)
+    ax.set_aspect("equal")
+    ax.set_xlabel(f"x ({plan_unit})")
+    ax.set_ylabel(f"y ({plan_unit})")
+    ttl = title or f"{quantity}: {v.size} readings"
+    ax.set_title(f"{ttl}\nreadings shown as points, no surface", fontsize=10)
+    fig.text(0.01, 0.035, f"No surface: {reason}.", fontsize=6.5, color="#222222", wrap=True)
     return _finish(fig, path, dpi)

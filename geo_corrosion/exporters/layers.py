@@ -17,6 +17,7 @@ from numpy.typing import NDArray
 from shapely.geometry.base import BaseGeometry
 
 from geo_corrosion.model.results import LevelResult, RunResult
+from geo_corrosion.model.surface import KindPoints
 from geo_corrosion.units import LENGTH_TO_M
 
 __all__ = ["level_layers", "site_layers", "to_site_frame"]
@@ -87,6 +88,8 @@ def level_layers(lr: LevelResult, crs: Any) -> dict[str, gpd.GeoDataFrame]:
             [{"reading_id": r, "residual": v, "unit": unit, "geometry": g}
              for r, v, g in zip(res["reading_id"], res["residual"], res_pts, strict=True)],
             lr, crs)
+    for name, p in lr.points.items():  # kinds too sparse for a surface: classed points
+        _points_layers(out, name, p, lr, crs, a2)
     cond = lr.condition
     if cond is not None and cond.combined_polygons is not None and len(cond.combined_polygons):
         c = cond.combined_polygons.copy()
@@ -106,6 +109,30 @@ def level_layers(lr: LevelResult, crs: Any) -> dict[str, gpd.GeoDataFrame]:
     return out
 
 
+def _points_layers(out: dict[str, gpd.GeoDataFrame], name: str, p: KindPoints, lr: LevelResult,
+                   crs: Any, a2: float) -> None:
+    """Add ``points_<kind>`` (classed readings) and ``thiessen_<kind>`` (their cells)."""
+    from shapely import points
+
+    from geo_corrosion.surfaces.thiessen import THIESSEN_LABEL
+
+    pts = p.points
+    cols = [c for c in ("reading_id", "point_id", "value", "unit", "class", "class_code",
+                        "color", "class_set") if c in pts]
+    rows = _records(pts[cols])
+    geoms = cast("NDArray[np.object_]", points(np.column_stack([pts["x_local"],
+                                                                pts["y_local"]])))
+    for r, g in zip(rows, geoms, strict=True):
+        r["representation"] = "points"
+        r["geometry"] = g
+    out[f"points_{name}"] = to_site_frame(rows, lr, crs)
+    cells = pts.drop_duplicates(subset=["x_local", "y_local"])
+    out[f"thiessen_{name}"] = to_site_frame(
+        [{**{c: r[c] for c in cols}, "label": THIESSEN_LABEL,
+          "area_m2": r["cell"].area * a2, "geometry": r["cell"]}
+         for r in _records(cells) if not r["cell"].is_empty], lr, crs)
+
+
 def site_layers(result: RunResult) -> dict[str, gpd.GeoDataFrame]:
     """Every vector layer of a run: per-level layers, readings and QA flags."""
     crs = result.site.crs
@@ -122,7 +149,8 @@ def site_layers(result: RunResult) -> dict[str, gpd.GeoDataFrame]:
         if not flags.empty:
             f = (flags[flags["reading_id"] != ""].groupby("reading_id")["rule"]
                  .agg(lambda r: ",".join(sorted(set(r)))))
-            df["qa_flags"] = df["reading_id"].map(f).fillna("")
+            # object first: a kind none of whose readings is flagged maps to all-NaN floats
+            df["qa_flags"] = df["reading_id"].map(f).astype(object).fillna("")
         else:
             df["qa_flags"] = ""
         layers[f"readings_{kind}"] = df

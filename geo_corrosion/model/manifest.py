@@ -47,6 +47,8 @@ __all__ = ["MANIFEST_NAME", "FORMAT_VERSION", "manifest", "read_run", "result_ma
            "DirectionalVariograms", "ClassArea", "ConditionRecord", "AreaBeyondThreshold",
            "SiteThreshold", "SiteThresholdUnavailable", "CombinedClassArea",
            "CombinedClassRecord", "CombinedRuleRecord", "CombinedRules", "LifeRange", "LifeSummary",
+           "SpacingRecord", "DensityRuleRecord", "NeighbourhoodRecord", "PointsClassCount",
+           "PointsRecord",
            "PlanningNotes", "ZoningRuleRecord", "ZoneRecord", "ScheduleRow"]
 
 MANIFEST_NAME = "run.json"
@@ -178,7 +180,7 @@ class RunParameters:
     """
 
     cell_size_m: float
-    max_distance_m: float
+    max_distance_m: float | None
     contour_interval_mv: float
     repair_margin_m: float
     merge_gap_m: float
@@ -200,6 +202,7 @@ class RunParameters:
     min_zone_area_m2: float
     zone_smoothing_m: float
     variogram: Mapping[str, Mapping[str, Any]]
+    kinds: Mapping[str, Mapping[str, Any]]
     basemap_url: str | None
     basemap_attribution: str | None
 
@@ -644,6 +647,60 @@ class ClassArea(_Record):
 
 
 @dataclass(frozen=True)
+class SpacingRecord(_Record):
+    """``kinds.<kind>.spacing``: median nearest-neighbour spacing of the usable readings.
+
+    None with fewer than two reading locations; ``unit`` is the level's plan unit.
+    """
+
+    median_nearest_neighbour: float | None
+    unit: str
+
+
+@dataclass(frozen=True)
+class DensityRuleRecord(_Record):
+    """``kinds.<kind>.density_rule``: the rule that decides surface or points."""
+
+    min_readings_for_surface: int
+    max_spacing_to_range: float
+
+
+@dataclass(frozen=True)
+class NeighbourhoodRecord(_Record):
+    """``kinds.<kind>.neighbourhood``: search radius and mask distance of a kind's surface.
+
+    In ``unit`` (the level's plan unit); ``basis`` says where the mask distance came from
+    (``derived``, ``[run.kinds.<kind>] max_distance`` or ``[run] max_distance``), ``rule``
+    states the derivation.
+    """
+
+    search_radius: float
+    mask_distance: float
+    unit: str
+    basis: str
+    rule: str
+
+
+@dataclass(frozen=True)
+class PointsClassCount(_Record):
+    """``kinds.<kind>.points.class_counts[]``: readings of one class, and their Thiessen area."""
+
+    class_name: str = field(metadata=_meta(key="class"))
+    readings: int
+    share_of_readings: float
+    thiessen_area_m2: float
+
+
+@dataclass(frozen=True)
+class PointsRecord(_Record):
+    """``kinds.<kind>.points``: a kind shown as its readings (too sparse for a surface)."""
+
+    points: int
+    class_counts: tuple[PointsClassCount, ...] | None = field(default=None,
+                                                               metadata=_meta(optional=True))
+
+
+@dataclass(frozen=True)
 class KindRecord(_Record):
     """``levels.<id>.kinds.<kind>``: a measurement kind on a level.
 
@@ -663,6 +720,15 @@ class KindRecord(_Record):
         ``surface_skipped``).
     class_areas : tuple of ClassArea or None
         Kinds with a class set and a surface.
+    representation : str or None
+        ``"surface"`` or ``"points"`` (None without usable readings);
+        ``representation_reason`` says why, in one sentence.
+    spacing, density_rule
+        The readings' spacing and the rule that chose the representation.
+    neighbourhood : NeighbourhoodRecord or None
+        Search radius and mask distance of the surface.
+    points : PointsRecord or None
+        A kind shown as points: the number of points and the class counts of readings.
     surface_key : bool
         Whether the JSON holds a ``surface`` key: a kind with too few readings has
         ``"surface": null``, one whose kriging failed has only ``surface_skipped``.
@@ -674,11 +740,18 @@ class KindRecord(_Record):
     statistics: Mapping[str, float]
     class_share_of_readings: Mapping[str, float] | None = field(
         default=None, metadata=_meta(optional=True))
+    representation: str | None = field(default=None, metadata=_meta(optional=True))
+    representation_reason: str | None = field(default=None, metadata=_meta(optional=True))
+    spacing: SpacingRecord | None = field(default=None, metadata=_meta(optional=True))
+    density_rule: DensityRuleRecord | None = field(default=None, metadata=_meta(optional=True))
     surface: SurfaceRecord | None = field(default=None, metadata=_meta(optional=True))
     skipped: str | None = field(default=None,
                                 metadata=_meta(key="surface_skipped", optional=True))
+    neighbourhood: NeighbourhoodRecord | None = field(default=None,
+                                                      metadata=_meta(optional=True))
     class_areas: tuple[ClassArea, ...] | None = field(default=None,
                                                       metadata=_meta(optional=True))
+    points: PointsRecord | None = field(default=None, metadata=_meta(optional=True))
     surface_key: bool = field(default=True, metadata=_meta(derived=True))
 
     @classmethod
@@ -690,7 +763,8 @@ class KindRecord(_Record):
         out = super().to_json()
         if self.surface is None and self.surface_key:
             out = _insert(out, "surface", None, before="surface_skipped"
-                          if "surface_skipped" in out else "class_areas")
+                          if "surface_skipped" in out else "neighbourhood"
+                          if "neighbourhood" in out else "class_areas")
         return out
 
 
@@ -836,6 +910,9 @@ class ConditionRecord(_Record):
         None without a potential surface of at least 20 readings.
     combined_classes, combined_rules
         None when the level has no potential, resistivity or corrosion-rate surface.
+    combined_kinds : mapping of str to str or None
+        Per rule-table column (role) with a kind on the level: whether its surface was used
+        by the combined classes, or why not (shown as points).
     life : mapping of str to LifeSummary or None
         By corrosion-rate survey id; None without one.
     """
@@ -847,6 +924,7 @@ class ConditionRecord(_Record):
     combined_classes: tuple[CombinedClassArea, ...] | None = field(
         default=None, metadata=_meta(optional=True))
     combined_rules: CombinedRules | None = field(default=None, metadata=_meta(optional=True))
+    combined_kinds: Mapping[str, str] | None = field(default=None, metadata=_meta(optional=True))
     life: Mapping[str, LifeSummary] | None = field(default=None, metadata=_meta(optional=True))
 
     @classmethod

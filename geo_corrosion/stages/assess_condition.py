@@ -45,6 +45,7 @@ from geo_corrosion.model.surface import (
     grid_values_at,
     with_role,
 )
+from geo_corrosion.stages.map_points import combined_kinds
 from geo_corrosion.units import LENGTH_TO_M
 
 __all__ = ["assess_condition", "assess_level", "log_space_moments", "life_estimates",
@@ -214,6 +215,8 @@ def assess_condition(level: Level, mapped: LevelSurfaces, surveys: Sequence[Surv
         mapped.surfaces, {k: r[mapped.surfaces[k].kind.value_column].to_numpy(float)
                           for k, r in mapped.readings.items()},
         deck=level.deck, unit=level.unit, rules=rules, low_cover=low_cover)
+    if "combined_rules" in condition.stats:  # which kinds the combined classes used, and why
+        condition.stats["combined_kinds"] = combined_kinds(mapped, COMBINED_COLUMNS)
     frames: dict[str, pd.DataFrame] = {}
     life: dict[str, Any] = {}
     cover = with_role(mapped.surfaces, Role.COVER)

@@ -382,6 +382,35 @@ def _variogram(t: Table) -> dict[str, dict[str, Any]]:
     return fixed
 
 
+def _kinds(t: Table) -> dict[str, dict[str, Any]]:
+    """Read the [run.kinds.<kind>] tables (surface rule and neighbourhood of a kind)."""
+    from geo_corrosion.errors import PluginError
+    from geo_corrosion.measurements import MEASUREMENTS
+
+    kt_all = t.data.get("kinds", {})
+    if not isinstance(kt_all, dict):
+        raise SiteFileError(f"{t.key('kinds')}: expected tables such as [run.kinds.cover]")
+    file = t.where.removesuffix(": [run]")
+    out: dict[str, dict[str, Any]] = {}
+    for kind, spec in kt_all.items():
+        w = f"{file}: [run.kinds.{kind}]"
+        if kind not in MEASUREMENTS.load():
+            known = MEASUREMENTS.names()
+            close = difflib.get_close_matches(kind, known, n=1)
+            hint = f"; did you mean {close[0]!r}?" if close else ""
+            raise SiteFileError(
+                f"{w}: unknown measurement kind {kind!r}{hint} Known kinds: {', '.join(known)}. "
+                "Name the table [run.kinds.<kind>] after one of them")
+        try:
+            MEASUREMENTS.get(kind)
+        except PluginError as err:
+            raise SiteFileError(f"{w}: {err}") from err
+        kt = _table(spec, w, "run.kinds.<kind>")
+        out[str(kind)] = {k.field: _read(kt, k) for k in TABLES["run.kinds.<kind>"].keys
+                          if kt.has(str(k.name))}
+    return out
+
+
 def _run(data: object, where: str) -> tuple[dict[str, Any], LayoutParams]:
     """Read [run]: the keyword arguments of :class:`RunParams`, and the repair layout's.
 
@@ -395,6 +424,8 @@ def _run(data: object, where: str) -> tuple[dict[str, Any], LayoutParams]:
     for k in TABLES["run"].keys:
         if k.field == "variogram":
             run["variogram"] = _variogram(t)
+        elif k.field == "kinds":
+            run["kinds"] = _kinds(t)
         else:
             (layout if k.owner is LayoutParams else run)[k.field] = _read(t, k)
     try:

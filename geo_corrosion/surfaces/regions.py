@@ -19,6 +19,7 @@ from numpy.typing import ArrayLike, NDArray
 from shapely.geometry.base import BaseGeometry
 
 from geo_corrosion.surfaces.contours import contour_bands, contour_lines
+from geo_corrosion.surfaces.density import binding_radius
 from geo_corrosion.surfaces.grid import GridSpec, krige_grid, surface_mask
 from geo_corrosion.surfaces.variogram import VariogramModel
 
@@ -101,12 +102,15 @@ def krige_regions(
     max_distance: float | None,
     n_neighbors: int = 16,
     transform: str | None = None,
+    search_radius: float | None = None,
 ) -> tuple[NDArray[np.intp], NDArray[np.float64], NDArray[np.float64], list[str]]:
     """Krige each region on one grid from its own readings only.
 
     A cell belongs to the region containing its centre and is kriged from that region's
     readings (so no neighbour crosses a region boundary), masked beyond ``max_distance`` of
-    them.  A region with fewer than 3 readings is left unmapped, and said so.
+    them, with neighbours searched within ``search_radius`` where it binds
+    (:func:`geo_corrosion.surfaces.density.binding_radius`).  A region with fewer than 3
+    readings is left unmapped, and said so.
 
     Returns
     -------
@@ -133,8 +137,14 @@ def krige_regions(
         m &= cell_region < 0  # a cell centre on a boundary goes to the first region
         if not m.any():
             continue
+        radius = None
+        if search_radius is not None:
+            cx, cy = grid.row_centers(slice(None))
+            flat = m.ravel()
+            radius = binding_radius(x[sel], y[sel], cx[flat], cy[flat], n_neighbors,
+                                    search_radius, model.transform_coords)
         mu, v = krige_grid(x[sel], y[sel], z[sel], grid, model, mask=m,
-                           n_neighbors=n_neighbors, transform=transform)
+                           n_neighbors=n_neighbors, radius=radius, transform=transform)
         mean[m], var[m] = mu[m], v[m]
         cell_region[m] = r
     return cell_region, mean, var, notes

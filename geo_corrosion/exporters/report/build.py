@@ -38,6 +38,8 @@ from geo_corrosion.exporters.report.text import (
     _surveys_table,
     _table,
     parameter_unit,
+    points_class_table,
+    points_sentences,
     sources_and_assumptions,
     summarize_correction,
 )
@@ -298,6 +300,7 @@ def _level_section(run_dir: Path, lid: str, info: LevelRecord, man: Manifest,
     parts.append(_table(srows, [("kind", "kind"), ("unit", "unit"), ("readings", "readings"),
                                 ("mapped", "mapped"), ("mean", "mean"), ("std", "std. dev."),
                                 ("p10", "10 %"), ("median", "median"), ("p90", "90 %")]))
+    parts.append(points_sentences(kinds))
     parts.append('<h3 class="classes">Class areas</h3><div class="cols">')
     for k, v in kinds.items():
         rows = [{"class": r.class_name, "area": r.area_report,
@@ -307,14 +310,16 @@ def _level_section(run_dir: Path, lid: str, info: LevelRecord, man: Manifest,
             parts.append(f'<div class="col"><h4>{_e(k.replace("_", " "))}</h4>')
             parts.append(_table(rows, [("class", "class"), ("area", f"area ({units.area})"),
                                        ("share", "share of deck (%)")]) + "</div>")
+        parts.append(points_class_table(k, v))
     parts.append("</div>")
     parts.append(_condition_block(info, units))
     parts.append('<h3 class="maps">Maps</h3>')
     parts.append(_joints_note(gpkg, lid, kinds))
     parts.append('<div class="figs">')
-    for k in kinds:
+    for k, v in kinds.items():
+        shown = " of the readings (points, no surface)" if v.representation == "points" else ""
         parts.append(_figure(plots / f"{lid}_{k}_classes.png", f"{info.name}: "
-                             f"{k.replace('_', ' ')} classes"))
+                             f"{k.replace('_', ' ')} classes{shown}"))
     parts.append('</div><h3 class="plots">Cumulative frequency and histograms</h3>'
                  '<div class="figs">')
     parts.append(_figure(plots / f"{lid}_potential_cumulative.png",

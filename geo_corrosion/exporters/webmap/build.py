@@ -303,6 +303,9 @@ def _level(b: _Builder, run_dir: Path, lid: str, info: LevelRecord, layers: RunL
         items = [(c, _e(k)) for c, k in zip(cls["color"], cls["class"], strict=True)]
         b.add(lid, _classes_layer(cls, f"{lname}: {label}", units), False,
               _swatch_legend(f"{lname}: {title}", items))
+    for kind, kv in info.kinds.items():  # kinds too sparse for a surface: classed points
+        if kv.representation == "points":
+            _points(b, lid, lname, kind, kv, layers, units, first)
     for key, color, what in (("delaminations", COLORS["delamination"], "delamination"),
                              ("spalls", COLORS["spall"], "spall")):
         g = layers.get(f"{lid}_{key}")
@@ -370,6 +373,58 @@ def _joints(b: _Builder, lid: str, lname: str, layers: RunLayers, first: bool) -
                         {"joint_type": "joint type", "continuity": "bar continuity",
                          "source": "source"}, show=first, style_columns=("_c",)),
           True, f'<div class="gc-leg-title">{lname}: joints</div>{items}')
+
+
+def _points(b: _Builder, lid: str, lname: str, kind: str, kv: KindRecord, layers: RunLayers,
+            units: Any, first: bool) -> None:
+    """Add a kind shown as points: its readings coloured by class, and their Thiessen cells.
+
+    The points are shown when the level opens; the cells (labelled: nearest reading, not a
+    surface) are listed in the layer control, off.
+    """
+    import folium
+
+    label = _e(kind.replace("_", " "))
+    reason = _e(kv.representation_reason or kv.skipped or "too few readings for a surface")
+    pts = layers.get(f"{lid}_points_{kind}")
+    if pts is None:
+        return
+    pts = pts.reset_index(drop=True)
+    pts["_c"] = [_safe_color(c, "#0072B2") for c in pts.get("color", ["#0072B2"] * len(pts))]
+    pts["value_unit"] = [f"{_num(float(v))} {u}" for v, u in zip(pts["value"], pts["unit"],
+                                                                   strict=True)]
+    fields = {"point_id": "point", "value_unit": "value", "class": "class",
+              "representation": "shown as"}
+    if "class" in pts and "color" in pts:
+        order = pts.sort_values("class_code") if "class_code" in pts else pts
+        seen = dict.fromkeys(zip(order["_c"], order["class"], strict=True))
+        items = [(c, _e(k)) for c, k in seen]
+    else:
+        items = [("#0072B2", "reading")]
+    layer = _geojson(
+        pts, f"{lname}: {label} readings (points, no surface)",
+        lambda f: {"color": "#000000", "weight": 1, "fillColor": f["properties"]["_c"],
+                   "fillOpacity": 0.95, "radius": 6},
+        fields, show=first, popup=True, style_columns=("_c",),
+        marker=folium.CircleMarker(radius=6, fill=True))
+    b.add(lid, layer, True, _swatch_legend(f"{lname}: {label} readings, shown as points", items)
+          + f'<div class="gc-note">no surface: {reason}</div>')
+    cells = layers.get(f"{lid}_thiessen_{kind}")
+    if cells is None:
+        return
+    cells = cells.reset_index(drop=True)
+    cells["_c"] = [_safe_color(c, "#0072B2") for c in cells.get("color",
+                                                                 ["#0072B2"] * len(cells))]
+    cells["area_rep"] = [f"{v:.1f} {units.area}"
+                         for v in units.area_from_m2(cells["area_m2"].to_numpy(float))]
+    b.add(lid, _styled(cells, f"{lname}: {label} Thiessen cells (nearest reading, not a "
+                       "surface)", {"point_id": "nearest reading", "class": "class",
+                                    "area_rep": f"area ({units.area})"},
+                       lambda c: {"color": "#555555", "weight": 1, "fillColor": c,
+                                  "fillOpacity": 0.3}),
+          False, _swatch_legend(f"{lname}: {label} Thiessen cells", items)
+          + '<div class="gc-note">each cell takes the class of its nearest reading; '
+            "not a surface</div>")
 
 
 def _class_layers(lid: str, kinds: dict[str, KindRecord], layers: RunLayers
