@@ -656,6 +656,16 @@ class LayoutParams:
         "min_repair_size", "length", "300 mm", unit="mm", ge=0, le=10000,
         table="run", record="min_repair_size_m", help="Smallest repair side",
         doc="Applied again to the pieces that joints and exclusions leave.")
+    round_increment_mm: float | None = key(
+        "repair_increment", "length", None, unit="mm", ge=0, le=1000, table="run",
+        record="repair_increment_m", example='"3 in"',
+        default_doc='`"3 in"` (`units = "us"`), `"50 mm"` (`"metric"`)',
+        help="Repair sides are rounded up to multiples of this",
+        doc="Common practice, no source. Each repair still holds what it covered; where "
+            "rounding up would cross a joint, enter an exclusion or leave the slab, the extra "
+            "goes to the other side, or the side is clipped there with a note on the repair. "
+            "`\"0 mm\"` turns rounding off. The library's own default (`LayoutParams`) is no "
+            "rounding.")
     min_reentrant_mm: float = param(
         300.0, unit="mm", ge=0, le=10000,
         help="Smallest notch, step or strip kept in an L/T-shaped repair (common practice)")
@@ -797,7 +807,7 @@ def _ordered(keys: Sequence[Key], order: Sequence[str]) -> tuple[Key, ...]:
 #: the allowed keys and run.json's ``parameters`` (docs/file-formats.md §3.5).
 _RUN_ORDER = (
     "cell_size", "max_distance", "contour_interval_mv", "repair_margin", "merge_gap",
-    "min_repair_size", "contingency", "n_neighbors", "variogram_model",
+    "min_repair_size", "repair_increment", "contingency", "n_neighbors", "variogram_model",
     "resistivity_reference_c", "activation_energy_kj_mol", "cse_reference_c",
     "correct_only_outside_band", "calibrate_variance", "bar_diameter", "max_aggregate",
     "slab_thickness", "sawcut_depth", "axis_angle_deg", "anode_spacing", "min_zone_area",

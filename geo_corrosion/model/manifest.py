@@ -181,6 +181,7 @@ class RunParameters:
     repair_margin_m: float
     merge_gap_m: float
     min_repair_size_m: float
+    repair_increment_m: float | None
     contingency: float
     n_neighbors: int
     variogram_model: str

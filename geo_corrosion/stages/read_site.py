@@ -38,6 +38,7 @@ from geo_corrosion.config import (
 )
 from geo_corrosion.crs import site_crs
 from geo_corrosion.errors import RepairError, SiteFileError, UnitError
+from geo_corrosion.repair.rounding import default_increment_mm
 from geo_corrosion.units import normalize_unit, parse_area
 
 __all__ = ["read_site"]
@@ -307,12 +308,13 @@ def _variogram(t: Table) -> dict[str, dict[str, Any]]:
     return fixed
 
 
-def _run(data: object, where: str) -> tuple[dict[str, Any], LayoutParams]:
+def _run(data: object, where: str, units: str) -> tuple[dict[str, Any], LayoutParams]:
     """Read [run]: the keyword arguments of :class:`RunParams`, and the repair layout's.
 
     The layout's keys are checked against the ranges declared on
     :class:`~geo_corrosion.config.LayoutParams` here, each message naming its [run] key, and
-    the layout parameters are built once.
+    the layout parameters are built once.  ``repair_increment`` not given takes the default
+    of the reporting ``units`` (3 in or 50 mm).
     """
     t = _table(data, where, "run")
     run: dict[str, Any] = {}
@@ -322,6 +324,8 @@ def _run(data: object, where: str) -> tuple[dict[str, Any], LayoutParams]:
             run["variogram"] = _variogram(t)
         else:
             (layout if k.owner is LayoutParams else run)[k.field] = _read(t, k)
+    if layout.get("round_increment_mm") is None:  # the default follows the reporting units
+        layout["round_increment_mm"] = default_increment_mm(units)
     try:
         params = LayoutParams(**layout)
     except RepairError as err:  # a check across keys: the table is named
@@ -587,7 +591,7 @@ def read_site(path: str | Path) -> SiteConfig:
         dup = sorted({s for s in sids if sids.count(s) > 1})
         raise SiteFileError(f"{p}: survey ids must be unique; repeated: {', '.join(dup)}")
     site = {k: _read(st, keys[k]) for k in ("name", "owner", "units", "notes")}
-    run, layout = _run(data.get("run", {}), f"{p}: [run]")
+    run, layout = _run(data.get("run", {}), f"{p}: [run]", str(site["units"]))
     return SiteConfig(
         path=p.resolve(),
         root=root,
