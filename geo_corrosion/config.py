@@ -461,6 +461,11 @@ class LevelConfig:
         "cover_tolerance", "length", None, unit="mm", ge=0, le=100, positive=False,
         example='"0.5 in"',
         help="Placement tolerance, subtracted from specified_cover")
+    slab_thickness_mm: float | None = key(
+        "slab_thickness", "length", None, unit="mm", gt=0, le=3000, example='"7 in"',
+        default_doc="`[run].slab_thickness`",
+        help="This level's slab thickness, for full-depth repairs",
+        doc="Overrides `[run].slab_thickness` on this level.")
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -594,6 +599,27 @@ class RunParams:
         help="Galvanic anode spacing along repair perimeters",
         doc="When given, the schedule carries an `ANODE` item (EA), ceil(perimeter / spacing) "
             "per repair. Without it, no anode item.")
+    bar_replacement_share: float = key(
+        "bar_replacement_share", "number", 0.1, unit="fraction", ge=0, le=1,
+        expect="a fraction from 0 to 1 (0.1 = 10 %)",
+        help="Share of the area of repairs that expose the bars whose bars are replaced",
+        doc="Common practice, no source; to confirm. The `BAR-REPL` item (LF or m) is this "
+            "share of the area of the repairs below the bars and full depth times the bar of a "
+            "two-way top mat at `bar_spacing` (2 / spacing per unit area).")
+    bar_spacing_mm: float = key(
+        "bar_spacing", "length", "12 in", unit="mm", gt=0, le=1000,
+        help="Top-mat bar spacing, each way, for the bar replacement allowance")
+    pay_area: str = key(
+        "pay_area", "string", "bay", choices=("bay", "level", "zone"),
+        help="How area treatments are priced: whole bays, whole levels or the zones as mapped",
+        doc="`bay`: the slab split at its joints (the repair layout's panels); a bay is paid "
+            "whole when a treatment zone covers more than `pay_area_share` of it. `level`: the "
+            "whole deck of a level with any of the zone. `zone`: the zone's own area.")
+    pay_area_share: float = key(
+        "pay_area_share", "number", 0.1, unit="fraction", ge=0, lt=1,
+        expect="a fraction from 0 to below 1 (0.1 = 10 %)",
+        help="A bay is paid when a treatment zone covers more than this share of it",
+        doc="Common practice, no source; to confirm.")
     min_zone_area_m2: float = key(
         "min_zone_area", "area", "0.5 m2", unit="m2", ge=0,
         help="Zone parts smaller than this are left to later rules",
@@ -810,7 +836,8 @@ _RUN_ORDER = (
     "min_repair_size", "repair_increment", "contingency", "n_neighbors", "variogram_model",
     "resistivity_reference_c", "activation_energy_kj_mol", "cse_reference_c",
     "correct_only_outside_band", "calibrate_variance", "bar_diameter", "max_aggregate",
-    "slab_thickness", "sawcut_depth", "axis_angle_deg", "anode_spacing", "min_zone_area",
+    "slab_thickness", "sawcut_depth", "axis_angle_deg", "anode_spacing", "bar_replacement_share",
+    "bar_spacing", "pay_area", "pay_area_share", "min_zone_area",
     "zone_smoothing", "variogram",
 )
 

@@ -196,6 +196,10 @@ class RunParameters:
     sawcut_depth_mm: float
     axis_angle_deg: float
     anode_spacing_mm: float | None
+    bar_replacement_share: float
+    bar_spacing_mm: float
+    pay_area: str
+    pay_area_share: float
     min_zone_area_m2: float
     zone_smoothing_m: float
     variogram: Mapping[str, Mapping[str, Any]]

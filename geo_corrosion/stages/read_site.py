@@ -181,6 +181,7 @@ def _level(data: object, where: str, root: Path) -> LevelConfig:
         grid=_grid(t.data["grid"], t.key("grid")),
         specified_cover_mm=_read(t, keys["specified_cover"]),
         cover_tolerance_mm=_read(t, keys["cover_tolerance"]),
+        slab_thickness_mm=_read(t, keys["slab_thickness"]),
     )
 
 

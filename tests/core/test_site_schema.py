@@ -33,6 +33,7 @@ PARAMETERS = (
     "resistivity_reference_c", "activation_energy_kj_mol", "cse_reference_c",
     "correct_only_outside_band", "calibrate_variance", "bar_diameter_mm", "max_aggregate_mm",
     "slab_thickness_mm", "sawcut_depth_mm", "axis_angle_deg", "anode_spacing_mm",
+    "bar_replacement_share", "bar_spacing_mm", "pay_area", "pay_area_share",
     "min_zone_area_m2", "zone_smoothing_m", "variogram", "basemap_url", "basemap_attribution",
 )
 

@@ -246,8 +246,25 @@ def _expected_base_quantities(out: RunOutputs, lid: str) -> dict[str, float]:
         spacing = out.manifest["parameters"].get("anode_spacing_mm")
         if spacing:  # common practice: ceil(perimeter / spacing) anodes per repair
             exp["ANODE"] = float(sum(math.ceil(c * 1000.0 / spacing - 1e-9) for c in cut_m))
-    zones = out.layer(f"{lid}_zones")
-    if len(zones):
+        # joint seal or header: the outline on a joint (repair.tender.joint_edge_length)
+        on_joint = shapely.union_all([affinity.translate(ln, -x0, -y0).buffer(tol)
+                                      for ln in out.joints(lid)]) if out.joints(lid) else None
+        if on_joint is not None:
+            jl = sum(affinity.translate(g.boundary, -x0, -y0).intersection(on_joint).length * k
+                     for g in reps.geometry)
+            if jl > 0:
+                exp["JOINT-RPR"] = jl * f
+        # bar allowance: share x area of the repairs exposing the bars x 2 / spacing
+        # (repair.tender.bar_replacement_length, common practice)
+        prm = out.manifest["parameters"]
+        exposed = reps[reps["depth_class"].isin(["partial_below_bars", "full_depth"])]
+        bars = (float(exposed.geometry.area.sum()) * k**2 * prm["bar_replacement_share"] * 2.0
+                / (prm["bar_spacing_mm"] / 1000.0))
+        if bars > 0:
+            exp["BAR-REPL"] = bars * f
+    pay = out.layer(f"{lid}_pay_areas")
+    zones = pay if len(pay) else out.layer(f"{lid}_zones")
+    if len(pay) or out.manifest["parameters"].get("pay_area", "zone") == "zone":
         priced = zones[zones["bid_item"].notna() & (zones["bid_item"].astype(str) != "")]
         for item, g in priced.groupby("bid_item"):
             # zone treatments by area: shapely area of the union of the item's zones
@@ -256,7 +273,7 @@ def _expected_base_quantities(out: RunOutputs, lid: str) -> dict[str, float]:
 
 
 def test_bid_quantities_are_sums_over_repairs_and_zones(out: RunOutputs) -> None:
-    """Guards quantities: each base quantity is the sum over its repairs or zones, in units."""
+    """Guards quantities: each base quantity is the sum over its repairs, zones or pay areas."""
     q = out.quantities
     assert len(q), f"{out.name}: empty quantities.csv"
     contingency = float(out.manifest["parameters"]["contingency"])
