@@ -64,7 +64,7 @@ __all__ = [
 ]
 
 COORDS = ("local", "site")
-OVERLAY_KINDS = ("delamination", "spall", "patch", "crack")
+OVERLAY_KINDS = ("delamination", "spall", "patch", "crack", "soffit_delamination")
 VARIOGRAM_MODELS = ("auto", "spherical", "exponential", "gaussian", "matern")
 
 #: Longest id (level, survey, control point): ids become file names, GeoPackage layer names
@@ -373,7 +373,7 @@ class LayerRef:
 
 @dataclass(frozen=True, kw_only=True)
 class OverlayRef:
-    """An overlay layer: delaminations, spalls, patches or cracks."""
+    """An overlay layer: delaminations, spalls, patches, cracks or soffit delaminations."""
 
     kind: str = key("kind", "string", choices=OVERLAY_KINDS, table="levels.overlays",
                     help="What the layer shows")

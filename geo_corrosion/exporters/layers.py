@@ -66,7 +66,8 @@ def level_layers(lr: LevelResult, crs: Any) -> dict[str, gpd.GeoDataFrame]:
             if kind in SOUNDING_PREFIX:  # the number on the sounding plan (D1, S1)
                 r["number"] = n
         out[{"delamination": "delaminations", "spall": "spalls", "patch": "patches",
-             "crack": "cracks"}[kind]] = to_site_frame(rows, lr, crs)
+             "crack": "cracks", "soffit_delamination": "soffit_delaminations"}[kind]] = (
+            to_site_frame(rows, lr, crs))
     for name, s in lr.surfaces.items():
         unit = s.kind.canonical_unit
         out[f"contours_{name}"] = to_site_frame(

@@ -47,6 +47,9 @@ __all__ = ["PAY_AREA_COLUMNS", "PlanningParams", "low_cover_mask", "low_cover_th
            "pay_area_frame", "plan_level", "planning_params", "raster_region",
            "sounding_numbers"]
 
+#: The overlay kind of delaminations sounded on the soffit: overhead repairs (``REP-OVH``).
+SOFFIT = "soffit_delamination"
+
 #: Default low-cover threshold when the level gives no specified cover, mm
 #: (25 mm / 1 in, common practice).
 DEFAULT_LOW_COVER_MM = 25.0
@@ -141,7 +144,7 @@ def plan_level(level: Level, surfaces: dict[str, KindSurface], params: PlanningP
     """
     deck = level.deck
     cover = with_role(surfaces, Role.COVER)
-    for kind in ("delamination", "spall"):
+    for kind in ("delamination", "spall", SOFFIT):
         for f in level.overlays.get(kind, ()):
             if not f.geometry.intersects(level.slab):
                 warnings.warn(f"{f.where}: {kind} lies outside the slab of level {level.id}; "
@@ -160,15 +163,24 @@ def plan_level(level: Level, surfaces: dict[str, KindSurface], params: PlanningP
     if rows:
         src = gpd.GeoDataFrame(rows, geometry="geometry")
         src["cover_mm"] = _cover_at(list(src.geometry), cover)
-        repairs = layout_repairs(src, slab=level.slab, exclusions=level.exclusion_polygons(),
-                                 joints=joints, unit=level.unit, params=layout,
-                                 level_id=level.id)
-        if len(repairs):
-            repairs = tender_columns(
-                repairs, joints=joints, unit=level.unit, units=params.units,
-                anode_spacing_mm=params.anode_spacing_mm,
-                bar_share=params.bar_replacement_share, bar_spacing_mm=params.bar_spacing_mm)
-            repairs["bid_item"] = [DEPTH_CLASS_ITEMS[str(c)] for c in repairs["depth_class"]]
+        repairs = _laid_out(src, level, layout, params, joints)
+        repairs["bid_item"] = [DEPTH_CLASS_ITEMS[str(c)] for c in repairs["depth_class"]]
+        repairs["face"] = "top"
+    top = repairs  # the repairs of the top surface: the zoning's repair zone
+    soffit = [{"source_id": f.where.split(": ", 1)[-1], "kind": "delamination",
+               "geometry": f.geometry, "label": lab,
+               "delam_depth_mm": np.nan if f.depth_mm is None else f.depth_mm}
+              for f, lab in zip(level.overlays.get(SOFFIT, ()), labels.get(SOFFIT, []),
+                                strict=True)]
+    if soffit:  # laid out on their own: the soffit is another face (no merge with the top)
+        oh = _laid_out(gpd.GeoDataFrame(soffit, geometry="geometry"), level, layout, params,
+                       joints)
+        oh["repair_id"] = [r.replace(f"{level.id}-R", f"{level.id}-OH", 1)
+                           for r in oh["repair_id"]]
+        oh["bid_item"] = "REP-OVH"
+        oh["face"] = "soffit"
+        repairs = oh if repairs is None or not len(repairs) else gpd.GeoDataFrame(
+            pd.concat([repairs, oh], ignore_index=True), geometry="geometry")
     thr, thr_src = low_cover_threshold_mm(level)
     if low_cover is None:
         low_cover = low_cover_mask(level, cover)
@@ -189,7 +201,7 @@ def plan_level(level: Level, surfaces: dict[str, KindSurface], params: PlanningP
 
     layers = ZoningLayers(
         delaminated=_u("delamination"), spalled=_u("spall"), classes=classes, low_cover=low,
-        repairs=(shapely.union_all(list(repairs.geometry)) if repairs is not None and len(repairs)
+        repairs=(shapely.union_all(list(top.geometry)) if top is not None and len(top)
                  else shapely.Polygon()))
     slab = level.slab  # one polygon: a slab of separate parts is refused when read
     rules = list(params.rules) if params.rules else default_rules()
@@ -203,6 +215,19 @@ def plan_level(level: Level, surfaces: dict[str, KindSurface], params: PlanningP
              "zoning_rules": [{"rule": r.name, "treatment": r.treatment, "bid_item": r.bid_item}
                               for r in rules]}
     return repairs, zones, notes
+
+
+def _laid_out(src: gpd.GeoDataFrame, level: Level, layout: LayoutParams,
+              params: PlanningParams, joints: list[BaseGeometry]) -> gpd.GeoDataFrame:
+    """Lay out the repairs of one face and add the tender's columns."""
+    rep = layout_repairs(src, slab=level.slab, exclusions=level.exclusion_polygons(),
+                         joints=joints, unit=level.unit, params=layout, level_id=level.id)
+    if not len(rep):
+        return rep
+    return tender_columns(rep, joints=joints, unit=level.unit, units=params.units,
+                          anode_spacing_mm=params.anode_spacing_mm,
+                          bar_share=params.bar_replacement_share,
+                          bar_spacing_mm=params.bar_spacing_mm)
 
 
 def planning_params(cfg: SiteConfig) -> PlanningParams:

@@ -222,8 +222,10 @@ def _expected_base_quantities(out: RunOutputs, lid: str) -> dict[str, float]:
     exp: dict[str, float] = defaultdict(float)
     reps = out.layer(f"{lid}_repairs")
     if len(reps):
-        for cls, g in reps.groupby("depth_class"):
-            item = DEPTH_CLASS_ITEMS[str(cls)]
+        # the repair's bid item (overhead repairs: REP-OVH), else that of its depth class
+        key = "bid_item" if "bid_item" in reps else "depth_class"
+        for cls, g in reps.groupby(key):
+            item = str(cls) if key == "bid_item" else DEPTH_CLASS_ITEMS[str(cls)]
             areas = g.geometry.area.to_numpy()
             # quantities.py: measured on the union of the item's polygons (shapely area)
             union = shapely.union_all(g.geometry.to_numpy()).area
