@@ -445,6 +445,13 @@ class LevelConfig:
         example='{ path = "plans/L1.dxf", layer = "JOINTS" }',
         help="Joint lines; a repair never crosses one",
         doc="No saw cut is counted along a joint.")
+    column_grid: LayerRef | None = key(
+        "column_grid", "layer", None,
+        example='{ path = "plans/L1.dxf", layer = "GRID" }',
+        help="Column-grid lines, each labelled (C, 3)",
+        doc="A GIS layer labels a line by its `label`, `name` or `id` attribute; a DXF layer by "
+            "a text at one of its ends on the same layer. Repairs are located from the nearest "
+            "grid intersection, and the pay-area bays are split at these lines as at joints.")
     overlays: tuple[OverlayRef, ...] = key(
         "overlays", "overlays", [], active=True, type_doc="list of overlay references",
         example='[\n  { kind = "delamination", path = "sounding/L1.dxf", layer = "DELAM" },\n'

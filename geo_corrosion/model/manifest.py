@@ -68,6 +68,7 @@ def input_files(cfg: SiteConfig) -> list[dict[str, Any]]:
     paths = {cfg.path}
     for lv in cfg.levels:
         refs = [lv.slab, *lv.exclusions, *([lv.joints] if lv.joints else []),
+                *([lv.column_grid] if lv.column_grid else []),
                 *[o.ref for o in lv.overlays]]
         paths.update(r.path for r in refs)
     paths.update(s.path for s in cfg.surveys)

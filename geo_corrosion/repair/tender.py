@@ -4,7 +4,8 @@ Plain functions on shapely geometries in a level's local grid (unit ``"m"`` or `
 
 - :func:`sounding_labels`: the numbers of the sounded areas on the sounding plan, D1, D2,
   ... for delaminations and S1, ... for spalls;
-- :func:`grid_location`: where a repair is, as grid coordinates of its centre;
+- :func:`column_location` and :func:`grid_location`: where a repair is, from the nearest
+  column-grid intersection, or as grid coordinates of its centre;
 - :func:`joint_edge_length`: the length of a repair's edge that lies on a joint (a joint
   seal or header is rebuilt there);
 - :func:`anode_count` and :func:`bar_replacement_length`: the galvanic anodes along a
@@ -23,7 +24,7 @@ from collections.abc import Sequence
 
 import pandas as pd
 import shapely
-from shapely.geometry import Polygon
+from shapely.geometry import Point, Polygon
 from shapely.geometry.base import BaseGeometry
 
 from geo_corrosion.errors import RepairError
@@ -32,8 +33,8 @@ from geo_corrosion.repair.rounding import format_length
 from geo_corrosion.units import LENGTH_TO_M
 
 __all__ = ["SOUNDING_PREFIX", "anode_count", "bar_replacement_length", "bays",
-           "grid_location", "joint_edge_length", "pay_areas", "sounding_labels",
-           "tender_columns"]
+           "column_location", "grid_intersections", "grid_location", "joint_edge_length",
+           "pay_areas", "sounding_labels", "tender_columns"]
 
 #: Label prefix of each kind of sounded area on the sounding plan.
 SOUNDING_PREFIX: dict[str, str] = {"delamination": "D", "spall": "S",
@@ -74,6 +75,45 @@ def grid_location(g: BaseGeometry, unit: str) -> str:
     """
     x0, y0, x1, y1 = g.bounds
     return f"grid x {(x0 + x1) / 2:.2f} {unit}, y {(y0 + y1) / 2:.2f} {unit}"
+
+
+def grid_intersections(lines: Sequence[tuple[BaseGeometry, str]]) -> list[tuple[Point, str]]:
+    """Return the intersections of labelled column-grid lines, named ``C/3``.
+
+    The name puts a lettered line before a numbered one (``C/3``, not ``3/C``).
+
+    Examples
+    --------
+    >>> from shapely.geometry import LineString
+    >>> grid_intersections([(LineString([(0, -9), (0, 99)]), "3"),
+    ...                     (LineString([(-9, 30), (99, 30)]), "C")])
+    [(<POINT (0 30)>, 'C/3')]
+    """
+    out = []
+    for i, (a, la) in enumerate(lines):
+        for b, lb in lines[i + 1:]:
+            x = a.intersection(b)
+            for p in shapely.get_parts(x):
+                if isinstance(p, Point):
+                    first, second = sorted((la, lb), key=lambda t: (t[:1].isdigit(), t))
+                    out.append((p, f"{first}/{second}"))
+    return out
+
+
+def column_location(g: BaseGeometry, intersections: Sequence[tuple[Point, str]],
+                    unit: str) -> str:
+    """Return where a repair is from the nearest column-grid intersection to its centre.
+
+    Examples
+    --------
+    >>> from shapely.geometry import box
+    >>> column_location(box(10, 20, 12.5, 24.5), [(Point(0, 30), "C/3")], "ft")
+    'C/3 +11.25 ft x, -7.75 ft y'
+    """
+    x0, y0, x1, y1 = g.bounds
+    c = Point((x0 + x1) / 2, (y0 + y1) / 2)
+    p, name = min(intersections, key=lambda t: t[0].distance(c))
+    return f"{name} {c.x - p.x:+.2f} {unit} x, {c.y - p.y:+.2f} {unit} y"
 
 
 def joint_edge_length(g: BaseGeometry, joints: Sequence[BaseGeometry], tol: float) -> float:
@@ -155,12 +195,14 @@ def pay_areas(zone: BaseGeometry, bay_list: Sequence[Polygon], *, share: float,
 
 def tender_columns(repairs: pd.DataFrame, *, joints: Sequence[BaseGeometry], unit: str,
                    units: str, anode_spacing_mm: float | None, bar_share: float,
-                   bar_spacing_mm: float, tol: float = 1e-9) -> pd.DataFrame:
+                   bar_spacing_mm: float, tol: float = 1e-9,
+                   column_grid: Sequence[tuple[BaseGeometry, str]] = ()) -> pd.DataFrame:
     """Add what the per-repair schedule needs to a frame of :func:`layout_repairs`.
 
     Columns added: ``dimensions`` (``size_x_m`` by ``size_y_m`` as a contractor writes
     them, :func:`~geo_corrosion.repair.rounding.format_length`), ``location``
-    (:func:`grid_location`), ``joint_edge_m`` (:func:`joint_edge_length`), ``anodes``
+    (:func:`column_location` when ``column_grid`` lines, labelled, cross, else
+    :func:`grid_location`), ``joint_edge_m`` (:func:`joint_edge_length`), ``anodes``
     (:func:`anode_count` on the saw-cut perimeter; absent without a spacing) and
     ``bar_replacement_m`` (:func:`bar_replacement_length`, for repairs that expose the
     bars: below the bars or full depth; 0 above the bars).
@@ -169,7 +211,9 @@ def tender_columns(repairs: pd.DataFrame, *, joints: Sequence[BaseGeometry], uni
     out = repairs.copy()
     out["dimensions"] = [f"{format_length(x, units)} x {format_length(y, units)}"
                          for x, y in zip(out["size_x_m"], out["size_y_m"], strict=True)]
-    out["location"] = [grid_location(g, unit) for g in out.geometry]
+    cross = grid_intersections(column_grid) if column_grid else []
+    out["location"] = [column_location(g, cross, unit) if cross else grid_location(g, unit)
+                       for g in out.geometry]
     out["joint_edge_m"] = [joint_edge_length(g, joints, tol) * f for g in out.geometry]
     if anode_spacing_mm is not None:
         out["anodes"] = [anode_count(p, anode_spacing_mm / 1000.0) for p in out["perimeter_m"]]

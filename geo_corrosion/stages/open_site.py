@@ -15,7 +15,7 @@ from shapely.geometry import MultiPolygon, Polygon
 from geo_corrosion.config import LevelConfig, RunParams, SiteConfig, SurveyConfig
 from geo_corrosion.crs import LocalGrid
 from geo_corrosion.errors import IngestError, SiteFileError
-from geo_corrosion.io.plans import Feature, read_lines, read_polygons
+from geo_corrosion.io.plans import Feature, read_grid_lines, read_lines, read_polygons
 from geo_corrosion.io.readings import read_readings
 from geo_corrosion.measurements import get_kind
 from geo_corrosion.model.site import Level, Site, Survey
@@ -72,7 +72,10 @@ def read_level(cfg: LevelConfig, site: SiteConfig) -> Level:
         else:
             feats = read_polygons(ov.ref, grid, site_crs=site.crs, what=f"{ov.kind} outlines")
         overlays.setdefault(ov.kind, []).extend(feats)
-    return Level(cfg, grid, slab, exclusions, joints, {k: tuple(v) for k, v in overlays.items()})
+    col = (tuple(read_grid_lines(cfg.column_grid, grid, site_crs=site.crs))
+           if cfg.column_grid else ())
+    return Level(cfg, grid, slab, exclusions, joints, {k: tuple(v) for k, v in overlays.items()},
+                 column_grid=col)
 
 
 def read_survey(cfg: SurveyConfig, level: Level, site: SiteConfig) -> Survey:

@@ -227,7 +227,8 @@ def _laid_out(src: gpd.GeoDataFrame, level: Level, layout: LayoutParams,
     return tender_columns(rep, joints=joints, unit=level.unit, units=params.units,
                           anode_spacing_mm=params.anode_spacing_mm,
                           bar_share=params.bar_replacement_share,
-                          bar_spacing_mm=params.bar_spacing_mm)
+                          bar_spacing_mm=params.bar_spacing_mm,
+                          column_grid=[(f.geometry, f.label) for f in level.column_grid])
 
 
 def planning_params(cfg: SiteConfig) -> PlanningParams:
@@ -262,9 +263,9 @@ def pay_area_frame(level: Level, zones: gpd.GeoDataFrame | None, params: Plannin
     """Return the pay areas of a level's priced treatment zones (None: priced as zoned).
 
     ``pay_area = "bay"``: the bays (the slab split at its joints, as the repair layout's
-    panels) that a zone covers more than ``pay_area_share`` of, each whole (its deck
-    part); ``"level"``: the whole deck for each item with any zone; ``"zone"``: None, the
-    zones themselves are priced.
+    panels, and at its column-grid lines) that a zone covers more than ``pay_area_share``
+    of, each whole (its deck part); ``"level"``: the whole deck for each item with any
+    zone; ``"zone"``: None, the zones themselves are priced.
     """
     if params.pay_area == "zone" or zones is None:
         return None
@@ -273,8 +274,8 @@ def pay_area_frame(level: Level, zones: gpd.GeoDataFrame | None, params: Plannin
     priced = zones[zones["bid_item"].notna() & (zones["bid_item"].astype(str) != "")]
     x0, y0, x1, y1 = level.slab.bounds
     tol = max(1e-9, 1e-9 * max(x1 - x0, y1 - y0, abs(x0), abs(y0), abs(x1), abs(y1)))
-    bay_list = (bays(level.slab, [j.geometry for j in level.joints], tol)
-                if params.pay_area == "bay" else [level.slab])
+    cuts = [j.geometry for j in (*level.joints, *level.column_grid)]  # joints, column lines
+    bay_list = bays(level.slab, cuts, tol) if params.pay_area == "bay" else [level.slab]
     share = params.pay_area_share if params.pay_area == "bay" else 0.0
     rows = []
     for item, g in priced.groupby("bid_item", sort=False):

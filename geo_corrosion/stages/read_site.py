@@ -177,6 +177,8 @@ def _level(data: object, where: str, root: Path) -> LevelConfig:
             for i, e in enumerate(t.array("exclusions"))
         ),
         joints=_layer(t.data["joints"], t.key("joints"), root) if t.has("joints") else None,
+        column_grid=(_layer(t.data["column_grid"], t.key("column_grid"), root)
+                     if t.has("column_grid") else None),
         overlays=tuple(overlays),
         grid=_grid(t.data["grid"], t.key("grid")),
         specified_cover_mm=_read(t, keys["specified_cover"]),

@@ -157,3 +157,16 @@ def test_frames_without_tender_columns_still_schedule() -> None:
                             "depth_class": ["partial_below_bars"]}, geometry=[box(0, 0, 1, 1)])
     s = bid_schedule(rep, None, units=report_units("metric"))
     assert set(s["item"]) == {"REP-PD-BARS"}
+
+
+def test_grid_intersections_and_location_by_hand() -> None:
+    # lines 3 (x = 0) and C (y = 30) cross at (0, 30), named letter first: C/3; a repair
+    # 10..12.5 x 20..24.5 has its centre at (11.25, 22.25): +11.25 ft x, -7.75 ft y of it
+    from geo_corrosion.repair.tender import column_location, grid_intersections
+
+    cross = grid_intersections([(LineString([(0, -9), (0, 99)]), "3"),
+                                (LineString([(-9, 30), (99, 30)]), "C"),
+                                (LineString([(50, -9), (50, 99)]), "4")])
+    assert sorted(n for _, n in cross) == ["C/3", "C/4"]
+    assert column_location(box(10, 20, 12.5, 24.5), cross, "ft") == "C/3 +11.25 ft x, -7.75 ft y"
+    assert column_location(box(40, 20, 42.5, 24.5), cross, "ft") == "C/4 -8.75 ft x, -7.75 ft y"

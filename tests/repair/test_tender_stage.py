@@ -103,3 +103,78 @@ def test_pay_area_frame_by_bay_and_by_level(site) -> None:
     with pytest.warns(GeometryWarning, match="covers no bay"):
         none = pay_area_frame(lv, zones, dataclasses.replace(p, pay_area_share=0.5))
     assert none is not None and none.empty
+
+
+def _grid_dxf(path: Path, *, label_x40: bool = True) -> None:
+    import ezdxf
+
+    doc = ezdxf.new("R2010")
+    doc.header["$INSUNITS"] = 2  # feet
+    msp = doc.modelspace()
+    doc.layers.add("GRID")
+    for x, name in ((20, "2"), (40, "3")):
+        msp.add_line((x, -2), (x, 42), dxfattribs={"layer": "GRID"})
+        if x != 40 or label_x40:
+            msp.add_text(name, dxfattribs={"layer": "GRID", "insert": (x, 43)})
+    msp.add_line((-2, 20), (62, 20), dxfattribs={"layer": "GRID"})
+    msp.add_text("B", dxfattribs={"layer": "GRID", "insert": (-4, 20)})
+    doc.saveas(path)
+
+
+def test_column_grid_locates_repairs_and_splits_bays(tmp_path: Path) -> None:
+    # hand-worked: column lines 2 (x = 20), 3 (x = 40) and B (y = 20) on the 60 x 40 ft
+    # synthetic deck; each repair is located from the nearest of B/2 (20, 20) and B/3
+    # (40, 20) to its centre; the bays are the deck cut at the three lines: 6 bays
+    import dataclasses
+
+    from geo_corrosion.repair.tender import bays
+
+    p = make_synthetic_site(tmp_path / "site")
+    _grid_dxf(p.parent / "plans" / "grid.dxf")
+    p.write_text(p.read_text().replace(
+        "[levels.grid]", 'column_grid = { path = "plans/grid.dxf", layer = "GRID" }\n'
+        "[levels.grid]", 1))
+    cfg = read_site(p)
+    lv = next(iter(open_site(cfg).levels.values()))
+    assert sorted(f.label for f in lv.column_grid) == ["2", "3", "B"]
+    repairs, _, _ = plan_level(lv, {}, planning_params(cfg))
+    # the stock delamination 12..18 x 8..12 ft grown by 6 in: 11.5..18.5 x 7.5..12.5,
+    # 7 x 5 ft (multiples of 3 in already), centre (15, 10): 5 ft short of line 2 in x,
+    # 10 ft short of line B in y
+    assert list(repairs["location"]) == ["B/2 -5.00 ft x, -10.00 ft y"]
+    assert list(repairs["dimensions"]) == ["7'-0\" x 5'-0\""]
+    for g, loc in zip(repairs.geometry, repairs["location"], strict=True):
+        x0, y0, x1, y1 = g.bounds
+        cx, cy = (x0 + x1) / 2, (y0 + y1) / 2
+        name, px = ("B/2", 20.0) if abs(cx - 20) <= abs(cx - 40) else ("B/3", 40.0)
+        assert loc == f"{name} {cx - px:+.2f} ft x, {cy - 20:+.2f} ft y"
+    cuts = [f.geometry for f in (*lv.joints, *lv.column_grid)]
+    assert len(bays(lv.slab, cuts, 1e-9)) == 6
+    # and the pay areas use them: a zone over the bay 0..20 x 0..20 alone pays that bay
+    zones = gpd.GeoDataFrame({"level_id": ["D1"], "zone": ["z"], "treatment": ["t"],
+                              "bid_item": ["PROTECT-LOWCOVER"], "area_m2": [0.0]},
+                             geometry=[box(2, 2, 18, 18)])
+    pa = pay_area_frame(lv, zones, dataclasses.replace(planning_params(cfg), pay_area="bay"))
+    assert len(pa) == 1
+    assert pa["area_m2"].iloc[0] == pytest.approx(box(0, 0, 20, 20).intersection(
+        lv.deck).area * FT2)
+
+
+def test_a_column_line_without_label_is_refused(tmp_path: Path) -> None:
+    from geo_corrosion.errors import IngestError
+
+    p = make_synthetic_site(tmp_path / "site")
+    _grid_dxf(p.parent / "plans" / "grid.dxf", label_x40=False)
+    # without a text near its ends, line 3 takes the nearest text: refused only when the
+    # layer has no text at all, so drop every text here
+    import ezdxf
+
+    doc = ezdxf.readfile(p.parent / "plans" / "grid.dxf")
+    for e in list(doc.modelspace().query("TEXT")):
+        doc.modelspace().delete_entity(e)
+    doc.saveas(p.parent / "plans" / "grid.dxf")
+    p.write_text(p.read_text().replace(
+        "[levels.grid]", 'column_grid = { path = "plans/grid.dxf", layer = "GRID" }\n'
+        "[levels.grid]", 1))
+    with pytest.raises(IngestError, match="without a label"):
+        open_site(read_site(p))
