@@ -452,6 +452,16 @@ class LevelConfig:
         doc="A GIS layer labels a line by its `label`, `name` or `id` attribute; a DXF layer by "
             "a text at one of its ends on the same layer. Repairs are located from the nearest "
             "grid intersection, and the pay-area bays are split at these lines as at joints.")
+    station_start: float | None = key(
+        "station_start", "number", None, unit="grid units", example="1250.0",
+        help="A deck's station at grid x = 0, in grid units (12+50 = 1250.0 ft)",
+        doc="Stations run along grid x. Without a column grid, repairs are located by station "
+            "and offset (`Sta. 12+61.25, 3.50 ft Lt`; left of the centreline looking up-station "
+            "is +y).")
+    station_centerline_y: float = key(
+        "station_centerline_y", "number", 0.0, unit="grid units", example="20.0",
+        help="Grid y of the deck's centreline, from which offsets are measured",
+        doc="Used with `station_start`.")
     overlays: tuple[OverlayRef, ...] = key(
         "overlays", "overlays", [], active=True, type_doc="list of overlay references",
         example='[\n  { kind = "delamination", path = "sounding/L1.dxf", layer = "DELAM" },\n'

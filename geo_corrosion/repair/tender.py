@@ -4,8 +4,9 @@ Plain functions on shapely geometries in a level's local grid (unit ``"m"`` or `
 
 - :func:`sounding_labels`: the numbers of the sounded areas on the sounding plan, D1, D2,
   ... for delaminations and S1, ... for spalls;
-- :func:`column_location` and :func:`grid_location`: where a repair is, from the nearest
-  column-grid intersection, or as grid coordinates of its centre;
+- :func:`column_location`, :func:`station_location` and :func:`grid_location`: where a
+  repair is, from the nearest column-grid intersection, as a deck's station and offset, or
+  as grid coordinates of its centre;
 - :func:`joint_edge_length`: the length of a repair's edge that lies on a joint (a joint
   seal or header is rebuilt there);
 - :func:`anode_count` and :func:`bar_replacement_length`: the galvanic anodes along a
@@ -33,8 +34,9 @@ from geo_corrosion.repair.rounding import format_length
 from geo_corrosion.units import LENGTH_TO_M
 
 __all__ = ["SOUNDING_PREFIX", "anode_count", "bar_replacement_length", "bays",
-           "column_location", "grid_intersections", "grid_location", "joint_edge_length",
-           "pay_areas", "sounding_labels", "tender_columns"]
+           "column_location", "format_station", "grid_intersections", "grid_location",
+           "joint_edge_length", "pay_areas", "sounding_labels", "station_location",
+           "tender_columns"]
 
 #: Label prefix of each kind of sounded area on the sounding plan.
 SOUNDING_PREFIX: dict[str, str] = {"delamination": "D", "spall": "S",
@@ -114,6 +116,39 @@ def column_location(g: BaseGeometry, intersections: Sequence[tuple[Point, str]],
     c = Point((x0 + x1) / 2, (y0 + y1) / 2)
     p, name = min(intersections, key=lambda t: t[0].distance(c))
     return f"{name} {c.x - p.x:+.2f} {unit} x, {c.y - p.y:+.2f} {unit} y"
+
+
+def format_station(v: float, unit: str) -> str:
+    """Return a station as written on a plan: 12+61.25 (feet) or 1+261.25 (metres).
+
+    Examples
+    --------
+    >>> format_station(1261.25, "ft"), format_station(1261.25, "m"), format_station(35, "ft")
+    ('12+61.25', '1+261.25', '0+35.00')
+    """
+    per = 1000 if unit == "m" else 100
+    whole, rest = divmod(round(v, 2), per)
+    width = 6 if per == 1000 else 5
+    return f"{int(whole)}+{rest:0{width}.2f}"
+
+
+def station_location(g: BaseGeometry, *, start: float, centerline_y: float, unit: str) -> str:
+    """Return where a repair is on a deck: station and offset of its centre.
+
+    Stations run along grid x from ``start`` at x = 0; the offset is measured from the
+    centreline ``y = centerline_y``, left (Lt, +y) or right (Rt) looking up-station.
+
+    Examples
+    --------
+    >>> from shapely.geometry import box
+    >>> station_location(box(10, 20, 12.5, 24.5), start=1250.0, centerline_y=20.0, unit="ft")
+    'Sta. 12+61.25, 2.25 ft Lt'
+    """
+    x0, y0, x1, y1 = g.bounds
+    cx, cy = (x0 + x1) / 2, (y0 + y1) / 2
+    off = cy - centerline_y
+    side = "Lt" if off > 0 else "Rt" if off < 0 else "on CL"
+    return f"Sta. {format_station(start + cx, unit)}, {abs(off):.2f} {unit} {side}"
 
 
 def joint_edge_length(g: BaseGeometry, joints: Sequence[BaseGeometry], tol: float) -> float:
@@ -196,12 +231,14 @@ def pay_areas(zone: BaseGeometry, bay_list: Sequence[Polygon], *, share: float,
 def tender_columns(repairs: pd.DataFrame, *, joints: Sequence[BaseGeometry], unit: str,
                    units: str, anode_spacing_mm: float | None, bar_share: float,
                    bar_spacing_mm: float, tol: float = 1e-9,
-                   column_grid: Sequence[tuple[BaseGeometry, str]] = ()) -> pd.DataFrame:
+                   column_grid: Sequence[tuple[BaseGeometry, str]] = (),
+                   stations: tuple[float, float] | None = None) -> pd.DataFrame:
     """Add what the per-repair schedule needs to a frame of :func:`layout_repairs`.
 
     Columns added: ``dimensions`` (``size_x_m`` by ``size_y_m`` as a contractor writes
     them, :func:`~geo_corrosion.repair.rounding.format_length`), ``location``
-    (:func:`column_location` when ``column_grid`` lines, labelled, cross, else
+    (:func:`column_location` when ``column_grid`` lines, labelled, cross; else
+    :func:`station_location` with ``stations`` = (station at x = 0, centreline y); else
     :func:`grid_location`), ``joint_edge_m`` (:func:`joint_edge_length`), ``anodes``
     (:func:`anode_count` on the saw-cut perimeter; absent without a spacing) and
     ``bar_replacement_m`` (:func:`bar_replacement_length`, for repairs that expose the
@@ -212,8 +249,15 @@ def tender_columns(repairs: pd.DataFrame, *, joints: Sequence[BaseGeometry], uni
     out["dimensions"] = [f"{format_length(x, units)} x {format_length(y, units)}"
                          for x, y in zip(out["size_x_m"], out["size_y_m"], strict=True)]
     cross = grid_intersections(column_grid) if column_grid else []
-    out["location"] = [column_location(g, cross, unit) if cross else grid_location(g, unit)
-                       for g in out.geometry]
+
+    def where(g: BaseGeometry) -> str:
+        if cross:
+            return column_location(g, cross, unit)
+        if stations is not None:
+            return station_location(g, start=stations[0], centerline_y=stations[1], unit=unit)
+        return grid_location(g, unit)
+
+    out["location"] = [where(g) for g in out.geometry]
     out["joint_edge_m"] = [joint_edge_length(g, joints, tol) * f for g in out.geometry]
     if anode_spacing_mm is not None:
         out["anodes"] = [anode_count(p, anode_spacing_mm / 1000.0) for p in out["perimeter_m"]]

@@ -228,7 +228,9 @@ def _laid_out(src: gpd.GeoDataFrame, level: Level, layout: LayoutParams,
                           anode_spacing_mm=params.anode_spacing_mm,
                           bar_share=params.bar_replacement_share,
                           bar_spacing_mm=params.bar_spacing_mm,
-                          column_grid=[(f.geometry, f.label) for f in level.column_grid])
+                          column_grid=[(f.geometry, f.label) for f in level.column_grid],
+                          stations=None if level.config.station_start is None else (
+                              level.config.station_start, level.config.station_centerline_y))
 
 
 def planning_params(cfg: SiteConfig) -> PlanningParams:

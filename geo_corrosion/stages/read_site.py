@@ -184,6 +184,8 @@ def _level(data: object, where: str, root: Path) -> LevelConfig:
         specified_cover_mm=_read(t, keys["specified_cover"]),
         cover_tolerance_mm=_read(t, keys["cover_tolerance"]),
         slab_thickness_mm=_read(t, keys["slab_thickness"]),
+        station_start=_read(t, keys["station_start"]),
+        station_centerline_y=_read(t, keys["station_centerline_y"]),
     )
 
 

@@ -170,3 +170,17 @@ def test_grid_intersections_and_location_by_hand() -> None:
     assert sorted(n for _, n in cross) == ["C/3", "C/4"]
     assert column_location(box(10, 20, 12.5, 24.5), cross, "ft") == "C/3 +11.25 ft x, -7.75 ft y"
     assert column_location(box(40, 20, 42.5, 24.5), cross, "ft") == "C/4 -8.75 ft x, -7.75 ft y"
+
+
+def test_station_and_offset_by_hand() -> None:
+    # stations along grid x from 12+50 at x = 0 (US: hundreds of feet); a repair centred
+    # at (11.25, 22.25) with the centreline at y = 20: 12+61.25, 2.25 ft left (+y)
+    from geo_corrosion.repair.tender import format_station, station_location
+
+    assert station_location(box(10, 20, 12.5, 24.5), start=1250.0, centerline_y=20.0,
+                            unit="ft") == "Sta. 12+61.25, 2.25 ft Lt"
+    assert station_location(box(10, 10, 12.5, 14.5), start=1250.0, centerline_y=20.0,
+                            unit="ft") == "Sta. 12+61.25, 7.75 ft Rt"
+    # metric stations in thousands of metres: 1+261.25
+    assert format_station(1261.25, "m") == "1+261.25"
+    assert format_station(99.999, "ft") == "1+00.00"

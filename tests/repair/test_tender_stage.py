@@ -178,3 +178,15 @@ def test_a_column_line_without_label_is_refused(tmp_path: Path) -> None:
         "[levels.grid]", 1))
     with pytest.raises(IngestError, match="without a label"):
         open_site(read_site(p))
+
+
+def test_a_deck_locates_repairs_by_station_and_offset(tmp_path: Path) -> None:
+    # hand-worked: the synthetic repair is centred at (15, 10) ft; with station 12+50 at
+    # x = 0 and the centreline at y = 20: Sta. 12+65.00, 10.00 ft right of it
+    p = make_synthetic_site(tmp_path / "site")
+    p.write_text(p.read_text().replace(
+        "[levels.grid]", "station_start = 1250.0\nstation_centerline_y = 20.0\n[levels.grid]", 1))
+    cfg = read_site(p)
+    lv = next(iter(open_site(cfg).levels.values()))
+    repairs, _, _ = plan_level(lv, {}, planning_params(cfg))
+    assert list(repairs["location"]) == ["Sta. 12+65.00, 10.00 ft Rt"]
