@@ -202,7 +202,10 @@ def round_up_outlines(geoms: Sequence[BaseGeometry], panels: Sequence[Polygon], 
     excl = exclusions if exclusions is not None else Polygon()
     tiny = max(tol, 1e-12) * 1e-3 * max(1.0, increment)
     for i, (g, panel) in enumerate(zip(geoms, panels, strict=True)):
-        others = shapely.union_all([r.geom for k, r in enumerate(out) if k != i])
+        # only the repairs within reach of the rounding can be in its way
+        reach = box(*g.bounds).buffer(increment, join_style="mitre")
+        others = shapely.union_all([r.geom for k, r in enumerate(out)
+                                    if k != i and r.geom.intersects(reach)])
         allowed = panel.difference(excl) if not excl.is_empty else panel
         if not others.is_empty:
             allowed = allowed.difference(others)
