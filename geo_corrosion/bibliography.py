@@ -454,6 +454,18 @@ ASSUMPTIONS_TO_CONFIRM: tuple[str, ...] = (
     "are owner-specific.",
     "Bid items and units, a 20 % contingency line, galvanic anodes as ceil(perimeter / "
     "spacing) with no default spacing (quantities.py): common practice.",
+    "Repair sides rounded up to multiples of 3 in (US sites) or 50 mm (metric sites), the "
+    "extra split evenly or put away from a joint, an exclusion or the slab edge "
+    "(repair/rounding.py; site key repair_increment): common practice.",
+    "A spall without a depth taken at half the cover, so above the bars; a delamination "
+    "without a depth at the bars, so below them (repair/layout.py "
+    "SPALL_DEPTH_SHARE_OF_COVER): common practice.",
+    "Bar replacement allowance: 10 % of the area of the repairs that expose the bars, with a "
+    "two-way top mat at 12 in (site keys bar_replacement_share, bar_spacing; "
+    "repair/tender.py): common practice.",
+    "Area treatments paid on whole bays between joints and column lines, a bay paid when a "
+    "treatment zone covers more than 10 % of it (site keys pay_area, pay_area_share; "
+    "repair/tender.py): common practice.",
     "Site threshold where the weighted mixture components cross, and the Ashman's D < 2 "
     "warning (condition/potential.py): common practice, after [Gulikers-Elsener-2008].",
     "Bar review beyond 25 % section loss (20 % for adjacent bars) (condition/life.py): read "

@@ -69,7 +69,7 @@ __all__ = [
 ]
 
 COORDS = ("local", "site")
-OVERLAY_KINDS = ("delamination", "spall", "patch", "crack")
+OVERLAY_KINDS = ("delamination", "spall", "patch", "crack", "soffit_delamination")
 VARIOGRAM_MODELS = ("auto", "spherical", "exponential", "gaussian", "matern")
 #: Kinds of joint line.  Expansion and isolation joints separate two members and their
 #: reinforcing mats (no bar crosses them); construction and control (contraction) joints
@@ -388,7 +388,7 @@ class LayerRef:
 
 @dataclass(frozen=True, kw_only=True)
 class OverlayRef:
-    """An overlay layer: delaminations, spalls, patches or cracks."""
+    """An overlay layer: delaminations, spalls, patches, cracks or soffit delaminations."""
 
     kind: str = key("kind", "string", choices=OVERLAY_KINDS, table="levels.overlays",
                     help="What the layer shows")
@@ -512,6 +512,23 @@ class LevelConfig:
         doc="No saw cut is counted along a joint. Each layer reference may say the joint "
             "`type` and whether it `breaks_continuity` (see *Joints*); one reference "
             "`{ path, layer }` is a list of one.")
+    column_grid: LayerRef | None = key(
+        "column_grid", "layer", None,
+        example='{ path = "plans/L1.dxf", layer = "GRID" }',
+        help="Column-grid lines, each labelled (C, 3)",
+        doc="A GIS layer labels a line by its `label`, `name` or `id` attribute; a DXF layer by "
+            "a text at one of its ends on the same layer. Repairs are located from the nearest "
+            "grid intersection, and the pay-area bays are split at these lines as at joints.")
+    station_start: float | None = key(
+        "station_start", "number", None, unit="grid units", example="1250.0",
+        help="A deck's station at grid x = 0, in grid units (12+50 = 1250.0 ft)",
+        doc="Stations run along grid x. Without a column grid, repairs are located by station "
+            "and offset (`Sta. 12+61.25, 3.50 ft Lt`; left of the centreline looking up-station "
+            "is +y).")
+    station_centerline_y: float = key(
+        "station_centerline_y", "number", 0.0, unit="grid units", example="20.0",
+        help="Grid y of the deck's centreline, from which offsets are measured",
+        doc="Used with `station_start`.")
     overlays: tuple[OverlayRef, ...] = key(
         "overlays", "overlays", [], active=True, type_doc="list of overlay references",
         example='[\n  { kind = "delamination", path = "sounding/L1.dxf", layer = "DELAM" },\n'
@@ -528,6 +545,11 @@ class LevelConfig:
         "cover_tolerance", "length", None, unit="mm", ge=0, le=100, positive=False,
         example='"0.5 in"',
         help="Placement tolerance, subtracted from specified_cover")
+    slab_thickness_mm: float | None = key(
+        "slab_thickness", "length", None, unit="mm", gt=0, le=3000, example='"7 in"',
+        default_doc="`[run].slab_thickness`",
+        help="This level's slab thickness, for full-depth repairs",
+        doc="Overrides `[run].slab_thickness` on this level.")
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -674,6 +696,27 @@ class RunParams:
         help="Galvanic anode spacing along repair perimeters",
         doc="When given, the schedule carries an `ANODE` item (EA), ceil(perimeter / spacing) "
             "per repair. Without it, no anode item.")
+    bar_replacement_share: float = key(
+        "bar_replacement_share", "number", 0.1, unit="fraction", ge=0, le=1,
+        expect="a fraction from 0 to 1 (0.1 = 10 %)",
+        help="Share of the area of repairs that expose the bars whose bars are replaced",
+        doc="Common practice, no source; to confirm. The `BAR-REPL` item (LF or m) is this "
+            "share of the area of the repairs below the bars and full depth times the bar of a "
+            "two-way top mat at `bar_spacing` (2 / spacing per unit area).")
+    bar_spacing_mm: float = key(
+        "bar_spacing", "length", "12 in", unit="mm", gt=0, le=1000,
+        help="Top-mat bar spacing, each way, for the bar replacement allowance")
+    pay_area: str = key(
+        "pay_area", "string", "bay", choices=("bay", "level", "zone"),
+        help="How area treatments are priced: whole bays, whole levels or the zones as mapped",
+        doc="`bay`: the slab split at its joints (the repair layout's panels); a bay is paid "
+            "whole when a treatment zone covers more than `pay_area_share` of it. `level`: the "
+            "whole deck of a level with any of the zone. `zone`: the zone's own area.")
+    pay_area_share: float = key(
+        "pay_area_share", "number", 0.1, unit="fraction", ge=0, lt=1,
+        expect="a fraction from 0 to below 1 (0.1 = 10 %)",
+        help="A bay is paid when a treatment zone covers more than this share of it",
+        doc="Common practice, no source; to confirm.")
     min_zone_area_m2: float = key(
         "min_zone_area", "area", "0.5 m2", unit="m2", ge=0,
         help="Zone parts smaller than this are left to later rules",
@@ -743,6 +786,16 @@ class LayoutParams:
         "min_repair_size", "length", "300 mm", unit="mm", ge=0, le=10000,
         table="run", record="min_repair_size_m", help="Smallest repair side",
         doc="Applied again to the pieces that joints and exclusions leave.")
+    round_increment_mm: float | None = key(
+        "repair_increment", "length", None, unit="mm", ge=0, le=1000, table="run",
+        record="repair_increment_m", example='"3 in"',
+        default_doc='`"3 in"` (`units = "us"`), `"50 mm"` (`"metric"`)',
+        help="Repair sides are rounded up to multiples of this",
+        doc="Common practice, no source. Each repair still holds what it covered; where "
+            "rounding up would cross a joint, enter an exclusion or leave the slab, the extra "
+            "goes to the other side, or the side is clipped there with a note on the repair. "
+            "`\"0 mm\"` turns rounding off. The library's own default (`LayoutParams`) is no "
+            "rounding.")
     min_reentrant_mm: float = param(
         300.0, unit="mm", ge=0, le=10000,
         help="Smallest notch, step or strip kept in an L/T-shaped repair (common practice)")
@@ -929,10 +982,11 @@ def _ordered(keys: Sequence[Key], order: Sequence[str]) -> tuple[Key, ...]:
 #: the allowed keys and run.json's ``parameters`` (docs/file-formats.md §3.5).
 _RUN_ORDER = (
     "cell_size", "max_distance", "contour_interval_mv", "repair_margin", "merge_gap",
-    "min_repair_size", "contingency", "n_neighbors", "variogram_model",
+    "min_repair_size", "repair_increment", "contingency", "n_neighbors", "variogram_model",
     "resistivity_reference_c", "activation_energy_kj_mol", "cse_reference_c",
     "correct_only_outside_band", "calibrate_variance", "bar_diameter", "max_aggregate",
-    "slab_thickness", "sawcut_depth", "axis_angle_deg", "anode_spacing", "min_zone_area",
+    "slab_thickness", "sawcut_depth", "axis_angle_deg", "anode_spacing", "bar_replacement_share",
+    "bar_spacing", "pay_area", "pay_area_share", "min_zone_area",
     "zone_smoothing", "variogram", "kinds",
 )
 

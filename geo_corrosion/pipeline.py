@@ -45,6 +45,7 @@ from geo_corrosion.stages.map_surfaces import map_level
 from geo_corrosion.stages.open_site import open_site
 from geo_corrosion.stages.plan_repairs import (
     low_cover_mask,
+    pay_area_frame,
     plan_level,
     planning_params,
     schedule_quantities,
@@ -116,7 +117,8 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
         stats["planning"] = notes
         levels[lid] = LevelResult(lv, surfaces=mapped.surfaces, repairs=repairs, zones=zones,
                                   stats=stats, skipped=mapped.skipped, condition=condition,
-                                  readings=mapped.readings, points=mapped.points)
+                                  readings=mapped.readings, points=mapped.points,
+                                  pay_areas=pay_area_frame(lv, zones, planning))
     surveys = tuple(dataclasses.replace(s, frame=frames[s.id]) if s.id in frames else s
                     for s in site.surveys)
     schedule = schedule_quantities(levels.values(), units=units, contingency=params.contingency,

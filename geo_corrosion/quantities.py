@@ -1,8 +1,9 @@
 """Bid items and the schedule of quantities, per level and in total.
 
 Quantities follow common practice (no published source): repair areas by
-depth class, saw-cut length, an estimated removal volume, galvanic anodes counted
-along repair perimeters, and zone treatments by area.  Areas are measured on the
+depth class (and overhead), saw-cut length, an estimated removal volume, galvanic
+anodes counted along repair perimeters, joint seals or headers along repair edges on
+joints, a bar replacement allowance, and zone treatments by (pay) area.  Areas are measured on the
 union of each item's polygons, so no area is counted twice where shapes overlap.
 The contingency is carried as its own line beside the base quantity.
 
@@ -146,9 +147,14 @@ DEFAULT_BID_ITEMS: dict[str, BidItem] = {b.code: b for b in (
     BidItem("REP-PD-SURF", "Partial-depth repair, above the bars", "area"),
     BidItem("REP-PD-BARS", "Partial-depth repair, to below the top mat (bars undercut)", "area"),
     BidItem("REP-FD", "Full-depth slab repair", "area"),
+    BidItem("REP-OVH", "Overhead (soffit) partial-depth repair", "area"),
     BidItem("REP-VOL", "Concrete removal and replacement volume (estimate)", "volume"),
     BidItem("SAWCUT", "Perimeter saw cut", "length"),
     BidItem("ANODE", "Embedded galvanic anodes along repair perimeters", "count"),
+    BidItem("JOINT-RPR", "Joint seal or joint header rebuilt along repair edges on joints",
+            "length"),
+    BidItem("BAR-REPL", "Reinforcing bar replacement allowance (repairs exposing the bars)",
+            "length"),
     BidItem("TREAT-ACTIVE", "Treatment of actively corroding sound concrete", "area"),
     BidItem("PROTECT-LOWCOVER", "Protection of low-cover areas (membrane or sealer)", "area"),
 )}
@@ -199,6 +205,10 @@ def _repair_lines(repairs: gpd.GeoDataFrame, anode_spacing_mm: float | None
                 n = sum(math.ceil(float(p) * 1000.0 / anode_spacing_mm - 1e-9)
                         for p in g["perimeter_m"])
                 lines.append({"level_id": lid, "item": "ANODE", "unit_kind": "count", "q": n})
+        for col, item in (("joint_edge_m", "JOINT-RPR"), ("bar_replacement_m", "BAR-REPL")):
+            if col in g and float(g[col].sum()) > 0:  # per repair (repair.tender_columns)
+                lines.append({"level_id": lid, "item": item, "unit_kind": "length",
+                              "q": float(g[col].sum())})
     return lines
 
 

@@ -18,6 +18,7 @@ from shapely.geometry.base import BaseGeometry
 
 from geo_corrosion.model.results import LevelResult, RunResult
 from geo_corrosion.model.surface import KindPoints
+from geo_corrosion.repair.tender import SOUNDING_PREFIX, sounding_labels
 from geo_corrosion.units import LENGTH_TO_M
 
 __all__ = ["level_layers", "site_layers", "to_site_frame"]
@@ -62,10 +63,15 @@ def level_layers(lr: LevelResult, crs: Any) -> dict[str, gpd.GeoDataFrame]:
              for r, j in zip(_feature_rows(lv.joints), lv.joints, strict=True)], lr, crs)
     for kind, feats in lv.overlays.items():
         rows = _feature_rows(feats, kind=kind)
-        for r in rows:
+        numbers = (sounding_labels([f.geometry for f in feats], SOUNDING_PREFIX[kind])
+                   if kind in SOUNDING_PREFIX else [""] * len(rows))
+        for r, n in zip(rows, numbers, strict=True):
             r["area_m2"] = r["geometry"].area * a2
+            if kind in SOUNDING_PREFIX:  # the number on the sounding plan (D1, S1)
+                r["number"] = n
         out[{"delamination": "delaminations", "spall": "spalls", "patch": "patches",
-             "crack": "cracks"}[kind]] = to_site_frame(rows, lr, crs)
+             "crack": "cracks", "soffit_delamination": "soffit_delaminations"}[kind]] = (
+            to_site_frame(rows, lr, crs))
     for name, s in lr.surfaces.items():
         unit = s.kind.canonical_unit
         out[f"contours_{name}"] = to_site_frame(
@@ -106,6 +112,10 @@ def level_layers(lr: LevelResult, crs: Any) -> dict[str, gpd.GeoDataFrame]:
         if "level_id" in rep:
             rep = rep.drop(columns="level_id")
         out["repairs"] = to_site_frame(_records(rep), lr, crs)
+    if lr.pay_areas is not None and len(lr.pay_areas):
+        pa = pd.DataFrame(lr.pay_areas.drop(columns=["geometry", "level_id"]))
+        pa["geometry"] = list(lr.pay_areas.geometry)
+        out["pay_areas"] = to_site_frame(_records(pa), lr, crs)
     return out
 
 

@@ -49,7 +49,8 @@ __all__ = ["MANIFEST_NAME", "FORMAT_VERSION", "manifest", "read_run", "result_ma
            "CombinedClassRecord", "CombinedRuleRecord", "CombinedRules", "LifeRange", "LifeSummary",
            "SpacingRecord", "DensityRuleRecord", "NeighbourhoodRecord", "PointsClassCount",
            "PointsRecord",
-           "PlanningNotes", "ZoningRuleRecord", "ZoneRecord", "ScheduleRow"]
+           "PlanningNotes", "ZoningRuleRecord", "ZoneRecord", "ScheduleRow", "RepairRecord",
+           "PayAreaRecord"]
 
 MANIFEST_NAME = "run.json"
 #: ``geo_corrosion_run`` of the manifests this version writes and reads.
@@ -69,6 +70,7 @@ def input_files(cfg: SiteConfig) -> list[dict[str, Any]]:
     paths = {cfg.path}
     for lv in cfg.levels:
         refs = [lv.slab, *lv.exclusions, *[j.ref for j in lv.joints],
+                *([lv.column_grid] if lv.column_grid else []),
                 *[o.ref for o in lv.overlays]]
         paths.update(r.path for r in refs)
     paths.update(s.path for s in cfg.surveys)
@@ -185,6 +187,7 @@ class RunParameters:
     repair_margin_m: float
     merge_gap_m: float
     min_repair_size_m: float
+    repair_increment_m: float | None
     contingency: float
     n_neighbors: int
     variogram_model: str
@@ -199,6 +202,10 @@ class RunParameters:
     sawcut_depth_mm: float
     axis_angle_deg: float
     anode_spacing_mm: float | None
+    bar_replacement_share: float
+    bar_spacing_mm: float
+    pay_area: str
+    pay_area_share: float
     min_zone_area_m2: float
     zone_smoothing_m: float
     variogram: Mapping[str, Mapping[str, Any]]
@@ -982,11 +989,66 @@ class ZoneRecord(_Record):
 
 
 @dataclass(frozen=True)
+class RepairRecord(_Record):
+    """``levels.<id>.repair_list[]``: one repair as the per-repair schedule gives it.
+
+    Quantities unrounded, in m, m2, m3 and mm; ``dimensions`` as a contractor writes
+    them in the reporting units; ``sounded`` the numbers of the sounded areas it holds.
+    """
+
+    repair_id: str
+    sounded: str
+    location: str
+    dimensions: str
+    size_x_m: float
+    size_y_m: float
+    area_m2: float
+    area_before_rounding_m2: float
+    perimeter_m: float
+    depth_class: str
+    depth_mm: float
+    volume_m3: float
+    bid_item: str
+    joint_edge_m: float
+    bar_replacement_m: float
+    anodes: int | None
+    rounding_note: str
+
+
+@dataclass(frozen=True)
+class PayAreaRecord(_Record):
+    """``levels.<id>.pay_areas[]``: a bay (or the level) a treatment is paid on."""
+
+    bay: str
+    bid_item: str
+    treatment: str
+    share_covered: float
+    area_m2: float
+
+
+#: The columns of a repair frame that ``run.json`` records per repair.
+REPAIR_RECORD_KEYS = tuple(f.name for f in dataclasses.fields(RepairRecord))
+
+
+def _repair_list(repairs: Any) -> list[dict[str, Any]]:
+    if repairs is None or not len(repairs):
+        return []
+    out = []
+    for r in repairs.to_dict("records"):
+        rec = {k: r.get(k) for k in REPAIR_RECORD_KEYS}
+        a = rec["anodes"]
+        rec["anodes"] = None if a is None or a != a else int(a)
+        out.append(rec)
+    return out
+
+
+@dataclass(frozen=True)
 class LevelRecord(_Record):
     """``levels.<id>``: everything recorded for a level.
 
     ``condition`` is None when the level has no surface; ``repairs`` is the number of
-    repair outlines.
+    repair outlines, ``repair_list`` the repairs themselves (without outlines) and
+    ``pay_areas`` the bays the treatments are paid on (empty when priced as zoned).
     """
 
     name: str
@@ -997,6 +1059,8 @@ class LevelRecord(_Record):
     planning: PlanningNotes | None
     zones: tuple[ZoneRecord, ...]
     repairs: int
+    repair_list: tuple[RepairRecord, ...]
+    pay_areas: tuple[PayAreaRecord, ...]
 
 
 @dataclass(frozen=True)
@@ -1121,7 +1185,12 @@ def _manifest_dict(result: RunResult, started: float) -> dict[str, Any]:
                          "zones": [] if lr.zones is None else [
                              {k: v for k, v in z.items() if k != "geometry"}
                              for z in lr.zones.to_dict("records")],
-                         "repairs": 0 if lr.repairs is None else len(lr.repairs)}
+                         "repairs": 0 if lr.repairs is None else len(lr.repairs),
+                         "repair_list": _repair_list(lr.repairs),
+                         "pay_areas": [] if lr.pay_areas is None else [
+                             {k: v for k, v in z.items()
+                              if k not in ("geometry", "level_id", "unit_kind")}
+                             for z in lr.pay_areas.to_dict("records")]}
                    for lid, lr in result.levels.items()},
         "schedule": sched,
         "warnings": list(result.warnings),

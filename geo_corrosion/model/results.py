@@ -49,6 +49,9 @@ class LevelResult:
     condition: LevelCondition | None = None
     readings: dict[str, pd.DataFrame] = field(default_factory=dict)
     points: dict[str, KindPoints] = field(default_factory=dict)
+    #: treatment pay areas (whole bays or the level) in local grid coordinates, None when
+    #: the treatments are priced as zoned (``[run].pay_area = "zone"``)
+    pay_areas: gpd.GeoDataFrame | None = None
 
 
 @dataclass

@@ -65,6 +65,8 @@ class Level:
     exclusions: tuple[Feature, ...] = ()
     joints: tuple[Feature, ...] = ()
     overlays: dict[str, tuple[Feature, ...]] = field(default_factory=dict)
+    #: column-grid lines with their labels (``Feature.label``: ``C``, ``3``), if given
+    column_grid: tuple[Feature, ...] = ()
 
     @property
     def id(self) -> str:

@@ -16,7 +16,7 @@ from shapely.geometry import MultiPolygon, Polygon
 from geo_corrosion.config import LevelConfig, RunParams, SiteConfig, SurveyConfig
 from geo_corrosion.crs import LocalGrid
 from geo_corrosion.errors import GeometryWarning, IngestError, SiteFileError
-from geo_corrosion.io.plans import Feature, read_lines, read_polygons
+from geo_corrosion.io.plans import Feature, read_grid_lines, read_lines, read_polygons
 from geo_corrosion.io.readings import read_readings
 from geo_corrosion.measurements import get_kind
 from geo_corrosion.model.site import Joint, Level, Site, Survey
@@ -77,7 +77,10 @@ def read_level(cfg: LevelConfig, site: SiteConfig) -> Level:
         else:
             feats = read_polygons(ov.ref, grid, site_crs=site.crs, what=f"{ov.kind} outlines")
         overlays.setdefault(ov.kind, []).extend(feats)
-    level = Level(cfg, grid, slab, exclusions, joints, {k: tuple(v) for k, v in overlays.items()})
+    col = (tuple(read_grid_lines(cfg.column_grid, grid, site_crs=site.crs))
+           if cfg.column_grid else ())
+    level = Level(cfg, grid, slab, exclusions, joints, {k: tuple(v) for k, v in overlays.items()},
+                  column_grid=col)
     _check_breaking_joints(level, joints)
     return level
 

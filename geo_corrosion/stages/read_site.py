@@ -42,6 +42,7 @@ from geo_corrosion.config import (
 )
 from geo_corrosion.crs import site_crs
 from geo_corrosion.errors import RepairError, SiteFileError, UnitError
+from geo_corrosion.repair.rounding import default_increment_mm
 from geo_corrosion.units import normalize_unit, parse_area
 
 __all__ = ["read_site"]
@@ -219,10 +220,15 @@ def _level(data: object, where: str, root: Path) -> LevelConfig:
             for i, e in enumerate(t.array("exclusions"))
         ),
         joints=_joints(t, root),
+        column_grid=(_layer(t.data["column_grid"], t.key("column_grid"), root)
+                     if t.has("column_grid") else None),
         overlays=tuple(overlays),
         grid=_grid(t.data["grid"], t.key("grid")),
         specified_cover_mm=_read(t, keys["specified_cover"]),
         cover_tolerance_mm=_read(t, keys["cover_tolerance"]),
+        slab_thickness_mm=_read(t, keys["slab_thickness"]),
+        station_start=_read(t, keys["station_start"]),
+        station_centerline_y=_read(t, keys["station_centerline_y"]),
     )
 
 
@@ -411,12 +417,13 @@ def _kinds(t: Table) -> dict[str, dict[str, Any]]:
     return out
 
 
-def _run(data: object, where: str) -> tuple[dict[str, Any], LayoutParams]:
+def _run(data: object, where: str, units: str) -> tuple[dict[str, Any], LayoutParams]:
     """Read [run]: the keyword arguments of :class:`RunParams`, and the repair layout's.
 
     The layout's keys are checked against the ranges declared on
     :class:`~geo_corrosion.config.LayoutParams` here, each message naming its [run] key, and
-    the layout parameters are built once.
+    the layout parameters are built once.  ``repair_increment`` not given takes the default
+    of the reporting ``units`` (3 in or 50 mm).
     """
     t = _table(data, where, "run")
     run: dict[str, Any] = {}
@@ -428,6 +435,8 @@ def _run(data: object, where: str) -> tuple[dict[str, Any], LayoutParams]:
             run["kinds"] = _kinds(t)
         else:
             (layout if k.owner is LayoutParams else run)[k.field] = _read(t, k)
+    if layout.get("round_increment_mm") is None:  # the default follows the reporting units
+        layout["round_increment_mm"] = default_increment_mm(units)
     try:
         params = LayoutParams(**layout)
     except RepairError as err:  # a check across keys: the table is named
@@ -718,7 +727,7 @@ def read_site(path: str | Path) -> SiteConfig:
         dup = sorted({s for s in sids if sids.count(s) > 1})
         raise SiteFileError(f"{p}: survey ids must be unique; repeated: {', '.join(dup)}")
     site = {k: _read(st, keys[k]) for k in ("name", "owner", "units", "notes")}
-    run, layout = _run(data.get("run", {}), f"{p}: [run]")
+    run, layout = _run(data.get("run", {}), f"{p}: [run]", str(site["units"]))
     return SiteConfig(
         path=p.resolve(),
         root=root,

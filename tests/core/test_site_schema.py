@@ -16,6 +16,7 @@ import pytest
 from geo_corrosion import config
 from geo_corrosion.config import TABLES, LayoutParams, RunParams, render_docs, site_template
 from geo_corrosion.errors import RepairError, SiteFileError
+from geo_corrosion.repair.rounding import default_increment_mm
 from geo_corrosion.stages.read_site import read_site
 from geo_corrosion.units import parse_length
 from tests.core.conftest import edit
@@ -28,10 +29,11 @@ TEMPLATE = ROOT / "geo_corrosion" / "templates" / "site.toml"
 #: in /work/runs/before; docs/file-formats.md §3.5): names, order and units stay.
 PARAMETERS = (
     "cell_size_m", "max_distance_m", "contour_interval_mv", "repair_margin_m", "merge_gap_m",
-    "min_repair_size_m", "contingency", "n_neighbors", "variogram_model",
+    "min_repair_size_m", "repair_increment_m", "contingency", "n_neighbors", "variogram_model",
     "resistivity_reference_c", "activation_energy_kj_mol", "cse_reference_c",
     "correct_only_outside_band", "calibrate_variance", "bar_diameter_mm", "max_aggregate_mm",
     "slab_thickness_mm", "sawcut_depth_mm", "axis_angle_deg", "anode_spacing_mm",
+    "bar_replacement_share", "bar_spacing_mm", "pay_area", "pay_area_share",
     "min_zone_area_m2", "zone_smoothing_m", "variogram", "kinds", "basemap_url",
     "basemap_attribution",
 )
@@ -98,10 +100,13 @@ def test_writing_every_default_out_gives_the_same_config(site_dir: Path) -> None
     text = text.replace('cell_size = "1 ft"\nmax_distance = "6 ft"\n', "")
     (site_dir / "site.toml").write_text(text)
     bare = read_site(site_dir)
-    assert bare.run == RunParams() and bare.layout == LayoutParams()
+    # the cutting increment's default follows the reporting units (issue 13, common practice)
+    assert bare.run == RunParams() and bare.layout == LayoutParams(
+        round_increment_mm=default_increment_mm(bare.units))
     edit(site_dir / "site.toml", "[run]\n", "[run]\n" + "\n".join(lines) + "\n")
     full = read_site(site_dir)
-    assert full.run == RunParams() and full.layout == LayoutParams()
+    assert full.run == RunParams() and full.layout == LayoutParams(
+        round_increment_mm=default_increment_mm(full.units))
     assert len(lines) >= 18
 
 

@@ -297,7 +297,7 @@ def test_unpriced_item_warns_in_the_stage(tmp_path: Path) -> None:
 
     (tmp_path / "p.csv").write_text(HEADER + "REP-PD-BARS,x,ft2,95,USD\n", encoding="utf-8")
     prices = read_price_list(tmp_path / "p.csv", items=DEFAULT_BID_ITEMS, units=US)
-    level = SimpleNamespace(repairs=repairs_ft([(0, 0, 20, 25)]), zones=None)
+    level = SimpleNamespace(repairs=repairs_ft([(0, 0, 20, 25)]), zones=None, pay_areas=None)
     with pytest.warns(GeoCorrosionWarning, match=r"p.csv: no unit price for REP-VOL, SAWCUT"):
         s = schedule_quantities([level], units=US, contingency=0.2,  # type: ignore[list-item]
                                 anode_spacing_mm=None, prices=prices)

@@ -222,8 +222,10 @@ def _expected_base_quantities(out: RunOutputs, lid: str) -> dict[str, float]:
     exp: dict[str, float] = defaultdict(float)
     reps = out.layer(f"{lid}_repairs")
     if len(reps):
-        for cls, g in reps.groupby("depth_class"):
-            item = DEPTH_CLASS_ITEMS[str(cls)]
+        # the repair's bid item (overhead repairs: REP-OVH), else that of its depth class
+        key = "bid_item" if "bid_item" in reps else "depth_class"
+        for cls, g in reps.groupby(key):
+            item = str(cls) if key == "bid_item" else DEPTH_CLASS_ITEMS[str(cls)]
             areas = g.geometry.area.to_numpy()
             # quantities.py: measured on the union of the item's polygons (shapely area)
             union = shapely.union_all(g.geometry.to_numpy()).area
@@ -246,8 +248,25 @@ def _expected_base_quantities(out: RunOutputs, lid: str) -> dict[str, float]:
         spacing = out.manifest["parameters"].get("anode_spacing_mm")
         if spacing:  # common practice: ceil(perimeter / spacing) anodes per repair
             exp["ANODE"] = float(sum(math.ceil(c * 1000.0 / spacing - 1e-9) for c in cut_m))
-    zones = out.layer(f"{lid}_zones")
-    if len(zones):
+        # joint seal or header: the outline on a joint (repair.tender.joint_edge_length)
+        on_joint = shapely.union_all([affinity.translate(ln, -x0, -y0).buffer(tol)
+                                      for ln in out.joints(lid)]) if out.joints(lid) else None
+        if on_joint is not None:
+            jl = sum(affinity.translate(g.boundary, -x0, -y0).intersection(on_joint).length * k
+                     for g in reps.geometry)
+            if jl > 0:
+                exp["JOINT-RPR"] = jl * f
+        # bar allowance: share x area of the repairs exposing the bars x 2 / spacing
+        # (repair.tender.bar_replacement_length, common practice)
+        prm = out.manifest["parameters"]
+        exposed = reps[reps["depth_class"].isin(["partial_below_bars", "full_depth"])]
+        bars = (float(exposed.geometry.area.sum()) * k**2 * prm["bar_replacement_share"] * 2.0
+                / (prm["bar_spacing_mm"] / 1000.0))
+        if bars > 0:
+            exp["BAR-REPL"] = bars * f
+    pay = out.layer(f"{lid}_pay_areas")
+    zones = pay if len(pay) else out.layer(f"{lid}_zones")
+    if len(pay) or out.manifest["parameters"].get("pay_area", "zone") == "zone":
         priced = zones[zones["bid_item"].notna() & (zones["bid_item"].astype(str) != "")]
         for item, g in priced.groupby("bid_item"):
             # zone treatments by area: shapely area of the union of the item's zones
@@ -262,7 +281,7 @@ BID_INCREMENT = {"ft2": 1.0, "LF": 1.0, "EA": 1.0, "LS": 1.0, "CY": 0.1, "m2": 0
 
 
 def test_bid_quantities_are_sums_over_repairs_and_zones(out: RunOutputs) -> None:
-    """Guards quantities: each base quantity is the sum over its repairs or zones, in units.
+    """Guards quantities: each base quantity is the sum over its repairs, zones or pay areas.
 
     The unrounded quantity (run.json) is the sum; quantities.csv holds it rounded up to
     its unit's bid increment.
