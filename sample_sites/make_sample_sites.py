@@ -570,7 +570,20 @@ def _write_plan(path: Path, plan: Plan) -> None:
             msp.add_lwpolyline(verts, close=False, dxfattribs={"layer": lay})
     for x, y in plan.drains:
         msp.add_circle((x, y), 0.5, dxfattribs={"layer": "DRAINS"})
+    # the column grid: lettered lines along grid x, numbered along grid y, each labelled by a
+    # text at its first end (the grid bubble)
+    doc.layers.add("GRID", color=9)
+    for label, (a, b) in _column_grid():
+        msp.add_line(a, b, dxfattribs={"layer": "GRID"})
+        msp.add_text(label, height=2.0, dxfattribs={"layer": "GRID", "insert": a})
     _save_dxf(doc, path)
+
+
+def _column_grid() -> list[tuple[str, tuple[tuple[float, float], tuple[float, float]]]]:
+    """Column lines every 30 ft: A-G along grid x (x = 0 ... 180), 1-5 along y (y = 0 ... 120)."""
+    out = [(chr(ord("A") + i), ((30.0 * i, -6.0), (30.0 * i, 126.0))) for i in range(7)]
+    out += [(str(j + 1), ((-6.0, 30.0 * j), (186.0, 30.0 * j))) for j in range(5)]
+    return out
 
 
 def _write_sounding(path: Path, delams: list[Polygon], spalls: list[Polygon],
@@ -610,9 +623,12 @@ PRICES = (
     ("REP-PD-SURF", "Partial-depth repair, above the bars", "ft2", "65.00"),
     ("REP-PD-BARS", "Partial-depth repair, bars undercut", "ft2", "95.00"),
     ("REP-FD", "Full-depth slab repair", "ft2", "160.00"),
+    ("REP-OVH", "Overhead (soffit) repair", "ft2", "140.00"),
     ("REP-VOL", "Repair material supplied, by volume removed", "CY", "450.00"),
     ("SAWCUT", "Perimeter saw cut", "LF", "6.50"),
     ("ANODE", "Embedded galvanic anode", "EA", "45.00"),
+    ("JOINT-RPR", "Joint seal or header rebuilt along a repair", "LF", "38.00"),
+    ("BAR-REPL", "Reinforcing bar replacement allowance", "LF", "12.00"),
     ("TREAT-ACTIVE", "Surface-applied corrosion inhibitor", "ft2", "4.25"),
     ("PROTECT-LOWCOVER", "Penetrating sealer", "ft2", "3.50"),
 )
@@ -668,6 +684,8 @@ def _site_toml(seed: int) -> str:
                     'type = "construction" },',
                     f'           {{ path = "plans/{lid}.dxf", layer = "EXP-JOINTS", '
                     'type = "expansion" } ]']),
+            "# column lines A-G and 1-5: repairs are located from them, treatments paid by bay",
+            f'column_grid = {{ path = "plans/{lid}.dxf", layer = "GRID" }}',
             f'overlays = [ {{ kind = "delamination", path = "sounding/{lid}.dxf", '
             f'layer = "DELAM" }}, '
             f'{{ kind = "spall", path = "sounding/{lid}.dxf", layer = "SPALL" }} ]',
@@ -756,8 +774,8 @@ noise, so the least-squares fit has small residuals.
 |---|---|
 | `site.toml` | the site file |
 | `prices.csv` | invented unit prices (USD) for the engineer's estimate, `[quantities]` |
-| `plans/L2.dxf`, `plans/RF.dxf` | layers SLAB, COLUMNS, OPENINGS, JOINTS, DRAINS; \
-EXP-JOINTS on RF; feet |
+| `plans/L2.dxf`, `plans/RF.dxf` | layers SLAB, COLUMNS, OPENINGS, JOINTS, DRAINS, GRID \
+(column lines A-G, 1-5); EXP-JOINTS on RF; feet |
 | `sounding/L2.dxf`, `sounding/RF.dxf` | chain-drag sounding [ASTM-D4580-23]: DELAM, SPALL; \
 one RF delamination is a CIRCLE |
 | `readings/L2_potential_east.csv` | CSE, 24 degC, mV, with a `note` column |
