@@ -589,6 +589,21 @@ class RunParams:
         doc="The kriging variance is then honest (MSSE = 1); estimates in the kriged space are "
             "unchanged ([methods.md](methods.md) §3.2). Not applied when "
             "`[run.variogram.<kind>]` fixes `nugget` or `psill`.")
+    interval_method: str = key(
+        "interval_method", "string", "simulation",
+        choices=("simulation", "separable-approximation"),
+        help="How the interval of each area beyond a threshold is found",
+        doc="`simulation`: conditional simulation of the field, nugget as measurement error, "
+            "areas at sub-cell resolution (surfaces/simulation.py); `separable-approximation`: "
+            "the earlier fast approximation (kriging sd, separable correlation over the "
+            "variogram range, whole cells), whose 90 % interval was about ten times too wide "
+            "with noisy readings (benchmarks/README.md).")
+    realisations: int = key(
+        "realisations", "integer", 200, unit="realisations", ge=20, le=5000,
+        help="Conditional simulations for the areas, their intervals and probability maps",
+        doc="With `interval_method = \"simulation\"`; seed fixed, so runs repeat. 200 keeps "
+            "the 90 % bounds within about 2 % of the mapped area from seed to seed "
+            "(benchmarks/README.md); time grows in proportion.")
     anode_spacing_mm: float | None = key(
         "anode_spacing", "length", None, unit="mm", example='"24 in"',
         help="Galvanic anode spacing along repair perimeters",
@@ -799,9 +814,9 @@ _RUN_ORDER = (
     "cell_size", "max_distance", "contour_interval_mv", "repair_margin", "merge_gap",
     "min_repair_size", "contingency", "n_neighbors", "variogram_model",
     "resistivity_reference_c", "activation_energy_kj_mol", "cse_reference_c",
-    "correct_only_outside_band", "calibrate_variance", "bar_diameter", "max_aggregate",
-    "slab_thickness", "sawcut_depth", "axis_angle_deg", "anode_spacing", "min_zone_area",
-    "zone_smoothing", "variogram",
+    "correct_only_outside_band", "calibrate_variance", "interval_method", "realisations",
+    "bar_diameter", "max_aggregate", "slab_thickness", "sawcut_depth", "axis_angle_deg",
+    "anode_spacing", "min_zone_area", "zone_smoothing", "variogram",
 )
 
 _CLASS_KEYS_DOC = "class key or list of class keys"

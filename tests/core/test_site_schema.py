@@ -30,7 +30,8 @@ PARAMETERS = (
     "cell_size_m", "max_distance_m", "contour_interval_mv", "repair_margin_m", "merge_gap_m",
     "min_repair_size_m", "contingency", "n_neighbors", "variogram_model",
     "resistivity_reference_c", "activation_energy_kj_mol", "cse_reference_c",
-    "correct_only_outside_band", "calibrate_variance", "bar_diameter_mm", "max_aggregate_mm",
+    "correct_only_outside_band", "calibrate_variance", "interval_method", "realisations",
+    "bar_diameter_mm", "max_aggregate_mm",
     "slab_thickness_mm", "sawcut_depth_mm", "axis_angle_deg", "anode_spacing_mm",
     "min_zone_area_m2", "zone_smoothing_m", "variogram", "basemap_url", "basemap_attribution",
 )
