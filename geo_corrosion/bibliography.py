@@ -327,6 +327,11 @@ _ALL: tuple[Source, ...] = (
            "SIAM Journal on Scientific Computing 18(4) (1997) 1088-1107",
            "Dietrich & Newsam (1997)",
            "Circulant embedding; padding enlarged while eigenvalues are negative, from memory."),
+    Source("Keys-1981", "R.G. Keys",
+           "Cubic convolution interpolation for digital image processing", 1981,
+           "IEEE Transactions on Acoustics, Speech, and Signal Processing 29(6) (1981) "
+           "1153-1160", "Keys (1981)",
+           "The cubic convolution kernel (a = -1/2) of the sub-cell areas, from memory."),
     Source("Deutsch-Journel-1998", "C.V. Deutsch, A.G. Journel",
            "GSLIB: Geostatistical Software Library and User's Guide", 1998,
            "2nd ed., Oxford University Press, New York", "Deutsch & Journel (1998)",
@@ -420,7 +425,8 @@ ASSUMPTIONS_TO_CONFIRM: tuple[str, ...] = (
     "[Wood-Chan-1994; Dietrich-Newsam-1997]; the unconditional value at a reading by "
     "simple kriging from 4 x 4 lattice nodes with independent residuals: common practice; "
     "the cost of sequential Gaussian simulation, the alternative not chosen "
-    "[Deutsch-Journel-1998 §V.2.3]; check.",
+    "[Deutsch-Journel-1998 §V.2.3]; the cubic convolution kernel of the sub-cell areas "
+    "[Keys-1981]; check.",
     "Kriging: the variance scaled so that the leave-one-out MSSE is 1 "
     "(stages/map_surfaces.py), the "
     "multi-Gaussian reading of kriging output for the probability maps "

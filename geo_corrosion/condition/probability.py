@@ -54,7 +54,8 @@ Intervals by conditional simulation (the default)
     conditioning by kriging
     [Journel-Huijbregts-1978 ch. VII, from memory; Chiles-Delfiner-2012 §7.3.1, from memory])
     and measures in each the area beyond the
-    threshold under the bilinear interpolant of the cell values, at sub-cell resolution,
+    threshold under the cubic convolution interpolant of the cell values [Keys-1981], at
+    sub-cell resolution,
     so that the area is not counted in whole cells.  The expected area is the mean over the
     realisations, the interval their equal-tailed quantile range, and the probability map
     the mean share of each cell beyond, all from the same realisations.
@@ -442,8 +443,8 @@ def simulated_area_intervals(
     a = (1.0 - level) / 2.0
     out = []
     method = (f"{level:.0%} interval from {n_realisations} conditional simulations "
-              "(conditioning by kriging, nugget as measurement error; areas under the "
-              f"bilinear interpolant at sub-cell resolution; seed {seed})")
+              "(conditioning by kriging, nugget as measurement error; areas at sub-cell "
+              f"resolution; seed {seed})")
     for (t, d), r in zip(thresholds, res, strict=True):
         lo, hi = np.quantile(r.areas, [a, 1.0 - a])
         mean_area = float(r.areas.mean())

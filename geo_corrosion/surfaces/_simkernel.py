@@ -11,8 +11,10 @@
   field, ``w·γ0 + ν - nugget``.
 * :func:`condition_lattice`: add the kriged residuals of all realisations of a batch to
   the unconditional lattice values (the conditioning step).
-* :func:`excursion`: the share of each cell beyond a threshold under the bilinear
-  interpolant of the cell-centre values, per realisation.
+* :func:`excursion`: the share of each cell beyond a threshold under the cubic convolution
+  interpolant of the cell-centre values [Keys-1981] (bilinear where a cell lacks the
+  4 x 4 neighbours), per realisation.  Each quarter of a cell is either wholly on one side
+  (the 16 values, widened by :data:`CUBIC_OVERSHOOT`, are) or sampled at ``q x q`` points.
 
 Each loop has a numpy version (used without numba, ``GEO_CORROSION_NO_JIT=1``, or for the
 Matérn model in :func:`filtered_weights`); tests compare the two.
@@ -33,7 +35,13 @@ try:  # numba is a dependency; the numpy versions still work without it
 except ImportError:  # pragma: no cover - exercised only on installs without numba
     _nb = None  # type: ignore[assignment]
 
-__all__ = ["filtered_weights", "condition_lattice", "excursion", "weights_numpy"]
+__all__ = ["filtered_weights", "condition_lattice", "excursion", "weights_numpy",
+           "CUBIC_OVERSHOOT"]
+
+#: Bound on how far the cubic convolution interpolant leaves the range of its 16 values, as
+#: a share of that range (derived: the negative weights of Keys' kernel, a = -1/2, sum to at
+#: most 1/8 per axis, so at most 2 x 1/8 x 9/8 < 0.3 in two dimensions).
+CUBIC_OVERSHOOT = 0.3
 
 if _nb is not None:
     _gamma = _kernel._gamma
@@ -151,12 +159,24 @@ if _nb is not None:
     def _side(v: float, t: float, below: bool) -> bool:  # pragma: no cover
         return v < t if below else v > t
 
+    @_nb.njit(cache=True, nogil=True, inline="always")
+    def _keys(s: float, w: NDArray[np.float64]) -> None:  # pragma: no cover
+        s2 = s * s
+        s3 = s2 * s
+        w[0] = 0.5 * (-s3 + 2.0 * s2 - s)
+        w[1] = 0.5 * (3.0 * s3 - 5.0 * s2 + 2.0)
+        w[2] = 0.5 * (-3.0 * s3 + 4.0 * s2 + s)
+        w[3] = 0.5 * (s3 - s2)
+
     @_nb.njit(cache=True, nogil=True)
     def _excursion(zlat: NDArray[np.float64], rows: NDArray[np.intp], cols: NDArray[np.intp],
                    t: float, below: bool, q: int, frac_sum: NDArray[np.float64],
                    areas: NDArray[np.float64]) -> None:  # pragma: no cover
         R, ny, nx = zlat.shape
         m = rows.size
+        blk = np.empty((4, 4))
+        wr = np.empty(4)
+        wc = np.empty(4)
         for r in range(R):
             tot = 0.0
             for c in range(m):
@@ -166,38 +186,78 @@ if _nb is not None:
                 f = 0.0
                 for di in (-1, 1):
                     for dj in (-1, 1):
-                        ii = i + di
-                        jj = j + dj
-                        bi = a
-                        bj = a
-                        bd = a
-                        if 0 <= ii < ny:
-                            v = zlat[r, ii, j]
-                            if np.isfinite(v):
-                                bi = v
-                        if 0 <= jj < nx:
-                            v = zlat[r, i, jj]
-                            if np.isfinite(v):
-                                bj = v
-                        if 0 <= ii < ny and 0 <= jj < nx:
-                            v = zlat[r, ii, jj]
-                            if np.isfinite(v):
-                                bd = v
-                        s = (int(_side(a, t, below)) + int(_side(bi, t, below))
-                             + int(_side(bj, t, below)) + int(_side(bd, t, below)))
-                        if s == 4:
+                        i0 = i if di > 0 else i - 1
+                        j0 = j if dj > 0 else j - 1
+                        full = i0 >= 1 and i0 + 2 < ny and j0 >= 1 and j0 + 2 < nx
+                        lo = np.inf
+                        hi = -np.inf
+                        if full:
+                            for aa in range(4):
+                                for bb in range(4):
+                                    v = zlat[r, i0 - 1 + aa, j0 - 1 + bb]
+                                    if not np.isfinite(v):
+                                        full = False
+                                    blk[aa, bb] = v
+                        if full:
+                            for aa in range(4):
+                                for bb in range(4):
+                                    v = blk[aa, bb]
+                                    lo = min(lo, v)
+                                    hi = max(hi, v)
+                            pad = CUBIC_OVERSHOOT * (hi - lo)
+                            lo -= pad
+                            hi += pad
+                        else:  # bilinear from the square's corners (a missing one: the cell's)
+                            for aa in range(4):
+                                for bb in range(4):
+                                    blk[aa, bb] = a
+                            for aa in range(2):
+                                for bb in range(2):
+                                    ii = i0 + aa
+                                    jj = j0 + bb
+                                    if 0 <= ii < ny and 0 <= jj < nx:
+                                        v = zlat[r, ii, jj]
+                                        if np.isfinite(v):
+                                            blk[1 + aa, 1 + bb] = v
+                            for aa in range(1, 3):
+                                for bb in range(1, 3):
+                                    lo = min(lo, blk[aa, bb])
+                                    hi = max(hi, blk[aa, bb])
+                        if _side(lo, t, below) and _side(hi, t, below):
                             f += 0.25
-                        elif s > 0:
-                            cnt = 0
-                            for si in range(q):
-                                u = (si + 0.5) / (2.0 * q)
-                                for sj in range(q):
-                                    w = (sj + 0.5) / (2.0 * q)
-                                    val = ((1.0 - u) * (1.0 - w) * a + u * (1.0 - w) * bi
-                                           + (1.0 - u) * w * bj + u * w * bd)
-                                    if _side(val, t, below):
-                                        cnt += 1
-                            f += 0.25 * cnt / (q * q)
+                            continue
+                        if not (_side(lo, t, below) or _side(hi, t, below)):
+                            continue
+                        cnt = 0
+                        for si in range(q):
+                            u = (si + 0.5) / (2.0 * q)
+                            sr = u if di > 0 else 1.0 - u
+                            if full:
+                                _keys(sr, wr)
+                            else:
+                                wr[0] = 0.0
+                                wr[1] = 1.0 - sr
+                                wr[2] = sr
+                                wr[3] = 0.0
+                            for sj in range(q):
+                                w = (sj + 0.5) / (2.0 * q)
+                                sc = w if dj > 0 else 1.0 - w
+                                if full:
+                                    _keys(sc, wc)
+                                else:
+                                    wc[0] = 0.0
+                                    wc[1] = 1.0 - sc
+                                    wc[2] = sc
+                                    wc[3] = 0.0
+                                val = 0.0
+                                for aa in range(4):
+                                    rowv = 0.0
+                                    for bb in range(4):
+                                        rowv += wc[bb] * blk[aa, bb]
+                                    val += wr[aa] * rowv
+                                if _side(val, t, below):
+                                    cnt += 1
+                        f += 0.25 * cnt / (q * q)
                 frac_sum[c] += f
                 tot += f
             areas[r] += tot
@@ -282,13 +342,14 @@ def condition_lattice(zlat: NDArray[np.float64], cells: NDArray[np.intp], idx: N
 def excursion(zlat: NDArray[np.float64], rows: NDArray[np.intp], cols: NDArray[np.intp],
               threshold: float, *, below: bool, q: int = 8, use_kernel: bool = True
               ) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
-    """Share of each target cell beyond ``threshold`` under the bilinear interpolant.
+    """Share of each target cell beyond ``threshold`` under the cubic interpolant.
 
     Parameters
     ----------
     zlat : ndarray, shape ``(R, ny, nx)``
-        Realisations at cell centres; NaN where a cell is not simulated (a missing
-        neighbour repeats the cell's own value).
+        Realisations at cell centres; NaN where a cell is not simulated.  A quarter cell
+        whose 4 x 4 block of centres is incomplete is interpolated bilinearly from its
+        square's corners (a missing corner repeats the cell's own value).
     rows, cols : ndarray of int
         The target cells.
     threshold : float
@@ -315,23 +376,46 @@ def excursion(zlat: NDArray[np.float64], rows: NDArray[np.intp], cols: NDArray[n
     u = (np.arange(q) + 0.5) / (2.0 * q)
     for di in (-1, 1):
         for dj in (-1, 1):
-            ii = rows + di
-            jj = cols + dj
-            iin = (ii >= 0) & (ii < ny)
-            jin = (jj >= 0) & (jj < nx)
-            ic, jc = np.clip(ii, 0, ny - 1), np.clip(jj, 0, nx - 1)
-            bi = np.where(iin, zlat[:, ic, cols], np.nan)
-            bj = np.where(jin, zlat[:, rows, jc], np.nan)
-            bd = np.where(iin & jin, zlat[:, ic, jc], np.nan)
-            bi = np.where(np.isfinite(bi), bi, a)
-            bj = np.where(np.isfinite(bj), bj, a)
-            bd = np.where(np.isfinite(bd), bd, a)
-            U, V = np.meshgrid(u, u, indexing="ij")
-            U, V = U.ravel(), V.ravel()
-            val = ((1 - U) * (1 - V) * a[..., None] + (U * (1 - V)) * bi[..., None]
-                   + ((1 - U) * V) * bj[..., None] + (U * V) * bd[..., None])
+            i0 = rows if di > 0 else rows - 1
+            j0 = cols if dj > 0 else cols - 1
+            sr = u if di > 0 else 1.0 - u
+            sc = u if dj > 0 else 1.0 - u
+            blk = np.empty((R, rows.size, 4, 4))
+            inside = (i0 >= 1) & (i0 + 2 < ny) & (j0 >= 1) & (j0 + 2 < nx)
+            for aa in range(4):
+                for bb in range(4):
+                    ii = np.clip(i0 - 1 + aa, 0, ny - 1)
+                    jj = np.clip(j0 - 1 + bb, 0, nx - 1)
+                    blk[:, :, aa, bb] = zlat[:, ii, jj]
+            full = inside[None, :] & np.isfinite(blk).all(axis=(2, 3))
+            # bilinear block where the 4 x 4 block is incomplete
+            lin = np.broadcast_to(a[:, :, None, None], blk.shape).copy()
+            for aa in range(2):
+                for bb in range(2):
+                    ii, jj = i0 + aa, j0 + bb
+                    ok = (ii >= 0) & (ii < ny) & (jj >= 0) & (jj < nx)
+                    v = zlat[:, np.clip(ii, 0, ny - 1), np.clip(jj, 0, nx - 1)]
+                    v = np.where(ok[None, :] & np.isfinite(v), v, a)
+                    lin[:, :, 1 + aa, 1 + bb] = v
+            blk = np.where(full[:, :, None, None], blk, lin)
+            wr_c, wc_c = _keys_np(sr), _keys_np(sc)
+            wr_l, wc_l = _lin_np(sr), _lin_np(sc)
+            vc = np.einsum("ia,rcab,jb->rcij", wr_c, blk, wc_c)
+            vl = np.einsum("ia,rcab,jb->rcij", wr_l, blk, wc_l)
+            val = np.where(full[:, :, None, None], vc, vl)
             hit = (val < threshold) if below else (val > threshold)
-            share = 0.25 * hit.mean(axis=-1)
+            share = 0.25 * hit.mean(axis=(2, 3))
             frac += share.sum(axis=0)
             areas += share.sum(axis=1)
     return frac, areas
+
+
+def _keys_np(s: NDArray[np.floating[Any]]) -> NDArray[np.float64]:
+    s2, s3 = s * s, s * s * s
+    return np.stack([0.5 * (-s3 + 2 * s2 - s), 0.5 * (3 * s3 - 5 * s2 + 2),
+                     0.5 * (-3 * s3 + 4 * s2 + s), 0.5 * (s3 - s2)], axis=1)
+
+
+def _lin_np(s: NDArray[np.floating[Any]]) -> NDArray[np.float64]:
+    z = np.zeros_like(s)
+    return np.stack([z, 1.0 - s, s, z], axis=1)
