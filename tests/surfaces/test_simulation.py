@@ -112,9 +112,10 @@ def test_small_case_against_pykrige() -> None:
 
 @pytest.mark.parametrize("name,rng", [("gaussian", 3.0), ("exponential", 4.0)])
 def test_unconditional_variogram_matches_the_model(name: str, rng: float) -> None:
-    # source: the method-of-moments variogram along the lattice axes [Cressie-1993 §2.4,
-    # from memory], averaged over 40 realisations, against the model; tolerance 10 % of the
-    # model plus 1 (derived from the spread of the estimate over realisations, about 3 %)
+    # source: the method-of-moments variogram along the lattice axes
+    # [Cressie-1993 §2.4, from memory], averaged over 40 realisations, against the model;
+    # tolerance 10 % of the model plus 1 (derived from the spread of the estimate over
+    # realisations, about 3 %)
     model = VariogramModel(name, nugget=0.0, psill=100.0, range=rng)
     cell = 0.2
     emb = CirculantEmbedding(model, (100, 120), cell)
