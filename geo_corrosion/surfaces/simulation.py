@@ -61,8 +61,10 @@ model) and back-transformed per realisation; a threshold is compared in the same
 from __future__ import annotations
 
 import math
+import os
 import warnings
 from collections.abc import Iterator
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 
 import numpy as np
@@ -349,12 +351,20 @@ class ConditionalSimulator:
         cell_area = self.grid.cell ** 2
         fracs = [np.zeros(self.target_rows.size) for _ in thresholds]
         areas: list[list[NDArray[np.float64]]] = [[] for _ in thresholds]
-        for zlat in self.realisations(count, seed=seed, batch=batch):
-            for j, (t, d) in enumerate(thresholds):
-                f, a = excursion(zlat, self.target_rows, self.target_cols, t,
-                                 below=d == "below", q=q, use_kernel=self.use_kernel)
-                fracs[j] += f
-                areas[j].append(a * cell_area)
+        sizes = [min(batch, count - a) for a in range(0, count, batch)]
+        # one seed per batch, so the result does not depend on the threads
+        rngs = [np.random.default_rng(s) for s in np.random.SeedSequence(seed).spawn(len(sizes))]
+
+        def one(b: int) -> list[tuple[NDArray[np.float64], NDArray[np.float64]]]:
+            zlat = self.draw(sizes[b], rngs[b])
+            return [excursion(zlat, self.target_rows, self.target_cols, t, below=d == "below",
+                              q=q, use_kernel=self.use_kernel) for t, d in thresholds]
+
+        with ThreadPoolExecutor(max_workers=max(1, min(2, os.cpu_count() or 1))) as pool:
+            for res in pool.map(one, range(len(sizes))):
+                for j, (f, a) in enumerate(res):
+                    fracs[j] += f
+                    areas[j].append(a * cell_area)
         out = []
         gr, gc = self.target_rows - self.offset[0], self.target_cols - self.offset[1]
         for j in range(len(thresholds)):
