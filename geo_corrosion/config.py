@@ -596,15 +596,16 @@ class RunParams:
         doc="`simulation`: conditional simulation of the field, nugget as measurement error, "
             "areas at sub-cell resolution (surfaces/simulation.py): its 90 % intervals held "
             "the true area on 86 % of 128 synthetic decks at about the width of the actual "
-            "error; `separable-approximation` (the default until the simulation meets its "
-            "speed target, benchmarks/README.md): kriging sd, separable correlation over the "
-            "variogram range, whole cells; its intervals were about five times too wide.")
+            "error (benchmarks/README.md); `separable-approximation` (the default until the "
+            "simulation meets its speed target, benchmarks/README.md): kriging sd, separable "
+            "correlation over the variogram range, whole cells; its intervals were about five "
+            "times too wide.")
     realisations: int = key(
         "realisations", "integer", 200, unit="realisations", ge=20, le=5000,
         help="Conditional simulations for the areas, their intervals and probability maps",
-        doc="With `interval_method = \"simulation\"`; seed fixed, so runs repeat. 200 keeps "
-            "the 90 % bounds within about 2 % of the mapped area from seed to seed "
-            "(benchmarks/README.md); time grows in proportion.")
+        doc="With `interval_method = \"simulation\"`; seed fixed, so runs repeat; time grows "
+            "in proportion. How the bounds move with the seed at 50-400 realisations is "
+            "measured by `benchmarks/interval_calibration.py --seeds` (not yet recorded).")
     anode_spacing_mm: float | None = key(
         "anode_spacing", "length", None, unit="mm", example='"24 in"',
         help="Galvanic anode spacing along repair perimeters",
