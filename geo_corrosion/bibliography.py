@@ -319,6 +319,35 @@ _ALL: tuple[Source, ...] = (
     Source("Goovaerts-1997", "P. Goovaerts", "Geostatistics for Natural Resources Evaluation",
            1997, "Oxford University Press, New York", "Goovaerts (1997)",
            "Multi-Gaussian reading of kriging output."),
+    Source("Journel-Huijbregts-1978", "A.G. Journel, C.J. Huijbregts", "Mining Geostatistics",
+           1978, "Academic Press, London", "Journel & Huijbregts (1978)",
+           "Conditioning by kriging of an unconditional simulation (ch. VII), from memory: "
+           "confirm the chapter."),
+    Source("Chiles-Delfiner-2012", "J.-P. Chilès, P. Delfiner",
+           "Geostatistics: Modeling Spatial Uncertainty", 2012, "2nd ed., Wiley, Hoboken",
+           "Chilès & Delfiner (2012)",
+           "Conditional simulation by kriging (§7.3.1) and kriging with measurement error, the "
+           "nugget filtered (§3.7.1), from memory: confirm the sections."),
+    Source("Wood-Chan-1994", "A.T.A. Wood, G. Chan",
+           "Simulation of stationary Gaussian processes in [0, 1]^d", 1994,
+           "Journal of Computational and Graphical Statistics 3(4) (1994) 409-432",
+           "Wood & Chan (1994)",
+           "Circulant embedding and the FFT for unconditional Gaussian fields, from memory."),
+    Source("Dietrich-Newsam-1997", "C.R. Dietrich, G.N. Newsam",
+           "Fast and exact simulation of stationary Gaussian processes through circulant "
+           "embedding of the covariance matrix", 1997,
+           "SIAM Journal on Scientific Computing 18(4) (1997) 1088-1107",
+           "Dietrich & Newsam (1997)",
+           "Circulant embedding; padding enlarged while eigenvalues are negative, from memory."),
+    Source("Keys-1981", "R.G. Keys",
+           "Cubic convolution interpolation for digital image processing", 1981,
+           "IEEE Transactions on Acoustics, Speech, and Signal Processing 29(6) (1981) "
+           "1153-1160", "Keys (1981)",
+           "The cubic convolution kernel (a = -1/2) of the sub-cell areas, from memory."),
+    Source("Deutsch-Journel-1998", "C.V. Deutsch, A.G. Journel",
+           "GSLIB: Geostatistical Software Library and User's Guide", 1998,
+           "2nd ed., Oxford University Press, New York", "Deutsch & Journel (1998)",
+           "Sequential Gaussian simulation, considered and not used (its cost), from memory."),
     Source("Webster-Oliver-2007", "R. Webster, M.A. Oliver",
            "Geostatistics for Environmental Scientists", 2007, "2nd ed., Wiley, Chichester",
            "Webster & Oliver (2007)", "Cross-validation diagnostics."),
@@ -402,6 +431,14 @@ ASSUMPTIONS_TO_CONFIRM: tuple[str, ...] = (
     "only on a firm's web page; check a published table [Ives-Janz-1961].",
     "ACI 318 cover tolerance -1/2 in for members deeper than 8 in (sample site "
     "millbrook_garage, low-cover thresholds): from memory [ACI-318-19 §26.6.2.1]; check.",
+    "Conditional simulation (surfaces/simulation.py): conditioning by kriging, the nugget "
+    "filtered as measurement error, circulant embedding, from memory "
+    "[Journel-Huijbregts-1978 ch. VII; Chiles-Delfiner-2012 §7.3.1, §3.7.1] "
+    "[Wood-Chan-1994; Dietrich-Newsam-1997]; the unconditional value at a reading by "
+    "simple kriging from 4 x 4 lattice nodes with independent residuals: common practice; "
+    "the cost of sequential Gaussian simulation, the alternative not chosen "
+    "[Deutsch-Journel-1998 §V.2.3]; the cubic convolution kernel of the sub-cell areas "
+    "[Keys-1981]; check.",
     "Kriging: the variance scaled so that the leave-one-out MSSE is 1 "
     "(stages/map_surfaces.py), the "
     "multi-Gaussian reading of kriging output for the probability maps "

@@ -691,6 +691,23 @@ class RunParams:
         doc="The kriging variance is then honest (MSSE = 1); estimates in the kriged space are "
             "unchanged ([methods.md](methods.md) §3.2). Not applied when "
             "`[run.variogram.<kind>]` fixes `nugget` or `psill`.")
+    interval_method: str = key(
+        "interval_method", "string", "separable-approximation",
+        choices=("simulation", "separable-approximation"),
+        help="How the interval of each area beyond a threshold is found",
+        doc="`simulation`: conditional simulation of the field, nugget as measurement error, "
+            "areas at sub-cell resolution (surfaces/simulation.py): its 90 % intervals held "
+            "the true area on 86 % of 128 synthetic decks at about the width of the actual "
+            "error (benchmarks/README.md); `separable-approximation` (the default until the "
+            "simulation meets its speed target, benchmarks/README.md): kriging sd, separable "
+            "correlation over the variogram range, whole cells; its intervals were about five "
+            "times too wide.")
+    realisations: int = key(
+        "realisations", "integer", 200, unit="realisations", ge=20, le=5000,
+        help="Conditional simulations for the areas, their intervals and probability maps",
+        doc="With `interval_method = \"simulation\"`; seed fixed, so runs repeat; time grows "
+            "in proportion. How the bounds move with the seed at 50-400 realisations is "
+            "measured by `benchmarks/interval_calibration.py --seeds` (not yet recorded).")
     anode_spacing_mm: float | None = key(
         "anode_spacing", "length", None, unit="mm", example='"24 in"',
         help="Galvanic anode spacing along repair perimeters",
@@ -984,10 +1001,10 @@ _RUN_ORDER = (
     "cell_size", "max_distance", "contour_interval_mv", "repair_margin", "merge_gap",
     "min_repair_size", "repair_increment", "contingency", "n_neighbors", "variogram_model",
     "resistivity_reference_c", "activation_energy_kj_mol", "cse_reference_c",
-    "correct_only_outside_band", "calibrate_variance", "bar_diameter", "max_aggregate",
-    "slab_thickness", "sawcut_depth", "axis_angle_deg", "anode_spacing", "bar_replacement_share",
-    "bar_spacing", "pay_area", "pay_area_share", "min_zone_area",
-    "zone_smoothing", "variogram", "kinds",
+    "correct_only_outside_band", "calibrate_variance", "interval_method", "realisations",
+    "bar_diameter", "max_aggregate", "slab_thickness", "sawcut_depth", "axis_angle_deg",
+    "anode_spacing", "bar_replacement_share", "bar_spacing", "pay_area", "pay_area_share",
+    "min_zone_area", "zone_smoothing", "variogram", "kinds",
 )
 
 _CLASS_KEYS_DOC = "class key or list of class keys"

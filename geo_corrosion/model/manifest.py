@@ -196,6 +196,9 @@ class RunParameters:
     cse_reference_c: float
     correct_only_outside_band: bool
     calibrate_variance: bool
+    #: absent from runs made before the key existed (separable approximation then)
+    interval_method: str | None = field(metadata=_meta(optional=True))
+    realisations: int | None = field(metadata=_meta(optional=True))
     bar_diameter_mm: float
     max_aggregate_mm: float
     slab_thickness_mm: float | None
@@ -779,8 +782,10 @@ class KindRecord(_Record):
 class AreaBeyondThreshold(_Record):
     """``condition.<kind>_area_beyond_threshold``: expected area beyond a class threshold.
 
-    The expected area and its interval (``interval_level``, e.g. 0.9) in m2, from the
-    probability map with correlated errors (``correlation_length`` in the plan unit).
+    The expected area and its interval (``interval_level``, e.g. 0.9) in m2, by
+    ``interval_method`` with ``realisations`` draws: conditional simulation of the field, or
+    the separable approximation with correlated errors (``correlation_length``, the
+    variogram's range, in the plan unit).
     """
 
     meaning: str
@@ -795,6 +800,12 @@ class AreaBeyondThreshold(_Record):
     correlation_length: float
     correlation_length_unit: str
     assumption: str
+    #: ``simulation`` or ``separable-approximation``; absent from runs before the key existed
+    interval_method: str | None = field(default=None, metadata=_meta(optional=True))
+    #: realisations (simulation) or error fields drawn (approximation)
+    realisations: int | None = field(default=None, metadata=_meta(optional=True))
+    #: one line on how the interval was found, for the report's methods text
+    method: str | None = field(default=None, metadata=_meta(optional=True))
 
 
 @dataclass(frozen=True)

@@ -90,9 +90,15 @@ METHODS: tuple[tuple[str, str, str], ...] = (
      "-200 mV uncertain, > -200 mV low probability of corrosion); resistivity and corrosion "
      "rate classes after RILEM TC 154.", "[ASTM-C876-91 App. X1, from memory]; "
      "[RILEM-TC154-2000, from memory; Andrade-Alonso-2004, from memory]"),
-    ("Probability maps", "Probability that the kriged value is beyond the class threshold, "
-     "assuming Gaussian kriging errors; areas with intervals; a two-component mixture for the "
-     "site threshold.", "RILEM TC 154 statistical evaluation [Gulikers-Elsener-2008]"),
+    ("Probability maps", "Probability that the value is beyond the class threshold and the "
+     "area beyond it with a 90 % interval, from conditional simulations of the Gaussian field "
+     "(conditioning by kriging, the nugget taken as measurement error, areas at sub-cell "
+     "resolution; the number of realisations is stated with each area), or from the kriging "
+     "errors when [run].interval_method is the separable approximation; a two-component "
+     "mixture for the site threshold.",
+     "[Journel-Huijbregts-1978 ch. VII, from memory; Chiles-Delfiner-2012 §7.3.1, from memory] "
+     "[Wood-Chan-1994; Dietrich-Newsam-1997]; "
+     "RILEM TC 154 statistical evaluation [Gulikers-Elsener-2008]"),
     ("Repair layout", "Sounded delaminations and spalls enlarged by the margin, merged, squared "
      "to saw-cut rectangles aligned with the grid, clipped to the slab; depth class from the "
      "kriged cover; undercut clearance max(3/4 in, 1/4 in + largest aggregate).",

@@ -370,7 +370,12 @@ def _condition_block(info: LevelRecord, units: ReportUnits) -> str:
     if items:
         parts.append(f'<ul class="statements">{"".join(items)}</ul>')
         assumptions = sorted({v.assumption for v in cond.beyond.values() if v.assumption})
-        if assumptions:
+        methods = sorted({v.method for v in cond.beyond.values() if v.method})
+        if assumptions and methods:
+            parts.append(f'<p class="src">Expected areas, intervals and probability maps: '
+                         f"{_e('; '.join(methods))}; assumption: "
+                         f"{_e('; '.join(assumptions))}.</p>")
+        elif assumptions:
             parts.append(f'<p class="src">Expected areas and intervals from the probability '
                          f"maps; assumption: {_e('; '.join(assumptions))}.</p>")
     else:
