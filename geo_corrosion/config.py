@@ -1054,6 +1054,14 @@ TABLES: dict[str, TableSpec] = {t.name: t for t in (
             doc="Overrides `[run] max_distance` for this kind. Derived: max(2.5 x median "
                 "nearest-neighbour spacing, min(fitted practical range, 5 x spacing)). The "
                 "search radius is the larger of this and the fitted practical range."),
+        Key("threshold", "number", None, unit="the kind's unit", example="-300.0",
+            default_doc="the kind's published threshold",
+            help="Threshold of the kind's area-beyond-threshold statement and probability map",
+            doc="In the kind's unit (mV vs CSE, kOhm.cm, uA/cm2), for a kind that has such a "
+                "statement (potential -350 mV [ASTM-C876-91 App. X1, from memory], resistivity "
+                "10 kOhm.cm, corrosion rate 1 uA/cm2 [RILEM-TC154-2000]). The value must lie "
+                "inside the kind's plausible range; the report and `run.json` then name this "
+                "key as the threshold's source."),
     )),
     TableSpec("webmap", keys_of(RunParams, "webmap", home="run")),
     TableSpec("drawings", keys_of(DrawingParams, "drawings")),

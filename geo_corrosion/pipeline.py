@@ -108,7 +108,8 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
                 lv, mapped, site.surveys_of(lid),
                 rules=site.config.combined_rules, bar_diameter_mm=planning.layout.bar_diameter_mm,
                 low_cover=low_cover, interval_method=params.interval_method,
-                realisations=params.realisations, n_neighbors=params.n_neighbors)
+                realisations=params.realisations, n_neighbors=params.n_neighbors,
+                kinds=params.kinds)
             frames.update(life_frames)
         say(f"level {lid}: laying out repairs and zones")
         repairs, zones, notes = plan_level(lv, mapped.surfaces, planning, low_cover=low_cover)

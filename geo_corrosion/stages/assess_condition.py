@@ -24,7 +24,7 @@ For each level, from the kriged surfaces of :mod:`geo_corrosion.stages.map_surfa
 from __future__ import annotations
 
 import dataclasses
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from typing import Any
 
 import numpy as np
@@ -44,7 +44,7 @@ from geo_corrosion.condition.probability import (
     simulated_area_intervals,
 )
 from geo_corrosion.errors import ConditionError
-from geo_corrosion.measurements import MeasurementKind, Role
+from geo_corrosion.measurements import MeasurementKind, Role, Threshold
 from geo_corrosion.model.site import Level, Survey
 from geo_corrosion.model.surface import (
     KindSurface,
@@ -59,6 +59,7 @@ from geo_corrosion.surfaces.simulation import ConditionalSimulator
 from geo_corrosion.units import LENGTH_TO_M
 
 __all__ = ["assess_condition", "assess_level", "log_space_moments", "life_estimates",
+           "threshold_overrides",
            "value_at_readings", "MIXTURE_MIN_READINGS"]
 
 INTERVAL_LEVEL = 0.90
@@ -123,6 +124,38 @@ def _polygons(codes: NDArray[np.int64], surface: KindSurface, labels: list[tuple
     return pd.DataFrame(rows)
 
 
+def threshold_overrides(kinds: Mapping[str, Mapping[str, Any]],
+                        surfaces: Mapping[str, KindSurface]) -> dict[str, Threshold]:
+    """Return the thresholds the site file sets (``[run.kinds.<kind>] threshold``), by kind.
+
+    Each replaces the kind's own value, keeps its direction and names the key as its
+    source; the site reader has checked it lies in the kind's plausible range.
+
+    Examples
+    --------
+    >>> from geo_corrosion.measurements import MEASUREMENTS
+    >>> from types import SimpleNamespace
+    >>> s = {"potential": SimpleNamespace(kind=MEASUREMENTS.get("potential")())}
+    >>> t = threshold_overrides({"potential": {"threshold": -300.0}}, s)["potential"]
+    >>> t.value, t.direction, t.meaning
+    (-300.0, 'below', 'potential below -300 mV CSE (site file)')
+    """
+    out = {}
+    for name, t in kinds.items():
+        s = surfaces.get(name)
+        if s is None or s.kind.threshold is None or t.get("threshold") is None:
+            continue
+        own = s.kind.threshold
+        v = float(t["threshold"])
+        unit = s.kind.canonical_unit + (" CSE" if s.kind.canonical_unit == "mV" else "")
+        out[name] = dataclasses.replace(
+            own, value=v, meaning=f"{name.replace('_', ' ')} {own.direction} {v:g} {unit} "
+                                  "(site file)",
+            source=f"site file [run.kinds.{name}].threshold, in place of {own.source}",
+            statement="")
+    return out
+
+
 def assess_level(surfaces: dict[str, KindSurface], readings: dict[str, NDArray[np.float64]],
                  *, deck: Any, unit: str, seed: int = 0,
                  rules: dict[str, Any] | None = None,
@@ -130,7 +163,8 @@ def assess_level(surfaces: dict[str, KindSurface], readings: dict[str, NDArray[n
                  reading_points: dict[str, tuple[NDArray[np.float64], NDArray[np.float64],
                                                  NDArray[np.float64]]] | None = None,
                  interval_method: str = "separable-approximation", realisations: int = 200,
-                 n_neighbors: int = 16) -> LevelCondition:
+                 n_neighbors: int = 16,
+                 thresholds: Mapping[str, Threshold] | None = None) -> LevelCondition:
     """Probability maps, area intervals, mixture threshold and combined classes of a level.
 
     Parameters
@@ -158,6 +192,9 @@ def assess_level(surfaces: dict[str, KindSurface], readings: dict[str, NDArray[n
         Conditional simulations (``[run].realisations``).
     n_neighbors : int
         The kriging neighbourhood of the surfaces (``[run].n_neighbors``).
+    thresholds : mapping of str to Threshold, optional
+        By kind, a threshold that replaces the kind's own (``[run.kinds.<kind>] threshold``,
+        :func:`threshold_overrides`).
     """
     out = LevelCondition()
     a2 = LENGTH_TO_M[unit] ** 2
@@ -167,7 +204,7 @@ def assess_level(surfaces: dict[str, KindSurface], readings: dict[str, NDArray[n
     with_threshold = sorted((s for s in surfaces.values() if s.kind.threshold is not None),
                             key=lambda s: (s.kind.condition_order, s.kind.name))
     for s in with_threshold:
-        name, t = s.kind.name, s.kind.threshold
+        name, t = s.kind.name, (thresholds or {}).get(s.kind.name, s.kind.threshold)
         assert t is not None
         thr, direction = t.value, t.direction
         log = s.kind.krige_transform == "log"
@@ -256,6 +293,7 @@ def assess_condition(level: Level, mapped: LevelSurfaces, surveys: Sequence[Surv
                      low_cover: NDArray[np.bool_] | None,
                      interval_method: str = "separable-approximation", realisations: int = 200,
                      n_neighbors: int = 16,
+                     kinds: Mapping[str, Mapping[str, Any]] | None = None,
                      ) -> tuple[LevelCondition, dict[str, pd.DataFrame]]:
     """Assess the condition of one level that has at least one surface.
 
@@ -280,7 +318,8 @@ def assess_condition(level: Level, mapped: LevelSurfaces, surveys: Sequence[Surv
                           for k, r in mapped.readings.items()},
         deck=level.deck, unit=level.unit, rules=rules, low_cover=low_cover,
         reading_points=_reading_points(mapped), interval_method=interval_method,
-        realisations=realisations, n_neighbors=n_neighbors)
+        realisations=realisations, n_neighbors=n_neighbors,
+        thresholds=threshold_overrides(kinds or {}, mapped.surfaces))
     if "combined_rules" in condition.stats:  # which kinds the combined classes used, and why
         condition.stats["combined_kinds"] = combined_kinds(mapped, COMBINED_COLUMNS)
     frames: dict[str, pd.DataFrame] = {}

@@ -414,7 +414,24 @@ def _kinds(t: Table) -> dict[str, dict[str, Any]]:
         kt = _table(spec, w, "run.kinds.<kind>")
         out[str(kind)] = {k.field: _read(kt, k) for k in TABLES["run.kinds.<kind>"].keys
                           if kt.has(str(k.name))}
+        if "threshold" in out[str(kind)]:
+            _check_threshold(MEASUREMENTS.get(kind), out[str(kind)]["threshold"],
+                             kt.key("threshold"))
     return out
+
+
+def _check_threshold(kind: Any, value: float, where: str) -> None:
+    """Refuse a threshold for a kind without one, or outside the kind's plausible range."""
+    if kind.threshold is None:
+        raise SiteFileError(f"{where}: the {kind.name} kind makes no area-beyond-threshold "
+                            "statement, so it takes no threshold; remove the key")
+    lo, hi = kind.plausible_range
+    if not lo < value < hi:
+        raise SiteFileError(
+            f"{where}: {value:g} {kind.canonical_unit} lies outside the plausible range of "
+            f"{kind.name} readings ({lo:g} to {hi:g} {kind.canonical_unit}), so no reading "
+            f"could be beyond it in a meaningful way; give a value inside that range (the "
+            f"published threshold is {kind.threshold.value:g} {kind.canonical_unit})")
 
 
 def _run(data: object, where: str, units: str) -> tuple[dict[str, Any], LayoutParams]:
