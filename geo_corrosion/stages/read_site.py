@@ -32,6 +32,7 @@ from geo_corrosion.config import (
     LayoutParams,
     LevelConfig,
     OverlayRef,
+    ProjectConfig,
     RunParams,
     SiteConfig,
     SurveyConfig,
@@ -228,6 +229,8 @@ def _survey(data: object, where: str, root: Path, level_ids: set[str]) -> Survey
         temperature_f=temp_f,
         temperature_coefficient_mv_per_c=_read(t, keys["temperature_coefficient_mv_per_c"]),
         date=_read(t, keys["date"]),
+        **{k: _read(t, keys[k]) for k in ("crew", "instrument", "weather",
+                                          "surface_condition", "prewetting")},
         separator=sep,
         decimal=dec,
         layer=_read(t, keys["layer"]),
@@ -338,8 +341,20 @@ def _variogram(t: Table) -> dict[str, dict[str, Any]]:
     return fixed
 
 
-def _run(data: object, where: str) -> tuple[dict[str, Any], LayoutParams]:
+def _project(data: object, where: str) -> ProjectConfig:
+    """Read the optional [project] table (the report's title block)."""
+    if data is None:
+        return ProjectConfig()
+    t = _table(data, where, "project")
+    return ProjectConfig(**{k.field: _read(t, k) for k in TABLES["project"].keys})
+
+
+def _run(data: object, where: str, system: str = "us"
+         ) -> tuple[dict[str, Any], LayoutParams]:
     """Read [run]: the keyword arguments of :class:`RunParams`, and the repair layout's.
+
+    A key that is absent takes the default of the reporting ``system``: a metric site gets
+    the metric defaults (a 20 mm saw cut), not converted US ones (``Key.metric``).
 
     The layout's keys are checked against the ranges declared on
     :class:`~geo_corrosion.config.LayoutParams` here, each message naming its [run] key, and
@@ -352,7 +367,8 @@ def _run(data: object, where: str) -> tuple[dict[str, Any], LayoutParams]:
         if k.field == "variogram":
             run["variogram"] = _variogram(t)
         else:
-            (layout if k.owner is LayoutParams else run)[k.field] = _read(t, k)
+            v = _read(t, k) if t.has(str(k.name)) else k.value_for(system)
+            (layout if k.owner is LayoutParams else run)[k.field] = v
     try:
         params = LayoutParams(**layout)
     except RepairError as err:  # a check across keys: the table is named
@@ -626,7 +642,7 @@ def read_site(path: str | Path) -> SiteConfig:
         dup = sorted({s for s in sids if sids.count(s) > 1})
         raise SiteFileError(f"{p}: survey ids must be unique; repeated: {', '.join(dup)}")
     site = {k: _read(st, keys[k]) for k in ("name", "owner", "units", "notes")}
-    run, layout = _run(data.get("run", {}), f"{p}: [run]")
+    run, layout = _run(data.get("run", {}), f"{p}: [run]", site["units"])
     return SiteConfig(
         path=p.resolve(),
         root=root,
@@ -635,6 +651,7 @@ def read_site(path: str | Path) -> SiteConfig:
         **site,
         levels=levels,
         surveys=surveys,
+        project=_project(data.get("project"), f"{p}: [project]"),
         run=RunParams(**run, **_webmap(data.get("webmap", {}), f"{p}: [webmap]")),
         layout=layout,
         zoning=_zoning(_array(top, "zoning"), f"{p}: [[zoning]]"),

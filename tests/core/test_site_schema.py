@@ -45,7 +45,7 @@ def test_docs_key_tables_are_generated_from_the_declaration() -> None:
     text = DOCS.read_text(encoding="utf-8")
     assert render_docs(text) == text, "docs/site-file.md is stale: python -m geo_corrosion.config"
     blocks = {m.group("table") for m in config._BLOCK.finditer(text)}
-    assert blocks == {"site", "run", "run.variogram.<kind>", "webmap", "levels", "layer",
+    assert blocks == {"site", "project", "run", "run.variogram.<kind>", "webmap", "levels", "layer",
                       "levels.grid", "surveys", "condition.combined",
                       "condition.combined.rules"}
     for name in blocks:  # every declared key has its row
