@@ -607,7 +607,7 @@ class RunParams:
         help="Target temperature of the CSE correction (72 F [ASTM-C876-22a §4.7])")
     correct_only_outside_band: bool = key(
         "correct_only_outside_band", "boolean", False,
-        help="If true, no CSE correction within cse_reference_c +- 5.5 C",
+        help="If true, no CSE correction within 5.5 C of the CSE reference temperature",
         doc="[ASTM-C876-22a §4.7] allows this.")
     #: scale each fitted variogram so that the leave-one-out MSSE is 1 (mapping stage)
     calibrate_variance: bool = key(
@@ -651,7 +651,7 @@ class RunParams:
     #: [webmap].basemap_attribution: the tiles' attribution, shown on the map
     basemap_attribution: str | None = key(
         "basemap_attribution", "string", None, table="webmap",
-        example='"(c) Example tile provider"', help="The tiles' attribution; needs basemap_url",
+        example='"(c) Example tile provider"', help="The tiles' attribution; needs a basemap URL",
         doc="**Required with `basemap_url`**, refused without it. Plain text shown on the map, "
             "as the tile provider asks, e.g. `\"© OpenStreetMap contributors\"`.")
 

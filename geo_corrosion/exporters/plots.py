@@ -52,6 +52,7 @@ class PlotsExporter(Exporter):
                         quantity=s.kind.label.split(" (")[0], plan_unit=lr.level.unit,
                         contour_interval=s.interval if s.kind.class_map_contours else None,
                         polygons=[f.geometry for f in lr.level.overlays.get("delamination", ())],
+                        lines=[f.geometry for f in lr.level.joints],
                         origin="upper",
                         title=f"{lname}: {s.kind.label.split(' (')[0].lower()} classes"))
             # the potential plots, named after the role: the kind playing it, whatever its name
