@@ -469,7 +469,7 @@ def build_report_html(run_dir: str | Path, manifest: Manifest | None = None) -> 
         '<nav class="toc"><h2>Contents</h2><ol>'
         + "".join(f'<li><a href="#{_e(a)}">{_e(t)}</a></li>' for a, t in toc) + "</ol></nav>",
         '<section class="cautions" id="cautions"><h2>Cautions</h2><ol class="cautions">'
-        + "".join(f"<li>{_e(owner_text(c))}</li>" for c in cautions) + "</ol></section></header>",
+        + "".join(f"<li>{_e(c)}</li>" for c in cautions) + "</ol></section></header>",
     ]
     for lid, info in levels.items():
         parts.append(_level_section(run_dir, str(lid), info, man, units, gpkg))

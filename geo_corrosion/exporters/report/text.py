@@ -64,18 +64,28 @@ _CODE_ASIDE = re.compile(r"\.py\b|\b[A-Z][A-Z0-9]*_[A-Z0-9_]+\b|\b[A-Z][a-z]+[A-
                          r"|\bsite keys?\b|\bsample site\b")
 
 
-def readable_citations(text: str) -> str:
-    """Write the project's citations for a reader, with ``*`` for a value to confirm.
+#: Where in an input file a message points (``readings/x.csv line 57: ``, ``L2.dxf layer
+#: COLUMNS entity #9 (LWPOLYLINE, handle 3D)``): for the engineer at the command line and in
+#: run.json, not for the owner's report.
+_LOCATION = re.compile(
+    r"(?:[\w./\\-]+\.(?:csv|txt|dxf|gpkg|geojson|json|shp|toml)\b)?"
+    r"(?:\s*(?:line|row|feature) \d+|\s*layer \S+|\s*entity #\d+(?:\s*\([^)]*\))?)+:?\s*"
+    r"|[\w./\\-]+\.(?:csv|txt|dxf|gpkg|geojson|json|shp|toml)\b:\s*")
 
-    ``[ASTM-C876-91 §5.1, from memory]`` becomes ``[ASTM C876-91, §5.1]*``: the ``*`` marks
-    a value listed under "Assumptions to confirm".
+
+def readable_citations(text: str) -> str:
+    """Mark the citations of a value still to confirm with ``*`` instead of words.
+
+    The project's citation form is kept (``[ASTM-C876-91 §5.1]``, each key listed under
+    "Sources"); ``from memory`` and ``to confirm`` become a ``*`` after the brackets, which
+    refers the reader to "Assumptions to confirm".
 
     Examples
     --------
     >>> readable_citations("limit [ASTM-C876-91 §5.1, from memory]; [Cressie-1985]")
-    'limit [ASTM C876-91, §5.1]*; [Cressie (1985)]'
+    'limit [ASTM-C876-91 §5.1]*; [Cressie-1985]'
     """
-    from geo_corrosion.bibliography import SOURCES, cite
+    from geo_corrosion.bibliography import CITATION_RE, SOURCES
 
     def one(m: re.Match[str]) -> str:
         parts, star = [], False
@@ -84,14 +94,10 @@ def readable_citations(text: str) -> str:
             for flag in (", from memory", " from memory", ", to confirm"):
                 if part.endswith(flag):
                     part, star = part[: -len(flag)].strip(), True
-            key, _, where = part.partition(" ")
-            key = key.rstrip(",")
-            if key not in SOURCES:
+            if part.split(" ")[0].rstrip(",") not in SOURCES:
                 return m.group(0)
-            parts.append(cite(key, where.strip()))
+            parts.append(part)
         return "[" + "; ".join(parts) + "]" + ("*" if star else "")
-
-    from geo_corrosion.bibliography import CITATION_RE
 
     return CITATION_RE.sub(one, str(text))
 
@@ -104,7 +110,7 @@ def owner_text(text: Any) -> str:
     formula symbols lose their underscore (``i_corr`` -> ``icorr``), "degC" becomes "°C",
     "mV CSE" becomes "mV vs CSE" and citations are written for a reader.
     """
-    t = str(text)
+    t = _LOCATION.sub("", str(text))
 
     def aside(m: re.Match[str]) -> str:
         inner = m.group(1)
@@ -573,7 +579,7 @@ def sources_and_assumptions(*texts: Any) -> str:
     for key, s in SOURCES.items():
         if key in cited:
             year = f" ({s.year})" if s.year is not None else ""
-            items.append(f"<li>[{_e(s.short)}] {_e(s.authors)}{year}. <i>{_e(s.title)}</i>. "
+            items.append(f"<li>[{_e(key)}] {_e(s.authors)}{year}. <i>{_e(s.title)}</i>. "
                          f"{_e(s.designation)}.</li>")
     parts = ['<h3 class="sources">Sources</h3>',
              f'<ul class="sources">{"".join(items)}</ul>' if items
