@@ -33,7 +33,7 @@ SNAKE = re.compile(r"\b[a-z][a-z0-9]*(?:_[a-z0-9]+)+\b")
 DOTTED = re.compile(r"\[\[?(?:site|project|run|levels|surveys|zoning|condition|webmap)"
                     r"[\].]|\b(?:site|project|run|levels|surveys|zoning|condition|webmap)"
                     r"\.[a-z_]+\b")
-ENTITY = re.compile(r"entity #\d+|\bhandle [0-9A-F]+\b|\bline \d+\b|\b\w+\.(?:csv|dxf|gpkg|"
+ENTITY = re.compile(r"entity #\d+|\bhandle [0-9A-F]+\b|\b(?:line|row|feature) \d+:|\b\w+\.(?:csv|dxf|gpkg|"
                     r"geojson|json|shp|toml|py|md|tif)\b(?:\s+line|\s+layer)?")
 #: Citations of anything outside the repository: a web address, a document of the
 #: project's notes (REFERENCE.md), a file of the docs.
@@ -243,7 +243,8 @@ def test_no_citation_outside_the_repository(project_run: Path) -> None:
 def test_the_scan_finds_what_it_is_for() -> None:
     # the scan itself, on strings of the trial (issue 14): each kind of identifier is caught
     bad = ("depth partial_below_bars", "key [run].cell_size", "surveys.options",
-           "L2.dxf layer COLUMNS entity #9 (LWPOLYLINE, handle 3D)", "readings/x.csv line 57")
+           "L2.dxf layer COLUMNS entity #9 (LWPOLYLINE, handle 3D)", "readings/x.csv line 57",
+           "at line 57: value implausible")
     for text in bad:
         assert internal_identifiers(text, set()), text
     assert internal_identifiers("Partial depth, below bars; 1,825 ft²; -350 mV vs CSE",
