@@ -33,8 +33,9 @@ SNAKE = re.compile(r"\b[a-z][a-z0-9]*(?:_[a-z0-9]+)+\b")
 DOTTED = re.compile(r"\[\[?(?:site|project|run|levels|surveys|zoning|condition|webmap)"
                     r"[\].]|\b(?:site|project|run|levels|surveys|zoning|condition|webmap)"
                     r"\.[a-z_]+\b")
-ENTITY = re.compile(r"entity #\d+|\bhandle [0-9A-F]+\b|\b(?:line|row|feature) \d+:|\b\w+\.(?:csv|dxf|gpkg|"
-                    r"geojson|json|shp|toml|py|md|tif)\b(?:\s+line|\s+layer)?")
+ENTITY = re.compile(r"entity #\d+|\bhandle [0-9A-F]+\b|\b(?:line|row|feature) \d+:"
+                    r"|\b\w+\.(?:csv|dxf|gpkg|geojson|json|shp|toml|py|md|tif)\b"
+                    r"(?:\s+line|\s+layer)?")
 #: Citations of anything outside the repository: a web address, a document of the
 #: project's notes (REFERENCE.md), a file of the docs.
 OUTSIDE = re.compile(r"https?://|www\.|\b[\w.-]+\.(?:com|org|net|edu)\b|REFERENCE\.md|"
