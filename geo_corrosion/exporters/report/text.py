@@ -731,7 +731,9 @@ def _variogram_sentence(kind: str, sf: Any, plan_unit: str) -> str:
 
 
 def _sq(u: Any) -> str:
-    return str(u).replace("^2", "²").replace("mV²", "mV²")
+    """Write a squared unit of run.json for a reader (``ln(kohm.cm)^2`` -> ``ln(kΩ·cm)²``)."""
+    return (str(u).replace("^2", "²").replace("kohm.cm", "kΩ·cm").replace("uA/cm2", "µA/cm²")
+            .replace("uA/cm²", "µA/cm²"))
 
 
 def variogram_table(kinds: Mapping[str, KindRecord], plan_unit: str) -> str:
