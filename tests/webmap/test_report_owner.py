@@ -119,7 +119,9 @@ def project_run(tmp_path_factory: pytest.TempPathFactory) -> Path:
     from geo_corrosion.testing import make_synthetic_site
 
     root = tmp_path_factory.mktemp("report_owner")
-    site = make_synthetic_site(root / "site")
+    # an Ag/AgCl electrode: converted to CSE, with no temperature coefficient (so no
+    # temperature correction) [IJCorros-2010 Table 2; ASTM-C876-22a §5.1.1.2]
+    site = make_synthetic_site(root / "site", electrode="ag_agcl_sat_kcl", temperature_c=30.0)
     text = site.read_text(encoding="utf-8")
     project = "\n[project]\n" + "".join(f'{k} = "{v}"\n' for k, v in PROJECT.items())
     text = text.replace("\n[run]\n", project + "\n[run]\n", 1)
@@ -199,11 +201,16 @@ def test_corrections_are_claimed_only_where_applied(project_run: Path) -> None:
     table = html[html.index('<table class="applied">'):]
     table = table[:table.index("</table>")]
     rows = {html_text(r).split(" ")[0]: html_text(r) for r in table.split("<tr>")[2:]}
+    uncorrected = 0
     for sv in man["surveys"]:
         k = [c for c in sv["corrections"] if c.get("correction") ==
              "electrode temperature to reference"]
         says = "electrode temperature corrected" in rows[sv["id"]]
         assert says == bool(k and k[0]["k_mv_per_c"]), (sv["id"], rows[sv["id"]])
+        if k and not k[0]["k_mv_per_c"]:
+            uncorrected += 1
+            assert "converted from Ag/AgCl in saturated KCl to CSE" in rows[sv["id"]]
+    assert uncorrected == 1  # the Ag/AgCl survey: the case the trial found wrong
 
 
 def test_class_and_expected_areas_are_reconciled(project_run: Path) -> None:
