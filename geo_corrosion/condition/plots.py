@@ -196,7 +196,8 @@ def plot_cumulative_frequency(
     ax.set_yticklabels([f"{p:g}" for p in ticks])
     ax.set_ylim(zmin, zmax)
     if c876_lines:
-        for e, lab in zip(POTENTIAL_C876.edges, ("C876 -350 mV", "C876 -200 mV"), strict=True):
+        for e, lab in zip(POTENTIAL_C876.edges, ("C876 -350 mV vs CSE", "C876 -200 mV vs CSE"),
+                          strict=True):
             ax.axvline(e, color="#D55E00" if e < -300 else "#E69F00", lw=1.2, ls="--", label=lab)
     if mixture is not None:
         x = np.linspace(float(cfd.potential_mv.min()), float(cfd.potential_mv.max()), 300)
@@ -207,7 +208,7 @@ def plot_cumulative_frequency(
         cdf = np.clip(cdf, 1e-6, 1 - 1e-6)
         ax.plot(x, stats.norm.ppf(cdf), "-", color="#333333", lw=1.0, label="mixture fit")
         ax.axvline(mixture.threshold_mv, color="#CC79A7", lw=1.6,
-                   label=f"site threshold {mixture.threshold_mv:.0f} mV")
+                   label=f"site threshold {mixture.threshold_mv:.0f} mV vs CSE")
     ax.grid(True, color="#DDDDDD", lw=0.6)
     ax.set_xlabel(_axis_label("Half-cell potential", "mV vs CSE"))
     ax.set_ylabel("Cumulative frequency (%, normal-probability scale)")
@@ -399,6 +400,7 @@ def plot_potential_vs_resistivity(
     ax.set_xlabel(_axis_label("Half-cell potential", "mV vs CSE"))
     ax.set_ylabel(_axis_label("Resistivity", "kohm.cm"))
     ax.set_title(title or "Potential vs resistivity (dashed: C876 limits; dotted: "
-                 f"{resistivity_class_set.name} limits)", fontsize=9)
+                 f"{label(resistivity_class_set.name, resistivity_class_set.name)} limits)",
+                 fontsize=9)
     ax.legend(fontsize=8, loc="lower right")
     return _finish(fig, path, dpi)
