@@ -14,6 +14,7 @@ import numpy as np
 from geo_corrosion.exporters.base import Exporter
 from geo_corrosion.measurements import Role
 from geo_corrosion.model.surface import with_role
+from geo_corrosion.vocabulary import label, unit_label
 
 if TYPE_CHECKING:
     from geo_corrosion.model.results import RunResult
@@ -39,22 +40,25 @@ class PlotsExporter(Exporter):
             for name, s in lr.surfaces.items():
                 vals = lr.readings[name][s.kind.value_column].to_numpy(float)
                 cs = s.kind.class_set_object()
+                # owner words: the vocabulary's label of the kind, its unit as owners read it
+                quantity = label(s.kind.name, s.kind.label.split(" (")[0])
+                unit = unit_label(s.kind.canonical_unit)
                 paths.append(plots.plot_histogram(
                     vals, pdir / f"{lid}_{name}_histogram.png", class_set=cs,
-                    quantity=s.kind.label.split(" (")[0], unit=s.kind.canonical_unit,
-                    log_x=s.kind.krige_transform == "log", title=f"{lname}: {s.kind.label}"))
+                    quantity=quantity, unit=unit,
+                    log_x=s.kind.krige_transform == "log", title=f"{lname}: {quantity} ({unit})"))
                 if cs is not None:
                     g = s.grid
                     paths.append(plots.plot_class_map(
                         s.mean, (g.x0, g.x0 + g.nx * g.cell,
                                  g.y0, g.y0 + g.ny * g.cell),
                         pdir / f"{lid}_{name}_classes.png", class_set=cs,
-                        quantity=s.kind.label.split(" (")[0], plan_unit=lr.level.unit,
+                        quantity=quantity, plan_unit=lr.level.unit,
                         contour_interval=s.interval if s.kind.class_map_contours else None,
                         polygons=[f.geometry for f in lr.level.overlays.get("delamination", ())],
                         lines=[f.geometry for f in lr.level.joints],
                         origin="upper",
-                        title=f"{lname}: {s.kind.label.split(' (')[0].lower()} classes"))
+                        title=f"{lname}: {quantity.lower()} classes"))
             # the potential plots, named after the role: the kind playing it, whatever its name
             pot = with_role(lr.surfaces, Role.POTENTIAL)
             if pot is not None:
