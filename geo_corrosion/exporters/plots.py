@@ -31,7 +31,9 @@ class PlotsExporter(Exporter):
     def export(self, result: RunResult, out_dir: Path) -> list[Path]:
         """Write every level's plots."""
         from geo_corrosion.condition import plots
+        from geo_corrosion.units import report_units
 
+        system = report_units(result.site.config.units)
         pdir = out_dir / "plots"
         pdir.mkdir(exist_ok=True)
         paths: list[Path] = []
@@ -43,6 +45,9 @@ class PlotsExporter(Exporter):
                 # owner words: the vocabulary's label of the kind, its unit as owners read it
                 quantity = label(s.kind.name, s.kind.label.split(" (")[0])
                 unit = unit_label(s.kind.canonical_unit)
+                if s.kind.canonical_unit == "mm" and cs is None and system.system == "us":
+                    # a small length (cover) in inches on a US report, as the tables give it
+                    vals, unit = system.small_from_mm(vals), system.small
                 paths.append(plots.plot_histogram(
                     vals, pdir / f"{lid}_{name}_histogram.png", class_set=cs,
                     quantity=quantity, unit=unit,
