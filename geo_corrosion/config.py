@@ -46,6 +46,7 @@ __all__ = [
     "RunParams",
     "LayoutParams",
     "SiteConfig",
+    "ProjectConfig",
     "COORDS",
     "ID_ALLOWED",
     "ID_MAX",
@@ -185,6 +186,9 @@ class Key:
         The dataclass of that field.
     record : str
         Its name in ``run.json``'s ``parameters`` when not the field's (``repair_margin_m``).
+    metric : str or None
+        The default of a site with ``units = "metric"``, as it would write it (``"20 mm"``),
+        where ``default`` is a converted US value (``"0.75 in"``); None: one default.
     """
 
     name: str | None
@@ -210,6 +214,7 @@ class Key:
     field: str = ""
     owner: builtins.type | None = None
     record: str = ""
+    metric: str | None = None
 
     @property
     def required(self) -> bool:
@@ -228,6 +233,12 @@ class Key:
         if d is None or isinstance(d, _Marker):
             return None
         return self.hold(d, where=f"default of {self.dotted}")
+
+    def value_for(self, system: str) -> Any:
+        """Return the default as held for a reporting system (``metric`` has its own)."""
+        if system == "metric" and self.metric is not None:
+            return self.hold(self.metric, where=f"metric default of {self.dotted}")
+        return self.value
 
     def hold(self, written: Any, *, where: str) -> Any:
         """Convert a value as written (already of the right TOML type) to the value held."""
@@ -594,6 +605,19 @@ class SurveyConfig:
         default_doc="0.9 for `cse`, 0 otherwise", help="Temperature coefficient of the electrode")
     date: str | None = key("date", "date", None, example='"2026-09-14"', active=True,
                            help="Survey date, recorded in run.json")
+    crew: str | None = key("crew", "string", None, example='"J. Smith, A. Lee"',
+                           help="Who read the survey, shown in the report")
+    instrument: str | None = key(
+        "instrument", "string", None, example='"half-cell voltmeter, 10 MOhm input"',
+        help="Instrument (type and serial number), shown in the report")
+    weather: str | None = key("weather", "string", None, example='"overcast, 12 degC, dry"',
+                              help="Weather during the survey, shown in the report")
+    surface_condition: str | None = key(
+        "surface_condition", "string", None, example='"clean, dry; sealer on the ramps"',
+        help="Surface condition of the concrete, shown in the report")
+    prewetting: str | None = key(
+        "prewetting", "string", None, example='"pre-wetted 15 min with potable water"',
+        help="Pre-wetting of the surface before reading, shown in the report")
     separator: str = key("separator", "string", ",", help='CSV field separator, e.g. ";"')
     decimal: str = key("decimal", "string", ".", choices=(".", ","),
                        help="CSV decimal mark; not the separator")
@@ -641,7 +665,8 @@ class RunParams:
     """
 
     cell_size_m: float = key(
-        "cell_size", "length", "1 ft", unit="m", ge=0.01, le=100.0, help="Kriging grid cell",
+        "cell_size", "length", "1 ft", metric="0.3 m", unit="m", ge=0.01, le=100.0,
+        help="Kriging grid cell",
         doc="A level's grid may hold at most 20 million cells: `check` refuses a smaller cell "
             "before any work, saying the least cell size that fits.")
     max_distance_m: float | None = key(
@@ -682,7 +707,7 @@ class RunParams:
         help="Target temperature of the CSE correction (72 F [ASTM-C876-22a §4.7])")
     correct_only_outside_band: bool = key(
         "correct_only_outside_band", "boolean", False,
-        help="If true, no CSE correction within cse_reference_c +- 5.5 C",
+        help="If true, no CSE correction within 5.5 C of the CSE reference temperature",
         doc="[ASTM-C876-22a §4.7] allows this.")
     #: scale each fitted variogram so that the leave-one-out MSSE is 1 (mapping stage)
     calibrate_variance: bool = key(
@@ -771,7 +796,7 @@ class RunParams:
     #: [webmap].basemap_attribution: the tiles' attribution, shown on the map
     basemap_attribution: str | None = key(
         "basemap_attribution", "string", None, table="webmap",
-        example='"(c) Example tile provider"', help="The tiles' attribution; needs basemap_url",
+        example='"(c) Example tile provider"', help="The tiles' attribution; needs a basemap URL",
         doc="**Required with `basemap_url`**, refused without it. Plain text shown on the map, "
             "as the tile provider asks, e.g. `\"© OpenStreetMap contributors\"`.")
 
@@ -821,7 +846,7 @@ class LayoutParams:
         help="Saw-cut axes, degrees counter-clockwise from grid x",
         doc="Repairs are rectangles on these axes.")
     sawcut_depth_mm: float = key(  # 3/4 in exactly [ICRI-310.1R-2008], to confirm
-        "sawcut_depth", "length", "0.75 in", unit="mm", gt=0, le=300, table="run",
+        "sawcut_depth", "length", "0.75 in", metric="20 mm", unit="mm", gt=0, le=300, table="run",
         help="Perimeter saw cut and least removal depth",
         doc="3/4 in, after [ICRI-310.1R-2008], to confirm.")
     extend_to_edge: bool = param(
@@ -836,7 +861,7 @@ class LayoutParams:
         doc="Sets the removal depth of a repair (cover + bar + undercut clearance), the section "
             "loss and the time to cover cracking ([methods.md](methods.md) §5.1, §6).")
     max_aggregate_mm: float = key(
-        "max_aggregate", "length", "9.5 mm", unit="mm", ge=0, le=100, table="run",
+        "max_aggregate", "length", "9.5 mm", metric="10 mm", unit="mm", ge=0, le=100, table="run",
         help="Largest aggregate of the repair material",
         doc="Sets the undercut clearance under exposed bars.")
     slab_thickness_mm: float | None = key(
@@ -897,6 +922,26 @@ class QuantitiesConfig:
                                   "shared list"})
 
 
+@dataclass(frozen=True)
+class ProjectConfig:
+    """The ``[project]`` table: what the report's title block says about the engagement."""
+
+    number: str | None = key("number", "string", None, example='"2026-041"',
+                             help="Project number, in the report's title block")
+    revision: str | None = key("revision", "string", None, example='"0"',
+                               help="Revision of the report")
+    date: str | None = key("date", "date", None, example='"2026-10-02"',
+                           help="Date of the report (of this revision)")
+    engineer: str | None = key("engineer", "string", None, example='"A. Engineer, P.E."',
+                               help="The engineer responsible, who signs and seals")
+    firm: str | None = key("firm", "string", None, example='"Engineering firm"',
+                           help="The firm issuing the report")
+    seal_note: str | None = key(
+        "seal_note", "string", None, example='"Preliminary, not for construction"',
+        help="Printed in the seal area (e.g. a preliminary or not-for-construction note)",
+        doc="Without it the seal area is left blank for the seal and signature.")
+
+
 @dataclass(frozen=True, kw_only=True)
 class SiteConfig:
     """A parsed, validated site file."""
@@ -922,6 +967,8 @@ class SiteConfig:
     notes: str = key("notes", "text", "", table="site", help="Free text")
     levels: tuple[LevelConfig, ...]
     surveys: tuple[SurveyConfig, ...]
+    #: the [project] table (title block of the report); all None when absent
+    project: ProjectConfig = field(default_factory=ProjectConfig)
     run: RunParams = field(default_factory=RunParams)
     #: the repair layout's parameters, from the layout keys of [run]
     layout: LayoutParams = field(default_factory=LayoutParams)
@@ -1012,6 +1059,7 @@ _CLASS_KEYS_DOC = "class key or list of class keys"
 #: Every table of the site file, by its dotted name.
 TABLES: dict[str, TableSpec] = {t.name: t for t in (
     TableSpec("site", keys_of(SiteConfig, "site")),
+    TableSpec("project", keys_of(ProjectConfig, "project")),
     TableSpec("run", _ordered(keys_of(RunParams, "run") + keys_of(LayoutParams, "run"),
                               _RUN_ORDER)),
     TableSpec("run.variogram.<kind>", _in(
@@ -1137,6 +1185,7 @@ TABLES: dict[str, TableSpec] = {t.name: t for t in (
 TOP = TableSpec("", _in(
     "",
     Key("site", "table", help="The site"),
+    Key("project", "table", None, help="The project: number, revision, engineer, firm"),
     Key("run", "table", None, help="Parameters of the run"),
     Key("levels", "tables", help="One table per level"),
     Key("surveys", "tables", None, help="One table per readings file"),
@@ -1186,6 +1235,8 @@ def _doc_row(k: Key) -> str:
         default = "none"
     else:
         default = f"`{_toml(k.default)}`{_held_note(k)}"
+        if k.metric is not None:
+            default = f"{default} (`us`); `{_toml(k.metric)}` (`metric`)"
     typ = k.type_doc or _TYPE_DOC.get(k.type, k.type)
     if k.unit and k.type in ("number", "integer") and k.unit != "grid units":
         typ += f" ({k.unit})"

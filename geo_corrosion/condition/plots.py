@@ -25,6 +25,7 @@ from matplotlib.colors import BoundaryNorm, ListedColormap
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
+from matplotlib.ticker import FuncFormatter
 from numpy.typing import ArrayLike
 from scipy import stats
 
@@ -32,6 +33,7 @@ from geo_corrosion._io import atomic_write
 from geo_corrosion.condition.classes import POTENTIAL_C876, RESISTIVITY_RILEM, ClassSet
 from geo_corrosion.condition.potential import MixtureThreshold, cumulative_frequency
 from geo_corrosion.errors import ConditionError, ExportError
+from geo_corrosion.vocabulary import VOCABULARY, class_label, label
 
 __all__ = [
     "CAUTION",
@@ -55,9 +57,9 @@ def _figure(width_in: float = 7.0, height_in: float = 5.0) -> Figure:
     return fig
 
 
-def _finish(fig: Figure, path: str | os.PathLike[str], dpi: int) -> Path:
+def _finish(fig: Figure, path: str | os.PathLike[str], dpi: int, bottom: float = 0.03) -> Path:
     fig.text(0.01, 0.005, CAUTION, fontsize=7, color="#444444", ha="left", va="bottom")
-    fig.tight_layout(rect=(0.0, 0.03, 1.0, 1.0))
+    fig.tight_layout(rect=(0.0, bottom, 1.0, 1.0))
     out = Path(path)
     if out.suffix.lower() != ".png":
         raise ExportError(f"{out}: figures are written as PNG; give a path ending in .png")
@@ -77,6 +79,13 @@ def _finite(values: ArrayLike, what: str) -> np.ndarray:
         raise ConditionError(f"no finite {what} to plot")
     out: np.ndarray = f
     return out
+
+
+def _class_labels(class_set: ClassSet) -> list[str]:
+    """Return the owner labels of a class set's classes (:mod:`geo_corrosion.vocabulary`)."""
+    return [class_label(class_set.name, k, lab if f"{class_set.name}.{k}" not in VOCABULARY
+                        else None)
+            for k, lab in zip(class_set.keys, class_set.labels, strict=True)]
 
 
 def _axis_label(quantity: str, unit: str) -> str:
@@ -136,11 +145,17 @@ def plot_histogram(
             if lo < e < hi:
                 ax.axvline(e, color="#333333", lw=1.0, ls="--")
         handles = [Patch(color=col, alpha=0.4, label=lab)
-                   for col, lab in zip(class_set.colors, class_set.labels, strict=True)]
-        ax.legend(handles=handles, fontsize=8, loc="upper right", title=class_set.name)
+                   for col, lab in zip(class_set.colors, _class_labels(class_set), strict=True)]
+        ax.legend(handles=handles, fontsize=7, loc="upper right",
+                  title=label(class_set.name, class_set.name), title_fontsize=7)
     ax.hist(v, bins=list(edges), color="#0072B2", edgecolor="white")
     if log_x:
         ax.set_xscale("log")
+        # plain numbers (20, 30, 50), not powers of ten: owners read values
+        ax.xaxis.set_major_formatter(FuncFormatter(lambda x, _p: f"{x:g}"))
+        ax.xaxis.set_minor_formatter(FuncFormatter(
+            lambda x, _p: f"{x:g}" if f"{x:.1g}"[0] in "235" else ""))
+        ax.tick_params(axis="x", which="minor", labelsize=7)
     ax.set_xlabel(_axis_label(quantity, u))
     ax.set_ylabel("Number of readings (count)")
     ax.set_title(title or f"{quantity}: {v.size} readings")
@@ -183,7 +198,8 @@ def plot_cumulative_frequency(
     ax.set_yticklabels([f"{p:g}" for p in ticks])
     ax.set_ylim(zmin, zmax)
     if c876_lines:
-        for e, lab in zip(POTENTIAL_C876.edges, ("C876 -350 mV", "C876 -200 mV"), strict=True):
+        for e, lab in zip(POTENTIAL_C876.edges, ("C876 -350 mV vs CSE", "C876 -200 mV vs CSE"),
+                          strict=True):
             ax.axvline(e, color="#D55E00" if e < -300 else "#E69F00", lw=1.2, ls="--", label=lab)
     if mixture is not None:
         x = np.linspace(float(cfd.potential_mv.min()), float(cfd.potential_mv.max()), 300)
@@ -194,7 +210,7 @@ def plot_cumulative_frequency(
         cdf = np.clip(cdf, 1e-6, 1 - 1e-6)
         ax.plot(x, stats.norm.ppf(cdf), "-", color="#333333", lw=1.0, label="mixture fit")
         ax.axvline(mixture.threshold_mv, color="#CC79A7", lw=1.6,
-                   label=f"site threshold {mixture.threshold_mv:.0f} mV")
+                   label=f"site threshold {mixture.threshold_mv:.0f} mV vs CSE")
     ax.grid(True, color="#DDDDDD", lw=0.6)
     ax.set_xlabel(_axis_label("Half-cell potential", "mV vs CSE"))
     ax.set_ylabel("Cumulative frequency (%, normal-probability scale)")
@@ -242,6 +258,7 @@ def plot_class_map(
     contour_interval: float | None = None,
     polygons: Sequence[Any] | None = None,
     polygon_label: str = "delamination",
+    lines: Sequence[Any] | None = None,
     origin: str = "lower",
     title: str | None = None,
     dpi: int = 150,
@@ -267,6 +284,8 @@ def plot_class_map(
         Contour interval in the class set's unit (e.g. 50 mV); None: no contours.
     polygons : sequence, optional
         Shapely polygons or (n, 2) coordinate arrays drawn as outlines.
+    lines : sequence, optional
+        Shapely lines (joints) drawn dashed.
     origin : {"lower", "upper"}
         Row 0 of ``grid`` at ``ymin`` ("lower") or at ``ymax`` ("upper").
     joints : sequence of (line, breaks), optional
@@ -295,7 +314,10 @@ def plot_class_map(
     codes[codes < 0] = np.nan
     cmap = ListedColormap(list(class_set.colors)).with_extremes(bad=(1.0, 1.0, 1.0, 0.0))
     norm = BoundaryNorm(np.arange(-0.5, class_set.n_classes + 0.5), class_set.n_classes)
-    fig = _figure(7.5, 6.0)
+    # the figure follows the deck's aspect ratio (a long deck is a long figure, not a strip in
+    # a 4:3 frame), with the key below the plan
+    aspect = (ymax - ymin) / (xmax - xmin)
+    fig = _figure(7.5, float(min(max(7.0 * aspect + 1.6, 3.0), 9.5)))
     ax = fig.add_subplot(1, 1, 1)
     ax.imshow(np.ma.masked_invalid(codes), cmap=cmap, norm=norm, extent=(xmin, xmax, ymin, ymax),
               origin="lower" if origin == "lower" else "upper", interpolation="nearest",
@@ -322,18 +344,21 @@ def plot_class_map(
             if levels.size and np.isfinite(part).any():
                 cs = ax.contour(xs, ys, np.ma.masked_invalid(part), levels=levels,
                                 colors="#333333", linestyles="solid", linewidths=0.6)
-                ax.clabel(cs, fontsize=6, fmt="%g")
+                # labels at 7 pt on every second level, spaced along the lines
+                ax.clabel(cs, levels=list(cs.levels)[::2], fontsize=7, fmt="%g", inline=True,
+                          inline_spacing=2)
     if polygons:
         for k, poly in enumerate(polygons):
             for ring in _polygon_rings(poly):
                 ax.plot(ring[:, 0], ring[:, 1], color="black", lw=1.2,
                         label=polygon_label if k == 0 else None)
-    handles: list[Any] = [Patch(color=c, label=lab)
-                          for c, lab in zip(class_set.colors, class_set.labels, strict=True)]
+    handles: list[Any] = [Patch(color=c, label=lab) for c, lab in
+                          zip(class_set.colors, _class_labels(class_set), strict=True)]
     if polygons:
         handles.append(Patch(facecolor="none", edgecolor="black", label=polygon_label))
     kinds_drawn = set()
-    for line, breaks in joints or ():
+    # ``lines`` are joints of no stated type: drawn as joints that keep the mat continuous
+    for line, breaks in [*(joints or ()), *((ln, False) for ln in lines or ())]:
         style = JOINT_STYLES[bool(breaks)]
         kinds_drawn.add(bool(breaks))
         for part in getattr(line, "geoms", [line]):
@@ -344,16 +369,21 @@ def plot_class_map(
         style = JOINT_STYLES[breaks]
         handles.append(Line2D([], [], color=style["color"], lw=style["lw"],
                               linestyle=style["ls"], label=style["label"]))
-    ax.legend(handles=handles, fontsize=7, loc="upper left", bbox_to_anchor=(1.01, 1.0),
-              title=f"{quantity} ({_UNIT_LABEL.get(class_set.unit, class_set.unit)})",
-              title_fontsize=7)
-    ax.set_xlabel(f"x ({plan_unit})")
-    ax.set_ylabel(f"y ({plan_unit})")
-    ttl = title or f"{quantity} classes ({class_set.name})"
+    ncol = min(3, len(handles))
+    rows = -(-len(handles) // ncol)
+    key_h = (0.2 * (rows + 1) + 0.25) / fig.get_figheight()  # the key's share of the height
+    fig.legend(handles=handles, fontsize=7, loc="lower center", bbox_to_anchor=(0.5, 0.035),
+               ncol=ncol, title=f"{label(class_set.name, quantity)}, "
+                                f"{_UNIT_LABEL.get(class_set.unit, class_set.unit)}",
+               title_fontsize=7, frameon=False)
+    ax.set_xlabel(f"Survey grid x ({plan_unit})", fontsize=8)
+    ax.set_ylabel(f"Survey grid y ({plan_unit})", fontsize=8)
+    ax.tick_params(labelsize=7)
+    ttl = title or f"{quantity} classes ({label(class_set.name, class_set.name)})"
     if contour_interval is not None:
         ttl += f", contours every {contour_interval:g} {_UNIT_LABEL.get(class_set.unit, '')}"
     ax.set_title(ttl, fontsize=10)
-    return _finish(fig, path, dpi)
+    return _finish(fig, path, dpi, bottom=0.035 + key_h)
 
 
 def plot_potential_vs_resistivity(
@@ -407,7 +437,8 @@ def plot_potential_vs_resistivity(
     ax.set_xlabel(_axis_label("Half-cell potential", "mV vs CSE"))
     ax.set_ylabel(_axis_label("Resistivity", "kohm.cm"))
     ax.set_title(title or "Potential vs resistivity (dashed: C876 limits; dotted: "
-                 f"{resistivity_class_set.name} limits)", fontsize=9)
+                 f"{label(resistivity_class_set.name, resistivity_class_set.name)} limits)",
+                 fontsize=9)
     ax.legend(fontsize=8, loc="lower right")
     return _finish(fig, path, dpi)
 

@@ -14,6 +14,7 @@ import numpy as np
 from geo_corrosion.exporters.base import Exporter
 from geo_corrosion.measurements import Role
 from geo_corrosion.model.surface import with_role
+from geo_corrosion.vocabulary import label, unit_label
 
 if TYPE_CHECKING:
     from geo_corrosion.model.results import LevelResult, RunResult
@@ -31,7 +32,9 @@ class PlotsExporter(Exporter):
     def export(self, result: RunResult, out_dir: Path) -> list[Path]:
         """Write every level's plots."""
         from geo_corrosion.condition import plots
+        from geo_corrosion.units import report_units
 
+        system = report_units(result.site.config.units)
         pdir = out_dir / "plots"
         pdir.mkdir(exist_ok=True)
         paths: list[Path] = []
@@ -40,24 +43,30 @@ class PlotsExporter(Exporter):
             for name, s in lr.surfaces.items():
                 vals = lr.readings[name][s.kind.value_column].to_numpy(float)
                 cs = s.kind.class_set_object()
+                # owner words: the vocabulary's label of the kind, its unit as owners read it
+                quantity = label(s.kind.name, s.kind.label.split(" (")[0])
+                unit = unit_label(s.kind.canonical_unit)
+                if s.kind.canonical_unit == "mm" and cs is None and system.system == "us":
+                    # a small length (cover) in inches on a US report, as the tables give it
+                    vals, unit = system.small_from_mm(vals), system.small
                 paths.append(plots.plot_histogram(
                     vals, pdir / f"{lid}_{name}_histogram.png", class_set=cs,
-                    quantity=s.kind.label.split(" (")[0], unit=s.kind.canonical_unit,
-                    log_x=s.kind.krige_transform == "log", title=f"{lname}: {s.kind.label}"))
+                    quantity=quantity, unit=unit,
+                    log_x=s.kind.krige_transform == "log", title=f"{lname}: {quantity} ({unit})"))
                 if cs is not None:
                     g = s.grid
                     paths.append(plots.plot_class_map(
                         s.mean, (g.x0, g.x0 + g.nx * g.cell,
                                  g.y0, g.y0 + g.ny * g.cell),
                         pdir / f"{lid}_{name}_classes.png", class_set=cs,
-                        quantity=s.kind.label.split(" (")[0], plan_unit=lr.level.unit,
+                        quantity=quantity, plan_unit=lr.level.unit,
                         contour_interval=s.interval if s.kind.class_map_contours else None,
                         polygons=[f.geometry for f in lr.level.overlays.get("delamination", ())],
                         joints=[(j.geometry, bool(getattr(j, "breaks_continuity", False)))
                                 for j in lr.level.joints],
                         contour_groups=s.regions,
                         origin="upper",
-                        title=f"{lname}: {s.kind.label.split(' (')[0].lower()} classes"))
+                        title=f"{lname}: {quantity.lower()} classes"))
             for name, p in lr.points.items():  # too sparse for a surface: classed points
                 paths += _points_plots(plots, pdir, lid, lname, lr, name, p)
             # the potential plots, named after the role: the kind playing it, whatever its name

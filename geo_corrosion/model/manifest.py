@@ -395,8 +395,23 @@ class _Record:
 
 
 @dataclass(frozen=True)
+class ProjectRecord(_Record):
+    """``site.project``: the site file's ``[project]`` table (the report's title block)."""
+
+    number: str | None = field(default=None, metadata=_meta(optional=True))
+    revision: str | None = field(default=None, metadata=_meta(optional=True))
+    date: str | None = field(default=None, metadata=_meta(optional=True))
+    engineer: str | None = field(default=None, metadata=_meta(optional=True))
+    firm: str | None = field(default=None, metadata=_meta(optional=True))
+    seal_note: str | None = field(default=None, metadata=_meta(optional=True))
+
+
+@dataclass(frozen=True)
 class SiteRecord(_Record):
-    """``site``: name, owner, site CRS and its unit, reporting units, site file name."""
+    """``site``: name, owner, site CRS and its unit, reporting units, site file name.
+
+    ``project`` (the ``[project]`` table) is absent when the site file has none.
+    """
 
     name: str
     owner: str
@@ -404,6 +419,7 @@ class SiteRecord(_Record):
     crs_unit: str
     report_units: str
     site_file: str
+    project: ProjectRecord | None = field(default=None, metadata=_meta(optional=True))
 
 
 @dataclass(frozen=True)
@@ -437,6 +453,15 @@ class SurveyRecord(_Record):
     unit_in: str
     unit: str
     corrections: tuple[Mapping[str, Any], ...]
+    #: the survey's details from the site file, each absent when not given
+    date: str | None = field(default=None, metadata=_meta(optional=True))
+    crew: str | None = field(default=None, metadata=_meta(optional=True))
+    instrument: str | None = field(default=None, metadata=_meta(optional=True))
+    electrode: str | None = field(default=None, metadata=_meta(optional=True))
+    temperature_c: float | None = field(default=None, metadata=_meta(optional=True))
+    weather: str | None = field(default=None, metadata=_meta(optional=True))
+    surface_condition: str | None = field(default=None, metadata=_meta(optional=True))
+    prewetting: str | None = field(default=None, metadata=_meta(optional=True))
 
 
 @dataclass(frozen=True)
@@ -1164,6 +1189,16 @@ class Manifest(_Record):
 # --------------------------------------------------------------------------- build and read
 
 
+#: The site file's details of a survey that run.json records (when given) for the report.
+_SURVEY_DETAILS = ("date", "crew", "instrument", "electrode", "temperature_c", "weather",
+                   "surface_condition", "prewetting")
+
+
+def _given(d: Mapping[str, Any]) -> dict[str, Any]:
+    """Return the entries of ``d`` that are not None."""
+    return {k: v for k, v in d.items() if v is not None}
+
+
 def _manifest_dict(result: RunResult, started: float) -> dict[str, Any]:
     """Build the manifest as the JSON object ``run.json`` holds (numpy scalars unconverted)."""
     cfg = result.site.config
@@ -1174,7 +1209,10 @@ def _manifest_dict(result: RunResult, started: float) -> dict[str, Any]:
     return {
         "geo_corrosion_run": FORMAT_VERSION,
         "site": {"name": cfg.name, "owner": cfg.owner, "crs": cfg.crs.to_string(),
-                 "crs_unit": cfg.crs_unit, "report_units": cfg.units, "site_file": cfg.path.name},
+                 "crs_unit": cfg.crs_unit, "report_units": cfg.units, "site_file": cfg.path.name,
+                 **({"project": _given(dataclasses.asdict(cfg.project))}
+                    if any(v is not None for v in dataclasses.asdict(cfg.project).values())
+                    else {})},
         "created_utc": datetime.now(UTC).isoformat(timespec="seconds"),
         "elapsed_s": round(time.perf_counter() - started, 2),
         "inputs": input_files(cfg),
@@ -1183,7 +1221,9 @@ def _manifest_dict(result: RunResult, started: float) -> dict[str, Any]:
         "surveys": [{"id": s.id, "level": s.config.level, "kind": s.kind.name,
                      "file": s.config.path.name, "readings": len(s.frame),
                      "unit_in": s.config.unit, "unit": s.kind.canonical_unit,
-                     "corrections": list(s.corrections)} for s in result.site.surveys],
+                     "corrections": list(s.corrections),
+                     **_given({k: getattr(s.config, k) for k in _SURVEY_DETAILS})}
+                    for s in result.site.surveys],
         "qa": {"findings": len(flags), "summary": summary,
                "runnable": bool(qa.runnable(flags)) if len(flags) else True},
         "levels": {lid: {"name": lr.level.config.name,

@@ -35,6 +35,7 @@ from geo_corrosion.config import (
     LayoutParams,
     LevelConfig,
     OverlayRef,
+    ProjectConfig,
     QuantitiesConfig,
     RunParams,
     SiteConfig,
@@ -277,6 +278,8 @@ def _survey(data: object, where: str, root: Path, level_ids: set[str]) -> Survey
         temperature_f=temp_f,
         temperature_coefficient_mv_per_c=_read(t, keys["temperature_coefficient_mv_per_c"]),
         date=_read(t, keys["date"]),
+        **{k: _read(t, keys[k]) for k in ("crew", "instrument", "weather",
+                                          "surface_condition", "prewetting")},
         separator=sep,
         decimal=dec,
         layer=_read(t, keys["layer"]),
@@ -434,8 +437,20 @@ def _check_threshold(kind: Any, value: float, where: str) -> None:
             f"published threshold is {kind.threshold.value:g} {kind.canonical_unit})")
 
 
-def _run(data: object, where: str, units: str) -> tuple[dict[str, Any], LayoutParams]:
+def _project(data: object, where: str) -> ProjectConfig:
+    """Read the optional [project] table (the report's title block)."""
+    if data is None:
+        return ProjectConfig()
+    t = _table(data, where, "project")
+    return ProjectConfig(**{k.field: _read(t, k) for k in TABLES["project"].keys})
+
+
+def _run(data: object, where: str, system: str = "us"
+         ) -> tuple[dict[str, Any], LayoutParams]:
     """Read [run]: the keyword arguments of :class:`RunParams`, and the repair layout's.
+
+    A key that is absent takes the default of the reporting ``system``: a metric site gets
+    the metric defaults (a 20 mm saw cut), not converted US ones (``Key.metric``).
 
     The layout's keys are checked against the ranges declared on
     :class:`~geo_corrosion.config.LayoutParams` here, each message naming its [run] key, and
@@ -451,9 +466,10 @@ def _run(data: object, where: str, units: str) -> tuple[dict[str, Any], LayoutPa
         elif k.field == "kinds":
             run["kinds"] = _kinds(t)
         else:
-            (layout if k.owner is LayoutParams else run)[k.field] = _read(t, k)
+            v = _read(t, k) if t.has(str(k.name)) else k.value_for(system)
+            (layout if k.owner is LayoutParams else run)[k.field] = v
     if layout.get("round_increment_mm") is None:  # the default follows the reporting units
-        layout["round_increment_mm"] = default_increment_mm(units)
+        layout["round_increment_mm"] = default_increment_mm(system)
     try:
         params = LayoutParams(**layout)
     except RepairError as err:  # a check across keys: the table is named
@@ -753,6 +769,7 @@ def read_site(path: str | Path) -> SiteConfig:
         **site,
         levels=levels,
         surveys=surveys,
+        project=_project(data.get("project"), f"{p}: [project]"),
         run=RunParams(**run, **_webmap(data.get("webmap", {}), f"{p}: [webmap]")),
         layout=layout,
         zoning=_zoning(_array(top, "zoning"), f"{p}: [[zoning]]"),

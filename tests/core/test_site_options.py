@@ -244,7 +244,9 @@ def test_sawcut_depth_default_is_three_quarter_inch_exactly(site_dir: Path) -> N
     edit(site_dir / "site.toml", "[run]\n", '[run]\nsawcut_depth = "0.75 in"\n')
     assert read_site(site_dir).layout.sawcut_depth_mm == 19.05
     docs = (Path(__file__).resolve().parents[2] / "docs" / "site-file.md").read_text()
-    assert '| `sawcut_depth` | length string | `"0.75 in"` (19.05 mm) |' in docs
+    # a metric site's own default (issue 14): 20 mm, not 19.05
+    assert ('| `sawcut_depth` | length string | `"0.75 in"` (19.05 mm) (`us`); `"20 mm"` '
+            "(`metric`) |") in docs
 
 
 def test_library_sawcut_depth_defaults_are_three_quarter_inch() -> None:

@@ -49,9 +49,9 @@ def test_docs_key_tables_are_generated_from_the_declaration() -> None:
     text = DOCS.read_text(encoding="utf-8")
     assert render_docs(text) == text, "docs/site-file.md is stale: python -m geo_corrosion.config"
     blocks = {m.group("table") for m in config._BLOCK.finditer(text)}
-    assert blocks == {"site", "run", "run.variogram.<kind>", "run.kinds.<kind>", "webmap",
-                      "drawings", "levels", "layer", "levels.joints", "levels.grid", "surveys",
-                      "surveys.ground_connections", "condition.combined",
+    assert blocks == {"site", "project", "run", "run.variogram.<kind>", "run.kinds.<kind>",
+                      "webmap", "drawings", "levels", "layer", "levels.joints", "levels.grid",
+                      "surveys", "surveys.ground_connections", "condition.combined",
                       "condition.combined.rules", "quantities"}
     for name in blocks:  # every declared key has its row
         for k in TABLES[name].keys:

@@ -93,8 +93,23 @@ def _area(a_m2: float, system: str) -> tuple[str, str]:
     # common practice, no source: the rounding is the report's own choice, documented in
     # docs/file-formats.md; the factor is exact [NIST-SP811-2008 App. B]
     if system == "us":
-        return f"{a_m2 / M2_PER_FT2:,.0f}", "ft2"
-    return f"{a_m2:,.1f}", "m2"
+        return f"{a_m2 / M2_PER_FT2:,.0f}", "ft²"
+    return f"{a_m2:,.1f}", "m²"
+
+
+#: Owner words of the report (issue 14), written out here rather than read from
+#: geo_corrosion.vocabulary, so that a changed label fails a test.
+DEPTH_CLASS = {"partial_above_bars": "Partial depth, above bars",
+               "partial_below_bars": "Partial depth, below bars", "full_depth": "Full depth"}
+UNIT = {"ft2": "ft²", "m2": "m²", "ft3": "ft³", "m3": "m³", "LF": "LF", "m": "m", "EA": "EA",
+        "LS": "LS", "CY": "CY"}
+
+
+def _owner_meaning(meaning: str) -> str:
+    """A threshold's meaning of run.json as the report words it: mV vs CSE, kΩ·cm, µA/cm²."""
+    m = meaning.replace(" mV CSE", " mV vs CSE").replace("kOhm.cm", "kΩ·cm")
+    m = m.replace("uA/cm2", "µA/cm²")
+    return re.sub(r" \((high|low|moderate)( risk)?\)$", "", m)
 
 
 # --------------------------------------------------------------------------- report.pdf
@@ -159,7 +174,8 @@ def test_pdf_holds_every_bid_item_and_the_site_totals(any_run: Path) -> None:
         q = float(r["quantity"])
         nd = {"CY": 1, "m2": 1, "m": 1, "m3": 2}.get(r["unit"], 0)
         base = f"{q:,.{nd}f}"
-        row = rf"ALL {re.escape(r['item'])} .*? {re.escape(r['unit'])} {re.escape(base)} "
+        row = (rf"all levels {re.escape(r['item'])} .*? {re.escape(UNIT[r['unit']])} "
+               rf"{re.escape(base)} ")
         assert re.search(row, text), (r["item"], base)
 
 
@@ -227,8 +243,8 @@ def test_condition_statements_match_run_json(any_run: Path) -> None:
             hi, _u = _area(st["upper_m2"], system)
             tot, _u = _area(st["mapped_area_m2"], system)
             level = f"{100 * st['interval_level']:.0f} %"
-            want = (f"({key.split('_area_')[0].replace('_', ' ')} {st['meaning']})"
-                    if key.startswith("potential_") else st["meaning"])
+            want = (f"(half-cell potential {_owner_meaning(st['meaning'])})"
+                    if key.startswith("potential_") else _owner_meaning(st["meaning"]))
             sentence = (f"{want} is {exp} {unit} ({level} interval {lo} to {hi} {unit}) "
                         f"of {tot} {unit} mapped.")
             assert sentence in level_text, (lid, sentence)
@@ -236,13 +252,13 @@ def test_condition_statements_match_run_json(any_run: Path) -> None:
         thr = cond.get("site_threshold") or {}
         if "threshold_mv" in thr:
             # the mixture threshold after [Gulikers-Elsener-2008]
-            assert f"is {thr['threshold_mv']:.0f} mV CSE." in level_text
+            assert f"is {thr['threshold_mv']:.0f} mV vs CSE." in level_text
             below = f"{100 * thr['fraction_readings_below']:.0f} % of the readings"
             assert f"More negative: {below}" in level_text
         elif "not_available" in thr:
             assert _norm(thr["not_available"]) in level_text
         for row in cond.get("combined_classes") or []:
-            a = f"{row['area_m2'] / (M2_PER_FT2 if system == 'us' else 1.0):,.2f}"
+            a, _u = _area(row["area_m2"], system)
             assert f"{row['class']} {a}" in level_text, (lid, row)
         for sid, life in (cond.get("life") or {}).items():
             # issue 12: a range (10th to 90th percentile) with its basis, never one figure
@@ -275,13 +291,11 @@ def test_repair_list_matches_the_geopackage(any_run: Path) -> None:
             continue
         rep = gpd.read_file(any_run / "survey.gpkg", layer=f"{lid}_repairs")
         for r in rep.itertuples():
-            # area in the reporting unit (exact factor), depth class as in the layer; repair
-            # sides rounded to 3 in make half-cent ties (2'-6" x 3'-3" = 8.125 ft2), which
-            # float noise sends either way
-            a = r.area_m2 / (M2_PER_FT2 if us else 1.0)
-            areas = "|".join(re.escape(f"{v:,.2f}") for v in {a - 1e-9, a, a + 1e-9})
-            assert re.search(rf"{re.escape(r.repair_id)} {re.escape(r.depth_class)} "
-                             rf".*?(?:{areas})", level_text), (r.repair_id, areas)
+            # area in the reporting unit (exact factor), depth class as in the layer
+            area, _u = _area(r.area_m2, "us" if us else "metric")
+            depth = re.escape(DEPTH_CLASS[r.depth_class])
+            assert re.search(rf"{re.escape(r.repair_id)} .*?{depth} .*?{area}", level_text), (
+                r.repair_id, area)
             seen += 1
     assert seen == sum(int(info.get("repairs") or 0) for info in man["levels"].values())
 

@@ -34,14 +34,25 @@ from geo_corrosion.exporters.base import Exporter
 from geo_corrosion.exporters.report.text import (
     _condition_block,
     _e,
-    _parameters,
-    _surveys_table,
     _table,
+    class_name_label,
+    kind_label,
+    methods_per_survey,
+    owner_text,
+    parameter_rows,
     parameter_unit,
     points_class_table,
     points_sentences,
+    qa_rows,
+    quantity_text,
+    readable_citations,
     sources_and_assumptions,
+    statistics_rows,
     summarize_correction,
+    survey_tables,
+    title_block,
+    unmapped_sentences,
+    variogram_table,
 )
 from geo_corrosion.exporters.runfiles import RunLayers
 from geo_corrosion.model.manifest import (
@@ -51,11 +62,13 @@ from geo_corrosion.model.manifest import (
     read_run,
     result_manifest,
 )
+from geo_corrosion.vocabulary import fmt_area, fmt_depth, humanise, label, unit_label
 
 if TYPE_CHECKING:
     import geopandas as gpd
     import pandas as pd
 
+    from geo_corrosion.crs import LocalGrid
     from geo_corrosion.model.results import RunResult
     from geo_corrosion.units import ReportUnits
 
@@ -75,20 +88,23 @@ _NO_PDF_NOTE = "report.pdf not written"  # start of the run's note without Weasy
 #: Methods in brief, with their published sources, cited by bibliography key (the full text
 #: with the status of each source is docs/methods.md of the geo_corrosion distribution).
 METHODS: tuple[tuple[str, str, str], ...] = (
-    ("Corrections", "Potentials converted to the copper/copper-sulfate electrode (CSE) and "
-     "corrected for electrode temperature (0.9 mV/degC); resistivity referred to 20 degC by an "
-     "Arrhenius factor.", "[IJCorros-2010 Table 2; ASTM-C876-22a §5.1.1.2; Coyle-Spragg-2019] "
-     "(activation energy)"),
-    ("QA", "Plausible ranges, adjacent-reading differences over 150 mV, repeatability and "
-     "reproducibility of repeated points, readings outside the slab or in exclusions.",
+    ("Corrections", "Potentials read with another reference electrode converted to the "
+     "copper/copper-sulfate electrode (CSE); potentials corrected for electrode temperature "
+     "where the electrode has a temperature coefficient; resistivity referred to 20 °C by an "
+     "Arrhenius factor. What was applied to each survey is in the table below.",
+     "[IJCorros-2010 Table 2; ASTM-C876-22a §5.1.1.2; Coyle-Spragg-2019] (activation energy)"),
+    ("Quality checks", "Plausible ranges, adjacent-reading differences over 150 mV, "
+     "repeatability and reproducibility of repeated points, readings outside the slab or in "
+     "excluded areas.",
      "[ASTM-C876-91 §5.1, from memory; ASTM-C876-15 precision section, from memory]"),
     ("Surfaces", "Ordinary kriging in a local neighbourhood; variogram models fitted by "
      "weighted least squares and chosen by leave-one-out cross-validation; resistivity and "
-     "rate kriged in logarithms.", "[Cressie-1985] WLS criterion; pykrige as reference "
-     "library"),
-    ("Class sets", "Half-cell potential classes after ASTM C876 (< -350 mV high, -350 to "
-     "-200 mV uncertain, > -200 mV low probability of corrosion); resistivity and corrosion "
-     "rate classes after RILEM TC 154.", "[ASTM-C876-91 App. X1, from memory]; "
+     "rate kriged in logarithms.", "[Cressie-1985] weighted least squares; pykrige as "
+     "reference library"),
+    ("Classes", "Half-cell potential classes after ASTM C876 (more negative than -350 mV vs "
+     "CSE: high, -350 to -200 mV vs CSE: uncertain, less negative than -200 mV vs CSE: low "
+     "probability of corrosion); resistivity and corrosion-rate classes after RILEM TC 154, "
+     "named by corrosion risk.", "[ASTM-C876-91 App. X1, from memory]; "
      "[RILEM-TC154-2000, from memory; Andrade-Alonso-2004, from memory]"),
     ("Probability maps", "Probability that the value is beyond the class threshold and the "
      "area beyond it with a 90 % interval, from conditional simulations of the Gaussian field "
@@ -149,63 +165,101 @@ def _data_url(path: Path) -> str:
     return png_data_url(path.read_bytes())
 
 
-def _figure(path: Path, caption: str) -> str:
+def _figure(path: Path, caption: str, *, wide: bool = False) -> str:
     if not path.is_file():
         return ""
-    return (f'<figure><img src="{_data_url(path)}" alt="{_e(caption)}">'
+    cls = ' class="map"' if wide else ""
+    return (f'<figure{cls}><img src="{_data_url(path)}" alt="{_e(caption)}">'
             f"<figcaption>{_e(caption)}</figcaption></figure>")
 
 
 # --------------------------------------------------------------------------- survey.gpkg
 
 
-def _repair_layout_png(gpkg: RunLayers, lid: str) -> str | None:
-    """Draw the level's slab, sounding and repairs (site CRS); return a PNG data URL."""
+def _local_grid(info: LevelRecord) -> LocalGrid:
+    """Return the level's survey grid from its georeference in run.json."""
+    from geo_corrosion.crs import LocalGrid
+
+    g = info.georeference
+    return LocalGrid(g.local_unit, g.crs_unit, float(g.rotation_deg), float(g.scale),
+                     float(g.origin_site[0]), float(g.origin_site[1]))
+
+
+def _plan_size(bounds: tuple[float, float, float, float], width_in: float = 7.2
+               ) -> tuple[float, float]:
+    """Figure size (inches) that follows the deck's aspect ratio, within a page."""
+    x0, y0, x1, y1 = bounds
+    aspect = (y1 - y0) / (x1 - x0) if x1 > x0 else 1.0
+    return width_in, float(min(max(width_in * aspect + 1.1, 2.4), 8.6))
+
+
+def _repair_layout_png(gpkg: RunLayers, lid: str, info: LevelRecord) -> str | None:
+    """Draw the level's slab, sounding and repairs in its survey grid; return a PNG data URL.
+
+    The plan is drawn in the level's local survey grid (the axes of the deck, in its plan
+    unit), not in the site CRS, so it reads like the survey drawings; the figure follows
+    the deck's aspect ratio and the repair numbers are printed at 8 pt.
+    """
     import matplotlib
 
     matplotlib.use("Agg")
+    import matplotlib.patheffects as pe
     import matplotlib.pyplot as plt
 
-    slab, rep = gpkg.get(f"{lid}_slab"), gpkg.get(f"{lid}_repairs")
+    slab = gpkg.get(f"{lid}_slab")
     if slab is None:
         return None
-    fig, ax = plt.subplots(figsize=(7.5, 5.0), dpi=150)
-    slab.boundary.plot(ax=ax, color="#303030", linewidth=1.2)
+    grid = _local_grid(info)
+
+    def local(gdf: gpd.GeoDataFrame | None) -> gpd.GeoSeries | None:
+        if gdf is None or not len(gdf):
+            return None
+        import geopandas as gpd
+
+        return gpd.GeoSeries([grid.geom_to_local(g) for g in gdf.geometry])
+
+    sl = local(slab)
+    assert sl is not None
+    fig, ax = plt.subplots(figsize=_plan_size(tuple(sl.total_bounds)), dpi=150)
+    sl.boundary.plot(ax=ax, color="#303030", linewidth=1.2)
     for what, kw in (("exclusions", {"color": "#BBBBBB"}),
                      ("delaminations", {"color": "#D55E00", "alpha": 0.6}),
                      ("spalls", {"color": "#CC79A7", "alpha": 0.6})):
-        g = gpkg.get(f"{lid}_{what}")
+        g = local(gpkg.get(f"{lid}_{what}"))
         if g is not None:
             g.plot(ax=ax, **kw)
-    joints = gpkg.get(f"{lid}_joints")
-    joint_note = ""
-    if joints is not None and len(joints):
+    joints = local(gpkg.get(f"{lid}_joints"))
+    raw_joints = gpkg.get(f"{lid}_joints")
+    if joints is not None and raw_joints is not None:
         from geo_corrosion.condition.plots import JOINT_STYLES
 
-        brk = (joints["breaks_continuity"].astype(bool) if "breaks_continuity" in joints.columns
-               else [False] * len(joints))
-        for geom, b in zip(joints.geometry, brk, strict=True):
+        brk = (raw_joints["breaks_continuity"].astype(bool)
+               if "breaks_continuity" in raw_joints.columns else [False] * len(raw_joints))
+        for geom, b in zip(joints, brk, strict=True):
             st = JOINT_STYLES[bool(b)]
             for part in getattr(geom, "geoms", [geom]):
                 xy = list(part.coords)
                 ax.plot([p[0] for p in xy], [p[1] for p in xy], color=st["color"],
                         lw=st["lw"], linestyle=st["ls"])
-        joint_note = ("\njoints dashed (thick purple: expansion/isolation, the mat is not "
-                      "continuous across it)")
-    if rep is not None:
-        rep.boundary.plot(ax=ax, color="#0072B2", linewidth=1.0)
-        for rid, geom in zip(rep["repair_id"], rep.geometry, strict=True):
-            c = geom.centroid
-            ax.annotate(str(rid).split("-")[-1], (c.x, c.y), fontsize=7, color="#0072B2",
-                        ha="center", va="bottom", xytext=(0, 4), textcoords="offset points")
+    rep = gpkg.get(f"{lid}_repairs")
+    rl = local(rep)
+    if rep is not None and rl is not None:
+        rl.boundary.plot(ax=ax, color="#0072B2", linewidth=1.0)
+        halo = [pe.withStroke(linewidth=2.2, foreground="white")]
+        for rid, geom in zip(rep["repair_id"], rl, strict=True):
+            c = geom.representative_point()
+            ax.annotate(str(rid).split("-")[-1].lstrip("R").lstrip("0") or "0", (c.x, c.y),
+                        fontsize=8, color="#003F66", ha="center", va="center",
+                        path_effects=halo)
     ax.set_aspect("equal")
-    unit = slab.crs.axis_info[0].unit_name if slab.crs is not None else ""
-    ax.set_xlabel(f"easting ({unit})")
-    ax.set_ylabel(f"northing ({unit})")
-    ax.ticklabel_format(useOffset=False, style="plain")
-    ax.tick_params(labelsize=6)
-    ax.set_title("repair layout: saw-cut outlines (blue, numbered as in the repair list), "
-                 f"delaminations (vermillion), spalls (pink){joint_note}", fontsize=7)
+    unit = info.georeference.local_unit
+    ax.set_xlabel(f"Survey grid x ({unit})", fontsize=8)
+    ax.set_ylabel(f"Survey grid y ({unit})", fontsize=8)
+    ax.tick_params(labelsize=7)
+    ax.set_title("Repair layout: saw-cut outlines (blue, numbered as in the repair list), "
+                 "delaminations (vermillion), spalls (pink), joints (dashed; thick purple "
+                 "where the mat is not continuous across it), excluded areas (grey)",
+                 fontsize=7.5, wrap=True)
     fig.text(0.01, 0.005, SHORT_CAUTION, fontsize=6, wrap=True)
     buf = io.BytesIO()
     fig.savefig(buf, format="png", bbox_inches="tight")
@@ -214,7 +268,7 @@ def _repair_layout_png(gpkg: RunLayers, lid: str) -> str | None:
 
 
 def _repair_list(rep: gpd.GeoDataFrame | None, units: ReportUnits) -> str:
-    """List the repairs of a level: id, zone, depth class, bid item, depth and area."""
+    """List the repairs of a level: number, zone, depth class, bid item, depth and area."""
     from geo_corrosion.quantities import DEPTH_CLASS_ITEMS
 
     if rep is None or not len(rep):
@@ -227,26 +281,27 @@ def _repair_list(rep: gpd.GeoDataFrame | None, units: ReportUnits) -> str:
         if item is None or (isinstance(item, float) and not np.isfinite(item)):
             # the schedule prices a repair without a bid item by its depth class
             item = DEPTH_CLASS_ITEMS.get(str(r.get("depth_class")), "")
-        depth = r.get("depth_mm")
+        zone = r.get("zone")
         rows.append({
-            "repair_id": r.get("repair_id"), "zone": r.get("zone"),
-            "depth_class": r.get("depth_class"), "bid_item": item,
-            "depth": None if depth is None else float(units.small_from_mm(depth)),
-            "area": float(units.area_from_m2(r.get("area_m2") or 0.0))})
-    table_cols = [("repair_id", "repair")]
+            "repair_id": r.get("repair_id"),
+            "zone": label(str(zone), humanise(str(zone))) if zone is not None else "",
+            "depth_class": label(str(r.get("depth_class"))), "bid_item": item,
+            "depth": fmt_depth(r.get("depth_mm"), units, unit=False),
+            "area": fmt_area(r.get("area_m2") or 0.0, units, unit=False)})
+    table_cols = [("repair_id", "Repair")]
     if "zone" in cols:
-        table_cols.append(("zone", "zone"))
-    table_cols += [("depth_class", "depth class"), ("bid_item", "bid item")]
+        table_cols.append(("zone", "Zone"))
+    table_cols += [("depth_class", "Depth class"), ("bid_item", "Bid item")]
     if "depth_mm" in cols:
-        table_cols.append(("depth", f"removal depth ({units.small})"))
-    table_cols.append(("area", f"area ({units.area})"))
-    return _table(rows, table_cols, cls="repairs")
+        table_cols.append(("depth", f"Removal depth ({units.small})"))
+    table_cols.append(("area", f"Area ({unit_label(units.area)})"))
+    return _table(rows, table_cols, cls="repairs", num=("depth", "area"))
 
 
 def _quantities(schedule: tuple[ScheduleRow, ...], lid: str | None) -> str:
     import pandas as pd
 
-    from geo_corrosion.quantities import bid_decimals, schedule_table
+    from geo_corrosion.quantities import schedule_table
 
     if not schedule:
         return '<p class="none">no quantities</p>'
@@ -255,13 +310,15 @@ def _quantities(schedule: tuple[ScheduleRow, ...], lid: str | None) -> str:
         t = t[t["level_id"].astype(str) == lid]
     rows = []
     for r in t.to_dict("records"):
-        # as in quantities.csv: the bid quantities with their unit's decimals
-        fmt = f"{{:,.{bid_decimals(str(r.get('unit')))}f}}"
-        totals = {c: fmt.format(float(r[c])) for c in ("base", "contingency", "total")}
-        rows.append({**{str(k): v for k, v in r.items()}, **totals})
-    return _table(rows, [("level_id", "level"), ("item", "item"), ("description", "description"),
-                         ("unit", "unit"), ("base", "base"), ("contingency", "contingency"),
-                         ("total", "total")], cls="quantities",
+        unit = str(r.get("unit"))
+        totals = {c: quantity_text(r[c], unit) for c in ("base", "contingency", "total")}
+        lv = str(r.get("level_id"))
+        rows.append({**{str(k): v for k, v in r.items()}, **totals,
+                     "level_id": "all levels" if lv == "ALL" else lv,
+                     "unit": unit_label(unit)})
+    return _table(rows, [("level_id", "Level"), ("item", "Item"), ("description", "Description"),
+                         ("unit", "Unit"), ("base", "Base"), ("contingency", "Contingency"),
+                         ("total", "Total")], cls="quantities",
                   num=("base", "contingency", "total"))
 
 
@@ -295,27 +352,27 @@ def _level_section(run_dir: Path, lid: str, info: LevelRecord, man: Manifest,
     name = _e(info.name or lid)
     parts = [f'<section class="level" id="level-{_e(lid)}"><h2>Level {_e(lid)}: {name}</h2>']
     kinds = info.kinds
-    # statistics of the readings
-    srows = []
-    for k, v in kinds.items():
-        st = v.statistics
-        srows.append({"kind": k, "unit": v.unit, "readings": v.readings,
-                      "mapped": v.readings_mapped, **{q: st.get(q) for q in
-                      ("mean", "std", "p10", "median", "p90")}})
     parts.append('<h3 class="stats">Statistics of the readings</h3>')
-    parts.append(_table(srows, [("kind", "kind"), ("unit", "unit"), ("readings", "readings"),
-                                ("mapped", "mapped"), ("mean", "mean"), ("std", "std. dev."),
-                                ("p10", "10 %"), ("median", "median"), ("p90", "90 %")]))
+    srows, scols = statistics_rows(kinds, units)
+    parts.append(_table(srows, scols, cls="stats",
+                        num=("mean", "std", "p10", "median", "p90")))
     parts.append(points_sentences(kinds))
+    parts.append(unmapped_sentences(kinds))
+    parts.append('<h3 class="variogram">Variogram and cross-validation</h3>')
+    parts.append(variogram_table(kinds, info.georeference.local_unit))
     parts.append('<h3 class="classes">Class areas</h3><div class="cols">')
     for k, v in kinds.items():
-        rows = [{"class": r.class_name, "area": r.area_report,
-                 "share": 100 * float(r.share_of_deck)}
+        names = [r.class_name for r in v.class_areas or ()]
+        rows = [{"class": class_name_label(k, r.class_name, names),
+                 "area": fmt_area(r.area_m2, units, unit=False),
+                 "share": f"{100 * float(r.share_of_deck):.1f}"}
                 for r in v.class_areas or ()]
         if rows:
-            parts.append(f'<div class="col"><h4>{_e(k.replace("_", " "))}</h4>')
-            parts.append(_table(rows, [("class", "class"), ("area", f"area ({units.area})"),
-                                       ("share", "share of deck (%)")]) + "</div>")
+            parts.append(f'<div class="col"><h4>{_e(kind_label(k))}</h4>')
+            parts.append(_table(rows, [("class", "Class"),
+                                       ("area", f"Area ({unit_label(units.area)})"),
+                                       ("share", "Share of deck (%)")],
+                                num=("area", "share")) + "</div>")
         parts.append(points_class_table(k, v))
     parts.append("</div>")
     parts.append(_condition_block(info, units))
@@ -325,39 +382,40 @@ def _level_section(run_dir: Path, lid: str, info: LevelRecord, man: Manifest,
     for k, v in kinds.items():
         shown = " of the readings (points, no surface)" if v.representation == "points" else ""
         parts.append(_figure(plots / f"{lid}_{k}_classes.png", f"{info.name}: "
-                             f"{k.replace('_', ' ')} classes{shown}"))
+                             f"{kind_label(k).lower()} classes{shown}", wide=True))
     parts.append('</div><h3 class="plots">Cumulative frequency and histograms</h3>'
                  '<div class="figs">')
     parts.append(_figure(plots / f"{lid}_potential_cumulative.png",
                          "cumulative frequency of potentials"))
     for k in kinds:
         parts.append(_figure(plots / f"{lid}_{k}_histogram.png",
-                             f"histogram of {k.replace('_', ' ')}"))
+                             f"histogram of {kind_label(k).lower()}"))
     parts.append(_figure(plots / f"{lid}_potential_vs_resistivity.png",
                          "kriged potential at resistivity readings"))
     parts.append("</div>")
     parts.append('<h3 class="repairs">Repair layout and quantities</h3>')
-    img = _repair_layout_png(gpkg, lid)
+    img = _repair_layout_png(gpkg, lid, info)
     if img:
-        parts.append(f'<figure class="wide"><img src="{img}" alt="repair layout">'
-                     f"<figcaption>{name}: repair layout ({info.repairs} "
+        parts.append(f'<figure class="plan"><img src="{img}" alt="repair layout">'
+                     f"<figcaption>{name}: repair layout in the survey grid ({info.repairs} "
                      "repairs)</figcaption></figure>")
     parts.append("<h4>Repair list</h4>")
     parts.append(_repair_list(gpkg.get(f"{lid}_repairs"), units))
     parts.append("<h4>Quantities</h4>")
     parts.append(_quantities(man.schedule, lid))
-    zrows = [{"zone": z.zone, "treatment": z.treatment, "bid_item": z.bid_item,
-              "area": float(units.area_from_m2(z.area_m2))}
+    zrows = [{"zone": label(z.zone, humanise(z.zone)), "treatment": z.treatment,
+              "bid_item": z.bid_item, "area": fmt_area(z.area_m2, units, unit=False)}
              for z in info.zones]
     if zrows:
         parts.append("<h4>Zones</h4>")
-        parts.append(_table(zrows, [("zone", "zone"), ("treatment", "treatment"),
-                                    ("bid_item", "bid item"), ("area", f"area ({units.area})")]))
-    parts.append('<h3 class="qa">QA summary</h3>')
-    qrows = [{"survey_id": r.survey_id, "rule": r.rule, "severity": r.severity, "count": r.count}
-             for r in man.qa.summary if r.level_id == lid]
-    parts.append(_table(qrows, [("survey_id", "survey"), ("rule", "rule"),
-                                ("severity", "severity"), ("count", "findings")]))
+        parts.append(_table(zrows, [("zone", "Zone"), ("treatment", "Treatment"),
+                                    ("bid_item", "Bid item"),
+                                    ("area", f"Area ({unit_label(units.area)})")],
+                            num=("area",)))
+    parts.append('<h3 class="qa">Quality checks</h3>')
+    parts.append(_table(qa_rows(man.qa.summary, lid),
+                        [("survey_id", "Survey"), ("rule", "Check"),
+                         ("severity", "Severity"), ("count", "Findings")]))
     parts.append("</section>")
     return "\n".join(parts)
 
@@ -380,6 +438,20 @@ figure { margin: 4pt 0; page-break-inside: avoid; display: inline-block; width: 
 figure.wide { display: block; width: 75%%; }
 .figs { orphans: 1; widows: 1 }
 .cols { display: flex; flex-wrap: wrap; gap: 0 12pt } .col { flex: 0 0 auto }
+figure.map { display: block; width: 100%%; } figure.plan { display: block; width: 100%%; }
+div.titleblock { display: flex; gap: 10pt; align-items: stretch; margin: 6pt 0 }
+table.titleblock { flex: 1 1 auto; font-size: 9.5pt; margin: 0 }
+table.titleblock th { width: 28%%; text-align: left } .blank { display: inline-block; width: 60mm }
+div.sealbox { flex: 0 0 62mm; border: 1px solid #555; padding: 4pt; display: flex;
+  flex-direction: column; }
+div.seal { flex: 1 1 auto; min-height: 42mm; border: 1px dashed #888; text-align: center;
+  padding: 3pt } .seal-label { font-size: 8pt; color: #555 } .seal-note { font-size: 8.5pt;
+  margin-top: 14mm; color: #333 }
+div.sign .sign-line { border-bottom: 1px solid #333; height: 9mm; font-size: 7.5pt;
+  color: #555; display: flex; align-items: flex-end }
+p.reading, p.unmapped { font-size: 8.5pt; margin: 2pt 0 } span.reconcile { display: block;
+  font-size: 8.5pt; margin-top: 2pt }
+p.subtitle { margin: 0 0 4pt }
 .gc-footer { position: running(gcfooter); font: 7pt/1.2 sans-serif; color: #333; }
 .cautions li { margin-bottom: 3pt } .none { color: #666; font-style: italic }
 .meta td:first-child { font-weight: bold }
@@ -426,23 +498,20 @@ def build_report_html(run_dir: str | Path, manifest: Manifest | None = None) -> 
     title = _e(site.name)
     cautions = man.cautions or list(CAUTIONS)
     levels = man.levels
-    meta: list[dict[str, Any]] = [{"k": "owner", "v": site.owner}, {"k": "site CRS", "v": site.crs},
-            {"k": "reporting units", "v": system}, {"k": "site file", "v": site.site_file},
-            {"k": "run created (UTC)", "v": man.created_utc},
-            {"k": "geo_corrosion", "v": man.versions.get("geo_corrosion")}]
     toc = [("cautions", "Cautions")]
     toc += [(f"level-{lid}", f"Level {lid}: {info.name or lid}")
             for lid, info in levels.items()]
     toc += [("quantities", "Quantities, all levels"), ("methods", "Methods and sources"),
-            ("parameters", "Parameters of the run"), ("inputs", "Surveys and corrections")]
+            ("inputs", "Surveys and field conditions"), ("parameters", "Parameters of the run"),
+            ("record", "Record of the run")]
     parts = [
         "<!DOCTYPE html><html lang=\"en\"><head><meta charset=\"utf-8\">",
         f"<title>{title}: corrosion condition survey</title>",
         f"<style>{_CSS % {'size': page_size(system)}}</style></head><body>",
         f'<div class="gc-footer">{_e(SHORT_CAUTION)}</div>',
-        f'<header><h1>{title}</h1><p>Corrosion condition survey: maps, statistics, repair '
-        "layout and quantities (estimates for bidding).</p>",
-        _table(meta, [("k", "item"), ("v", "value")], cls="meta"),
+        f'<header><h1>{title}</h1><p class="subtitle">Corrosion condition survey: maps, '
+        "statistics, repair layout and quantities (estimates for bidding).</p>",
+        title_block(site, units),
         '<nav class="toc"><h2>Contents</h2><ol>'
         + "".join(f'<li><a href="#{_e(a)}">{_e(t)}</a></li>' for a, t in toc) + "</ol></nav>",
         '<section class="cautions" id="cautions"><h2>Cautions</h2><ol class="cautions">'
@@ -455,23 +524,31 @@ def build_report_html(run_dir: str | Path, manifest: Manifest | None = None) -> 
     parts.append("<p>Repair areas and quantities are estimates for bidding; final removal "
                  "limits are set in the field by sounding.</p></section>")
     parts.append('<section class="site" id="methods"><h2>Methods and sources</h2>')
-    parts.append(_table([{"m": m, "d": d, "s": s} for m, d, s in METHODS],
-                        [("m", "step"), ("d", "method"), ("s", "source")]))
+    parts.append(_table([{"m": m, "d": d, "s": readable_citations(s)} for m, d, s in METHODS],
+                        [("m", "Step"), ("d", "Method"), ("s", "Source")]))
+    parts.append("<h3>Corrections applied to each survey</h3>")
+    parts.append(methods_per_survey(man.surveys))
     parts.append(sources_and_assumptions([s for _m, _d, s in METHODS], cautions, man))
-    parts.append("<p>The full description, with the status of each source (sourced, from "
-                 "memory, common practice), is docs/methods.md of geo_corrosion; the sources "
-                 "are in its docs/bibliography.md.</p></section>")
+    parts.append("</section>")
+    level_names = {str(lid): str(info.name or lid) for lid, info in levels.items()}
+    parts.append('<section class="site" id="inputs"><h2>Surveys and field conditions</h2>')
+    parts.append(survey_tables(man.surveys, level_names, units))
+    parts.append("</section>")
     parts.append('<section class="site" id="parameters"><h2>Parameters of the run</h2>')
-    parts.append(_parameters(dataclasses.asdict(man.parameters), system))
-    parts.append('<p class="src">Units from the key suffix; lengths are held in metres '
-                 "(1 ft = 0.3048 m, 1 in = 25.4 mm).</p>")
-    surveys = man.surveys
-    parts.append('<h2 id="inputs">Surveys and corrections</h2>')
-    parts.append(_surveys_table(surveys))
+    parts.append(_table(parameter_rows(dataclasses.asdict(man.parameters), units),
+                        [("k", "Parameter"), ("v", "Value")], cls="params"))
+    parts.append('<p class="src">Lengths in the reporting units (1 ft = 0.3048 m, '
+                 "1 in = 25.4 mm exactly).</p>")
+    parts.append('<h2 id="record">Record of the run</h2>')
+    record: list[dict[str, Any]] = [{"k": "Site file", "v": site.site_file},
+              {"k": "Site coordinate reference system", "v": site.crs},
+              {"k": "Run created (UTC)", "v": man.created_utc},
+              {"k": "geo-corrosion version", "v": man.versions.get("geo_corrosion")}]
+    parts.append(_table(record, [("k", "Item"), ("v", "Value")], cls="meta"))
     warns = man.warnings
     if warns:
-        parts.append('<h2 id="notes">Notes of the run</h2><ul>' +
-                     "".join(f"<li>{_e(w)}</li>" for w in warns) + "</ul>")
+        parts.append('<h3 id="notes">Notes of the run</h3><ul>' +
+                     "".join(f"<li>{_e(owner_text(w))}</li>" for w in warns) + "</ul>")
     parts.append("</section></body></html>")
     return "\n".join(parts)
 

@@ -8,6 +8,7 @@ through :func:`_e` (HTML escape); fragments built here from escaped parts are ma
 
 from __future__ import annotations
 
+import re
 from collections.abc import Mapping
 from typing import TYPE_CHECKING, Any
 
@@ -24,12 +25,25 @@ from geo_corrosion.model.manifest import (
     SurveyRecord,
 )
 from geo_corrosion.units import M_PER_FT, MM_PER_INCH
+from geo_corrosion.vocabulary import (
+    VOCABULARY,
+    class_label,
+    fmt_area,
+    fmt_cover,
+    fmt_number,
+    fmt_potential,
+    humanise,
+    label,
+    unit_label,
+)
 
 if TYPE_CHECKING:
+    from geo_corrosion.model.manifest import KindRecord
     from geo_corrosion.units import ReportUnits
 
-__all__ = ["parameter_unit", "summarize_correction", "sources_and_assumptions",
-           "points_sentences", "points_class_table", "no_surface_sentence"]
+__all__ = ["parameter_unit", "summarize_correction", "sources_and_assumptions", "owner_text",
+           "readable_citations", "kind_label", "points_sentences", "points_class_table",
+           "no_surface_sentence"]
 
 _NBSP = "\u00a0"  # between a number and its unit, so a line never starts with the unit
 
@@ -40,6 +54,125 @@ _Raw = Raw
 def _e(v: Any) -> str:
     """Escape for the report: floats with thousands separators."""
     return escape(v, thousands=True)
+
+
+# --------------------------------------------------------------------------- owner words
+
+_SNAKE = re.compile(r"\b[a-z][a-z0-9]*(?:_[a-z0-9]+)+\b")
+#: Symbols of formulas written with an underscore, as a reader writes them.
+_SYMBOLS = {"i_corr": "icorr", "R_p": "Rp", "x_crit": "xcrit", "E_a": "Ea", "t_ref": "tref",
+            "R_ohm": "Rohm"}
+_CODE_ASIDE = re.compile(r"\.py\b|\b[A-Z][A-Z0-9]*_[A-Z0-9_]+\b|\b[A-Z][a-z]+[A-Z]\w*\.\w+"
+                         r"|\bsite keys?\b|\bsample site\b")
+
+
+#: Where in an input file a message points (``readings/x.csv line 57: ``, ``L2.dxf layer
+#: COLUMNS entity #9 (LWPOLYLINE, handle 3D)``): for the engineer at the command line and in
+#: run.json, not for the owner's report.
+_LOCATION = re.compile(
+    r"(?:[\w./\\-]+\.(?:csv|txt|dxf|gpkg|geojson|json|shp|toml)\b)?"
+    r"(?:\s*(?:line|row|feature) \d+|\s*layer \S+|\s*entity #\d+(?:\s*\([^)]*\))?)+:?\s*"
+    r"|[\w./\\-]+\.(?:csv|txt|dxf|gpkg|geojson|json|shp|toml)\b:\s*")
+
+
+def readable_citations(text: str) -> str:
+    """Mark the citations of a value still to confirm with ``*`` instead of words.
+
+    The project's citation form is kept (``[ASTM-C876-91 §5.1]``, each key listed under
+    "Sources"); ``from memory`` and ``to confirm`` become a ``*`` after the brackets, which
+    refers the reader to "Assumptions to confirm".
+
+    Examples
+    --------
+    >>> readable_citations("limit [ASTM-C876-91 §5.1, from memory]; [Cressie-1985]")
+    'limit [ASTM-C876-91 §5.1]*; [Cressie-1985]'
+    """
+    from geo_corrosion.bibliography import CITATION_RE, SOURCES
+
+    def one(m: re.Match[str]) -> str:
+        parts, star = [], False
+        for part in m.group(1).split(";"):
+            part = part.strip()
+            for flag in (", from memory", " from memory", ", to confirm"):
+                if part.endswith(flag):
+                    part, star = part[: -len(flag)].strip(), True
+            if part.split(" ")[0].rstrip(",") not in SOURCES:
+                return m.group(0)
+            parts.append(part)
+        return "[" + "; ".join(parts) + "]" + ("*" if star else "")
+
+    return CITATION_RE.sub(one, str(text))
+
+
+def owner_text(text: Any) -> str:
+    """Return a text of the library (a source, an assumption, a note) in owner words.
+
+    Asides in parentheses that name code (a module, a constant, a site key) are dropped,
+    internal names of :data:`~geo_corrosion.vocabulary.VOCABULARY` become their labels,
+    formula symbols lose their underscore (``i_corr`` -> ``icorr``), "degC" becomes "°C",
+    "mV CSE" becomes "mV vs CSE" and citations are written for a reader.
+    """
+    t = _LOCATION.sub("", str(text))
+
+    def aside(m: re.Match[str]) -> str:
+        inner = m.group(1)
+        unknown = [w for w in _SNAKE.findall(inner) if w not in VOCABULARY
+                   and w not in _SYMBOLS]
+        return "" if _CODE_ASIDE.search(inner) or unknown else m.group(0)
+
+    t = re.sub(r"\s*\(([^()]*)\)", aside, t)
+    for sym, plain in _SYMBOLS.items():
+        t = re.sub(rf"\b{re.escape(sym)}\b", plain, t)
+    t = _SNAKE.sub(lambda m: label(m.group(0)) if m.group(0) in VOCABULARY
+                   else m.group(0), t)
+    t = re.sub(r"\bdegC\b", "°C", t).replace("mV CSE", "mV vs CSE")
+    t = t.replace("kOhm.cm", "kΩ·cm").replace("kohm.cm", "kΩ·cm").replace("uA/cm2", "µA/cm²")
+    return readable_citations(t)
+
+
+def _o(v: Any) -> str:
+    """Escape a library text for the report in owner words (:func:`owner_text`)."""
+    return _e(owner_text(v))
+
+
+def kind_label(kind: str) -> str:
+    """Return a measurement kind's label: the vocabulary's, or a plugin kind's own."""
+    if kind in VOCABULARY:
+        return label(kind)
+    from geo_corrosion.measurements import get_kind
+
+    try:
+        return str(get_kind(kind).label).split(" (")[0]
+    except Exception:  # noqa: BLE001 - a run's plugin kind not installed here
+        return humanise(kind)
+
+
+def _class_set_of(kind: str, names: list[str]) -> Any:
+    """Return the class set whose labels are ``names`` (the kind's own first), or None."""
+    from geo_corrosion.condition.classes import CLASS_SETS
+    from geo_corrosion.measurements import get_kind
+
+    cands = []
+    try:
+        own = get_kind(kind).class_set_object()
+        if own is not None:
+            cands.append(own)
+    except Exception:  # noqa: BLE001 - a plugin kind not installed here
+        pass
+    cands += list(CLASS_SETS.values())
+    for cs in cands:
+        if set(names) <= set(cs.labels):
+            return cs
+    return None
+
+
+def class_name_label(kind: str, name: str, names: list[str] | None = None) -> str:
+    """Return the owner label of a class of a kind, named as in run.json (its class label)."""
+    cs = _class_set_of(kind, names or [name])
+    if cs is None:
+        return name
+    key = cs.keys[list(cs.labels).index(name)]
+    return class_label(cs.name, key, name if f"{cs.name}.{key}" not in VOCABULARY else None)
 
 
 def _g(v: float, digits: int = 6) -> str:
@@ -160,7 +293,7 @@ def summarize_correction(rec: Mapping[str, Any]) -> str:
     'reference electrode Ag/AgCl in saturated KCl to CSE (-119 mV)'
     >>> summarize_correction({"correction": "Arrhenius temperature correction",
     ...                       "t_ref_c": 20.0, "activation_energy_kj_mol": 25.0})
-    'Arrhenius to 20 degC, Ea 25 kJ/mol'
+    'Arrhenius to 20 °C, Ea 25 kJ/mol'
     """
     name = str(rec.get("correction", ""))
     r = rec
@@ -175,15 +308,15 @@ def summarize_correction(rec: Mapping[str, Any]) -> str:
             if k == 0:
                 return ("electrode temperature: not corrected (no temperature coefficient for "
                         "this electrode)")
-            s = f"electrode temperature, {k:g} mV/degC to {float(r['t_ref_c']):g} degC"
+            s = f"electrode temperature, {k:g} mV/°C to {float(r['t_ref_c']):g} °C"
             if r.get("only_outside_band"):
-                s += ", only for readings outside 0 to 49 degC"
+                s += ", only for readings outside the ±5.5 °C band"
             n = int(r.get("readings_outside_0_49_c") or 0)
             if n:
-                s += f"; {_plural(n, 'reading')} outside 0 to 49 degC"
+                s += f"; {_plural(n, 'reading')} outside 0 to 49 °C"
             return s
         if name == "Arrhenius temperature correction":
-            return (f"Arrhenius to {float(r['t_ref_c']):g} degC, "
+            return (f"Arrhenius to {float(r['t_ref_c']):g} °C, "
                     f"Ea {float(r['activation_energy_kj_mol']):g} kJ/mol")
         if name == "Wenner resistivity from raw voltage and current":
             return (f"Wenner rho = 2 pi a V / I from raw readings, a = {float(r['spacing_cm']):g} "
@@ -280,9 +413,11 @@ def _statement_lead(kind: str) -> str:
     return t.statement if t is not None else ""
 
 
-def _beyond_statement(kind: str, st: AreaBeyondThreshold, units: ReportUnits) -> str:
-    label = kind.replace("_", " ")
-    meaning = str(st.meaning or "beyond the threshold")
+def _beyond_statement(kind: str, st: AreaBeyondThreshold, units: ReportUnits,
+                      rec: KindRecord | None = None) -> str:
+    label = kind_label(kind).lower()
+    meaning = owner_text(st.meaning or "beyond the threshold")
+    meaning = re.sub(r"\s*\((high|low|moderate)( risk)?\)$", "", meaning)
     statement = _statement_lead(kind)
     if statement:
         lead = f"{statement} ({label} {meaning})"
@@ -290,7 +425,7 @@ def _beyond_statement(kind: str, st: AreaBeyondThreshold, units: ReportUnits) ->
         lead = f"The area with {meaning}"
     else:
         lead = f"The area with {label} {meaning}"
-    u = _NBSP + units.area
+    u = _NBSP + unit_label(units.area)
     text = f"{lead} is {_area(st.expected_m2, units)}{u}"
     if st.lower_m2 is not None and st.upper_m2 is not None:
         text += (f" ({_pct(st.interval_level)} interval "
@@ -298,8 +433,10 @@ def _beyond_statement(kind: str, st: AreaBeyondThreshold, units: ReportUnits) ->
     if st.mapped_area_m2 is not None:
         text += f" of {_area(st.mapped_area_m2, units)}{u} mapped"
     src = st.source
+    rec_text = reconcile(kind, rec, st, units) if rec is not None else ""
     return (f'<li class="statement">{_e(text + ".")}'
-            + (f' <span class="src">Threshold after {_e(src)}.</span>' if src else "") + "</li>")
+            + (f' <span class="reconcile">{_e(rec_text)}</span>' if rec_text else "")
+            + (f' <span class="src">Threshold after {_o(src)}.</span>' if src else "") + "</li>")
 
 
 def _threshold_statement(st: SiteThreshold | SiteThresholdUnavailable, units: ReportUnits
@@ -308,9 +445,9 @@ def _threshold_statement(st: SiteThreshold | SiteThresholdUnavailable, units: Re
         return (f'<li class="statement">No site-specific threshold: '
                 f"{_e(st.not_available)}</li>")
     thr = st.threshold_mv
-    u = _NBSP + units.area
+    u = _NBSP + unit_label(units.area)
     text = (f"The site-specific threshold between active and passive potentials is "
-            f"{float(thr):.0f}{_NBSP}mV CSE.")
+            f"{fmt_potential(thr)}.")
     for side, word in (("below", "More negative"), ("above", "Less negative")):
         fr, fa, a = ((st.fraction_readings_below, st.fraction_area_below, st.area_below)
                      if side == "below" else
@@ -328,18 +465,18 @@ def _threshold_statement(st: SiteThreshold | SiteThresholdUnavailable, units: Re
                  "is weakly defined)." if float(d) < 2 else ".")
     method = st.method
     return (f'<li class="statement">{_e(text)}'
-            + (f' <span class="src">Method: {_e(method)}.</span>' if method else "") + "</li>")
+            + (f' <span class="src">Method: {_o(method)}.</span>' if method else "") + "</li>")
 
 
 def no_surface_sentence(kind: str, rec: KindRecord) -> str:
     """Say in one sentence why a kind has no surface and is shown as points."""
     reason = rec.representation_reason or rec.skipped or "too few readings for a surface"
-    return f"No {kind.replace('_', ' ')} surface: {reason}."
+    return f"No {kind_label(kind).lower()} surface: {reason}."
 
 
 def points_sentences(kinds: Mapping[str, KindRecord]) -> str:
     """Return the sentences of the kinds shown as points (empty without any)."""
-    items = [f"<li>{_e(no_surface_sentence(k, v))}</li>" for k, v in kinds.items()
+    items = [f"<li>{_e(owner_text(no_surface_sentence(k, v)))}</li>" for k, v in kinds.items()
              if v.representation == "points"]
     if not items:
         return ""
@@ -354,16 +491,17 @@ def points_class_table(kind: str, rec: KindRecord) -> str:
         return ""
     rows = [{"class": c.class_name, "readings": c.readings,
              "share": 100.0 * float(c.share_of_readings)} for c in counts]
-    return (f'<div class="col"><h4>{_e(kind.replace("_", " "))} (points: shares of '
+    return (f'<div class="col"><h4>{_e(kind_label(kind))} (points: shares of '
             "readings, no surface)</h4>"
-            + _table(rows, [("class", "class"), ("readings", "readings"),
-                            ("share", "share of readings (%)")], cls="points") + "</div>")
+            + _table(rows, [("class", "Class"), ("readings", "Readings"),
+                            ("share", "Share of readings (%)")], cls="points",
+                     num=("readings", "share")) + "</div>")
 
 
 def _condition_block(info: LevelRecord, units: ReportUnits) -> str:
     cond = info.condition or ConditionRecord()
     parts = ['<h3 class="condition">Condition statements</h3>']
-    items = [_beyond_statement(k, v, units) for k, v in cond.beyond.items()]
+    items = [_beyond_statement(k, v, units, info.kinds.get(k)) for k, v in cond.beyond.items()]
     if cond.site_threshold is not None:
         items.append(_threshold_statement(cond.site_threshold, units))
     items = [i for i in items if i]
@@ -377,25 +515,30 @@ def _condition_block(info: LevelRecord, units: ReportUnits) -> str:
                          f"{_e('; '.join(assumptions))}.</p>")
         elif assumptions:
             parts.append(f'<p class="src">Expected areas and intervals from the probability '
-                         f"maps; assumption: {_e('; '.join(assumptions))}.</p>")
+                         f"maps; assumption: {_o('; '.join(assumptions))}.</p>")
     else:
         parts.append('<p class="none">no condition statements (no kriged surfaces)</p>')
     deck = float(info.deck_area_m2 or 0.0)
     combined = cond.combined_classes or ()
     if combined:
         parts.append("<h4>Combined condition classes</h4>")
-        rows = [{"class": c.class_name, "area": float(units.area_from_m2(c.area_m2)),
-                 "share": 100.0 * float(c.area_m2) / deck if deck > 0 else None}
+        rows: list[dict[str, Any]] = [
+            {"class": c.class_name, "area": fmt_area(c.area_m2, units, unit=False),
+                 "share": (f"{100.0 * float(c.area_m2) / deck:.1f}" if deck > 0 else "-")}
                 for c in combined]
-        parts.append(_table(rows, [("class", "class"), ("area", f"area ({units.area})"),
-                                   ("share", "share of deck (%)")], cls="combined"))
-        used = [k for k, v in (cond.combined_kinds or {}).items() if v.startswith("used")]
+        parts.append(_table(rows, [("class", "Class"),
+                                   ("area", f"Area ({unit_label(units.area)})"),
+                                   ("share", "Share of deck (%)")], cls="combined",
+                            num=("area", "share")))
+        used = [kind_label(k).lower() for k, v in (cond.combined_kinds or {}).items()
+                if v.startswith("used")]
         unused = {k: v for k, v in (cond.combined_kinds or {}).items()
                   if not v.startswith("used")}
         if cond.combined_kinds:
             text = ("The combined classes use a kind only where it has a surface: they use "
                     + (", ".join(used) if used else "no kind") + ".")
-            text += "".join(f" They do not use {k}: {v.removeprefix('not used: ')}."
+            text += "".join(f" They do not use {kind_label(k).lower()}: "
+                            f"{owner_text(v.removeprefix('not used: '))}."
                             for k, v in unused.items())
             parts.append(f'<p class="src combined-kinds">{_e(text)}</p>')
     life = cond.life or {}
@@ -406,7 +549,8 @@ def _condition_block(info: LevelRecord, units: ReportUnits) -> str:
                      "moisture, and the model constants are listed under assumptions to "
                      "confirm. A licensed engineer decides what they mean for the "
                      "structure.</p>")
-        rows, notes = [], []
+        rows = []
+        notes: list[str] = []
 
         def rng(r: Any, fmt: str) -> str:
             return "not given" if r is None else (f"{format(float(r.p10), fmt)} to "
@@ -435,14 +579,14 @@ def _condition_block(info: LevelRecord, units: ReportUnits) -> str:
             for a in v.assumptions:
                 notes.append(f"Assumption to confirm: {a}.")
         hy = next((float(v.horizon_years) for v in life.values()), 10.0)
-        parts.append(_table(rows, [("survey", "survey"), ("readings", "readings used"),
-                                   ("review", "readings needing bar review"),
-                                   ("crack", "time to cracking, 10th to 90th percentile "
+        parts.append(_table(rows, [("survey", "Survey"), ("readings", "Readings used"),
+                                   ("review", "Readings needing bar review"),
+                                   ("crack", "Time to cracking, 10th to 90th percentile "
                                              "(years)"),
-                                   ("loss", f"section loss in {hy:g} years, 10th to 90th "
+                                   ("loss", f"Section loss in {hy:g} years, 10th to 90th "
                                             "percentile (%)")],
                             cls="life", num=("crack", "loss")))
-        parts.append("".join(f'<p class="src">{_e(n)}</p>' for n in dict.fromkeys(notes)))
+        parts.append("".join(f'<p class="src">{_o(n)}</p>' for n in dict.fromkeys(notes)))
     return "\n".join(parts)
 
 
@@ -489,6 +633,330 @@ def sources_and_assumptions(*texts: Any) -> str:
              f'<ul class="sources">{"".join(items)}</ul>' if items
              else '<p class="none">none cited</p>',
              '<h3 class="assumptions">Assumptions to confirm</h3>',
+             '<p class="src">A citation marked * rests on a value recalled from its source or '
+             "seen only in a summary, not yet read again in the original; each such value is "
+             "listed here, with what to check, before the report is relied on.</p>",
              '<ul class="assumptions">'
-             + "".join(f"<li>{_e(a)}</li>" for a in ASSUMPTIONS_TO_CONFIRM) + "</ul>"]
+             + "".join(f"<li>{_o(a)}</li>" for a in ASSUMPTIONS_TO_CONFIRM) + "</ul>"]
     return "\n".join(parts)
+
+
+# --------------------------------------------------------------------------- issue 14 parts
+
+
+def title_block(site: Any, units: ReportUnits) -> str:
+    """Return the title block, with a seal and signature area.
+
+    Project, owner, project number, revision, date, engineer and firm; a blank line to fill
+    in by hand where the site file gives nothing.
+    """
+    p = site.project
+    blank = '<span class="blank">&#160;</span>'
+
+    def v(x: Any) -> str:
+        return _e(x) if x not in (None, "") else blank
+
+    rows = [("Project", site.name), ("Owner", site.owner),
+            ("Project number", getattr(p, "number", None)),
+            ("Revision", getattr(p, "revision", None)), ("Date", getattr(p, "date", None)),
+            ("Engineer", getattr(p, "engineer", None)), ("Firm", getattr(p, "firm", None)),
+            ("Reporting units", "US customary (ft², LF, in)" if units.system == "us"
+             else "metric (m², m, mm)")]
+    body = "".join(f'<tr><th>{_e(k)}</th><td class="tb-{_e(k.lower().replace(" ", "-"))}">'
+                   f"{v(x)}</td></tr>" for k, x in rows)
+    note = getattr(p, "seal_note", None)
+    seal = (f'<div class="seal"><div class="seal-label">Seal</div>'
+            f'<div class="seal-note">{_e(note) if note else ""}</div></div>'
+            '<div class="sign"><div class="sign-line">Signature</div>'
+            '<div class="sign-line">Date</div></div>')
+    return (f'<div class="titleblock"><table class="titleblock">{body}</table>'
+            f'<div class="sealbox">{seal}</div></div>')
+
+
+def _temperature(c: Any, units: ReportUnits) -> str:
+    if c is None:
+        return ""
+    f = float(c)
+    return (f"{f * 1.8 + 32:.0f}{_NBSP}°F ({f:.0f}{_NBSP}°C)" if units.system == "us"
+            else f"{f:.0f}{_NBSP}°C")
+
+
+def survey_tables(surveys: tuple[SurveyRecord, ...], level_names: Mapping[str, str],
+                  units: ReportUnits) -> str:
+    """Return the survey tables: who read what, when and how; then the field conditions."""
+    if not surveys:
+        return '<p class="none">none</p>'
+    rows1, rows2 = [], []
+    for sv in surveys:
+        rows1.append({"survey": sv.id, "level": level_names.get(sv.level, sv.level),
+                      "kind": kind_label(sv.kind), "date": sv.date or "",
+                      "crew": sv.crew or "", "readings": sv.readings, "file": sv.file})
+        el = f"electrode.{sv.electrode}" if sv.electrode else ""
+        rows2.append({"survey": sv.id, "instrument": sv.instrument or "",
+                      "electrode": label(el, sv.electrode) if el else "",
+                      "temperature": _temperature(sv.temperature_c, units),
+                      "weather": sv.weather or "", "surface": sv.surface_condition or "",
+                      "prewetting": sv.prewetting or ""})
+    t1 = _table(rows1, [("survey", "Survey"), ("level", "Level"), ("kind", "Measurement"),
+                        ("date", "Date"), ("crew", "Crew"), ("readings", "Readings"),
+                        ("file", "Data file")], cls="surveys")
+    t2 = _table(rows2, [("survey", "Survey"), ("instrument", "Instrument"),
+                        ("electrode", "Reference electrode"), ("temperature", "Temperature"),
+                        ("weather", "Weather"), ("surface", "Surface condition"),
+                        ("prewetting", "Pre-wetting")], cls="conditions")
+    return f'<h3>Surveys</h3>{t1}<h3>Field conditions</h3>{t2}'
+
+
+def applied(rec: Mapping[str, Any]) -> str | None:
+    """Say what a correction record did to a survey; None when it changed nothing.
+
+    Examples
+    --------
+    >>> applied({"correction": "reference electrode to CSE", "electrode": "CSE",
+    ...          "offset_mv": 0.0}) is None
+    True
+    >>> applied({"correction": "electrode temperature to reference", "k_mv_per_c": 0.9,
+    ...          "t_ref_c": 22.2})
+    'electrode temperature corrected at 0.9 mV/°C to 22.2 °C'
+    """
+    name = str(rec.get("correction", ""))
+    try:
+        if name == "reference electrode to CSE":
+            off = float(rec["offset_mv"])
+            return (None if off == 0 else
+                    f"converted from {rec['electrode']} to CSE ({off:+g} mV)")
+        if name == "electrode temperature to reference":
+            k = float(rec["k_mv_per_c"])
+            if k == 0:
+                return None
+            s = f"electrode temperature corrected at {k:g} mV/°C to {float(rec['t_ref_c']):g} °C"
+            if rec.get("only_outside_band"):
+                s += " (only outside the ±5.5 °C band)"
+            return s
+    except (KeyError, TypeError, ValueError):
+        pass
+    return owner_text(summarize_correction(rec))
+
+
+def methods_per_survey(surveys: tuple[SurveyRecord, ...]) -> str:
+    """Return the table of what was applied to each survey (nothing claimed for the others)."""
+    rows = []
+    for sv in surveys:
+        done = [a for a in (applied(r) for r in sv.corrections if isinstance(r, Mapping)) if a]
+        if not done:
+            done = ["none: values used as read" + (" (read with a CSE)" if sv.kind == "potential"
+                                                    and sv.electrode in (None, "cse") else "")]
+        rows.append({"survey": sv.id, "kind": kind_label(sv.kind), "applied": "; ".join(done)})
+    return _table(rows, [("survey", "Survey"), ("kind", "Measurement"),
+                         ("applied", "Corrections applied")], cls="applied")
+
+
+def _variogram_sentence(kind: str, sf: Any, plan_unit: str) -> str:
+    vg = sf.variogram
+    m = vg.model
+    sill = float(m.sill) if m.sill else float(m.nugget) + float(m.psill)
+    share = float(m.nugget) / sill if sill > 0 else 0.0
+    cv = sf.cross_validation
+    before = cv.msse_before_calibration
+    word = label(f"model.{m.model}", humanise(m.model)).lower()
+    s = (f"{kind_label(kind)}: a {word} model with a range of {float(m.range):.0f} {plan_unit}; ")
+    if share < 0.01:
+        s += (f"the fitted nugget is practically zero ({float(m.nugget):.2g} "
+              f"{_sq(m.nugget_unit)}), so the surface honours each reading almost exactly")
+    elif share > 0.5:
+        s += (f"the nugget is {share:.0%} of the sill: much of the variation is at shorter "
+              "distances than the reading spacing or is measurement scatter, so the surface "
+              "is smooth")
+    else:
+        s += f"the nugget is {share:.0%} of the sill"
+    f = vg.variance_factor
+    if f is not None and before is not None:
+        s += (f"; the kriging variance was scaled by {float(f):.3g} so that the mean "
+              f"standardised squared error of the cross-validation is 1 (it was "
+              f"{float(before):.3g}: the model "
+              + ("overstated" if float(before) < 1 else "understated") + " its errors)")
+    return s + "."
+
+
+def _sq(u: Any) -> str:
+    """Write a squared unit of run.json for a reader (``ln(kohm.cm)^2`` -> ``ln(kΩ·cm)²``)."""
+    return (str(u).replace("^2", "²").replace("kohm.cm", "kΩ·cm").replace("uA/cm2", "µA/cm²")
+            .replace("uA/cm²", "µA/cm²"))
+
+
+def variogram_table(kinds: Mapping[str, KindRecord], plan_unit: str) -> str:
+    """Return the variogram and cross-validation table of a level, with its reading."""
+    rows, sentences = [], []
+    for k, v in kinds.items():
+        sf = v.surface
+        if sf is None:
+            continue
+        m = sf.variogram.model
+        cv = sf.cross_validation
+        sill = float(m.sill) if m.sill else float(m.nugget) + float(m.psill)
+        f = sf.variogram.variance_factor
+        log = sf.kriged_in == "log"
+        rows.append({
+            "kind": kind_label(k), "model": label(f"model.{m.model}", humanise(m.model)),
+            "nugget": f"{100 * float(m.nugget) / sill:.1f}{_NBSP}%" if sill > 0 else "-",
+            "range": f"{float(m.range):.1f}{_NBSP}{m.range_unit}",
+            "rmse": (f"{float(cv.rmse):.3g} (log)" if log else
+                     f"{float(cv.rmse):.3g}{_NBSP}{unit_label(cv.value_unit)}"),
+            "msse": (f"{float(cv.msse_before_calibration):.3g} → {float(cv.msse):.3g}"
+                     if cv.msse_before_calibration is not None else f"{float(cv.msse):.3g}"),
+            "factor": "not scaled" if f is None else f"{float(f):.3g}",
+            "n": cv.n_tested})
+        sentences.append(_variogram_sentence(k, sf, m.range_unit))
+    if not rows:
+        return '<p class="none">no kriged surface on this level</p>'
+    t = _table(rows, [("kind", "Measurement"), ("model", "Model"),
+                      ("nugget", "Nugget share of sill"), ("range", "Range"),
+                      ("rmse", "Cross-validation RMSE"),
+                      ("msse", "Mean standardised squared error"),
+                      ("factor", "Variance calibration factor"), ("n", "Readings tested")],
+               cls="variogram", num=("nugget", "range", "rmse", "msse", "factor", "n"))
+    return t + "".join(f'<p class="reading">{_e(x)}</p>' for x in sentences)
+
+
+def unmapped_sentences(kinds: Mapping[str, KindRecord]) -> str:
+    """Return one sentence for each kind of the level that got no kriged surface."""
+    out = []
+    for k, v in kinds.items():
+        if v.surface is not None or v.representation == "points":  # points: points_sentences
+            continue
+        why = owner_text(v.skipped) if v.skipped else "too few readings for a surface"
+        out.append(f'<p class="unmapped">{_e(kind_label(k))}: not mapped as a surface '
+                   f"({_e(why)}); its {v.readings} readings are summarised in the statistics "
+                   "table only.</p>")
+    return "".join(out)
+
+
+def reconcile(kind: str, rec: KindRecord, st: AreaBeyondThreshold, units: ReportUnits
+              ) -> str:
+    """One sentence relating the class area beyond a threshold to the expected area.
+
+    The class map counts the cells whose kriged value is beyond the threshold; the
+    expected area sums each mapped cell's probability of being beyond it (the probability
+    map), so the two differ by the cells near the limit.  Empty when no class of the kind
+    lies wholly beyond the threshold.
+    """
+    areas = list(rec.class_areas or ())
+    if not areas:
+        return ""
+    names = [a.class_name for a in areas]
+    cs = _class_set_of(kind, names)
+    if cs is None:
+        return ""
+    from geo_corrosion.measurements import get_kind
+
+    try:
+        thr = get_kind(kind).threshold
+    except Exception:  # noqa: BLE001 - plugin kind not installed: no sentence
+        return ""
+    if thr is None:
+        return ""
+    direction = thr.direction
+    t = float(st.threshold)
+    lo = [-np.inf, *cs.edges]
+    hi = [*cs.edges, np.inf]
+    beyond = {cs.labels[i] for i in range(cs.n_classes)
+              if (direction == "below" and hi[i] <= t) or (direction == "above" and lo[i] >= t)}
+    if not beyond:
+        return ""
+    cls_m2 = sum(float(a.area_m2) for a in areas if a.class_name in beyond)
+    which = " and ".join(f"“{class_name_label(kind, n, names)}”" for n in
+                         [x for x in cs.labels if x in beyond])
+    return (f"The class table gives {fmt_area(cls_m2, units)} in {which}, the area whose "
+            f"kriged value is beyond the threshold; the statement above gives "
+            f"{fmt_area(st.expected_m2, units)}, the sum of each cell's probability of being "
+            "beyond it, which also counts part of the cells just inside the limit and not "
+            "all of those just beyond it, so the two differ by the uncertain cells near the "
+            "limit.")
+
+
+def statistics_rows(kinds: Mapping[str, KindRecord], units: ReportUnits
+                    ) -> tuple[list[dict[str, Any]], list[tuple[str, str]]]:
+    """Rows of the statistics table in owner units (cover in inches on US reports)."""
+    rows = []
+    for k, v in kinds.items():
+        st = v.statistics
+        unit = v.unit
+        if unit == "mm" and k == "cover":
+            def f(x: Any) -> str:
+                return fmt_cover(x, units, unit=False)
+            shown = units.small
+        elif unit == "mV":
+            def f(x: Any) -> str:
+                return fmt_potential(x, unit=False)
+            shown = "mV vs CSE"
+        else:
+            def f(x: Any) -> str:
+                return "-" if x is None else f"{float(x):.3g}"
+            shown = unit_label(unit)
+        rows.append({"kind": kind_label(k), "unit": shown, "readings": v.readings,
+                     "mapped": v.readings_mapped,
+                     **{q: f(st.get(q)) for q in ("mean", "p10", "median", "p90")},
+                     "std": ("-" if st.get("std") is None else
+                             fmt_cover(st["std"], units, unit=False) if unit == "mm"
+                             else f"{float(st['std']):.3g}")})
+    cols = [("kind", "Measurement"), ("unit", "Unit"), ("readings", "Readings"),
+            ("mapped", "Used for the map"), ("mean", "Mean"), ("std", "Std. dev."),
+            ("p10", "10 %"), ("median", "Median"), ("p90", "90 %")]
+    return rows, cols
+
+
+def qa_rows(summary: Any, lid: str) -> list[dict[str, Any]]:
+    """Rows of a level's QA summary, rules and severities by their owner names."""
+    return [{"survey_id": r.survey_id, "rule": f"{label(r.rule, r.rule)} ({r.rule})",
+             "severity": label(f"severity.{r.severity}", str(r.severity).capitalize()),
+             "count": r.count} for r in summary if r.level_id == lid]
+
+
+def parameter_rows(params: Mapping[str, Any], units: ReportUnits) -> list[dict[str, Any]]:
+    """Rows of the run's parameters: the site-file key's meaning and the value in owner units."""
+    from geo_corrosion.config import TABLES
+    from geo_corrosion.vocabulary import fmt_depth, fmt_length
+
+    by_record: dict[str, Any] = {}
+    for t in ("run", "webmap"):
+        for k in TABLES[t].keys:
+            by_record[k.record or k.field] = k
+    rows = []
+    for rec, v in params.items():
+        decl = by_record.get(str(rec))
+        what = decl.help if decl is not None and decl.help else humanise(str(rec))
+        unit = parameter_unit(str(rec))
+        if v is None or v == {} or v == []:
+            shown = "none"
+        elif isinstance(v, bool):
+            shown = "yes" if v else "no"
+        elif isinstance(v, Mapping):
+            shown = owner_text(_nested(v, units.system))
+        elif isinstance(v, int | float) and unit == "m":
+            shown = fmt_length(v, units)
+        elif isinstance(v, int | float) and unit == "mm":
+            shown = fmt_depth(v, units) if units.system == "metric" else (
+                f"{float(units.small_from_mm(v)):.3g}{_NBSP}in")
+        elif isinstance(v, int | float) and unit == "m2":
+            shown = fmt_area(v, units) if units.system == "us" else f"{float(v):g}{_NBSP}m²"
+        elif isinstance(v, int | float) and unit == "mV":
+            shown = f"{float(v):g}{_NBSP}mV"
+        elif isinstance(v, int | float):
+            shown = f"{float(v):g}" + (f"{_NBSP}{unit_label(unit)}" if unit else "")
+            if str(rec) == "contingency":
+                shown = f"{100 * float(v):g}{_NBSP}%"
+        else:
+            shown = owner_text(label(str(v), str(v)) if str(v) in VOCABULARY else str(v))
+        rows.append({"k": what, "v": shown})
+    return rows
+
+
+def quantity_text(value: Any, unit: str) -> str:
+    """Format a bid quantity as the schedule bids it (``quantities.bid_decimals``).
+
+    Whole ft², LF, EA and LS; 0.1 CY, m² and m; 0.01 m³: the same figures as
+    ``quantities.csv``.
+    """
+    from geo_corrosion.quantities import bid_decimals
+
+    return fmt_number(value, bid_decimals(str(unit)))
