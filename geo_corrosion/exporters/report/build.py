@@ -110,7 +110,7 @@ METHODS: tuple[tuple[str, str, str], ...] = (
      "area beyond it with a 90 % interval, from conditional simulations of the Gaussian field "
      "(conditioning by kriging, the nugget taken as measurement error, areas at sub-cell "
      "resolution; the number of realisations is stated with each area), or from the kriging "
-     "errors when [run].interval_method is the separable approximation; a two-component "
+     "errors when the site file asks for the faster separable approximation; a two-component "
      "mixture for the site threshold.",
      "[Journel-Huijbregts-1978 ch. VII, from memory; Chiles-Delfiner-2012 §7.3.1, from memory] "
      "[Wood-Chan-1994; Dietrich-Newsam-1997]; "

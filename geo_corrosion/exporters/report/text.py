@@ -59,6 +59,9 @@ def _e(v: Any) -> str:
 # --------------------------------------------------------------------------- owner words
 
 _SNAKE = re.compile(r"\b[a-z][a-z0-9]*(?:_[a-z0-9]+)+\b")
+#: A site-file key as messages write it (``[run].pay_area_share``, ``[[surveys]][0].unit``) or
+#: a key set in TOML (``pay_area = "zone"``).
+_SITE_KEY = re.compile(r"\[\[?[a-z_.<>]+\]\]?(?:\[\d+\])?\.[a-z_]+|\b[a-z]+(?:_[a-z]+)+ = ")
 #: Symbols of formulas written with an underscore, as a reader writes them.
 _SYMBOLS = {"i_corr": "icorr", "R_p": "Rp", "x_crit": "xcrit", "E_a": "Ea", "t_ref": "tref",
             "R_ohm": "Rohm"}
@@ -113,6 +116,9 @@ def owner_text(text: Any) -> str:
     "mV CSE" becomes "mV vs CSE" and citations are written for a reader.
     """
     t = _LOCATION.sub("", str(text))
+    # a clause telling the engineer which site-file key to change is for the engineer, not
+    # the owner: dropped (the run's own messages keep it)
+    t = "; ".join(c for c in t.split("; ") if not _SITE_KEY.search(c)) or t
 
     def aside(m: re.Match[str]) -> str:
         inner = m.group(1)
