@@ -156,7 +156,7 @@ def assess_level(surfaces: dict[str, KindSurface], readings: dict[str, NDArray[n
                  low_cover: NDArray[np.bool_] | None = None,
                  reading_points: dict[str, tuple[NDArray[np.float64], NDArray[np.float64],
                                                  NDArray[np.float64]]] | None = None,
-                 interval_method: str = "separable-approximation", realisations: int = 200,
+                 interval_method: str = "simulation", realisations: int = 200,
                  n_neighbors: int = 16,
                  reading_regions: dict[str, NDArray[np.intp]] | None = None) -> LevelCondition:
     """Probability maps, area intervals, mixture threshold and combined classes of a level.
@@ -296,7 +296,7 @@ def _reading_regions(level: Level, mapped: LevelSurfaces,
 def assess_condition(level: Level, mapped: LevelSurfaces, surveys: Sequence[Survey], *,
                      rules: dict[str, Any] | None, bar_diameter_mm: float,
                      low_cover: NDArray[np.bool_] | None,
-                     interval_method: str = "separable-approximation", realisations: int = 200,
+                     interval_method: str = "simulation", realisations: int = 200,
                      n_neighbors: int = 16,
                      ) -> tuple[LevelCondition, dict[str, pd.DataFrame]]:
     """Assess the condition of one level that has at least one surface.
