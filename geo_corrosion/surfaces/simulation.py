@@ -47,12 +47,21 @@ Why not sequential Gaussian simulation
 Areas
     The area beyond a threshold in a realisation is measured under the cubic convolution
     interpolant of its cell-centre values [Keys-1981], sampled at ``q x q`` points in each
-    quarter cell that the threshold may cross
+    quarter cell that the threshold may cross (a cell whose 5 x 5 block of values lies
+    wholly on one side, allowing for the interpolant's overshoot, is counted whole at once;
+    most cells are far from the threshold)
     (:func:`~geo_corrosion.surfaces._simkernel.excursion`), not by counting whole cells: a
     boundary through a cell counts the part beyond it.  The
     remaining discretisation error is of third order in the cell size for a smooth field;
     with bilinear interpolation it was second order and, on a noiseless smooth deck, larger
     than the interval.
+
+Neighbourhood
+    The weights use the surface's own neighbourhood: its ``n_neighbors``, its kind's search
+    radius where that binds, and, for a surface kriged per continuity region, only the
+    readings of the cell's own region (``reading_regions``, ``cell_regions``).  The
+    unconditional field stays one field over the deck (a simplification: the regions are
+    conditioned independently, so each region's mean and variance are its own kriging's).
 
 Lognormal kinds are simulated in log space (the caller gives ``log z`` and the log-space
 model) and back-transformed per realisation; a threshold is compared in the same space.
