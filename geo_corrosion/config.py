@@ -717,22 +717,22 @@ class RunParams:
             "unchanged ([methods.md](methods.md) §3.2). Not applied when "
             "`[run.variogram.<kind>]` fixes `nugget` or `psill`.")
     interval_method: str = key(
-        "interval_method", "string", "separable-approximation",
+        "interval_method", "string", "simulation",
         choices=("simulation", "separable-approximation"),
         help="How the interval of each area beyond a threshold is found",
-        doc="`simulation`: conditional simulation of the field, nugget as measurement error, "
-            "areas at sub-cell resolution (surfaces/simulation.py): its 90 % intervals held "
-            "the true area on 86 % of 128 synthetic decks at about the width of the actual "
-            "error (benchmarks/README.md); `separable-approximation` (the default until the "
-            "simulation meets its speed target, benchmarks/README.md): kriging sd, separable "
-            "correlation over the variogram range, whole cells; its intervals were about five "
-            "times too wide.")
+        doc="`simulation` (default): conditional simulation of the field, each cell from its "
+            "own continuity region's readings within the kind's search radius, nugget as "
+            "measurement error, areas at sub-cell resolution (surfaces/simulation.py); "
+            "`separable-approximation`: the earlier fast approximation (kriging sd, separable "
+            "correlation over the variogram range, whole cells), whose intervals were about "
+            "five times too wide. Coverage, width and time of both: benchmarks/README.md.")
     realisations: int = key(
         "realisations", "integer", 200, unit="realisations", ge=20, le=5000,
         help="Conditional simulations for the areas, their intervals and probability maps",
         doc="With `interval_method = \"simulation\"`; seed fixed, so runs repeat; time grows "
-            "in proportion. How the bounds move with the seed at 50-400 realisations is "
-            "measured by `benchmarks/interval_calibration.py --seeds` (not yet recorded).")
+            "in proportion. At 200 the 90 % bounds moved by at most 4 % of the interval's "
+            "width between seeds on the benchmark's decks (`benchmarks/interval_calibration.py "
+            "--seeds`, benchmarks/README.md); 400 gained little for twice the time.")
     anode_spacing_mm: float | None = key(
         "anode_spacing", "length", None, unit="mm", example='"24 in"',
         help="Galvanic anode spacing along repair perimeters",

@@ -55,6 +55,7 @@ from geo_corrosion.model.surface import (
 )
 from geo_corrosion.stages.map_points import combined_kinds
 from geo_corrosion.stages.map_surfaces import merge_repeats
+from geo_corrosion.surfaces.regions import region_labels
 from geo_corrosion.surfaces.simulation import ConditionalSimulator
 from geo_corrosion.units import LENGTH_TO_M
 
@@ -156,14 +157,41 @@ def threshold_overrides(kinds: Mapping[str, Mapping[str, Any]],
     return out
 
 
+def surface_simulator(surface: KindSurface,
+                      points: tuple[NDArray[np.float64], NDArray[np.float64],
+                                    NDArray[np.float64]],
+                      reading_regions: NDArray[np.intp] | None, *, n_neighbors: int
+                      ) -> ConditionalSimulator:
+    """Return the conditional simulator of a surface, with the surface's own neighbourhood.
+
+    Its cells (those drawn), its kind's search radius (``KindSurface.neighbourhood``) and,
+    for a surface kriged per continuity region (``KindSurface.regions``), each cell
+    conditioned on its own region's readings only, as
+    :func:`geo_corrosion.stages.map_surfaces.build_surface` kriged it.  ``points`` are the
+    readings it was kriged from (canonical unit; logged here for lognormal kinds) and
+    ``reading_regions`` the region of each.
+    """
+    x, y, z = points
+    log = surface.kind.krige_transform == "log"
+    hood = surface.neighbourhood
+    by_region = surface.regions is not None and reading_regions is not None
+    return ConditionalSimulator(
+        x, y, np.log(z) if log else z, surface.fit.model, surface.grid,
+        np.isfinite(surface.mean) & np.isfinite(surface.variance), n_neighbors=n_neighbors,
+        radius=None if hood is None else hood.search_radius,
+        reading_regions=reading_regions if by_region else None,
+        cell_regions=surface.regions if by_region else None)
+
+
 def assess_level(surfaces: dict[str, KindSurface], readings: dict[str, NDArray[np.float64]],
                  *, deck: Any, unit: str, seed: int = 0,
                  rules: dict[str, Any] | None = None,
                  low_cover: NDArray[np.bool_] | None = None,
                  reading_points: dict[str, tuple[NDArray[np.float64], NDArray[np.float64],
                                                  NDArray[np.float64]]] | None = None,
-                 interval_method: str = "separable-approximation", realisations: int = 200,
+                 interval_method: str = "simulation", realisations: int = 200,
                  n_neighbors: int = 16,
+                 reading_regions: dict[str, NDArray[np.intp]] | None = None,
                  thresholds: Mapping[str, Threshold] | None = None) -> LevelCondition:
     """Probability maps, area intervals, mixture threshold and combined classes of a level.
 
@@ -192,6 +220,10 @@ def assess_level(surfaces: dict[str, KindSurface], readings: dict[str, NDArray[n
         Conditional simulations (``[run].realisations``).
     n_neighbors : int
         The kriging neighbourhood of the surfaces (``[run].n_neighbors``).
+    reading_regions : dict of str to ndarray of int, optional
+        By kind whose surface was kriged per continuity region (``KindSurface.regions``),
+        the region of each of its ``reading_points``; the simulation then conditions each
+        cell on its own region's readings.
     thresholds : mapping of str to Threshold, optional
         By kind, a threshold that replaces the kind's own (``[run.kinds.<kind>] threshold``,
         :func:`threshold_overrides`).
@@ -211,10 +243,8 @@ def assess_level(surfaces: dict[str, KindSurface], readings: dict[str, NDArray[n
         corr_len = float(s.fit.model.range)
         pts = (reading_points or {}).get(name)
         if interval_method == "simulation" and pts is not None:
-            x, y, z = pts
-            sim = ConditionalSimulator(x, y, np.log(z) if log else z, s.fit.model, s.grid,
-                                       np.isfinite(s.mean) & np.isfinite(s.variance),
-                                       n_neighbors=n_neighbors)
+            sim = surface_simulator(s, pts, (reading_regions or {}).get(name),
+                                    n_neighbors=n_neighbors)
             est, p = simulated_area_intervals(sim, [(thr, direction)], log_space=log,
                                               level=INTERVAL_LEVEL, n_realisations=realisations,
                                               seed=seed)[0]
@@ -288,10 +318,22 @@ def _reading_points(mapped: LevelSurfaces) -> dict[str, tuple[NDArray[np.float64
     return out
 
 
+def _reading_regions(level: Level, mapped: LevelSurfaces,
+                     points: dict[str, tuple[NDArray[np.float64], NDArray[np.float64],
+                                             NDArray[np.float64]]]
+                     ) -> dict[str, NDArray[np.intp]]:
+    """Return, by kind kriged per continuity region, the region of each of its readings."""
+    out = {}
+    for name, (x, y, _) in points.items():
+        if mapped.surfaces[name].regions is not None:
+            out[name] = region_labels(level.continuity_regions(), x, y)
+    return out
+
+
 def assess_condition(level: Level, mapped: LevelSurfaces, surveys: Sequence[Survey], *,
                      rules: dict[str, Any] | None, bar_diameter_mm: float,
                      low_cover: NDArray[np.bool_] | None,
-                     interval_method: str = "separable-approximation", realisations: int = 200,
+                     interval_method: str = "simulation", realisations: int = 200,
                      n_neighbors: int = 16,
                      kinds: Mapping[str, Mapping[str, Any]] | None = None,
                      ) -> tuple[LevelCondition, dict[str, pd.DataFrame]]:
@@ -317,8 +359,9 @@ def assess_condition(level: Level, mapped: LevelSurfaces, surveys: Sequence[Surv
         mapped.surfaces, {k: r[mapped.surfaces[k].kind.value_column].to_numpy(float)
                           for k, r in mapped.readings.items()},
         deck=level.deck, unit=level.unit, rules=rules, low_cover=low_cover,
-        reading_points=_reading_points(mapped), interval_method=interval_method,
+        reading_points=(points := _reading_points(mapped)), interval_method=interval_method,
         realisations=realisations, n_neighbors=n_neighbors,
+        reading_regions=_reading_regions(level, mapped, points),
         thresholds=threshold_overrides(kinds or {}, mapped.surfaces))
     if "combined_rules" in condition.stats:  # which kinds the combined classes used, and why
         condition.stats["combined_kinds"] = combined_kinds(mapped, COMBINED_COLUMNS)

@@ -47,12 +47,21 @@ Why not sequential Gaussian simulation
 Areas
     The area beyond a threshold in a realisation is measured under the cubic convolution
     interpolant of its cell-centre values [Keys-1981], sampled at ``q x q`` points in each
-    quarter cell that the threshold may cross
+    quarter cell that the threshold may cross (a cell whose 5 x 5 block of values lies
+    wholly on one side, allowing for the interpolant's overshoot, is counted whole at once;
+    most cells are far from the threshold)
     (:func:`~geo_corrosion.surfaces._simkernel.excursion`), not by counting whole cells: a
     boundary through a cell counts the part beyond it.  The
     remaining discretisation error is of third order in the cell size for a smooth field;
     with bilinear interpolation it was second order and, on a noiseless smooth deck, larger
     than the interval.
+
+Neighbourhood
+    The weights use the surface's own neighbourhood: its ``n_neighbors``, its kind's search
+    radius where that binds, and, for a surface kriged per continuity region, only the
+    readings of the cell's own region (``reading_regions``, ``cell_regions``).  The
+    unconditional field stays one field over the deck (a simplification: the regions are
+    conditioned independently, so each region's mean and variance are its own kriging's).
 
 Lognormal kinds are simulated in log space (the caller gives ``log z`` and the log-space
 model) and back-transformed per realisation; a threshold is compared in the same space.
@@ -74,6 +83,7 @@ from scipy import ndimage
 
 from geo_corrosion.errors import KrigingError, KrigingWarning
 from geo_corrosion.surfaces._simkernel import condition_lattice, excursion, filtered_weights
+from geo_corrosion.surfaces.density import binding_radius
 from geo_corrosion.surfaces.grid import GridSpec
 from geo_corrosion.surfaces.kriging import KrigingEngine, merge_coincident
 from geo_corrosion.surfaces.variogram import VariogramModel, as_xyz
@@ -196,7 +206,18 @@ class ConditionalSimulator:
         ``(ny, nx)``: the cells to simulate (the kriged cells); a ring of two cells around
         them is simulated too, for the sub-cell areas.
     n_neighbors, radius
-        The kriging neighbourhood, as in :class:`KrigingEngine`.
+        The kriging neighbourhood, as in :class:`KrigingEngine`; ``radius`` (the kind's
+        search radius) is applied, as in the kriging pass, only where it leaves out one of
+        some cell's nearest readings (:func:`~geo_corrosion.surfaces.density.binding_radius`).
+    reading_regions, cell_regions
+        For a surface kriged per continuity region
+        (:func:`~geo_corrosion.surfaces.regions.krige_regions`): the region of each reading
+        and the ``(ny, nx)`` region of each cell (-1 where none).  A cell is then conditioned
+        on its own region's readings only (a cell of the ring, on the nearest drawn cell's
+        region).  The unconditional field stays one field over the deck: the regions are
+        conditioned independently, so only the correlation of the simulation errors across a
+        joint, which no result uses but the sub-cell areas of cells at the joint, is not
+        that of independent regions.
     use_kernel : bool
         Use the compiled loops (False: numpy, the reference).
     """
@@ -204,23 +225,47 @@ class ConditionalSimulator:
     def __init__(self, x: ArrayLike, y: ArrayLike, z: ArrayLike, model: VariogramModel,
                  grid: GridSpec, mask: NDArray[np.bool_], *, n_neighbors: int = 16,
                  radius: float | None = None, use_kernel: bool = True,
-                 chunk_size: int = 65536) -> None:
+                 chunk_size: int = 65536, reading_regions: ArrayLike | None = None,
+                 cell_regions: NDArray[np.intp] | None = None) -> None:
         xa, ya, za = as_xyz(x, y, z, min_n=1, what="simulation")
         mask = np.asarray(mask, dtype=bool)
         if mask.shape != grid.shape:
             raise KrigingError(f"mask shape {mask.shape} does not match grid shape {grid.shape}")
+        if (reading_regions is None) != (cell_regions is None):
+            raise KrigingError("reading_regions and cell_regions go together")
+        labels = (np.zeros(xa.size, dtype=np.intp) if reading_regions is None
+                  else np.asarray(reading_regions, dtype=np.intp).ravel())
+        if labels.size != xa.size:
+            raise KrigingError(f"{labels.size} reading regions for {xa.size} readings")
         self.model, self.grid, self.mask = model, grid, mask
         self.use_kernel = use_kernel
+        # per region, its readings (coincident ones averaged) and its own kriging engine
+        engines: list[tuple[int, int, KrigingEngine]] = []  # (region, first index, engine)
+        parts: list[tuple[NDArray[np.float64], ...]] = []
+        first = 0
         with warnings.catch_warnings():
             # the kriging pass of the same readings has already reported these
             warnings.simplefilter("ignore", KrigingWarning)
-            xa, ya, za = merge_coincident(xa, ya, za, what="simulation")
-            eng = KrigingEngine(xa, ya, za, model, n_neighbors=n_neighbors, radius=radius,
-                                what="simulation", merge=False)
-        self.engine = eng
-        n = eng.n
-        #: the readings as the engine holds them (coincident ones averaged), plan coordinates
-        self.rx, self.ry, self.rz = xa, ya, za
+            cgx, cgy = grid.row_centers(slice(None))
+            for reg in np.unique(labels):
+                sel = labels == reg
+                rx, ry, rz = merge_coincident(xa[sel], ya[sel], za[sel], what="simulation")
+                rad = radius
+                if radius is not None:  # as the kriging pass: the radius where it binds
+                    mine = (mask if cell_regions is None else mask & (cell_regions == reg))
+                    flat = mine.ravel()
+                    rad = binding_radius(rx, ry, cgx[flat], cgy[flat], n_neighbors, radius,
+                                         model.transform_coords)
+                eng = KrigingEngine(rx, ry, rz, model, n_neighbors=n_neighbors,
+                                    radius=rad, what="simulation", merge=False)
+                engines.append((int(reg), first, eng))
+                parts.append((rx, ry, rz))
+                first += rx.size
+        n = first
+        k = max(e.k for _, _, e in engines)
+        #: the readings as the engines hold them (coincident ones averaged, grouped by
+        #: region), plan coordinates
+        self.rx, self.ry, self.rz = (np.concatenate([p[i] for p in parts]) for i in range(3))
         # lattice: the grid's cell centres, widened to hold every reading (+2 cells)
         cell = grid.cell
         top = grid.y0 + grid.ny * cell
@@ -241,17 +286,29 @@ class ConditionalSimulator:
         xs = self.lx0 + (cols + 0.5) * cell
         ys = self.ltop - (rows + 0.5) * cell
         m = rows.size
-        k = eng.k
-        self.idx = np.empty((m, k), dtype=np.intp)
-        self.weights = np.empty((m, k))
-        self.variance = np.empty(m)
+        self.idx = np.full((m, k), n, dtype=np.intp)
+        self.weights = np.zeros((m, k))
+        self.variance = np.full(m, np.nan)
         qx, qy = model.transform_coords(xs, ys)
-        for a in range(0, m, chunk_size):
-            sl = slice(a, a + chunk_size)
-            d, i = eng.query(qx[sl], qy[sl])
-            self.idx[sl] = i
-            self.weights[sl], self.variance[sl] = filtered_weights(
-                eng.px, eng.py, i, d, n=n, model=model, use_kernel=use_kernel)
+        if cell_regions is None:
+            owner = np.zeros(m, dtype=np.intp)
+        else:  # a ring cell takes the region of the nearest drawn cell
+            creg = np.full(self.shape, -1, dtype=np.intp)
+            creg[pad_n:pad_n + grid.ny, pad_w:pad_w + grid.nx] = cell_regions
+            near = ndimage.distance_transform_edt(creg < 0, return_distances=False,
+                                                  return_indices=True)
+            owner = creg[near[0], near[1]][rows, cols] if (creg >= 0).any() else \
+                np.full(m, -1, dtype=np.intp)
+        for reg, start, eng in engines:
+            todo = np.flatnonzero(owner == reg)
+            for a in range(0, todo.size, chunk_size):
+                sl = todo[a:a + chunk_size]
+                d, i = eng.query(qx[sl], qy[sl])
+                w, v = filtered_weights(eng.px, eng.py, i, d, n=eng.n, model=model,
+                                        use_kernel=use_kernel)
+                kk = i.shape[1]
+                self.idx[sl, :kk] = np.where(i < eng.n, i + start, n)
+                self.weights[sl, :kk], self.variance[sl] = w, v
         has = np.isfinite(self.variance)
         self.cells = (rows * Lx + cols)[has]
         self.idx, self.weights, self.variance = self.idx[has], self.weights[has], \
