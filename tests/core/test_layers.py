@@ -26,7 +26,8 @@ LAYERS: tuple[tuple[str, ...], ...] = (
      "geo_corrosion.surfaces", "geo_corrosion.condition", "geo_corrosion.corrections"),
     ("geo_corrosion.config", "geo_corrosion.crs", "geo_corrosion._toml"),
     ("geo_corrosion.errors", "geo_corrosion.units", "geo_corrosion.plugins",
-     "geo_corrosion._io", "geo_corrosion.cautions", "geo_corrosion.bibliography"),
+     "geo_corrosion._io", "geo_corrosion.cautions", "geo_corrosion.bibliography",
+     "geo_corrosion.vocabulary"),
 )
 
 
