@@ -395,7 +395,7 @@ def _popup(page: Any, lid: str, key: str, pick: str) -> str:
       const ps = document.querySelectorAll('.leaflet-popup-content');
       const t = ps.length === 1 ? ps[0].innerText : `${{ps.length}} popups open`;
       map.closePopup();
-      return t; }}""")
+      return t; }}""").replace("\xa0", " ")  # no-break spaces between numbers and units
 
 
 @pytest.mark.slow
@@ -411,19 +411,24 @@ def test_repair_popup_carries_what_a_contractor_asks(sample_page: Any, sample_ru
     text = _popup(page, lid, "repairs", f"l => l.feature.properties._id === {r['repair_id']!r}")
     ft = 0.3048  # 1 ft = 0.3048 m exactly [NIST-SP811-2008 App. B]
     assert r["repair_id"] in text
-    assert f"{r['area_m2'] / ft**2:,.1f} ft²" in text
-    assert f"{r['perimeter_m'] / ft:,.1f} ft" in text
-    assert f"{r['outline_m'] / ft:,.1f} ft" in text
-    assert f"{r['volume_m3'] / ft**3:,.1f} ft³" in text
-    # removal depth to 1/4 in on a US report (issue 14 item 3; common practice)
-    assert f"{round(r['depth_mm'] / 25.4 * 4) / 4:g} in" in text
+    # areas to whole ft², lengths to 0.1 ft on a US report (issue 14 item 3)
+    assert f"Area\t{r['area_m2'] / ft**2:,.0f} ft²" in text
+    assert f"Perimeter\t{r['perimeter_m'] / ft:,.1f} ft" in text
+    assert f"Saw-cut length\t{r['outline_m'] / ft:,.1f} LF" in text
+    assert f"Volume\t{r['volume_m3'] / ft**3:,.1f} ft³" in text
+    # removal depth to 1/4 in on a US report, as a mixed number (issue 14 item 3)
+    q = round(r["depth_mm"] / 25.4 * 4)
+    whole, rest = divmod(q, 4)
+    frac = {0: "", 1: "1/4", 2: "1/2", 3: "3/4"}[rest]
+    assert f"Removal depth\t{whole}-{frac} in" in text if whole and frac else \
+        f"Removal depth\t{frac or whole} in" in text
     assert "REP-PD" in text or "REP-FD" in text  # bid item of the depth class
     assert "Partial depth" in text or "Full depth" in text  # depth class, as words
     # overall dimensions: the minimum rotated rectangle's sides (shapely), in ft
     xy = np.asarray(r.geometry.minimum_rotated_rectangle.exterior.coords)
     to_m = rep.crs.axis_info[0].unit_conversion_factor  # the site CRS's unit (pyproj)
     sides = sorted(np.hypot(*np.diff(xy[:3], axis=0).T) * to_m / ft, reverse=True)
-    assert f"{sides[0]:,.1f} x {sides[1]:,.1f} ft" in text
+    assert f"{sides[0]:,.1f} ft x {sides[1]:,.1f} ft" in text
     for word in ("Dimensions", "Depth class", "Removal depth", "Area", "Perimeter",
                  "Saw-cut length", "Volume", "Bid item"):
         assert word in text, word
@@ -456,11 +461,11 @@ def test_reading_popup_carries_point_grid_value_and_qa(sample_page: Any, sample_
     assert str(r["point_id"]) in text
     assert f"{r['x_local']:.2f}, {r['y_local']:.2f} ft" in text  # grid position
     if np.isfinite(r["potential_mv"]):
-        assert f"{r['potential_mv']:.1f} mV vs CSE" in text  # the value as mapped
+        assert f"Value\t{r['potential_mv']:.0f} mV vs CSE" in text  # to whole mV
     assert f"{r['raw_value']:.1f} mV vs " in text or f"{r['raw_value']:.3g} mV vs " in text
-    from geo_corrosion.corrections import ELECTRODES
+    from geo_corrosion.vocabulary import label
 
-    assert ELECTRODES[str(r["electrode"])].name in text  # the electrode it was read with
+    assert label(f"electrode.{r['electrode']}") in text  # the electrode it was read with
     assert str(r["qa_flags"]) in text
     for word in ("Point", "Grid x, y", "As read", "Value", "QA flags"):
         assert word in text, word

@@ -37,7 +37,7 @@ from geo_corrosion.exporters.base import Exporter
 from geo_corrosion.exporters.runfiles import RunLayers
 from geo_corrosion.exporters.webmap.app import APP_CSS, APP_JS
 from geo_corrosion.exporters.webmap.assets import LEAFLET_VERSION, leaflet_assets
-from geo_corrosion.exporters.webmap.labels import label, unit_label
+from geo_corrosion.exporters.webmap.labels import term, unit_label, word
 from geo_corrosion.exporters.webmap.palette import (
     CLASS_RANK,
     NO_ACTION_COLOR,
@@ -57,6 +57,15 @@ from geo_corrosion.model.manifest import (
     SiteRecord,
     read_run,
     result_manifest,
+)
+from geo_corrosion.vocabulary import (
+    class_label,
+    fmt_area,
+    fmt_depth,
+    fmt_length,
+    fmt_number,
+    fmt_potential,
+    humanise,
 )
 
 if TYPE_CHECKING:
@@ -215,21 +224,6 @@ class _Level:
                 "layers": self.layers}
 
 
-def _fmt_depth(units: Any, mm: float) -> str:
-    """Format a removal depth: to 1/4 in on US reports, to 5 mm on metric ones (common practice)."""
-    if not np.isfinite(mm):
-        return ""
-    if units.small == "in":
-        q = round(mm / 25.4 * 4) / 4
-        return f"{q:g} in"
-    return f"{round(mm / 5) * 5:g} mm"
-
-
-def _plain(length_unit: str) -> str:
-    """Return a length unit for sizes: "ft", not the bid unit "LF" (linear feet)."""
-    return "ft" if length_unit == "LF" else unit_label(length_unit)
-
-
 def _dimensions(rep: gpd.GeoDataFrame, units: Any, crs_to_m: float) -> list[str]:
     """Overall length x width of each repair (its minimum rotated rectangle)."""
     if "dimensions" in rep.columns:  # rounded dimensions written by the repair layout
@@ -241,8 +235,8 @@ def _dimensions(rep: gpd.GeoDataFrame, units: Any, crs_to_m: float) -> list[str]
             continue
         xy = np.asarray(g.minimum_rotated_rectangle.exterior.coords)
         sides = np.hypot(*np.diff(xy[:3], axis=0).T) * crs_to_m
-        a, b = sorted((float(units.length_from_m(s)) for s in sides), reverse=True)
-        out.append(f"{a:,.1f} x {b:,.1f} {_plain(units.length)}")
+        a, b = sorted(sides, reverse=True)
+        out.append(f"{fmt_length(a, units)} x {fmt_length(b, units)}")
     return out
 
 
@@ -258,8 +252,7 @@ def _level(run_dir: Path, lid: str, info: LevelRecord, layers: RunLayers,
     if slab is not None:
         x0, y0, x1, y1 = slab.to_crs(WGS84).total_bounds
         lv.bounds = [[_r(y0), _r(x0)], [_r(y1), _r(x1)]]
-        area = [f"{a:,.0f} {unit_label(units.area)}"
-                for a in units.area_from_m2(slab["area_m2"].to_numpy(float))]
+        area = [fmt_area(a, units) for a in slab["area_m2"].to_numpy(float)]
         lv.base.append({"type": "geojson", "key": "slab", "fc": _fc(slab, {
             "Level": [lv.name] * len(slab), "Slab area": area}),
             "style": {"color": OVERLAY["slab"], "weight": 2, "fill": False},
@@ -281,7 +274,7 @@ def _level(run_dir: Path, lid: str, info: LevelRecord, layers: RunLayers,
 
 
 def _kind_label(kind: str) -> str:
-    text = label(kind)
+    text = term(kind, humanise(kind))
     return _e(text[:1].upper() + text[1:])
 
 
@@ -298,7 +291,7 @@ def _maps(lv: _Level, run_dir: Path, lid: str, kinds: dict[str, KindRecord],
         name = _kind_label(kind)
         if ov is not None:
             url, bounds, lo, hi = ov
-            lv.add(f"surface_{kind}", f"{name} {label('surface')}", "maps",
+            lv.add(f"surface_{kind}", f"{name} {word('surface')}", "maps",
                    {"type": "image", "url": url, "bounds": bounds, "opacity": 0.85},
                    _gradient_legend(f"{name}, kriged", lo, hi, kv.unit, d),
                    list(SEVERITY_RAMP), on=shown, fill=True)
@@ -313,7 +306,7 @@ def _maps(lv: _Level, run_dir: Path, lid: str, kinds: dict[str, KindRecord],
                     meaning = src.tags().get("meaning", "")
             except Exception:  # noqa: BLE001 - the tag is only a legend text
                 meaning = ""
-            lv.add(f"probability_{kind}", f"{name} {label('probability')}", "maps",
+            lv.add(f"probability_{kind}", f"{name} {word('probability')}", "maps",
                    {"type": "image", "url": pov[0], "bounds": pov[1], "opacity": 0.85},
                    _gradient_legend(f"{name}: probability of "
                                     f"{_e(meaning) or 'exceeding its threshold'}",
@@ -326,13 +319,13 @@ def _maps(lv: _Level, run_dir: Path, lid: str, kinds: dict[str, KindRecord],
         recolor = _class_palette(cls)
         cls["_c"] = [recolor.get(str(c).upper(), "#999999") for c in cls.get(
             "color", ["#999999"] * len(cls))]
-        area = [f"{v:,.1f} {unit_label(units.area)}"
-                for v in units.area_from_m2(cls["area_m2"].to_numpy(float))]
-        items = sorted({(c, _e(k)) for c, k in zip(cls["_c"], cls["class"], strict=True)},
+        area = [fmt_area(a, units) for a in cls["area_m2"].to_numpy(float)]
+        cls["_label"] = _class_names(cls)
+        items = sorted({(c, k) for c, k in zip(cls["_c"], cls["_label"], strict=True)},
                        key=lambda it: -list(recolor.values()).index(it[0])
                        if it[0] in recolor.values() else 0)
         lv.add(key, text, "maps", {"type": "geojson", "fc": _fc(cls, {
-            "_c": list(cls["_c"]), "Class": _esc_col(cls, "class"), "Area": area}),
+            "_c": list(cls["_c"]), "Class": list(cls["_label"]), "Area": area}),
             "style": {"weight": 0, "fillOpacity": 0.85, "byColor": True}, "popup": True},
             _swatch_legend(title, items), [c for c, _ in items], fill=True)
 
@@ -368,10 +361,10 @@ def _class_layers(lid: str, kinds: dict[str, KindRecord], layers: RunLayers
             continue
         mk = _kind(kind)
         titles = mk.class_layer_titles if mk is not None else None
-        text, title = titles or (f"{label(kind)} {label('classes')}",) * 2
+        text, title = titles or (f"{_kind_label(kind)} {word('classes')}",) * 2
         out.append((name, f"classes_{kind}", _e(text[:1].upper() + text[1:]), _e(title)))
     if f"{lid}_combined_classes" in layers.names:
-        out.append((f"{lid}_combined_classes", "classes_combined", label("combined"),
+        out.append((f"{lid}_combined_classes", "classes_combined", word("combined"),
                     "Combined condition (rule table in run.json)"))
     return out
 
@@ -392,7 +385,7 @@ def _survey(lv: _Level, lid: str, kinds: dict[str, KindRecord], layers: RunLayer
             text = [f"{float(v):g}" for v in cont["value"]]
             every = (f"every {interval:g} {_e(u)}" if isinstance(interval, int | float)
                      else "contour")
-            lv.add(f"contours_{kind}", f"{_kind_label(kind)} {label('contours')}", "survey",
+            lv.add(f"contours_{kind}", f"{_kind_label(kind)} {word('contours')}", "survey",
                    {"type": "geojson", "fc": _fc(cont.reset_index(drop=True), {
                        "Contour": [f"{t} {_e(u)}" for t in text]}),
                     "style": {"color": OVERLAY["contour"], "weight": 1, "dashArray": "4 3",
@@ -406,15 +399,14 @@ def _survey(lv: _Level, lid: str, kinds: dict[str, KindRecord], layers: RunLayer
         if g is None:
             continue
         g = g.reset_index(drop=True)
-        area = [f"{v:,.1f} {unit_label(units.area)}"
-                for v in units.area_from_m2(g["area_m2"].to_numpy(float))]
+        area = [fmt_area(a, units) for a in g["area_m2"].to_numpy(float)]
         color = OVERLAY[what]
-        lv.add(key, label(key), "survey", {"type": "geojson", "fc": _fc(g, {
+        lv.add(key, word(key), "survey", {"type": "geojson", "fc": _fc(g, {
             "Label": _esc_col(g, "label"), "Area": area, "From": _esc_col(g, "source")}),
             "style": {"color": color, "weight": 1.5,
                       "pattern": "hatch" if what == "delamination" else "cross",
                       "fillOpacity": 1.0}, "tooltip": True},
-            _swatch_legend(label(key), [(color, f"{what}s (from the plans)")], "hatch"),
+            _swatch_legend(word(key), [(color, f"{what}s (from the plans)")], "hatch"),
             [color], on=True)
     _joints(lv, lid, layers)
     _qa(lv, lid, layers)
@@ -452,8 +444,9 @@ def _joints(lv: _Level, lid: str, layers: RunLayers) -> None:
         items.append((OVERLAY["joint_break"], "joint breaking the bar mat"))
     if not all(brk):
         items.append((OVERLAY["joint"], "joint"))
-    lv.add("joints", label("joints"), "survey", {"type": "geojson", "fc": _fc(j, {
-        "_c": colors, "Joint": [_e(label(t)) if t else "joint" for t in types],
+    lv.add("joints", word("joints"), "survey", {"type": "geojson", "fc": _fc(j, {
+        "_c": colors,
+        "Joint": [_e(term(t, humanise(t) + " joint")) if t else "joint" for t in types],
         "Label": _esc_col(j, "label"), "From": _esc_col(j, "source")}),
         "style": {"weight": 3, "dashArray": "8 4", "fill": False, "byColor": True},
         "tooltip": True},
@@ -486,17 +479,19 @@ def _readings(lv: _Level, lid: str, kind: str, kv: KindRecord, layers: RunLayers
     if "raw_value" in g.columns:
         raw = g["raw_value"].to_numpy(float)
         ru = _esc_col(g, "raw_unit")
-        el = ([_e(ELECTRODES[c].name if c in ELECTRODES else c) if c else ""
-               for c in g["electrode"].fillna("").astype(str)]
+        el = ([_e(term(f"electrode.{c}", ELECTRODES[c].name if c in ELECTRODES else c))
+               if c else "" for c in g["electrode"].fillna("").astype(str)]
               if "electrode" in g.columns else [""] * len(g))
         cols["As read"] = [
             (f"{_num(r)} {unit_label(x) if x != 'mV' else 'mV'}" if np.isfinite(r) else "")
             + (f" vs {e}" if e else "") for r, x, e in zip(raw, ru, el, strict=True)]
-    cols["Value"] = [f"{_num(x)} {_e(u)}" if np.isfinite(x) else "no value" for x in v]
-    cols["QA flags"] = [_e(f) for f in flags]
+    cols["Value"] = [(fmt_potential(x) if kv.unit == "mV" else f"{_num(x)}\u00a0{_e(u)}")
+                     if np.isfinite(x) else "no value" for x in v]
+    cols["QA flags"] = [_e(", ".join(f"{c} ({term(c, c)})" for c in f.split(",") if c))
+                        for f in flags]
     cols["Where"] = _esc_col(g, "where")
     xy = np.column_stack([g.geometry.y.to_numpy(float), g.geometry.x.to_numpy(float)])
-    lv.add(f"readings_{kind}", f"{_kind_label(kind)} {label('readings')}", "survey",
+    lv.add(f"readings_{kind}", f"{_kind_label(kind)} {word('readings')}", "survey",
            {"type": "points", "latlon": np.round(xy, COORD_DECIMALS).ravel().tolist(),
             "color": color, "radius": 3, "ring": False,
             "cols": {k: _compact(c) for k, c in cols.items()}},
@@ -516,9 +511,13 @@ def _qa(lv: _Level, lid: str, layers: RunLayers) -> None:
         return
     q = q.to_crs(WGS84)
     xy = np.column_stack([q.geometry.y.to_numpy(float), q.geometry.x.to_numpy(float)])
-    cols = {"Where": _esc_col(q, "where"), "Check": _esc_col(q, "rule"),
-            "Severity": _esc_col(q, "severity"), "Finding": _esc_col(q, "message")}
-    lv.add("qa_flags", label("qa_flags"), "survey",
+    cols = {"Where": _esc_col(q, "where"),
+            "Check": [_e(f"{c} ({term(c, c)})") for c in q["rule"].astype(str)],
+            "Severity": [_e(term(f"severity.{s}", humanise(s))) for s in
+                         q["severity"].fillna("").astype(str)] if "severity" in q.columns
+            else [""] * len(q),
+            "Finding": _esc_col(q, "message")}
+    lv.add("qa_flags", word("qa_flags"), "survey",
            {"type": "points", "latlon": np.round(xy, COORD_DECIMALS).ravel().tolist(),
             "color": OVERLAY["flag"], "radius": 7, "ring": True,
             "cols": {k: _compact(c) for k, c in cols.items()}},
@@ -547,55 +546,85 @@ def _repairs(lv: _Level, lid: str, layers: RunLayers, units: Any, crs_to_m: floa
         zc = {z: ZONE_COLORS[i % len(ZONE_COLORS)] for i, z in enumerate(named)}
         if "no_action" in set(zones["zone"].astype(str)):
             zc["no_action"] = NO_ACTION_COLOR  # the rest of the slab
-        area = [f"{v:,.1f} {unit_label(units.area)}"
-                for v in units.area_from_m2(zones["area_m2"].to_numpy(float))]
-        lv.add("zones", label("zones"), "repairs", {"type": "geojson", "fc": _fc(zones, {
+        area = [fmt_area(a, units) for a in zones["area_m2"].to_numpy(float)]
+        lv.add("zones", word("zones"), "repairs", {"type": "geojson", "fc": _fc(zones, {
             "_c": [zc[str(z)] for z in zones["zone"]],
-            "Zone": [_e(label(str(z))) for z in zones["zone"]],
-            "Treatment": [_e(label(str(t))) for t in zones.get("treatment",
-                                                                [""] * len(zones))],
-            "Bid item": _esc_col(zones, "bid_item"), "Area": area}),
+            "Zone": [_e(term(str(z), humanise(str(z)))) for z in zones["zone"]],
+            "Treatment": _esc_col(zones, "treatment"),
+            "Bid item": _bid_items(zones), "Area": area}),
             "style": {"weight": 3, "dashArray": "10 5", "fill": True, "fillOpacity": 0,
                       "byColor": True}, "popup": True},
-            _swatch_legend("Zones (outlines)", [(c, _e(label(z))) for z, c in zc.items()],
+            _swatch_legend("Zones (outlines)", [(c, _e(term(z, humanise(z))))
+                                                for z, c in zc.items()],
                            "dash"), list(zc.values()))
     rep = layers.get(f"{lid}_repairs")
     if rep is None:
         return
     rep = rep.reset_index(drop=True)
     depth = rep["depth_class"].astype(str).tolist() if "depth_class" in rep else [""] * len(rep)
-    bid = (_esc_col(rep, "bid_item") if "bid_item" in rep.columns
-           else [DEPTH_CLASS_ITEMS.get(c, "") for c in depth])
+    if "bid_item" not in rep.columns:
+        rep["bid_item"] = [DEPTH_CLASS_ITEMS.get(c, "") for c in depth]
+    bid = _bid_items(rep)
 
     def fmt(col: str, conv: Any, unit: str) -> list[str]:
         if col not in rep.columns:
             return [""] * len(rep)
-        return [f"{float(conv(x)):,.1f} {unit_label(unit)}" if np.isfinite(x) else ""
-                for x in rep[col].to_numpy(float)]
+        return [f"{fmt_number(float(conv(x)), 1)}\u00a0{unit_label(unit)}"
+                if np.isfinite(x) else "" for x in rep[col].to_numpy(float)]
 
     props = {
         "Repair": _esc_col(rep, "repair_id"),
-        "Zone": [_e(label(z)) if z else "" for z in _zone_of(rep, zones)],
+        "Zone": [_e(term(z, humanise(z))) if z else "" for z in _zone_of(rep, zones)],
         "Dimensions": _dimensions(rep, units, crs_to_m),
         "Location": _esc_col(rep, "location"),
-        "Depth class": [_e(label(c)) for c in depth],
-        "Removal depth": ([_fmt_depth(units, x) for x in rep["depth_mm"].to_numpy(float)]
+        "Depth class": [_e(term(c, humanise(c))) if c else "" for c in depth],
+        "Removal depth": ([fmt_depth(x, units) for x in rep["depth_mm"].to_numpy(float)]
                           if "depth_mm" in rep.columns else [""] * len(rep)),
-        "Area": fmt("area_m2", units.area_from_m2, units.area),
-        "Perimeter": fmt("perimeter_m", units.length_from_m, _plain(units.length)),
-        "Saw-cut length": fmt("outline_m", units.length_from_m, units.length),
+        "Area": ([fmt_area(x, units) for x in rep["area_m2"].to_numpy(float)]
+                 if "area_m2" in rep.columns else [""] * len(rep)),
+        "Perimeter": ([fmt_length(x, units) for x in rep["perimeter_m"].to_numpy(float)]
+                      if "perimeter_m" in rep.columns else [""] * len(rep)),
+        "Saw-cut length": fmt("outline_m", units.length_from_m, units.length),  # LF or m
         "Volume": fmt("volume_m3", units.volume_from_m3, units.volume),
         "Bid item": bid,
         "_id": [str(x) for x in rep.get("repair_id", [""] * len(rep))],
     }
     props = {k: v for k, v in props.items() if any(v)}
-    lv.add("repairs", label("repair_outlines"), "repairs", {"type": "geojson",
+    lv.add("repairs", word("repair_outlines"), "repairs", {"type": "geojson",
            "fc": _fc(rep, props), "style": {"color": OVERLAY["repair"], "weight": 2.5,
                                             "fill": True, "fillOpacity": 0},
            "popup": True},
            _swatch_legend("Repairs (estimates for bidding)",
                           [(OVERLAY["repair"], "saw-cut outline; click for details")], "line"),
            [OVERLAY["repair"]], on=True)
+
+
+def _bid_items(g: gpd.GeoDataFrame) -> list[str]:
+    """Return each row's bid item as its code and words (``REP-FD (Full-depth repair)``)."""
+    if "bid_item" not in g.columns:
+        return [""] * len(g)
+    out = []
+    for c in g["bid_item"]:
+        c = "" if c is None or c != c else str(c)
+        out.append(_e(f"{c} ({term(c, c)})" if c and term(c, c) != c else c))
+    return out
+
+
+def _class_names(cls: gpd.GeoDataFrame) -> list[str]:
+    """Return the owner's name of each class (its class set's key through the vocabulary)."""
+    from geo_corrosion.condition.classes import CLASS_SETS
+
+    if "class_key" in cls.columns:  # combined condition
+        return [_e(term(str(k), str(t))) for k, t in zip(cls["class_key"], cls["class"],
+                                                        strict=True)]
+    name = str(cls["class_set"].iloc[0]) if "class_set" in cls.columns else ""
+    cs = CLASS_SETS.get(name)
+    out = []
+    for code, text in zip(cls.get("class_code", [None] * len(cls)), cls["class"], strict=True):
+        key = (cs.keys[int(code)] if cs is not None and code is not None
+               and 0 <= int(code) < len(cs.keys) else None)
+        out.append(_e(class_label(name, key, str(text)) if key else str(text)))
+    return out
 
 
 def _zone_of(rep: gpd.GeoDataFrame, zones: gpd.GeoDataFrame | None) -> list[str]:
@@ -703,7 +732,7 @@ def _panels(fmap: folium.Map, levels: list[_Level], site: SiteRecord, man: Manif
     tile_url = man.parameters.basemap_url
     config = {"levels": [{"id": lv.lid, "name": lv.name, "bounds": lv.bounds}
                          for lv in levels],
-              "groups": {g: label(g) for g in ("maps", "survey", "repairs")},
+              "groups": {g: word(g) for g in ("maps", "survey", "repairs")},
               "basemap": ({"url": tile_url, "attribution": _e(man.parameters.basemap_attribution)}
                           if isinstance(tile_url, str) and tile_url.startswith("https://")
                           else None)}
