@@ -19,6 +19,7 @@ from typing import Any
 import numpy as np
 import pytest
 
+from tests.webmap.colour import clashes
 from tests.webmap.conftest import XSS, XSS_IMG, open_page
 
 pytestmark = pytest.mark.browser
@@ -263,26 +264,6 @@ def _assert_fits(got: dict[str, Any]) -> None:
             assert not (r[0] <= x <= r[2] and r[1] <= y <= r[3]), ((x, y), r)
 
 
-def _lab(hexes: list[str]) -> np.ndarray:
-    """CIELAB (D65) of sRGB colours.
-
-    sRGB to linear and XYZ per IEC 61966-2-1:1999; XYZ to L*a*b* per CIE 15:2004 §8.2.1.
-    """
-    rgb = np.array([[int(h[i:i + 2], 16) / 255 for i in (1, 3, 5)] for h in hexes])
-    lin = np.where(rgb <= 0.04045, rgb / 12.92, ((rgb + 0.055) / 1.055) ** 2.4)
-    m = np.array([[0.4124, 0.3576, 0.1805], [0.2126, 0.7152, 0.0722],
-                  [0.0193, 0.1192, 0.9505]])
-    xyz = lin @ m.T / np.array([0.95047, 1.0, 1.08883])
-    f = np.where(xyz > (6 / 29) ** 3, np.cbrt(xyz), xyz / (3 * (6 / 29) ** 2) + 4 / 29)
-    return np.column_stack([116 * f[:, 1] - 16, 500 * (f[:, 0] - f[:, 1]),
-                            200 * (f[:, 1] - f[:, 2])])
-
-
-#: CIE76 delta E below which two colours are taken as the same on a map: 10 (about the
-#: difference a viewer names as a different colour at a glance; common practice, no source)
-DELTA_E_MIN = 10.0
-
-
 def _legend_colours(page: Any) -> dict[str, list[str]]:
     """Colours of each legend entry now shown, by layer key (swatches and ramp stops)."""
     return page.evaluate("""() => {
@@ -293,18 +274,6 @@ def _legend_colours(page: Any) -> dict[str, list[str]]:
         d.querySelectorAll('[data-colors]').forEach(e => c.push(...e.dataset.colors.split(' ')));
         out[d.dataset.key] = (out[d.dataset.key] || []).concat(c); });
       return out; }""")
-
-
-def _clashes(colours: dict[str, list[str]]) -> list[tuple[str, str, str, str, float]]:
-    entries = [(k, c.upper()) for k, cs in colours.items() for c in dict.fromkeys(cs)]
-    lab = _lab([c for _k, c in entries])
-    out = []
-    for i in range(len(entries)):
-        for j in range(i + 1, len(entries)):
-            d = float(np.linalg.norm(lab[i] - lab[j]))  # CIE76: Euclidean in L*a*b*
-            if d <= DELTA_E_MIN:
-                out.append((*entries[i], *entries[j], round(d, 1)))
-    return out
 
 
 def _check_colours(page: Any) -> None:
@@ -328,7 +297,7 @@ def _check_colours(page: Any) -> None:
             single = [ly for ly in layers if not ly["excl"]]
             assert len(shown) == base + 2 + len(single), sorted(shown)
             assert f in shown and c in shown
-            assert _clashes(shown) == [], (lid, f, c)
+            assert clashes(shown) == [], (lid, f, c)
             # what is drawn has the legend's colours (hatching: the pattern's own line)
             drawn = page.evaluate("""([lid, keys]) => {
               const gc = window.__geoCorrosion, out = {};
@@ -348,7 +317,7 @@ def _check_colours(page: Any) -> None:
 @pytest.mark.slow
 def test_no_two_shown_layers_share_a_colour(sample_page: Any) -> None:
     # issue 14 item 1: "no two layers shown together share a colour"; CIE76 delta E
-    # (CIE 15:2004) computed here from the legend the page shows
+    # (CIE 15:2004, tests/webmap/colour.py) computed from the legend the page shows
     page, _ = sample_page
     _check_colours(page)
 

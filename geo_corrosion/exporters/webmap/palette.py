@@ -5,7 +5,7 @@ combined) share :data:`SEVERITY_RAMP` (light = least severe, dark = most severe;
 lightness falls monotonically so it reads in grey scale).  Only one of those fills is
 shown at a time.  Everything drawn over them (contours, sounding, joints, zones,
 repairs, readings) takes a hue that no ramp colour and no other overlay is near: every
-pair differs by more than 12 in CIE76 delta E (CIELAB, D65; checked by
+pair differs by more than 10 in CIE76 delta E (CIELAB, D65; checked by
 ``tests/webmap/test_palette.py``).  Zones and sounding are outlines and hatching, never
 a translucent fill, so a class colour is never mixed into another.  Hues after Okabe &
 Ito (2008) and Tol (2021, "muted").
