@@ -12,8 +12,10 @@ exporter; the map cannot tell the copies from surveyed levels.
 Load time is measured in Debian's chromium (``/usr/bin/chromium``, headless, through
 Playwright, every request that is not ``file:`` or ``data:`` aborted): the first paint and
 the first contentful paint from the Paint Timing API, the page's load event from the
-Navigation Timing API, and the time the map's own script took until the first level was
-drawn (``window.__geoCorrosion.readyMs``).  Medians of ``--repeat`` fresh pages.
+Navigation Timing API, the time the map's own script took until the first level was
+drawn (``map_script``), the moment it was drawn (``map_drawn``) and the first frame painted
+after it (``map_painted``, the time to first paint of the map), all from navigation start.
+Medians of ``--repeat`` fresh pages.
 
     python benchmarks/bench_webmap.py --run-dir RUN_FOLDER         # an existing run
     python benchmarks/bench_webmap.py --levels 4 --width-ft 400 --depth-ft 250   # 100,000
@@ -101,14 +103,17 @@ def load_times(html: Path, repeat: int) -> dict[str, float]:
             page.goto(html.as_uri(), timeout=600_000)
             page.wait_for_function("window.__geoCorrosion && window.__geoCorrosion.ready",
                                    timeout=600_000)
-            page.wait_for_timeout(200)
+            page.wait_for_function("window.__geoCorrosion.paintedAt !== undefined",
+                                   timeout=600_000)
             got: Any = page.evaluate("""() => {
               const p = {}; performance.getEntriesByType('paint').forEach(e =>
                 p[e.name] = e.startTime);
               const n = performance.getEntriesByType('navigation')[0];
               return {first_paint: p['first-paint'], first_contentful_paint:
                       p['first-contentful-paint'], load_event: n.loadEventEnd,
-                      map_script: window.__geoCorrosion.readyMs}; }""")
+                      map_script: window.__geoCorrosion.readyMs,
+                      map_drawn: window.__geoCorrosion.readyAt,
+                      map_painted: window.__geoCorrosion.paintedAt}; }""")
             rows.append(got)
             ctx.close()
         b.close()

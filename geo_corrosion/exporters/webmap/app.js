@@ -280,6 +280,11 @@ function gcStart(map, cfg) {
   };
   showLevel(order[0]);
   window.__geoCorrosion.readyMs = performance.now() - t0;
+  window.__geoCorrosion.readyAt = performance.now();
+  // the first frame painted with the first level drawn (for benchmarks)
+  requestAnimationFrame(function () {
+    setTimeout(function () { window.__geoCorrosion.paintedAt = performance.now(); }, 0);
+  });
   window.__geoCorrosion.ready = true;
   window.gcMap = map;
 }
