@@ -14,8 +14,9 @@ Playwright, every request that is not ``file:`` or ``data:`` aborted): the first
 the first contentful paint from the Paint Timing API, the page's load event from the
 Navigation Timing API, the time the map's own script took until the first level was
 drawn (``map_script``), the moment it was drawn (``map_drawn``) and the first frame painted
-after it (``map_painted``, the time to first paint of the map), all from navigation start.
-Medians of ``--repeat`` fresh pages.
+after it (``map_painted``, the time to first paint of the map), all from navigation start;
+then the time to switch to the last level (parsed and built on first show) and to turn on
+its first readings layer, each until the next frame.  Medians of ``--repeat`` fresh pages.
 
     python benchmarks/bench_webmap.py --run-dir RUN_FOLDER         # an existing run
     python benchmarks/bench_webmap.py --levels 4 --width-ft 400 --depth-ft 250   # 100,000
@@ -114,6 +115,16 @@ def load_times(html: Path, repeat: int) -> dict[str, float]:
                       map_script: window.__geoCorrosion.readyMs,
                       map_drawn: window.__geoCorrosion.readyAt,
                       map_painted: window.__geoCorrosion.paintedAt}; }""")
+            got.update(page.evaluate("""async () => {
+              const gc = window.__geoCorrosion, ids = gc.config.levels.map(l => l.id);
+              const frame = () => new Promise(r => requestAnimationFrame(() => setTimeout(r, 0)));
+              const t0 = performance.now();
+              gc.show(ids[ids.length - 1]); await frame();
+              const t1 = performance.now();
+              const k = gc.layers(gc.current()).find(l => l.key.startsWith('readings_'));
+              if (k) { gc.add(gc.current(), k.key); await frame(); }
+              return {switch_to_last_level: t1 - t0, first_readings_layer_on:
+                      performance.now() - t1}; }"""))
             rows.append(got)
             ctx.close()
         b.close()
