@@ -63,6 +63,13 @@ function gcStart(map, cfg) {
     return o;
   }
 
+  // popups pan the map clear of the side panel and the layer control
+  function popupOpts() {
+    var side = document.getElementById('gc-side');
+    var left = side ? side.getBoundingClientRect().right + 10 : 10;
+    var right = box ? window.innerWidth - box.getBoundingClientRect().left + 10 : 10;
+    return {autoPanPaddingTopLeft: [left, 10], autoPanPaddingBottomRight: [right, 10]};
+  }
   function table(rows) {
     var out = '<table class="gc-popup">';
     rows.forEach(function (r) { if (r[1] !== '' && r[1] != null) out += '<tr><th>' + r[0] + '</th><td>' + r[1] + '</td></tr>'; });
@@ -88,7 +95,7 @@ function gcStart(map, cfg) {
         renderer: fill ? fillSvg : lineSvg,
         style: function (f) { return styleOf(s.style, f.properties); },
         onEachFeature: function (f, l) {
-          if (s.popup) l.bindPopup(function () { return table(propRows(f.properties)); });
+          if (s.popup) l.bindPopup(function () { return table(propRows(f.properties)); }, popupOpts());
           else if (s.tooltip) l.bindTooltip(function () { return table(propRows(f.properties)); }, {sticky: true});
         }
       });
@@ -120,7 +127,7 @@ function gcStart(map, cfg) {
     g.on('click', function (e) {
       var i = e.layer._gcIndex;
       var rows = Object.keys(s.cols).map(function (k) { return [k, cell(s.cols[k], i)]; });
-      L.popup().setLatLng(e.layer.getLatLng()).setContent(table(rows)).openOn(map);
+      L.popup(popupOpts()).setLatLng(e.layer.getLatLng()).setContent(table(rows)).openOn(map);
     });
     return g;
   }
