@@ -260,6 +260,18 @@ _ALL: tuple[Source, ...] = (
            "Guide for the Design and Construction of Durable Concrete Parking Structures",
            2012, "ACI 362.1R-12", "ACI 362.1R-12",
            "Contents read; the cover table is from memory. Not used."),
+    Source("ACI-222R-19", "ACI Committee 222",
+           "Guide to Protection of Reinforcing Steel in Concrete Against Corrosion", 2019,
+           "ACI 222R-19", "ACI 222R-19",
+           "From memory: half-cell surveys need an electrical connection to reinforcement "
+           "that is continuous; mats separated by joints are tested for continuity and "
+           "connected separately. Not read again."),
+    Source("ACI-224.3R-95", "ACI Committee 224",
+           "Joints in Concrete Construction", 1995, "ACI 224.3R-95 (reapproved 2013)",
+           "ACI 224.3R-95",
+           "From memory: expansion and isolation joints separate members (no bar crosses "
+           "them); construction joints carry the bars through; contraction (control) joints "
+           "may cut part of the bars. Not read again."),
     Source("ACI-228.2R-13", "ACI Committee 228",
            "Report on Nondestructive Test Methods for Evaluation of Concrete in Structures",
            2013, "ACI 228.2R-13", "ACI 228.2R-13", "Abstract and front matter read."),
@@ -307,6 +319,35 @@ _ALL: tuple[Source, ...] = (
     Source("Goovaerts-1997", "P. Goovaerts", "Geostatistics for Natural Resources Evaluation",
            1997, "Oxford University Press, New York", "Goovaerts (1997)",
            "Multi-Gaussian reading of kriging output."),
+    Source("Journel-Huijbregts-1978", "A.G. Journel, C.J. Huijbregts", "Mining Geostatistics",
+           1978, "Academic Press, London", "Journel & Huijbregts (1978)",
+           "Conditioning by kriging of an unconditional simulation (ch. VII), from memory: "
+           "confirm the chapter."),
+    Source("Chiles-Delfiner-2012", "J.-P. Chilès, P. Delfiner",
+           "Geostatistics: Modeling Spatial Uncertainty", 2012, "2nd ed., Wiley, Hoboken",
+           "Chilès & Delfiner (2012)",
+           "Conditional simulation by kriging (§7.3.1) and kriging with measurement error, the "
+           "nugget filtered (§3.7.1), from memory: confirm the sections."),
+    Source("Wood-Chan-1994", "A.T.A. Wood, G. Chan",
+           "Simulation of stationary Gaussian processes in [0, 1]^d", 1994,
+           "Journal of Computational and Graphical Statistics 3(4) (1994) 409-432",
+           "Wood & Chan (1994)",
+           "Circulant embedding and the FFT for unconditional Gaussian fields, from memory."),
+    Source("Dietrich-Newsam-1997", "C.R. Dietrich, G.N. Newsam",
+           "Fast and exact simulation of stationary Gaussian processes through circulant "
+           "embedding of the covariance matrix", 1997,
+           "SIAM Journal on Scientific Computing 18(4) (1997) 1088-1107",
+           "Dietrich & Newsam (1997)",
+           "Circulant embedding; padding enlarged while eigenvalues are negative, from memory."),
+    Source("Keys-1981", "R.G. Keys",
+           "Cubic convolution interpolation for digital image processing", 1981,
+           "IEEE Transactions on Acoustics, Speech, and Signal Processing 29(6) (1981) "
+           "1153-1160", "Keys (1981)",
+           "The cubic convolution kernel (a = -1/2) of the sub-cell areas, from memory."),
+    Source("Deutsch-Journel-1998", "C.V. Deutsch, A.G. Journel",
+           "GSLIB: Geostatistical Software Library and User's Guide", 1998,
+           "2nd ed., Oxford University Press, New York", "Deutsch & Journel (1998)",
+           "Sequential Gaussian simulation, considered and not used (its cost), from memory."),
     Source("Webster-Oliver-2007", "R. Webster, M.A. Oliver",
            "Geostatistics for Environmental Scientists", 2007, "2nd ed., Wiley, Chichester",
            "Webster & Oliver (2007)", "Cross-validation diagnostics."),
@@ -390,6 +431,14 @@ ASSUMPTIONS_TO_CONFIRM: tuple[str, ...] = (
     "only on a firm's web page; check a published table [Ives-Janz-1961].",
     "ACI 318 cover tolerance -1/2 in for members deeper than 8 in (sample site "
     "millbrook_garage, low-cover thresholds): from memory [ACI-318-19 §26.6.2.1]; check.",
+    "Conditional simulation (surfaces/simulation.py): conditioning by kriging, the nugget "
+    "filtered as measurement error, circulant embedding, from memory "
+    "[Journel-Huijbregts-1978 ch. VII; Chiles-Delfiner-2012 §7.3.1, §3.7.1] "
+    "[Wood-Chan-1994; Dietrich-Newsam-1997]; the unconditional value at a reading by "
+    "simple kriging from 4 x 4 lattice nodes with independent residuals: common practice; "
+    "the cost of sequential Gaussian simulation, the alternative not chosen "
+    "[Deutsch-Journel-1998 §V.2.3]; the cubic convolution kernel of the sub-cell areas "
+    "[Keys-1981]; check.",
     "Kriging: the variance scaled so that the leave-one-out MSSE is 1 "
     "(stages/map_surfaces.py), the "
     "multi-Gaussian reading of kriging output for the probability maps "
@@ -397,6 +446,12 @@ ASSUMPTIONS_TO_CONFIRM: tuple[str, ...] = (
     "practice, from memory "
     "[Webster-Oliver-2007 §8.3; Goovaerts-1997 ch. 7; Journel-1980; Cressie-1993 §3.2]; "
     "check.",
+    "Joints: expansion and isolation joints break the electrical continuity of the "
+    "reinforcing mat, construction and control joints do not (config.JOINT_TYPES, "
+    "BREAKING_JOINT_TYPES; a joint layer without a type is taken as construction joints, "
+    "common practice); a half-cell survey needs a ground connection in each continuity region "
+    "(QA-GROUND-CONNECTION): from memory [ACI-224.3R-95; ACI-222R-19; ASTM-C876-22a]; check "
+    "the clauses.",
     "Open items of the project's notes not used by the code yet: RILEM continuity limits "
     "(< 1 ohm, < 1 mV) and grid sizes 0.15-1.0 m [RILEM-TC154-2003]; cylinder correction "
     "factors [Morris-Moreno-1996]; the T 358 lime-water curing factor 1.1 "
@@ -436,6 +491,18 @@ ASSUMPTIONS_TO_CONFIRM: tuple[str, ...] = (
     "are owner-specific.",
     "Bid items and units, a 20 % contingency line, galvanic anodes as ceil(perimeter / "
     "spacing) with no default spacing (quantities.py): common practice.",
+    "Repair sides rounded up to multiples of 3 in (US sites) or 50 mm (metric sites), the "
+    "extra split evenly or put away from a joint, an exclusion or the slab edge "
+    "(repair/rounding.py; site key repair_increment): common practice.",
+    "A spall without a depth taken at half the cover, so above the bars; a delamination "
+    "without a depth at the bars, so below them (repair/layout.py "
+    "SPALL_DEPTH_SHARE_OF_COVER): common practice.",
+    "Bar replacement allowance: 10 % of the area of the repairs that expose the bars, with a "
+    "two-way top mat at 12 in (site keys bar_replacement_share, bar_spacing; "
+    "repair/tender.py): common practice.",
+    "Area treatments paid on whole bays between joints and column lines, a bay paid when a "
+    "treatment zone covers more than 10 % of it (site keys pay_area, pay_area_share; "
+    "repair/tender.py): common practice.",
     "Site threshold where the weighted mixture components cross, and the Ashman's D < 2 "
     "warning (condition/potential.py): common practice, after [Gulikers-Elsener-2008].",
     "Bar review beyond 25 % section loss (20 % for adjacent bars) (condition/life.py): read "

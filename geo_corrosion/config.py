@@ -36,10 +36,13 @@ from geo_corrosion.units import LENGTH_TO_M, UnitSystem, parse_area, parse_lengt
 __all__ = [
     "LayerRef",
     "OverlayRef",
+    "JointRef",
+    "GroundConnection",
     "ControlPoint",
     "GridConfig",
     "LevelConfig",
     "SurveyConfig",
+    "QuantitiesConfig",
     "RunParams",
     "LayoutParams",
     "SiteConfig",
@@ -49,6 +52,8 @@ __all__ = [
     "ID_PATTERN",
     "MAX_INPUT_BYTES",
     "OVERLAY_KINDS",
+    "JOINT_TYPES",
+    "BREAKING_JOINT_TYPES",
     "VARIOGRAM_MODELS",
     "REQUIRED",
     "DERIVED",
@@ -64,8 +69,16 @@ __all__ = [
 ]
 
 COORDS = ("local", "site")
-OVERLAY_KINDS = ("delamination", "spall", "patch", "crack")
+OVERLAY_KINDS = ("delamination", "spall", "patch", "crack", "soffit_delamination")
 VARIOGRAM_MODELS = ("auto", "spherical", "exponential", "gaussian", "matern")
+#: Kinds of joint line.  Expansion and isolation joints separate two members and their
+#: reinforcing mats (no bar crosses them); construction and control (contraction) joints
+#: normally carry continuous or tied bars [ACI-224.3R-95, from memory].
+JOINT_TYPES = ("expansion", "isolation", "construction", "control")
+#: The joint types that break the electrical continuity of the reinforcement by default: a
+#: half-cell survey needs a connection to the mat on each side (common practice)
+#: [ACI-222R-19, from memory; ASTM-C876-22a].
+BREAKING_JOINT_TYPES = ("expansion", "isolation")
 
 #: Longest id (level, survey, control point): ids become file names, GeoPackage layer names
 #: and DXF layer names, and 40 characters keep a name such as ``<id>_potential_classes`` well
@@ -375,11 +388,59 @@ class LayerRef:
 
 @dataclass(frozen=True, kw_only=True)
 class OverlayRef:
-    """An overlay layer: delaminations, spalls, patches or cracks."""
+    """An overlay layer: delaminations, spalls, patches, cracks or soffit delaminations."""
 
     kind: str = key("kind", "string", choices=OVERLAY_KINDS, table="levels.overlays",
                     help="What the layer shows")
     ref: LayerRef
+
+
+@dataclass(frozen=True, kw_only=True)
+class JointRef:
+    """A layer of joint lines and the kind of joint they are.
+
+    ``breaks_continuity`` is None when the site file does not say it; then it follows from
+    ``joint_type`` (:attr:`breaks`).
+    """
+
+    joint_type: str = key(
+        "type", "string", "construction", choices=JOINT_TYPES, table="levels.joints",
+        help="The kind of joint every line of the layer is",
+        doc="Expansion and isolation joints separate two reinforcing mats that are not "
+            "electrically continuous; construction and control joints normally carry "
+            "continuous or tied bars [ACI-224.3R-95, from memory]. A layer without `type` is "
+            "taken as construction joints (common practice: most joints drawn on a deck are "
+            "construction or control joints); give expansion joints their own layer with "
+            "`type = \"expansion\"`.")
+    breaks_continuity: bool | None = key(
+        "breaks_continuity", "boolean", None, table="levels.joints",
+        default_doc="`true` for expansion and isolation, `false` for construction and control",
+        help="Whether the bars are electrically discontinuous across these joints",
+        doc="A breaking joint splits the deck into continuity regions: potential surfaces are "
+            "kriged in each region from its own readings only, and a potential survey spanning "
+            "two regions names a ground connection in each [ACI-222R-19, from memory]. Set "
+            "`true` for a construction joint found discontinuous by a continuity test, `false` "
+            "for an expansion joint whose mats are bonded across it.")
+    ref: LayerRef
+
+    @property
+    def breaks(self) -> bool:
+        """Whether these joints break the electrical continuity of the mat."""
+        if self.breaks_continuity is not None:
+            return bool(self.breaks_continuity)
+        return self.joint_type in BREAKING_JOINT_TYPES
+
+
+@dataclass(frozen=True, kw_only=True)
+class GroundConnection:
+    """A connection of the half-cell voltmeter to the reinforcing mat, in survey-grid coords."""
+
+    x: float = key("x", "number", table="surveys.ground_connections", unit="grid units",
+                   help="Its x in the level's survey grid")
+    y: float = key("y", "number", table="surveys.ground_connections", unit="grid units",
+                   help="Its y in the level's survey grid")
+    label: str = key("label", "string", DERIVED, table="surveys.ground_connections",
+                     default_doc="`G1`, `G2`, …", help="Its name, for messages and maps")
 
 
 @dataclass(frozen=True)
@@ -442,11 +503,32 @@ class LevelConfig:
         example='[ { path = "plans/L1.dxf", layer = "COLUMNS" } ]',
         help="Columns, cores, ramps and openings",
         doc="They are holes in the deck, and repairs stop at them.")
-    joints: LayerRef | None = key(
-        "joints", "layer", None, active=True,
-        example='{ path = "plans/L1.dxf", layer = "JOINTS" }',
+    joints: tuple[JointRef, ...] = key(
+        "joints", "joints", [], active=True,
+        type_doc="joint layer reference, or a list of them",
+        example='[\n  { path = "plans/L1.dxf", layer = "JOINTS", type = "construction" },\n'
+                '  { path = "plans/L1.dxf", layer = "EXP-JOINTS", type = "expansion" },\n]',
         help="Joint lines; a repair never crosses one",
-        doc="No saw cut is counted along a joint.")
+        doc="No saw cut is counted along a joint. Each layer reference may say the joint "
+            "`type` and whether it `breaks_continuity` (see *Joints*); one reference "
+            "`{ path, layer }` is a list of one.")
+    column_grid: LayerRef | None = key(
+        "column_grid", "layer", None,
+        example='{ path = "plans/L1.dxf", layer = "GRID" }',
+        help="Column-grid lines, each labelled (C, 3)",
+        doc="A GIS layer labels a line by its `label`, `name` or `id` attribute; a DXF layer by "
+            "a text at one of its ends on the same layer. Repairs are located from the nearest "
+            "grid intersection, and the pay-area bays are split at these lines as at joints.")
+    station_start: float | None = key(
+        "station_start", "number", None, unit="grid units", example="1250.0",
+        help="A deck's station at grid x = 0, in grid units (12+50 = 1250.0 ft)",
+        doc="Stations run along grid x. Without a column grid, repairs are located by station "
+            "and offset (`Sta. 12+61.25, 3.50 ft Lt`; left of the centreline looking up-station "
+            "is +y).")
+    station_centerline_y: float = key(
+        "station_centerline_y", "number", 0.0, unit="grid units", example="20.0",
+        help="Grid y of the deck's centreline, from which offsets are measured",
+        doc="Used with `station_start`.")
     overlays: tuple[OverlayRef, ...] = key(
         "overlays", "overlays", [], active=True, type_doc="list of overlay references",
         example='[\n  { kind = "delamination", path = "sounding/L1.dxf", layer = "DELAM" },\n'
@@ -463,6 +545,11 @@ class LevelConfig:
         "cover_tolerance", "length", None, unit="mm", ge=0, le=100, positive=False,
         example='"0.5 in"',
         help="Placement tolerance, subtracted from specified_cover")
+    slab_thickness_mm: float | None = key(
+        "slab_thickness", "length", None, unit="mm", gt=0, le=3000, example='"7 in"',
+        default_doc="`[run].slab_thickness`",
+        help="This level's slab thickness, for full-depth repairs",
+        doc="Overrides `[run].slab_thickness` on this level.")
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -517,6 +604,16 @@ class SurveyConfig:
             **_ALLOW_OUTSIDE,
             "doc": _ALLOW_OUTSIDE["doc"] + " It applies to `path` and to the instrument files "
                    "of `[surveys.options]` (`transients`, `sweeps`)."})
+    ground_connections: tuple[GroundConnection, ...] = key(
+        "ground_connections", "connections", [],
+        type_doc="list of `{ x, y, label }`",
+        example='[ { x = 10.0, y = 4.0, label = "G1" }, { x = 150.0, y = 4.0, label = "G2" } ]',
+        help="Where the voltmeter was connected to the bars, survey-grid coordinates",
+        doc="Potentials only. A half-cell reading needs a connection to the mat it is on: a "
+            "potential survey whose readings lie in two or more continuity regions (split by "
+            "breaking joints) names a connection in each, or QA flags it "
+            "(`QA-GROUND-CONNECTION`) [ACI-222R-19, from memory; ASTM-C876-22a]. A connection "
+            "outside the slab is refused.")
     columns: Mapping[str, str] = key(
         "columns", "table", {}, type_doc="table `[surveys.columns]`",
         help="Our column name = the file's column name",
@@ -547,10 +644,13 @@ class RunParams:
         "cell_size", "length", "1 ft", unit="m", ge=0.01, le=100.0, help="Kriging grid cell",
         doc="A level's grid may hold at most 20 million cells: `check` refuses a smaller cell "
             "before any work, saying the least cell size that fits.")
-    max_distance_m: float = key(
-        "max_distance", "length", "6 ft", unit="m", le=1000.0,
-        help="No surface farther than this from any reading",
-        doc="A cell farther than this from its nearest reading is left empty.")
+    max_distance_m: float | None = key(
+        "max_distance", "length", None, unit="m", gt=0, le=1000.0, example='"6 ft"',
+        default_doc="derived per kind",
+        help="No surface farther than this from any reading, for every kind",
+        doc="A cell farther than this from its nearest reading is left empty. Without it, each "
+            "kind's distance is derived from its reading spacing and fitted range (see "
+            "`[run.kinds.<kind>]`); `[run.kinds.<kind>] max_distance` overrides it for a kind.")
     contour_interval_mv: float = key(
         "contour_interval_mv", "number", 50, unit="mV", gt=0,
         help="Potential contour interval; more than 100 mV is refused",
@@ -591,11 +691,49 @@ class RunParams:
         doc="The kriging variance is then honest (MSSE = 1); estimates in the kriged space are "
             "unchanged ([methods.md](methods.md) §3.2). Not applied when "
             "`[run.variogram.<kind>]` fixes `nugget` or `psill`.")
+    interval_method: str = key(
+        "interval_method", "string", "separable-approximation",
+        choices=("simulation", "separable-approximation"),
+        help="How the interval of each area beyond a threshold is found",
+        doc="`simulation`: conditional simulation of the field, nugget as measurement error, "
+            "areas at sub-cell resolution (surfaces/simulation.py): its 90 % intervals held "
+            "the true area on 86 % of 128 synthetic decks at about the width of the actual "
+            "error (benchmarks/README.md); `separable-approximation` (the default until the "
+            "simulation meets its speed target, benchmarks/README.md): kriging sd, separable "
+            "correlation over the variogram range, whole cells; its intervals were about five "
+            "times too wide.")
+    realisations: int = key(
+        "realisations", "integer", 200, unit="realisations", ge=20, le=5000,
+        help="Conditional simulations for the areas, their intervals and probability maps",
+        doc="With `interval_method = \"simulation\"`; seed fixed, so runs repeat; time grows "
+            "in proportion. How the bounds move with the seed at 50-400 realisations is "
+            "measured by `benchmarks/interval_calibration.py --seeds` (not yet recorded).")
     anode_spacing_mm: float | None = key(
         "anode_spacing", "length", None, unit="mm", example='"24 in"',
         help="Galvanic anode spacing along repair perimeters",
         doc="When given, the schedule carries an `ANODE` item (EA), ceil(perimeter / spacing) "
             "per repair. Without it, no anode item.")
+    bar_replacement_share: float = key(
+        "bar_replacement_share", "number", 0.1, unit="fraction", ge=0, le=1,
+        expect="a fraction from 0 to 1 (0.1 = 10 %)",
+        help="Share of the area of repairs that expose the bars whose bars are replaced",
+        doc="Common practice, no source; to confirm. The `BAR-REPL` item (LF or m) is this "
+            "share of the area of the repairs below the bars and full depth times the bar of a "
+            "two-way top mat at `bar_spacing` (2 / spacing per unit area).")
+    bar_spacing_mm: float = key(
+        "bar_spacing", "length", "12 in", unit="mm", gt=0, le=1000,
+        help="Top-mat bar spacing, each way, for the bar replacement allowance")
+    pay_area: str = key(
+        "pay_area", "string", "bay", choices=("bay", "level", "zone"),
+        help="How area treatments are priced: whole bays, whole levels or the zones as mapped",
+        doc="`bay`: the slab split at its joints (the repair layout's panels); a bay is paid "
+            "whole when a treatment zone covers more than `pay_area_share` of it. `level`: the "
+            "whole deck of a level with any of the zone. `zone`: the zone's own area.")
+    pay_area_share: float = key(
+        "pay_area_share", "number", 0.1, unit="fraction", ge=0, lt=1,
+        expect="a fraction from 0 to below 1 (0.1 = 10 %)",
+        help="A bay is paid when a treatment zone covers more than this share of it",
+        doc="Common practice, no source; to confirm.")
     min_zone_area_m2: float = key(
         "min_zone_area", "area", "0.5 m2", unit="m2", ge=0,
         help="Zone parts smaller than this are left to later rules",
@@ -613,6 +751,13 @@ class RunParams:
         "variogram", "tables", {}, type_doc="tables `[run.variogram.<kind>]`",
         default_doc="none: every parameter is fitted",
         help="Fixed variogram parameters of a measurement kind",
+        doc="One table per kind; see below.")
+    #: kind -> its surface rule and neighbourhood (``max_distance_m`` in metres), from
+    #: [run.kinds.<kind>]
+    kinds: dict[str, dict[str, Any]] = key(
+        "kinds", "tables", {}, type_doc="tables `[run.kinds.<kind>]`",
+        default_doc="none: the defaults below",
+        help="When a kind gets a surface, and how far it reaches",
         doc="One table per kind; see below.")
     #: [webmap].basemap_url: street-tile URL template (https, with {z}, {x}, {y}); None = none
     basemap_url: str | None = key(
@@ -658,6 +803,16 @@ class LayoutParams:
         "min_repair_size", "length", "300 mm", unit="mm", ge=0, le=10000,
         table="run", record="min_repair_size_m", help="Smallest repair side",
         doc="Applied again to the pieces that joints and exclusions leave.")
+    round_increment_mm: float | None = key(
+        "repair_increment", "length", None, unit="mm", ge=0, le=1000, table="run",
+        record="repair_increment_m", example='"3 in"',
+        default_doc='`"3 in"` (`units = "us"`), `"50 mm"` (`"metric"`)',
+        help="Repair sides are rounded up to multiples of this",
+        doc="Common practice, no source. Each repair still holds what it covered; where "
+            "rounding up would cross a joint, enter an exclusion or leave the slab, the extra "
+            "goes to the other side, or the side is clipped there with a note on the repair. "
+            "`\"0 mm\"` turns rounding off. The library's own default (`LayoutParams`) is no "
+            "rounding.")
     min_reentrant_mm: float = param(
         300.0, unit="mm", ge=0, le=10000,
         help="Smallest notch, step or strip kept in an L/T-shaped repair (common practice)")
@@ -701,6 +856,47 @@ class LayoutParams:
         _check_declared(self, "repair layout", RepairError)
 
 
+#: Sheets of ``[drawings].sheet`` (common practice: ANSI/ASME Y14.1 and ISO 216 sizes).
+SHEETS = ("auto", "ANSI-C", "ANSI-D", "ANSI-E", "ISO-A2", "ISO-A1", "ISO-A0")
+
+
+@dataclass(frozen=True)
+class DrawingParams:
+    """The drawing sheets' settings, from ``[drawings]``."""
+
+    coords: str = key(
+        "coords", "string", "grid", choices=("grid", "site"),
+        help="Model space in the survey grid, or in the site CRS",
+        doc="`\"grid\"` draws each level square to the sheet in its local survey grid; "
+            "`\"site\"` draws it in the site CRS, for pasting into a surveyed base plan (north "
+            "is then up on the sheet).")
+    sheet: str = key(
+        "sheet", "string", "auto", choices=SHEETS,
+        help="Sheet size; auto: ANSI-D (34 x 22 in) for us units, ISO-A1 for metric",
+        doc="The plan is drawn at the largest standard scale that fits (1\" = 10', 20', 30', "
+            "40', 50', 60', 80', 100'; or 1:50, 1:100, 1:200, 1:250, 1:500, 1:1000); a plan "
+            "that fits at none of them is refused, naming this key.")
+    engineer: str = key(
+        "engineer", "string", "(engineer not given)", example='"Engineer of record"',
+        help="The engineer named in the title block")
+
+
+@dataclass(frozen=True, kw_only=True)
+class QuantitiesConfig:
+    """The ``[quantities]`` table: the price list of the engineer's estimate."""
+
+    price_list: Path | None = key(
+        "price_list", "path", None, example='"prices.csv"', type_doc="string",
+        help="A price list (CSV) for the engineer's estimate",
+        doc="Columns `item`, `description`, `unit`, `unit_price`, `currency`, one row per bid "
+            "item ([file-formats.md](file-formats.md#price-list)). With it the schedule carries "
+            "unit prices and amounts, a subtotal, contingency and total per level, and the "
+            "workbook computes them as formulas. " + _PATH_DOC)
+    allow_outside: bool = key("allow_outside", "boolean", False, **{
+        **_ALLOW_OUTSIDE, "help": "Allow a price list outside the site folder; a firm's "
+                                  "shared list"})
+
+
 @dataclass(frozen=True, kw_only=True)
 class SiteConfig:
     """A parsed, validated site file."""
@@ -733,6 +929,10 @@ class SiteConfig:
     zoning: tuple[tuple[str, dict[str, Any]], ...] = ()
     #: the combined-condition rule table as given in [condition.combined] (None = default)
     combined_rules: dict[str, Any] | None = None
+    #: the drawing sheets' settings, from [drawings]
+    drawings: DrawingParams = field(default_factory=DrawingParams)
+    #: the [quantities] table: the price list of the estimate
+    quantities: QuantitiesConfig = field(default_factory=QuantitiesConfig)
 
     def level(self, level_id: str) -> LevelConfig:
         """Return the level with this id."""
@@ -799,11 +999,12 @@ def _ordered(keys: Sequence[Key], order: Sequence[str]) -> tuple[Key, ...]:
 #: the allowed keys and run.json's ``parameters`` (docs/file-formats.md §3.5).
 _RUN_ORDER = (
     "cell_size", "max_distance", "contour_interval_mv", "repair_margin", "merge_gap",
-    "min_repair_size", "contingency", "n_neighbors", "variogram_model",
+    "min_repair_size", "repair_increment", "contingency", "n_neighbors", "variogram_model",
     "resistivity_reference_c", "activation_energy_kj_mol", "cse_reference_c",
-    "correct_only_outside_band", "calibrate_variance", "bar_diameter", "max_aggregate",
-    "slab_thickness", "sawcut_depth", "axis_angle_deg", "anode_spacing", "min_zone_area",
-    "zone_smoothing", "variogram",
+    "correct_only_outside_band", "calibrate_variance", "interval_method", "realisations",
+    "bar_diameter", "max_aggregate", "slab_thickness", "sawcut_depth", "axis_angle_deg",
+    "anode_spacing", "bar_replacement_share", "bar_spacing", "pay_area", "pay_area_share",
+    "min_zone_area", "zone_smoothing", "variogram", "kinds",
 )
 
 _CLASS_KEYS_DOC = "class key or list of class keys"
@@ -838,14 +1039,44 @@ TABLES: dict[str, TableSpec] = {t.name: t for t in (
         Key("anisotropy_angle_deg", "number", None, unit="degrees", example="0.0",
             default_doc="fitted", help="Major axis, degrees counter-clockwise from grid x"),
     )),
+    TableSpec("run.kinds.<kind>", _in(
+        "run.kinds.<kind>",
+        Key("min_readings_for_surface", "integer", 30, unit="readings", ge=3,
+            help="Fewest usable readings for a kriged surface",
+            doc="With fewer, the kind is shown as its readings, coloured by class, with their "
+                "Thiessen cells ([methods.md](methods.md) §3.4)."),
+        Key("max_spacing_to_range", "number", 0.5, unit="fraction", gt=0, le=10,
+            help="Largest median reading spacing, as a fraction of the fitted practical range",
+            doc="Readings farther apart are shown as points too."),
+        Key("max_distance", "length", None, unit="m", field="max_distance_m", gt=0,
+            le=1000.0, example='"20 ft"', default_doc="derived: see below",
+            help="No surface of this kind farther than this from its readings",
+            doc="Overrides `[run] max_distance` for this kind. Derived: max(2.5 x median "
+                "nearest-neighbour spacing, min(fitted practical range, 5 x spacing)). The "
+                "search radius is the larger of this and the fitted practical range."),
+        Key("threshold", "number", None, unit="the kind's unit", example="-300.0",
+            default_doc="the kind's published threshold",
+            help="Threshold of the kind's area-beyond-threshold statement and probability map",
+            doc="In the kind's unit (mV vs CSE, kOhm.cm, uA/cm2), for a kind that has such a "
+                "statement (potential -350 mV [ASTM-C876-91 App. X1, from memory], resistivity "
+                "10 kOhm.cm, corrosion rate 1 uA/cm2 [RILEM-TC154-2000]). The value must lie "
+                "inside the kind's plausible range; the report and `run.json` then name this "
+                "key as the threshold's source."),
+    )),
     TableSpec("webmap", keys_of(RunParams, "webmap", home="run")),
+    TableSpec("drawings", keys_of(DrawingParams, "drawings")),
+    TableSpec("quantities", keys_of(QuantitiesConfig, "quantities")),
     TableSpec("levels", keys_of(LevelConfig, "levels")),
     TableSpec("layer", keys_of(LayerRef, "layer")),
     TableSpec("levels.overlays", keys_of(OverlayRef, "levels.overlays")
               + keys_of(LayerRef, "layer")),
+    TableSpec("levels.joints", keys_of(JointRef, "levels.joints")
+              + keys_of(LayerRef, "layer")),
     TableSpec("levels.grid", keys_of(GridConfig, "levels.grid")),
     TableSpec("levels.grid.control_points", keys_of(ControlPoint, "levels.grid.control_points")),
     TableSpec("surveys", keys_of(SurveyConfig, "surveys")),
+    TableSpec("surveys.ground_connections", keys_of(GroundConnection,
+                                                    "surveys.ground_connections")),
     TableSpec("condition", _in(
         "condition", Key("combined", "table", None, help="The combined condition rule table"))),
     TableSpec("condition.combined", _in(
@@ -912,6 +1143,8 @@ TOP = TableSpec("", _in(
     Key("zoning", "tables", None, help="The zoning rules, in order"),
     Key("condition", "table", None, help="The combined condition rules"),
     Key("webmap", "table", None, help="A street basemap of the web map"),
+    Key("drawings", "table", None, help="The drawing sheets"),
+    Key("quantities", "table", None, help="The price list of the estimate"),
 ))
 
 

@@ -45,6 +45,7 @@ from geo_corrosion.stages.map_surfaces import map_level
 from geo_corrosion.stages.open_site import open_site
 from geo_corrosion.stages.plan_repairs import (
     low_cover_mask,
+    pay_area_frame,
     plan_level,
     planning_params,
     schedule_quantities,
@@ -106,7 +107,9 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
             condition, life_frames = assess_condition(
                 lv, mapped, site.surveys_of(lid),
                 rules=site.config.combined_rules, bar_diameter_mm=planning.layout.bar_diameter_mm,
-                low_cover=low_cover)
+                low_cover=low_cover, interval_method=params.interval_method,
+                realisations=params.realisations, n_neighbors=params.n_neighbors,
+                kinds=params.kinds)
             frames.update(life_frames)
         say(f"level {lid}: laying out repairs and zones")
         repairs, zones, notes = plan_level(lv, mapped.surfaces, planning, low_cover=low_cover)
@@ -116,11 +119,13 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
         stats["planning"] = notes
         levels[lid] = LevelResult(lv, surfaces=mapped.surfaces, repairs=repairs, zones=zones,
                                   stats=stats, skipped=mapped.skipped, condition=condition,
-                                  readings=mapped.readings)
+                                  readings=mapped.readings, points=mapped.points,
+                                  pay_areas=pay_area_frame(lv, zones, planning))
     surveys = tuple(dataclasses.replace(s, frame=frames[s.id]) if s.id in frames else s
                     for s in site.surveys)
     schedule = schedule_quantities(levels.values(), units=units, contingency=params.contingency,
-                                   anode_spacing_mm=params.anode_spacing_mm)
+                                   anode_spacing_mm=params.anode_spacing_mm,
+                                   prices=site.prices)
     return RunResult(dataclasses.replace(site, surveys=surveys), flags, levels, schedule)
 
 

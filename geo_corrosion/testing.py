@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import json
 import math
+from collections.abc import Sequence
 from pathlib import Path
 from typing import TypedDict
 
@@ -50,8 +51,23 @@ def make_synthetic_site(
     extra_site: str = "",
     electrode: str = "cse",
     temperature_c: float = 22.2,
+    joint_type: str | None = None,
+    joint_x: float | None = None,
+    step_mv: float = 0.0,
+    ground_connections: Sequence[tuple[float, float, str]] | None = None,
+    sparse_readings: int = 0,
+    max_distance: str | None = "6 ft",
 ) -> Path:
     """Write a one-level synthetic site (GeoJSON plans, DXF sounding, CSV readings).
+
+    With ``joint_type`` (``"expansion"``, ``"construction"``, ...), a joint line across the
+    deck at ``x = joint_x`` (default: mid-width) is written to ``plans/joints.geojson`` and
+    declared with that type; ``step_mv`` is added to the potentials beyond it (a mat at
+    another potential).  ``ground_connections`` (x, y, label) go to the potential survey.
+
+    ``sparse_readings`` (say 18, a normal spot survey) adds a corrosion-rate survey of that
+    many readings spread over the deck, too few for a surface; ``max_distance`` is written
+    to ``[run]`` (None: each kind's own, derived).
 
     Returns
     -------
@@ -90,6 +106,20 @@ def make_synthetic_site(
     x, y = X.ravel(), Y.ravel()
     act = _field(x, y)
     e_cse = -150 - 380 * act + rng.normal(0, 8, x.size)
+    jx = width_ft / 2 if joint_x is None else joint_x
+    joints_line = ""
+    if joint_type is not None:
+        e_cse = e_cse + np.where(x > jx, step_mv, 0.0)
+        joint = {"type": "FeatureCollection", "features": [
+            {"type": "Feature", "properties": {"name": "J1"},
+             "geometry": {"type": "LineString", "coordinates": [[jx, 0], [jx, depth_ft]]}}]}
+        (root / "plans" / "joints.geojson").write_text(json.dumps(joint))
+        joints_line = (f'joints = {{ path = "plans/joints.geojson", type = "{joint_type}" }}\n')
+    gc_line = ""
+    if ground_connections:
+        gc_line = "ground_connections = [ " + ", ".join(
+            f'{{ x = {gx}, y = {gy}, label = "{gl}" }}' for gx, gy, gl in ground_connections
+        ) + " ]\n"
     from geo_corrosion.corrections import cse_temperature_correction_mv, electrode_offset_mv
 
     e_file = e_cse - electrode_offset_mv(electrode) - (
@@ -102,6 +132,16 @@ def make_synthetic_site(
     lines = ["point_id,x,y,value"] + [f"R{i},{a:.2f},{b:.2f},{v:.2f}" for i, (a, b, v) in
                                       enumerate(zip(x[sel], y[sel], rho, strict=True))]
     (root / "readings" / "resistivity.csv").write_text("\n".join(lines) + "\n")
+    if sparse_readings:
+        n_x = max(1, round(math.sqrt(sparse_readings * width_ft / depth_ft)))
+        k = np.arange(sparse_readings)
+        n_y = math.ceil(sparse_readings / n_x)
+        sx = (k % n_x + 0.5) * width_ft / n_x
+        sy = (k // n_x + 0.5) * depth_ft / n_y
+        rate = np.exp(np.log(0.3) + 2.5 * _field(sx, sy) + rng.normal(0, 0.1, sx.size))
+        lines = ["point_id,x,y,value"] + [f"C{i},{a:.2f},{b:.2f},{v:.3f}" for i, (a, b, v) in
+                                          enumerate(zip(sx, sy, rate, strict=True))]
+        (root / "readings" / "corrosion_rate.csv").write_text("\n".join(lines) + "\n")
     cps = [(0.0, 0.0), (width_ft, 0.0), (0.0, depth_ft)]
     cp_site = [_site_xy(np.array(a), np.array(b)) for a, b in cps]
     cp_text = ", ".join(
@@ -114,13 +154,14 @@ units = "us"
 {extra_site}
 [run]
 cell_size = "1 ft"
-max_distance = "6 ft"
+{f'max_distance = "{max_distance}"' if max_distance else ""}
 
 [[levels]]
 id = "D1"
 name = "Test deck"
 slab = {{ path = "plans/slab.geojson" }}
 exclusions = [ {{ path = "plans/columns.geojson" }} ]
+{joints_line}\
 overlays = [ {{ kind = "delamination", path = "sounding/sounding.dxf", layer = "DELAM" }},
              {{ kind = "spall", path = "sounding/sounding.dxf", layer = "SPALL" }} ]
 [levels.grid]
@@ -136,7 +177,7 @@ path = "readings/potential.csv"
 unit = "mV"
 electrode = "{electrode}"
 temperature_c = {temperature_c}
-
+{gc_line}
 [[surveys]]
 id = "D1-res"
 level = "D1"
@@ -144,6 +185,15 @@ kind = "resistivity"
 path = "readings/resistivity.csv"
 unit = "kohm.cm"
 temperature_c = 20.0
+'''
+    if sparse_readings:
+        text += '''
+[[surveys]]
+id = "D1-rate"
+level = "D1"
+kind = "corrosion_rate"
+path = "readings/corrosion_rate.csv"
+unit = "uA/cm2"
 '''
     p = root / "site.toml"
     p.write_text(text)

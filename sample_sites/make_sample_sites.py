@@ -37,6 +37,7 @@ from __future__ import annotations
 
 import argparse
 import csv
+import io
 import json
 import math
 import shutil
@@ -99,6 +100,11 @@ class Plan:
     drains: tuple[tuple[float, float], ...]
     low_cover: tuple[tuple[float, float, float, float, float, float], ...]  # cx, cy, a, b, deg, mm
     control_local: tuple[tuple[str, float, float], ...]
+    #: indices into ``joints`` of the expansion joints: drawn on layer EXP-JOINTS and declared
+    #: ``type = "expansion"`` (the reinforcing mats on their two sides are not continuous)
+    expansion: tuple[int, ...] = ()
+    #: ground connections of each potential survey of the level, (x, y, label) in grid feet
+    ground: tuple[tuple[str, tuple[tuple[float, float, str], ...]], ...] = ()
 
     @property
     def exclusions(self) -> Polygon:
@@ -141,13 +147,19 @@ def make_plan(level_id: str) -> Plan:
             "RF", slab,
             tuple(_sq(x, y) for x, y in poles),  # light-pole bases on the column lines
             (*core, box(120.0, 92.0, 170.0, 112.0)),  # stair, elevator, ramp down to L2
+            # the expansion joint runs across the deck, through the ramp opening, so the
+            # mats east and west of it are two electrical circuits
             (("LINE", ((60.0, 0.0), (60.0, 120.0))),
-             ("LWPOLYLINE", ((120.0, 0.0), (120.0, 46.0), (120.0, 92.0)))),  # expansion joint
+             ("LWPOLYLINE", ((120.0, 0.0), (120.0, 46.0), (120.0, 92.0), (120.0, 120.0)))),
             ((15.0, 15.0), (75.0, 15.0), (135.0, 15.0), (172.0, 55.0), (100.0, 62.0),
              (40.0, 58.0), (60.0, 105.0), (100.0, 100.0)),
             ((40.0, 28.0, 12.0, 5.0, 10.0, 20.0), (150.0, 72.0, 15.0, 6.0, -20.0, 18.0),
              (90.0, 108.0, 9.0, 4.0, 0.0, 14.0)),
             (("CP1", 0.0, 120.0), ("CP2", 180.0, 120.0), ("CP3", 90.0, 0.0)),
+            expansion=(1,),
+            # the crew connected to the bars on each side of the expansion joint
+            ground=(("RF-hcp-south", ((4.0, 4.0, "GS-W"), (176.0, 4.0, "GS-E"))),
+                    ("RF-hcp-north", ((4.0, 116.0, "GN-W"), (176.0, 116.0, "GN-E")))),
         )
     raise ValueError(f"unknown level {level_id!r}; expected one of {LEVEL_IDS}")
 
@@ -540,21 +552,38 @@ def _save_dxf(doc: ezdxf.document.Drawing, path: Path) -> None:
 
 
 def _write_plan(path: Path, plan: Plan) -> None:
-    doc = _new_dxf((("SLAB", 7), ("COLUMNS", 8), ("OPENINGS", 4), ("JOINTS", 3), ("DRAINS", 5)))
+    layers = [("SLAB", 7), ("COLUMNS", 8), ("OPENINGS", 4), ("JOINTS", 3), ("DRAINS", 5)]
+    if plan.expansion:
+        layers.append(("EXP-JOINTS", 6))
+    doc = _new_dxf(tuple(layers))
     msp = doc.modelspace()
     msp.add_lwpolyline(_ring(plan.slab), close=True, dxfattribs={"layer": "SLAB"})
     for c in plan.columns:
         msp.add_lwpolyline(_ring(c), close=True, dxfattribs={"layer": "COLUMNS"})
     for o in plan.openings:
         msp.add_lwpolyline(_ring(o), close=True, dxfattribs={"layer": "OPENINGS"})
-    for kind, verts in plan.joints:
+    for k, (kind, verts) in enumerate(plan.joints):
+        lay = "EXP-JOINTS" if k in plan.expansion else "JOINTS"
         if kind == "LINE":
-            msp.add_line(verts[0], verts[1], dxfattribs={"layer": "JOINTS"})
+            msp.add_line(verts[0], verts[1], dxfattribs={"layer": lay})
         else:
-            msp.add_lwpolyline(verts, close=False, dxfattribs={"layer": "JOINTS"})
+            msp.add_lwpolyline(verts, close=False, dxfattribs={"layer": lay})
     for x, y in plan.drains:
         msp.add_circle((x, y), 0.5, dxfattribs={"layer": "DRAINS"})
+    # the column grid: lettered lines along grid x, numbered along grid y, each labelled by a
+    # text at its first end (the grid bubble)
+    doc.layers.add("GRID", color=9)
+    for label, (a, b) in _column_grid():
+        msp.add_line(a, b, dxfattribs={"layer": "GRID"})
+        msp.add_text(label, height=2.0, dxfattribs={"layer": "GRID", "insert": a})
     _save_dxf(doc, path)
+
+
+def _column_grid() -> list[tuple[str, tuple[tuple[float, float], tuple[float, float]]]]:
+    """Column lines every 30 ft: A-G along grid x (x = 0 ... 180), 1-5 along y (y = 0 ... 120)."""
+    out = [(chr(ord("A") + i), ((30.0 * i, -6.0), (30.0 * i, 126.0))) for i in range(7)]
+    out += [(str(j + 1), ((-6.0, 30.0 * j), (186.0, 30.0 * j))) for j in range(5)]
+    return out
 
 
 def _write_sounding(path: Path, delams: list[Polygon], spalls: list[Polygon],
@@ -588,6 +617,32 @@ def _control_points(plan: Plan, seed: int) -> list[tuple[str, float, float, floa
 LEVEL_NAMES = {"L2": "Level 2 (supported slab)", "RF": "Roof level (exposed, top of structure)"}
 
 
+#: Invented unit prices of the demonstration estimate (USD; not market prices): item, its
+#: description, unit as the schedule gives it for US units, unit price.
+PRICES = (
+    ("REP-PD-SURF", "Partial-depth repair, above the bars", "ft2", "65.00"),
+    ("REP-PD-BARS", "Partial-depth repair, bars undercut", "ft2", "95.00"),
+    ("REP-FD", "Full-depth slab repair", "ft2", "160.00"),
+    ("REP-OVH", "Overhead (soffit) repair", "ft2", "140.00"),
+    ("REP-VOL", "Repair material supplied, by volume removed", "CY", "450.00"),
+    ("SAWCUT", "Perimeter saw cut", "LF", "6.50"),
+    ("ANODE", "Embedded galvanic anode", "EA", "45.00"),
+    ("JOINT-RPR", "Joint seal or header rebuilt along a repair", "LF", "38.00"),
+    ("BAR-REPL", "Reinforcing bar replacement allowance", "LF", "12.00"),
+    ("TREAT-ACTIVE", "Surface-applied corrosion inhibitor", "ft2", "4.25"),
+    ("PROTECT-LOWCOVER", "Penetrating sealer", "ft2", "3.50"),
+)
+
+
+def _prices_csv() -> str:
+    """Return the sample's price list (invented prices), as CSV text."""
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")  # quotes the descriptions holding a comma
+    w.writerow(["item", "description", "unit", "unit_price", "currency"])
+    w.writerows([item, descr, unit, price, "USD"] for item, descr, unit, price in PRICES)
+    return buf.getvalue()
+
+
 def _site_toml(seed: int) -> str:
     t = [
         f"# Site file of the invented sample site. Written by {MARKER}",
@@ -604,9 +659,14 @@ def _site_toml(seed: int) -> str:
         "",
         "[run]",
         'cell_size = "1 ft"',
-        'max_distance = "6 ft"',
+        "# no max_distance: each kind's search radius and mask distance come from its own",
+        "# reading spacing and fitted range (docs/methods.md §3.4)",
         "contour_interval_mv = 50",
         'repair_margin = "6 in"',
+        "",
+        "[quantities]",
+        "# invented unit prices (USD) for the demonstration engineer's estimate",
+        'price_list = "prices.csv"',
     ]
     for lid in LEVEL_IDS:
         plan = make_plan(lid)
@@ -618,7 +678,14 @@ def _site_toml(seed: int) -> str:
             f'slab = {{ path = "plans/{lid}.dxf", layer = "SLAB" }}',
             f'exclusions = [ {{ path = "plans/{lid}.dxf", layer = "COLUMNS" }}, '
             f'{{ path = "plans/{lid}.dxf", layer = "OPENINGS" }} ]',
-            f'joints = {{ path = "plans/{lid}.dxf", layer = "JOINTS" }}',
+            *([f'joints = {{ path = "plans/{lid}.dxf", layer = "JOINTS" }}'] if not plan.expansion
+              else ["# construction joints carry the bars; the expansion joint separates two mats",
+                    f'joints = [ {{ path = "plans/{lid}.dxf", layer = "JOINTS", '
+                    'type = "construction" },',
+                    f'           {{ path = "plans/{lid}.dxf", layer = "EXP-JOINTS", '
+                    'type = "expansion" } ]']),
+            "# column lines A-G and 1-5: repairs are located from them, treatments paid by bay",
+            f'column_grid = {{ path = "plans/{lid}.dxf", layer = "GRID" }}',
             f'overlays = [ {{ kind = "delamination", path = "sounding/{lid}.dxf", '
             f'layer = "DELAM" }}, '
             f'{{ kind = "spall", path = "sounding/{lid}.dxf", layer = "SPALL" }} ]',
@@ -648,6 +715,12 @@ def _site_toml(seed: int) -> str:
               f'unit = "{"V" if sid == "RF-hcp-north" else "mV"}"',
               f'electrode = "{el}"          # cse | ag_agcl_sat_kcl | ag_agcl_3m_kcl | sce | she',
               f"temperature_c = {temp:.1f}", f'date = "{date}"']
+        ground = dict(make_plan(lid).ground).get(sid)
+        if ground:
+            t += ["# where the voltmeter was connected to the bars: one per mat (expansion joint)",
+                  "ground_connections = [ " + ", ".join(
+                      f'{{ x = {gx:.1f}, y = {gy:.1f}, label = "{gl}" }}' for gx, gy, gl in ground)
+                  + " ]"]
         if el != "cse":
             t += ["# ASTM C876 gives a temperature coefficient for the CSE only; the crew's",
                   "# electrode was checked to drift like a CSE, so correct it the same way",
@@ -686,7 +759,9 @@ A three-storey cast-in-place parking garage, 180 ft x 120 ft. Two levels were su
   core, two construction joints (x = 75 ft and x = 135 ft) and six floor drains.
 * **RF**, the roof level: exposed to weather and de-icing salt, so more corrosion;
   light-pole bases on the column lines, the stair/elevator core, a ramp opening, a
-  construction joint and an expansion joint, and eight floor drains.
+  construction joint and an expansion joint (x = 120 ft, across the deck through the ramp
+  opening: the mats on its two sides are not electrically continuous, so the potential
+  surveys name a ground connection on each side), and eight floor drains.
 
 Local survey grid in feet (x east along the long side, y north), potentials every 2 ft.
 The grid is tied to EPSG:26918 (NAD83 / UTM zone 18N) by three control points per level
@@ -698,7 +773,9 @@ noise, so the least-squares fit has small residuals.
 | File | What |
 |---|---|
 | `site.toml` | the site file |
-| `plans/L2.dxf`, `plans/RF.dxf` | layers SLAB, COLUMNS, OPENINGS, JOINTS, DRAINS; feet |
+| `prices.csv` | invented unit prices (USD) for the engineer's estimate, `[quantities]` |
+| `plans/L2.dxf`, `plans/RF.dxf` | layers SLAB, COLUMNS, OPENINGS, JOINTS, DRAINS, GRID \
+(column lines A-G, 1-5); EXP-JOINTS on RF; feet |
 | `sounding/L2.dxf`, `sounding/RF.dxf` | chain-drag sounding [ASTM-D4580-23]: DELAM, SPALL; \
 one RF delamination is a CIRCLE |
 | `readings/L2_potential_east.csv` | CSE, 24 degC, mV, with a `note` column |
@@ -820,6 +897,7 @@ def _generate(out: Path, seed: int) -> Manifest:
                 encoding="utf-8"))["features"]),
         }
     (out / "site.toml").write_text(_site_toml(seed), encoding="utf-8")
+    (out / "prices.csv").write_text(_prices_csv(), encoding="utf-8")
     (out / "README.md").write_text(_readme(flaws, counts, seed), encoding="utf-8")
     files = tuple(sorted(p for p in out.rglob("*") if p.is_file()))
     return Manifest(out, files, tuple(flaws), counts)

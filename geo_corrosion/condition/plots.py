@@ -23,6 +23,7 @@ import numpy as np
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.colors import BoundaryNorm, ListedColormap
 from matplotlib.figure import Figure
+from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
 from numpy.typing import ArrayLike
 from scipy import stats
@@ -38,6 +39,8 @@ __all__ = [
     "plot_cumulative_frequency",
     "plot_class_map",
     "plot_potential_vs_resistivity",
+    "JOINT_STYLES",
+    "plot_class_points",
 ]
 
 #: Footer printed on every figure (wording ours, after [ASTM-C876-22a §4.8]).
@@ -218,6 +221,16 @@ def _polygon_rings(poly: Any) -> list[np.ndarray]:
     return [a]
 
 
+#: How a joint is drawn on a plan map: breaking (expansion, isolation) or not (construction,
+#: control); Okabe & Ito reddish purple and grey, told apart by width and dash as well.
+JOINT_STYLES: dict[bool, dict[str, Any]] = {
+    True: {"color": "#CC79A7", "lw": 2.4, "ls": (0, (6, 2)),
+           "label": "expansion/isolation joint (mat not continuous)"},
+    False: {"color": "#555555", "lw": 1.0, "ls": (0, (2, 2)),
+            "label": "construction/control joint"},
+}
+
+
 def plot_class_map(
     grid: ArrayLike,
     extent: tuple[float, float, float, float],
@@ -232,6 +245,8 @@ def plot_class_map(
     origin: str = "lower",
     title: str | None = None,
     dpi: int = 150,
+    joints: Sequence[tuple[Any, bool]] | None = None,
+    contour_groups: ArrayLike | None = None,
 ) -> Path:
     """Write a plan map of classes with value contours and optional polygons.
 
@@ -254,6 +269,14 @@ def plot_class_map(
         Shapely polygons or (n, 2) coordinate arrays drawn as outlines.
     origin : {"lower", "upper"}
         Row 0 of ``grid`` at ``ymin`` ("lower") or at ``ymax`` ("upper").
+    joints : sequence of (line, breaks), optional
+        Joint lines (shapely lineal geometries or (n, 2) arrays) and whether each breaks the
+        mat's electrical continuity: breaking joints (expansion, isolation) are drawn thick
+        and dashed, the others (construction, control) thin, each kind in the legend.
+    contour_groups : array_like of int, optional
+        Same shape and orientation as ``grid``: the continuity region of each cell (-1 for
+        none).  Contours are then traced region by region, so none runs along a breaking
+        joint where the surface steps across it.
     """
     try:
         g = np.asarray(grid, dtype=float)
@@ -287,19 +310,40 @@ def plot_class_map(
         fmin, fmax = float(np.nanmin(g)), float(np.nanmax(g))
         levels = np.arange(np.ceil(fmin / contour_interval) * contour_interval, fmax + 1e-9,
                            contour_interval)
-        if levels.size:
-            cs = ax.contour(xs, ys, np.ma.masked_invalid(gg), levels=levels, colors="#333333",
-                            linestyles="solid", linewidths=0.6)
-            ax.clabel(cs, fontsize=6, fmt="%g")
+        if contour_groups is None:
+            parts = [gg]
+        else:
+            grp = np.asarray(contour_groups)
+            if grp.shape != g.shape:
+                raise ConditionError(f"contour_groups has shape {grp.shape}, the grid {g.shape}")
+            grp = grp if origin == "lower" else grp[::-1]
+            parts = [np.where(grp == k, gg, np.nan) for k in np.unique(grp[grp >= 0])]
+        for part in parts:
+            if levels.size and np.isfinite(part).any():
+                cs = ax.contour(xs, ys, np.ma.masked_invalid(part), levels=levels,
+                                colors="#333333", linestyles="solid", linewidths=0.6)
+                ax.clabel(cs, fontsize=6, fmt="%g")
     if polygons:
         for k, poly in enumerate(polygons):
             for ring in _polygon_rings(poly):
                 ax.plot(ring[:, 0], ring[:, 1], color="black", lw=1.2,
                         label=polygon_label if k == 0 else None)
-    handles = [Patch(color=c, label=lab)
-               for c, lab in zip(class_set.colors, class_set.labels, strict=True)]
+    handles: list[Any] = [Patch(color=c, label=lab)
+                          for c, lab in zip(class_set.colors, class_set.labels, strict=True)]
     if polygons:
         handles.append(Patch(facecolor="none", edgecolor="black", label=polygon_label))
+    kinds_drawn = set()
+    for line, breaks in joints or ():
+        style = JOINT_STYLES[bool(breaks)]
+        kinds_drawn.add(bool(breaks))
+        for part in getattr(line, "geoms", [line]):
+            xy = np.asarray(part.coords if hasattr(part, "coords") else part, dtype=float)
+            ax.plot(xy[:, 0], xy[:, 1], color=style["color"], lw=style["lw"],
+                    linestyle=style["ls"], solid_capstyle="butt")
+    for breaks in sorted(kinds_drawn, reverse=True):
+        style = JOINT_STYLES[breaks]
+        handles.append(Line2D([], [], color=style["color"], lw=style["lw"],
+                              linestyle=style["ls"], label=style["label"]))
     ax.legend(handles=handles, fontsize=7, loc="upper left", bbox_to_anchor=(1.01, 1.0),
               title=f"{quantity} ({_UNIT_LABEL.get(class_set.unit, class_set.unit)})",
               title_fontsize=7)
@@ -365,4 +409,76 @@ def plot_potential_vs_resistivity(
     ax.set_title(title or "Potential vs resistivity (dashed: C876 limits; dotted: "
                  f"{resistivity_class_set.name} limits)", fontsize=9)
     ax.legend(fontsize=8, loc="lower right")
+    return _finish(fig, path, dpi)
+
+
+def plot_class_points(
+    x: ArrayLike,
+    y: ArrayLike,
+    values: ArrayLike,
+    path: str | os.PathLike[str],
+    *,
+    class_set: ClassSet | None,
+    reason: str,
+    quantity: str = "Corrosion rate",
+    unit: str = "",
+    plan_unit: str = "m",
+    cells: Sequence[Any] | None = None,
+    cell_label: str = "Thiessen (nearest-reading) cells, not a surface",
+    outline: Any = None,
+    title: str | None = None,
+    dpi: int = 150,
+) -> Path:
+    """Write a plan of readings coloured by class, for a kind too sparse for a surface.
+
+    Parameters
+    ----------
+    x, y, values : array_like
+        Reading locations (plan units) and values (the class set's unit); one reading is enough.
+    class_set : ClassSet or None
+        Colours the points by class; None: one colour.
+    reason : str
+        Why there is no surface; printed under the title.
+    cells : sequence of shapely polygons, optional
+        The readings' Thiessen cells, shaded lightly in the class colour and labelled as such.
+    outline : shapely geometry, optional
+        The deck, drawn as an outline.
+    """
+    xa = np.asarray(x, dtype=float).ravel()
+    ya = np.asarray(y, dtype=float).ravel()
+    v = np.asarray(values, dtype=float).ravel()
+    if not (xa.size == ya.size == v.size) or xa.size == 0:
+        raise ConditionError("plot_class_points needs one x, y and value per reading, at least one")
+    if class_set is not None:
+        codes = class_set.codes(v)
+        colors = [class_set.colors[c] if c >= 0 else "#999999" for c in codes]
+    else:
+        colors = ["#0072B2"] * v.size
+    fig = _figure(7.5, 6.0)
+    ax = fig.add_subplot(1, 1, 1)
+    if outline is not None:
+        for ring in _polygon_rings(outline):
+            ax.plot(ring[:, 0], ring[:, 1], color="#303030", lw=1.0)
+    if cells is not None:
+        for cell, col in zip(cells, colors, strict=True):
+            for ring in _polygon_rings(cell):
+                ax.fill(ring[:, 0], ring[:, 1], facecolor=col, alpha=0.18, edgecolor="#777777",
+                        lw=0.5)
+    ax.scatter(xa, ya, c=colors, s=46, edgecolors="black", linewidths=0.7, zorder=3,
+               label="reading")
+    handles: list[Any] = []
+    if class_set is not None:
+        handles = [Patch(color=c, label=lab)
+                   for c, lab in zip(class_set.colors, class_set.labels, strict=True)]
+    if cells is not None:
+        handles.append(Patch(facecolor="#DDDDDD", edgecolor="#777777", label=cell_label))
+    if handles:
+        ax.legend(handles=handles, fontsize=7, loc="upper left", bbox_to_anchor=(1.01, 1.0),
+                  title=f"{quantity} ({_UNIT_LABEL.get(unit, unit)})", title_fontsize=7)
+    ax.set_aspect("equal")
+    ax.set_xlabel(f"x ({plan_unit})")
+    ax.set_ylabel(f"y ({plan_unit})")
+    ttl = title or f"{quantity}: {v.size} readings"
+    ax.set_title(f"{ttl}\nreadings shown as points, no surface", fontsize=10)
+    fig.text(0.01, 0.035, f"No surface: {reason}.", fontsize=6.5, color="#222222", wrap=True)
     return _finish(fig, path, dpi)

@@ -1,7 +1,8 @@
-"""The drawings exporter: one DXF drawing per level with the repair layout."""
+"""The drawings exporter: one drawing sheet per level, as DXF and as vector PDF."""
 
 from __future__ import annotations
 
+import datetime as dt
 from pathlib import Path
 from typing import TYPE_CHECKING, ClassVar
 
@@ -9,31 +10,61 @@ from geo_corrosion.cautions import CAUTIONS
 from geo_corrosion.exporters.base import Exporter
 
 if TYPE_CHECKING:
+    from shapely.geometry.base import BaseGeometry
+
+    from geo_corrosion.crs import LocalGrid
     from geo_corrosion.model.results import RunResult
 
 __all__ = ["DrawingsExporter"]
 
 
 class DrawingsExporter(Exporter):
-    """Write one DXF drawing per level with the repair layout."""
+    """Write one drawing sheet per level: ``<level>_repairs.dxf`` and ``<level>_sheet.pdf``."""
 
     name: ClassVar[str] = "drawings"
-    description: ClassVar[str] = "repair layout drawings as DXF, one per level"
+    description: ClassVar[str] = "repair drawing sheets as DXF and PDF, one per level"
 
     def export(self, result: RunResult, out_dir: Path) -> list[Path]:
-        """Write the DXF files."""
+        """Write the DXF sheets and their PDF renderings."""
         from geo_corrosion.exporters.dxf import write_level_dxf
+        from geo_corrosion.exporters.sheet_dxf import SheetInfo
+        from geo_corrosion.exporters.sheet_pdf import write_sheet_pdf
+        from geo_corrosion.units import LENGTH_TO_M, report_units
 
+        cfg = result.site.config
+        params = cfg.drawings
         ddir = out_dir / "drawings"
         ddir.mkdir(exist_ok=True)
         paths = []
-        for lid, lr in result.levels.items():
+        today = dt.date.today().isoformat()
+        n = len(result.levels)
+        for i, (lid, lr) in enumerate(result.levels.items(), 1):
             lv = lr.level
-            paths.append(write_level_dxf(
+            grid = lv.grid
+            site = params.coords == "site"
+            info = SheetInfo(
+                project=cfg.name, owner=cfg.owner, engineer=params.engineer,
+                title=lv.config.name, number=f"R-{i}", of=n,
+                date=today, sheet="" if params.sheet == "auto" else params.sheet,
+                north_deg=90.0 if site else 90.0 - grid.rotation_deg,
+                revisions=(("0", today, "Issued for review: survey findings"),),
+                where=f"{cfg.path}: [drawings].sheet")
+
+            def to_site(g: BaseGeometry, grid: LocalGrid = grid) -> BaseGeometry:
+                return grid.geom_to_site(g)
+
+            dxf = write_level_dxf(
                 ddir / f"{lid}_repairs.dxf", slab=lv.slab, exclusions=lv.exclusion_polygons(),
-                joints=[j.geometry for j in lv.joints], repairs=lr.repairs, zones=lr.zones,
-                delaminations=[f.geometry for k in ("delamination", "spall")
-                               for f in lv.overlays.get(k, ())],
-                unit=lv.unit, title=f"{result.site.config.name} - {lv.config.name}",
-                cautions=list(CAUTIONS)))
+                joints=[j.geometry for j in lv.joints
+                        if not getattr(j, "breaks_continuity", False)],
+                breaking_joints=lv.breaking_joints, repairs=lr.repairs, zones=lr.zones,
+                delaminations=[f.geometry for f in lv.overlays.get("delamination", ())],
+                spalls=[f.geometry for f in lv.overlays.get("spall", ())],
+                column_grid=tuple(getattr(lv, "column_grid", None) or ()),
+                unit=lv.unit, title=info.title, cautions=list(CAUTIONS),
+                units=report_units(cfg.units), sheet=info,
+                to_model=to_site if site else None,
+                model_unit=grid.crs_unit if site else None,
+                zone_tolerance=cfg.run.cell_size_m / LENGTH_TO_M[lv.unit])
+            paths += [dxf, write_sheet_pdf(dxf, ddir / f"{lid}_sheet.pdf")]
         return paths

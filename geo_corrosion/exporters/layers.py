@@ -17,6 +17,8 @@ from numpy.typing import NDArray
 from shapely.geometry.base import BaseGeometry
 
 from geo_corrosion.model.results import LevelResult, RunResult
+from geo_corrosion.model.surface import KindPoints
+from geo_corrosion.repair.tender import SOUNDING_PREFIX, sounding_labels
 from geo_corrosion.units import LENGTH_TO_M
 
 __all__ = ["level_layers", "site_layers", "to_site_frame"]
@@ -55,13 +57,21 @@ def level_layers(lr: LevelResult, crs: Any) -> dict[str, gpd.GeoDataFrame]:
     if lv.exclusions:
         out["exclusions"] = to_site_frame(_feature_rows(lv.exclusions), lr, crs)
     if lv.joints:
-        out["joints"] = to_site_frame(_feature_rows(lv.joints), lr, crs)
+        out["joints"] = to_site_frame(
+            [{**r, "joint_type": getattr(j, "joint_type", "construction"),
+              "breaks_continuity": bool(getattr(j, "breaks_continuity", False))}
+             for r, j in zip(_feature_rows(lv.joints), lv.joints, strict=True)], lr, crs)
     for kind, feats in lv.overlays.items():
         rows = _feature_rows(feats, kind=kind)
-        for r in rows:
+        numbers = (sounding_labels([f.geometry for f in feats], SOUNDING_PREFIX[kind])
+                   if kind in SOUNDING_PREFIX else [""] * len(rows))
+        for r, n in zip(rows, numbers, strict=True):
             r["area_m2"] = r["geometry"].area * a2
+            if kind in SOUNDING_PREFIX:  # the number on the sounding plan (D1, S1)
+                r["number"] = n
         out[{"delamination": "delaminations", "spall": "spalls", "patch": "patches",
-             "crack": "cracks"}[kind]] = to_site_frame(rows, lr, crs)
+             "crack": "cracks", "soffit_delamination": "soffit_delaminations"}[kind]] = (
+            to_site_frame(rows, lr, crs))
     for name, s in lr.surfaces.items():
         unit = s.kind.canonical_unit
         out[f"contours_{name}"] = to_site_frame(
@@ -84,6 +94,8 @@ def level_layers(lr: LevelResult, crs: Any) -> dict[str, gpd.GeoDataFrame]:
             [{"reading_id": r, "residual": v, "unit": unit, "geometry": g}
              for r, v, g in zip(res["reading_id"], res["residual"], res_pts, strict=True)],
             lr, crs)
+    for name, p in lr.points.items():  # kinds too sparse for a surface: classed points
+        _points_layers(out, name, p, lr, crs, a2)
     cond = lr.condition
     if cond is not None and cond.combined_polygons is not None and len(cond.combined_polygons):
         c = cond.combined_polygons.copy()
@@ -100,7 +112,35 @@ def level_layers(lr: LevelResult, crs: Any) -> dict[str, gpd.GeoDataFrame]:
         if "level_id" in rep:
             rep = rep.drop(columns="level_id")
         out["repairs"] = to_site_frame(_records(rep), lr, crs)
+    if lr.pay_areas is not None and len(lr.pay_areas):
+        pa = pd.DataFrame(lr.pay_areas.drop(columns=["geometry", "level_id"]))
+        pa["geometry"] = list(lr.pay_areas.geometry)
+        out["pay_areas"] = to_site_frame(_records(pa), lr, crs)
     return out
+
+
+def _points_layers(out: dict[str, gpd.GeoDataFrame], name: str, p: KindPoints, lr: LevelResult,
+                   crs: Any, a2: float) -> None:
+    """Add ``points_<kind>`` (classed readings) and ``thiessen_<kind>`` (their cells)."""
+    from shapely import points
+
+    from geo_corrosion.surfaces.thiessen import THIESSEN_LABEL
+
+    pts = p.points
+    cols = [c for c in ("reading_id", "point_id", "value", "unit", "class", "class_code",
+                        "color", "class_set") if c in pts]
+    rows = _records(pts[cols])
+    geoms = cast("NDArray[np.object_]", points(np.column_stack([pts["x_local"],
+                                                                pts["y_local"]])))
+    for r, g in zip(rows, geoms, strict=True):
+        r["representation"] = "points"
+        r["geometry"] = g
+    out[f"points_{name}"] = to_site_frame(rows, lr, crs)
+    cells = pts.drop_duplicates(subset=["x_local", "y_local"])
+    out[f"thiessen_{name}"] = to_site_frame(
+        [{**{c: r[c] for c in cols}, "label": THIESSEN_LABEL,
+          "area_m2": r["cell"].area * a2, "geometry": r["cell"]}
+         for r in _records(cells) if not r["cell"].is_empty], lr, crs)
 
 
 def site_layers(result: RunResult) -> dict[str, gpd.GeoDataFrame]:
@@ -119,7 +159,8 @@ def site_layers(result: RunResult) -> dict[str, gpd.GeoDataFrame]:
         if not flags.empty:
             f = (flags[flags["reading_id"] != ""].groupby("reading_id")["rule"]
                  .agg(lambda r: ",".join(sorted(set(r)))))
-            df["qa_flags"] = df["reading_id"].map(f).fillna("")
+            # object first: a kind none of whose readings is flagged maps to all-NaN floats
+            df["qa_flags"] = df["reading_id"].map(f).astype(object).fillna("")
         else:
             df["qa_flags"] = ""
         layers[f"readings_{kind}"] = df

@@ -7,7 +7,7 @@ every axis and the caution footer on every figure.
 from __future__ import annotations
 
 from pathlib import Path
-from typing import TYPE_CHECKING, ClassVar
+from typing import TYPE_CHECKING, Any, ClassVar
 
 import numpy as np
 
@@ -16,7 +16,8 @@ from geo_corrosion.measurements import Role
 from geo_corrosion.model.surface import with_role
 
 if TYPE_CHECKING:
-    from geo_corrosion.model.results import RunResult
+    from geo_corrosion.model.results import LevelResult, RunResult
+    from geo_corrosion.model.surface import KindPoints
 
 __all__ = ["PlotsExporter"]
 
@@ -52,8 +53,13 @@ class PlotsExporter(Exporter):
                         quantity=s.kind.label.split(" (")[0], plan_unit=lr.level.unit,
                         contour_interval=s.interval if s.kind.class_map_contours else None,
                         polygons=[f.geometry for f in lr.level.overlays.get("delamination", ())],
+                        joints=[(j.geometry, bool(getattr(j, "breaks_continuity", False)))
+                                for j in lr.level.joints],
+                        contour_groups=s.regions,
                         origin="upper",
                         title=f"{lname}: {s.kind.label.split(' (')[0].lower()} classes"))
+            for name, p in lr.points.items():  # too sparse for a surface: classed points
+                paths += _points_plots(plots, pdir, lid, lname, lr, name, p)
             # the potential plots, named after the role: the kind playing it, whatever its name
             pot = with_role(lr.surfaces, Role.POTENTIAL)
             if pot is not None:
@@ -76,3 +82,25 @@ class PlotsExporter(Exporter):
                             title=f"{lname}: kriged potential at resistivity readings"))
         return paths
 
+
+
+def _points_plots(plots: Any, pdir: Path, lid: str, lname: str, lr: LevelResult, name: str,
+                  p: KindPoints) -> list[Path]:
+    """Histogram and class plan of a kind shown as points (same file names as a surface's)."""
+    from geo_corrosion.condition.classes import get_class_set
+
+    k = p.kind
+    pts = p.points
+    cs = get_class_set(str(pts["class_set"].iloc[0])) if "class_set" in pts else None
+    quantity = k.label.split(" (")[0]
+    vals = pts["value"].to_numpy(float)
+    out = [plots.plot_histogram(
+        vals, pdir / f"{lid}_{name}_histogram.png", class_set=cs, quantity=quantity,
+        unit=k.canonical_unit, log_x=k.krige_transform == "log" and bool((vals > 0).all()),
+        title=f"{lname}: {k.label}, {len(vals)} readings (no surface)")]
+    out.append(plots.plot_class_points(
+        pts["x_local"].to_numpy(float), pts["y_local"].to_numpy(float), vals,
+        pdir / f"{lid}_{name}_classes.png", class_set=cs, reason=p.reason, quantity=quantity,
+        unit=k.canonical_unit, plan_unit=lr.level.unit, cells=list(pts["cell"]),
+        outline=lr.level.deck, title=f"{lname}: {quantity.lower()} classes"))
+    return out

@@ -60,15 +60,32 @@ def repair_table(result: RunResult, level_id: str) -> pd.DataFrame:
         return pd.DataFrame()
     r = pd.DataFrame(lr.repairs.drop(columns="geometry"))
     out = pd.DataFrame({"repair_id": r["repair_id"]})
+    for c in ("location", "dimensions"):  # repair.tender_columns
+        if c in r:
+            out[c] = r[c]
     if "depth_class" in r:
         out["depth_class"] = r["depth_class"]
+    if "depth_mm" in r:
+        out[f"removal_depth_{u.small}"] = u.small_from_mm(r["depth_mm"]).round(2)
     out[f"area_{u.area}"] = u.area_from_m2(r["area_m2"]).round(2)
     if "perimeter_m" in r:
         out[f"saw_cut_{u.length}"] = u.length_from_m(r["perimeter_m"]).round(2)
     if "volume_m3" in r:
         out[f"volume_{u.volume}"] = u.volume_from_m3(r["volume_m3"]).round(3)
-    if "source_ids" in r:
+    if "joint_edge_m" in r:
+        out[f"on_joint_{u.length}"] = u.length_from_m(r["joint_edge_m"]).round(2)
+    if "anodes" in r:
+        out["anodes_EA"] = r["anodes"]
+    if "bar_replacement_m" in r:
+        out[f"bar_replacement_{u.length}"] = u.length_from_m(r["bar_replacement_m"]).round(2)
+    if "bid_item" in r:
+        out["bid_item"] = r["bid_item"]
+    if "sounded" in r:  # the numbers of the sounded areas on the sounding plan (D1, S1)
+        out["from"] = r["sounded"]
+    elif "source_ids" in r:
         out["from"] = r["source_ids"]
+    if "rounding_note" in r:
+        out["note"] = r["rounding_note"]
     return out
 
 
@@ -96,5 +113,7 @@ class QuantitiesExporter(Exporter):
             out_dir / QUANTITIES_XLSX, result.schedule,
             {lid: repair_table(result, lid) for lid in result.levels},
             units=units, cautions=list(CAUTIONS),
-            title=f"{result.site.config.name}: schedule of repair quantities"))
+            title=f"{result.site.config.name}: schedule of repair quantities",
+            price_list=(None if result.site.prices is None
+                        else result.site.prices.path.name)))
         return paths

@@ -27,7 +27,8 @@ from geo_corrosion.units import LENGTH_TO_M
 if TYPE_CHECKING:
     import pandas as pd
 
-__all__ = ["Feature", "read_layer", "read_polygons", "read_lines", "DXF_UNITS"]
+__all__ = ["Feature", "read_layer", "read_polygons", "read_lines", "read_grid_lines",
+           "DXF_UNITS"]
 
 #: $INSUNITS codes of the DXF reference that name plan length units.
 DXF_UNITS = {1: "in", 2: "ft", 4: "mm", 5: "cm", 6: "m", 21: "us-ft"}
@@ -335,3 +336,61 @@ def read_lines(ref: LayerRef, grid: LocalGrid, *, site_crs: object = None) -> li
         if g.geom_type in ("LineString", "MultiLineString", "LinearRing"):
             out.append(Feature(g, f.where, f.label))
     return out
+
+
+def _dxf_texts(ref: LayerRef, grid: LocalGrid) -> list[tuple[Point, str]]:
+    """Return the TEXT and MTEXT of a DXF layer: insertion point (local grid) and text."""
+    from ezdxf import recover
+
+    doc, _auditor = recover.readfile(str(ref.path))  # read once already by read_lines
+    code = int(doc.header.get("$INSUNITS", 0))
+    unit = DXF_UNITS.get(code) or ref.unit or grid.unit
+    target = grid.unit if ref.coords == "local" else grid.crs_unit
+    f = LENGTH_TO_M[unit] / LENGTH_TO_M[target]
+    wanted = (ref.layer or "").upper()
+    out = []
+    ents: list[Any] = list(doc.modelspace())  # typed Any: read by dxftype(), as above
+    for e in ents:
+        if str(e.dxf.get("layer", "")).upper() != wanted or e.dxftype() not in ("TEXT", "MTEXT"):
+            continue
+        text = (e.plain_text() if e.dxftype() == "MTEXT" else str(e.dxf.text)).strip()
+        p = Point(e.dxf.insert.x * f, e.dxf.insert.y * f)
+        if ref.coords == "site":
+            p = Point(shapely.get_coordinates(grid.geom_to_local(p))[0])
+        if text:
+            out.append((p, text))
+    return out
+
+
+def read_grid_lines(ref: LayerRef, grid: LocalGrid, *, site_crs: object = None
+                    ) -> list[Feature]:
+    """Read column-grid lines with their labels (``C``, ``3``).
+
+    A GIS layer labels each line by its ``label``, ``name`` or ``id`` attribute; a DXF
+    layer by a TEXT or MTEXT on the same layer, the one nearest to either end of the line
+    (where a grid bubble is drawn).
+
+    Raises
+    ------
+    IngestError
+        If the layer has no line, or a line has no label.
+    """
+    lines = read_lines(ref, grid, site_crs=site_crs)
+    if not lines:
+        raise IngestError(f"{ref.where}: no column-grid line on this layer; draw the column "
+                          "lines as lines, or remove column_grid")
+    if ref.path.suffix.lower() == ".dxf":
+        texts = _dxf_texts(ref, grid)
+        named = []
+        for ln in lines:
+            ends = [Point(c) for c in shapely.get_coordinates(ln.geometry)[[0, -1]]]
+            best = min(texts, key=lambda t: min(t[0].distance(e) for e in ends), default=None)
+            named.append(Feature(ln.geometry, ln.where, best[1] if best else ""))
+        lines = named
+    nameless = [ln.where for ln in lines if not ln.label]
+    if nameless:
+        raise IngestError(f"{ref.where}: column-grid line(s) without a label: "
+                          f"{', '.join(nameless[:3])}; give each line a label attribute, or "
+                          "in a DXF a text (its name, e.g. C or 3) at one of its ends on the "
+                          "same layer")
+    return lines

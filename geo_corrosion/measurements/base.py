@@ -144,6 +144,12 @@ class MeasurementKind:
         +1: larger values are more severe; -1: smaller ones are (colour ramps of the maps).
     class_map_contours : bool
         Draw the contour lines on the kind's class map (the C876 equipotential map).
+    needs_continuity : bool
+        A reading is taken against the reinforcing mat through a connection to it, and its
+        value is the mat's potential there: the surface is kriged in each continuity region
+        (the deck split by joints that break the mat's electrical continuity) from that
+        region's readings only, and a survey spanning regions names a ground connection in
+        each (``QA-GROUND-CONNECTION``) [ACI-222R-19, from memory; ASTM-C876-22a].
     class_layer_titles : (str, str) or None
         Layer-control label and legend title of the kind's class layer in the web map;
         None: ``"<name> classes"``.
@@ -179,6 +185,7 @@ class MeasurementKind:
     electrode_temperature: ClassVar[bool] = False
     severity_direction: ClassVar[int] = 1
     class_map_contours: ClassVar[bool] = False
+    needs_continuity: ClassVar[bool] = False
     class_layer_titles: ClassVar[tuple[str, str] | None] = None
     raw_columns: ClassVar[tuple[str, ...]] = ()
     option_keys: ClassVar[tuple[str, ...]] = ()

@@ -65,6 +65,10 @@ class HalfCellPotential(MeasurementKind):
     electrode_temperature: ClassVar[bool] = True
     severity_direction: ClassVar[int] = -1
     class_map_contours: ClassVar[bool] = True
+    # the potential of the mat the electrode sits over, read through a connection to that
+    # mat: a mat cut off by an expansion or isolation joint is another circuit
+    # [ACI-222R-19, from memory; ASTM-C876-22a]
+    needs_continuity: ClassVar[bool] = True
     class_layer_titles: ClassVar[tuple[str, str] | None] = (
         "ASTM C876 classes", "ASTM C876 classes (probability of corrosion)")
 
@@ -349,6 +353,10 @@ class CorrosionRate(MeasurementKind):
     severity_direction: ClassVar[int] = 1
     class_layer_titles: ClassVar[tuple[str, str] | None] = (
         "corrosion rate classes", "corrosion rate levels")
+    # needs_continuity stays False: a rate is the polarization of the bar under the sensor's
+    # guard ring, a property of that spot, and is kriged across joints (the instrument still
+    # needs a connection to the bar under it); a firm's kind may set it True
+    needs_continuity: ClassVar[bool] = False
     raw_columns: ClassVar[tuple[str, ...]] = (
         "rp_ohm", "r_ohm_ohm", "delta_e_mv", "delta_i_ua", "area_cm2", "b_mv",
         "tafel_anodic_mv_dec", "tafel_cathodic_mv_dec",

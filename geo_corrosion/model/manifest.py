@@ -47,7 +47,10 @@ __all__ = ["MANIFEST_NAME", "FORMAT_VERSION", "manifest", "read_run", "result_ma
            "DirectionalVariograms", "ClassArea", "ConditionRecord", "AreaBeyondThreshold",
            "SiteThreshold", "SiteThresholdUnavailable", "CombinedClassArea",
            "CombinedClassRecord", "CombinedRuleRecord", "CombinedRules", "LifeRange", "LifeSummary",
-           "PlanningNotes", "ZoningRuleRecord", "ZoneRecord", "ScheduleRow"]
+           "SpacingRecord", "DensityRuleRecord", "NeighbourhoodRecord", "PointsClassCount",
+           "PointsRecord",
+           "PlanningNotes", "ZoningRuleRecord", "ZoneRecord", "ScheduleRow", "RepairRecord",
+           "PayAreaRecord"]
 
 MANIFEST_NAME = "run.json"
 #: ``geo_corrosion_run`` of the manifests this version writes and reads.
@@ -66,10 +69,13 @@ def input_files(cfg: SiteConfig) -> list[dict[str, Any]]:
     """Every input file of a site with its path (relative to the site folder), SHA-256 and size."""
     paths = {cfg.path}
     for lv in cfg.levels:
-        refs = [lv.slab, *lv.exclusions, *([lv.joints] if lv.joints else []),
+        refs = [lv.slab, *lv.exclusions, *[j.ref for j in lv.joints],
+                *([lv.column_grid] if lv.column_grid else []),
                 *[o.ref for o in lv.overlays]]
         paths.update(r.path for r in refs)
     paths.update(s.path for s in cfg.surveys)
+    if cfg.quantities.price_list is not None:
+        paths.add(cfg.quantities.price_list)
     out = []
     for p in sorted(paths):
         try:
@@ -176,11 +182,12 @@ class RunParameters:
     """
 
     cell_size_m: float
-    max_distance_m: float
+    max_distance_m: float | None
     contour_interval_mv: float
     repair_margin_m: float
     merge_gap_m: float
     min_repair_size_m: float
+    repair_increment_m: float | None
     contingency: float
     n_neighbors: int
     variogram_model: str
@@ -189,15 +196,23 @@ class RunParameters:
     cse_reference_c: float
     correct_only_outside_band: bool
     calibrate_variance: bool
+    #: absent from runs made before the key existed (separable approximation then)
+    interval_method: str | None = field(metadata=_meta(optional=True))
+    realisations: int | None = field(metadata=_meta(optional=True))
     bar_diameter_mm: float
     max_aggregate_mm: float
     slab_thickness_mm: float | None
     sawcut_depth_mm: float
     axis_angle_deg: float
     anode_spacing_mm: float | None
+    bar_replacement_share: float
+    bar_spacing_mm: float
+    pay_area: str
+    pay_area_share: float
     min_zone_area_m2: float
     zone_smoothing_m: float
     variogram: Mapping[str, Mapping[str, Any]]
+    kinds: Mapping[str, Mapping[str, Any]]
     basemap_url: str | None
     basemap_attribution: str | None
 
@@ -642,6 +657,60 @@ class ClassArea(_Record):
 
 
 @dataclass(frozen=True)
+class SpacingRecord(_Record):
+    """``kinds.<kind>.spacing``: median nearest-neighbour spacing of the usable readings.
+
+    None with fewer than two reading locations; ``unit`` is the level's plan unit.
+    """
+
+    median_nearest_neighbour: float | None
+    unit: str
+
+
+@dataclass(frozen=True)
+class DensityRuleRecord(_Record):
+    """``kinds.<kind>.density_rule``: the rule that decides surface or points."""
+
+    min_readings_for_surface: int
+    max_spacing_to_range: float
+
+
+@dataclass(frozen=True)
+class NeighbourhoodRecord(_Record):
+    """``kinds.<kind>.neighbourhood``: search radius and mask distance of a kind's surface.
+
+    In ``unit`` (the level's plan unit); ``basis`` says where the mask distance came from
+    (``derived``, ``[run.kinds.<kind>] max_distance`` or ``[run] max_distance``), ``rule``
+    states the derivation.
+    """
+
+    search_radius: float
+    mask_distance: float
+    unit: str
+    basis: str
+    rule: str
+
+
+@dataclass(frozen=True)
+class PointsClassCount(_Record):
+    """``kinds.<kind>.points.class_counts[]``: readings of one class, and their Thiessen area."""
+
+    class_name: str = field(metadata=_meta(key="class"))
+    readings: int
+    share_of_readings: float
+    thiessen_area_m2: float
+
+
+@dataclass(frozen=True)
+class PointsRecord(_Record):
+    """``kinds.<kind>.points``: a kind shown as its readings (too sparse for a surface)."""
+
+    points: int
+    class_counts: tuple[PointsClassCount, ...] | None = field(default=None,
+                                                               metadata=_meta(optional=True))
+
+
+@dataclass(frozen=True)
 class KindRecord(_Record):
     """``levels.<id>.kinds.<kind>``: a measurement kind on a level.
 
@@ -661,6 +730,15 @@ class KindRecord(_Record):
         ``surface_skipped``).
     class_areas : tuple of ClassArea or None
         Kinds with a class set and a surface.
+    representation : str or None
+        ``"surface"`` or ``"points"`` (None without usable readings);
+        ``representation_reason`` says why, in one sentence.
+    spacing, density_rule
+        The readings' spacing and the rule that chose the representation.
+    neighbourhood : NeighbourhoodRecord or None
+        Search radius and mask distance of the surface.
+    points : PointsRecord or None
+        A kind shown as points: the number of points and the class counts of readings.
     surface_key : bool
         Whether the JSON holds a ``surface`` key: a kind with too few readings has
         ``"surface": null``, one whose kriging failed has only ``surface_skipped``.
@@ -672,11 +750,18 @@ class KindRecord(_Record):
     statistics: Mapping[str, float]
     class_share_of_readings: Mapping[str, float] | None = field(
         default=None, metadata=_meta(optional=True))
+    representation: str | None = field(default=None, metadata=_meta(optional=True))
+    representation_reason: str | None = field(default=None, metadata=_meta(optional=True))
+    spacing: SpacingRecord | None = field(default=None, metadata=_meta(optional=True))
+    density_rule: DensityRuleRecord | None = field(default=None, metadata=_meta(optional=True))
     surface: SurfaceRecord | None = field(default=None, metadata=_meta(optional=True))
     skipped: str | None = field(default=None,
                                 metadata=_meta(key="surface_skipped", optional=True))
+    neighbourhood: NeighbourhoodRecord | None = field(default=None,
+                                                      metadata=_meta(optional=True))
     class_areas: tuple[ClassArea, ...] | None = field(default=None,
                                                       metadata=_meta(optional=True))
+    points: PointsRecord | None = field(default=None, metadata=_meta(optional=True))
     surface_key: bool = field(default=True, metadata=_meta(derived=True))
 
     @classmethod
@@ -688,7 +773,8 @@ class KindRecord(_Record):
         out = super().to_json()
         if self.surface is None and self.surface_key:
             out = _insert(out, "surface", None, before="surface_skipped"
-                          if "surface_skipped" in out else "class_areas")
+                          if "surface_skipped" in out else "neighbourhood"
+                          if "neighbourhood" in out else "class_areas")
         return out
 
 
@@ -696,8 +782,10 @@ class KindRecord(_Record):
 class AreaBeyondThreshold(_Record):
     """``condition.<kind>_area_beyond_threshold``: expected area beyond a class threshold.
 
-    The expected area and its interval (``interval_level``, e.g. 0.9) in m2, from the
-    probability map with correlated errors (``correlation_length`` in the plan unit).
+    The expected area and its interval (``interval_level``, e.g. 0.9) in m2, by
+    ``interval_method`` with ``realisations`` draws: conditional simulation of the field, or
+    the separable approximation with correlated errors (``correlation_length``, the
+    variogram's range, in the plan unit).
     """
 
     meaning: str
@@ -712,6 +800,12 @@ class AreaBeyondThreshold(_Record):
     correlation_length: float
     correlation_length_unit: str
     assumption: str
+    #: ``simulation`` or ``separable-approximation``; absent from runs before the key existed
+    interval_method: str | None = field(default=None, metadata=_meta(optional=True))
+    #: realisations (simulation) or error fields drawn (approximation)
+    realisations: int | None = field(default=None, metadata=_meta(optional=True))
+    #: one line on how the interval was found, for the report's methods text
+    method: str | None = field(default=None, metadata=_meta(optional=True))
 
 
 @dataclass(frozen=True)
@@ -834,6 +928,9 @@ class ConditionRecord(_Record):
         None without a potential surface of at least 20 readings.
     combined_classes, combined_rules
         None when the level has no potential, resistivity or corrosion-rate surface.
+    combined_kinds : mapping of str to str or None
+        Per rule-table column (role) with a kind on the level: whether its surface was used
+        by the combined classes, or why not (shown as points).
     life : mapping of str to LifeSummary or None
         By corrosion-rate survey id; None without one.
     """
@@ -845,6 +942,7 @@ class ConditionRecord(_Record):
     combined_classes: tuple[CombinedClassArea, ...] | None = field(
         default=None, metadata=_meta(optional=True))
     combined_rules: CombinedRules | None = field(default=None, metadata=_meta(optional=True))
+    combined_kinds: Mapping[str, str] | None = field(default=None, metadata=_meta(optional=True))
     life: Mapping[str, LifeSummary] | None = field(default=None, metadata=_meta(optional=True))
 
     @classmethod
@@ -902,11 +1000,66 @@ class ZoneRecord(_Record):
 
 
 @dataclass(frozen=True)
+class RepairRecord(_Record):
+    """``levels.<id>.repair_list[]``: one repair as the per-repair schedule gives it.
+
+    Quantities unrounded, in m, m2, m3 and mm; ``dimensions`` as a contractor writes
+    them in the reporting units; ``sounded`` the numbers of the sounded areas it holds.
+    """
+
+    repair_id: str
+    sounded: str
+    location: str
+    dimensions: str
+    size_x_m: float
+    size_y_m: float
+    area_m2: float
+    area_before_rounding_m2: float
+    perimeter_m: float
+    depth_class: str
+    depth_mm: float
+    volume_m3: float
+    bid_item: str
+    joint_edge_m: float
+    bar_replacement_m: float
+    anodes: int | None
+    rounding_note: str
+
+
+@dataclass(frozen=True)
+class PayAreaRecord(_Record):
+    """``levels.<id>.pay_areas[]``: a bay (or the level) a treatment is paid on."""
+
+    bay: str
+    bid_item: str
+    treatment: str
+    share_covered: float
+    area_m2: float
+
+
+#: The columns of a repair frame that ``run.json`` records per repair.
+REPAIR_RECORD_KEYS = tuple(f.name for f in dataclasses.fields(RepairRecord))
+
+
+def _repair_list(repairs: Any) -> list[dict[str, Any]]:
+    if repairs is None or not len(repairs):
+        return []
+    out = []
+    for r in repairs.to_dict("records"):
+        rec = {k: r.get(k) for k in REPAIR_RECORD_KEYS}
+        a = rec["anodes"]
+        rec["anodes"] = None if a is None or a != a else int(a)
+        out.append(rec)
+    return out
+
+
+@dataclass(frozen=True)
 class LevelRecord(_Record):
     """``levels.<id>``: everything recorded for a level.
 
     ``condition`` is None when the level has no surface; ``repairs`` is the number of
-    repair outlines.
+    repair outlines, ``repair_list`` the repairs themselves (without outlines) and
+    ``pay_areas`` the bays the treatments are paid on (empty when priced as zoned).
     """
 
     name: str
@@ -917,11 +1070,19 @@ class LevelRecord(_Record):
     planning: PlanningNotes | None
     zones: tuple[ZoneRecord, ...]
     repairs: int
+    repair_list: tuple[RepairRecord, ...]
+    pay_areas: tuple[PayAreaRecord, ...]
 
 
 @dataclass(frozen=True)
 class ScheduleRow(_Record):
-    """``schedule[]``: a row of ``quantities.csv`` at full precision."""
+    """``schedule[]``: a row of ``quantities.csv``, with its quantity before rounding.
+
+    ``quantity`` is the bid quantity (rounded up to its unit's increment, as in
+    ``quantities.csv``), ``quantity_unrounded`` the value computed; ``unit_price``,
+    ``amount`` and ``currency`` are present when the site gives a price list and prices
+    the item.
+    """
 
     level_id: str
     item: str
@@ -930,6 +1091,10 @@ class ScheduleRow(_Record):
     unit: str
     line: str
     quantity: float
+    quantity_unrounded: float | None = field(default=None, metadata=_meta(optional=True))
+    unit_price: float | None = field(default=None, metadata=_meta(optional=True))
+    amount: float | None = field(default=None, metadata=_meta(optional=True))
+    currency: str | None = field(default=None, metadata=_meta(optional=True))
 
 
 @dataclass(frozen=True)
@@ -1004,7 +1169,8 @@ def _manifest_dict(result: RunResult, started: float) -> dict[str, Any]:
     cfg = result.site.config
     flags = result.flags
     summary = (qa.summarize(flags).to_dict("records") if len(flags) else [])
-    sched = result.schedule.to_dict("records") if len(result.schedule) else []
+    sched = [{k: v for k, v in r.items() if not (isinstance(v, float) and v != v)}  # NaN: none
+             for r in (result.schedule.to_dict("records") if len(result.schedule) else [])]
     return {
         "geo_corrosion_run": FORMAT_VERSION,
         "site": {"name": cfg.name, "owner": cfg.owner, "crs": cfg.crs.to_string(),
@@ -1030,7 +1196,12 @@ def _manifest_dict(result: RunResult, started: float) -> dict[str, Any]:
                          "zones": [] if lr.zones is None else [
                              {k: v for k, v in z.items() if k != "geometry"}
                              for z in lr.zones.to_dict("records")],
-                         "repairs": 0 if lr.repairs is None else len(lr.repairs)}
+                         "repairs": 0 if lr.repairs is None else len(lr.repairs),
+                         "repair_list": _repair_list(lr.repairs),
+                         "pay_areas": [] if lr.pay_areas is None else [
+                             {k: v for k, v in z.items()
+                              if k not in ("geometry", "level_id", "unit_kind")}
+                             for z in lr.pay_areas.to_dict("records")]}
                    for lid, lr in result.levels.items()},
         "schedule": sched,
         "warnings": list(result.warnings),

@@ -9,7 +9,7 @@ import geopandas as gpd
 import pandas as pd
 
 from geo_corrosion.model.site import Level, Site
-from geo_corrosion.model.surface import KindSurface, LevelCondition
+from geo_corrosion.model.surface import KindPoints, KindSurface, LevelCondition
 
 __all__ = ["LevelResult", "RunResult"]
 
@@ -36,6 +36,8 @@ class LevelResult:
         Probability maps, combined classes and condition statistics (None without surfaces).
     readings : dict of str to DataFrame
         The readings each surface was kriged from, by kind.
+    points : dict of str to KindPoints
+        Kinds too sparse for a surface, shown as their readings, by kind.
     """
 
     level: Level
@@ -46,6 +48,10 @@ class LevelResult:
     skipped: dict[str, str] = field(default_factory=dict)
     condition: LevelCondition | None = None
     readings: dict[str, pd.DataFrame] = field(default_factory=dict)
+    points: dict[str, KindPoints] = field(default_factory=dict)
+    #: treatment pay areas (whole bays or the level) in local grid coordinates, None when
+    #: the treatments are priced as zoned (``[run].pay_area = "zone"``)
+    pay_areas: gpd.GeoDataFrame | None = None
 
 
 @dataclass

@@ -21,8 +21,22 @@ from geo_corrosion.config import LevelConfig, SiteConfig, SurveyConfig
 from geo_corrosion.crs import LocalGrid
 from geo_corrosion.io.plans import Feature
 from geo_corrosion.measurements import MeasurementKind
+from geo_corrosion.pricing import PriceList
+from geo_corrosion.surfaces.regions import split_at_lines
 
-__all__ = ["Level", "Survey", "Site"]
+__all__ = ["Joint", "Level", "Survey", "Site"]
+
+
+@dataclass(frozen=True)
+class Joint(Feature):
+    """A joint line read from a joint layer, with the kind of joint it is.
+
+    ``breaks_continuity``: the reinforcing mats on its two sides are not electrically
+    continuous (expansion and isolation joints by default; the site file may say otherwise).
+    """
+
+    joint_type: str = "construction"
+    breaks_continuity: bool = False
 
 
 @dataclass(frozen=True)
@@ -39,8 +53,8 @@ class Level:
         Local grid units.
     exclusions : tuple of Feature
         Columns, cores, ramps and openings.
-    joints : tuple of Feature
-        Joint lines.
+    joints : tuple of Joint
+        Joint lines with their type (a plain Feature counts as a construction joint).
     overlays : dict of str to tuple of Feature
         Delaminations, spalls, patches and cracks by kind.
     """
@@ -51,6 +65,8 @@ class Level:
     exclusions: tuple[Feature, ...] = ()
     joints: tuple[Feature, ...] = ()
     overlays: dict[str, tuple[Feature, ...]] = field(default_factory=dict)
+    #: column-grid lines with their labels (``Feature.label``: ``C``, ``3``), if given
+    column_grid: tuple[Feature, ...] = ()
 
     @property
     def id(self) -> str:
@@ -69,6 +85,20 @@ class Level:
             return self.slab
         holes = shapely.union_all([e.geometry for e in self.exclusions])
         return shapely.difference(self.slab, holes)
+
+    @property
+    def breaking_joints(self) -> list[BaseGeometry]:
+        """The joint lines that break the electrical continuity of the mat."""
+        return [j.geometry for j in self.joints if getattr(j, "breaks_continuity", False)]
+
+    def continuity_regions(self) -> list[BaseGeometry]:
+        """Split the deck at its breaking joints into parts whose mat is continuous (local grid).
+
+        One region, the deck itself, when no breaking joint cuts it through.  An exclusion
+        (opening) may end a cut.  Faces below a millionth of the slab's area are slivers.
+        """
+        deck = self.deck
+        return split_at_lines(deck, self.breaking_joints, self.slab.area * 1e-6)
 
     def exclusion_polygons(self) -> list[BaseGeometry]:
         """Exclusion geometries."""
@@ -107,6 +137,8 @@ class Site:
     config: SiteConfig
     levels: dict[str, Level]
     surveys: tuple[Survey, ...]
+    #: the price list of ``[quantities].price_list``, read and checked (None: no estimate)
+    prices: PriceList | None = None
 
     @property
     def crs(self) -> pyproj.CRS:

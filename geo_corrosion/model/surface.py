@@ -18,8 +18,10 @@ from shapely.geometry.base import BaseGeometry
 
 from geo_corrosion.measurements import MeasurementKind
 from geo_corrosion.surfaces import GridSpec, VariogramFit
+from geo_corrosion.surfaces.density import Neighbourhood
 
-__all__ = ["grid_values_at", "KindSurface", "LevelCondition", "LevelSurfaces", "with_role"]
+__all__ = ["grid_values_at", "KindSurface", "KindPoints", "LevelCondition", "LevelSurfaces",
+           "with_role"]
 
 
 def grid_values_at(grid: GridSpec, values: NDArray[np.float64], x_local: NDArray[np.float64],
@@ -58,6 +60,10 @@ class KindSurface:
         Contour lines ``(level, geometry)`` and bands ``(lo, hi, geometry)``.
     classes : DataFrame
         Class polygons with ``class``, ``color``, ``area_local`` (local units squared).
+    regions : ndarray of int, optional
+        ``(ny, nx)``: the continuity region of each cell drawn (-1 elsewhere) when the kind
+        was kriged region by region (the deck split by breaking joints); None otherwise.
+        Maps trace contours region by region with it.
     """
 
     kind: MeasurementKind
@@ -73,6 +79,9 @@ class KindSurface:
     bands: Sequence[tuple[float, float, BaseGeometry]] = field(default_factory=list)
     classes: pd.DataFrame | None = None
     directional: dict[str, Any] = field(default_factory=dict)
+    regions: NDArray[np.intp] | None = None
+    #: search radius and mask distance of this kind (None: built without them)
+    neighbourhood: Neighbourhood | None = None
 
     def values_at(self, x_local: NDArray[np.float64], y_local: NDArray[np.float64]
                   ) -> NDArray[np.float64]:
@@ -81,6 +90,29 @@ class KindSurface:
         Points off the grid take the nearest edge cell; cells outside the mask give NaN.
         """
         return grid_values_at(self.grid, self.mean, x_local, y_local)
+
+
+@dataclass(frozen=True)
+class KindPoints:
+    """A kind shown as its readings: too sparse for a surface (local grid coordinates).
+
+    Attributes
+    ----------
+    kind : MeasurementKind
+    points : DataFrame
+        One row per usable reading: ``reading_id``, ``point_id``, ``x_local``, ``y_local``,
+        the value column, ``value``, ``unit``, and with a class set ``class``, ``class_code``,
+        ``color``, ``class_set``; ``cell`` is its Thiessen cell clipped to the deck.
+    reason : str
+        Why there is no surface, one sentence.
+    spacing : float
+        Median nearest-neighbour spacing of the readings (NaN with one location).
+    """
+
+    kind: MeasurementKind
+    points: pd.DataFrame
+    reason: str
+    spacing: float
 
 
 @dataclass
@@ -110,12 +142,15 @@ class LevelSurfaces:
         cross-validation and class areas (or why there is no surface).
     skipped : dict of str to str
         Kinds with readings but no surface, with the reason.
+    points : dict of str to KindPoints
+        Kinds with usable readings but no surface, shown as points.
     """
 
     surfaces: dict[str, KindSurface] = field(default_factory=dict)
     readings: dict[str, pd.DataFrame] = field(default_factory=dict)
     kinds: dict[str, dict[str, Any]] = field(default_factory=dict)
     skipped: dict[str, str] = field(default_factory=dict)
+    points: dict[str, KindPoints] = field(default_factory=dict)
 
 
 def with_role(surfaces: Mapping[str, KindSurface], role: str) -> KindSurface | None:

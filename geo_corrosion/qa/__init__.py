@@ -16,6 +16,7 @@ from geo_corrosion.qa.checks import (
     count_line,
     flag_points,
     format_flags,
+    ground_connection_flags,
     runnable,
     summarize,
 )
@@ -32,4 +33,5 @@ __all__ = [
     "flag_points",
     "format_flags",
     "count_line",
+    "ground_connection_flags",
 ]

@@ -45,11 +45,13 @@ from numpy.typing import NDArray
 from scipy.spatial import cKDTree
 
 from geo_corrosion.errors import QAError
+from geo_corrosion.surfaces.regions import region_labels
 
 __all__ = [
     "QARule",
     "QA_RULES",
     "FLAG_COLUMNS",
+    "ground_connection_flags",
     "CONTRACT_COLUMNS",
     "check_survey",
     "check_level",
@@ -150,6 +152,11 @@ QA_RULES: dict[str, QARule] = {
         QARule("QA-ALL-OUTSIDE", "error", "every reading is outside the slab", _P),
         QARule("QA-NO-VALUES", "error", "no reading has both a value and a location", _P),
         QARule("QA-FEW-READINGS", "warning", "fewer usable readings than needed", _P),
+        QARule("QA-GROUND-CONNECTION", "warning",
+               "a potential survey has readings in a continuity region (the deck split by "
+               "expansion or isolation joints) where it names no ground connection: a half-cell "
+               "reading needs a connection to the mat it is on",
+               "common practice [ACI-222R-19, from memory; ASTM-C876-22a]"),
     )
 }
 
@@ -876,3 +883,64 @@ def format_flags(flags: pd.DataFrame, *, max_rows: int = 50, min_severity: Sever
     lines.append(f"{len(flags)} flag(s), {n_err} error(s): site "
                  + ("can be run" if n_err == 0 else "cannot be run"))
     return "\n".join(lines)
+
+
+def ground_connection_flags(
+    frame: pd.DataFrame,
+    regions: Sequence[Any],
+    connections: Sequence[tuple[str, float, float]],
+    *,
+    value_column: str,
+    survey: str,
+    level: str,
+) -> pd.DataFrame:
+    """Flag each continuity region that holds readings of a survey but none of its connections.
+
+    Only a survey whose readings lie in two or more regions is checked: on one region the
+    voltmeter's connection is to that mat, wherever it is recorded.
+
+    Parameters
+    ----------
+    frame : DataFrame
+        The survey's readings (reading-frame contract).
+    regions : sequence of shapely geometries
+        The level's continuity regions (:meth:`geo_corrosion.model.site.Level.continuity_regions`).
+    connections : sequence of (label, x, y)
+        The survey's ground connections, local grid.
+    value_column : str
+        The kind's value column (readings without value or location are not counted).
+    survey, level : str
+        Ids, for the flag rows.
+
+    Returns
+    -------
+    DataFrame
+        One survey-level ``QA-GROUND-CONNECTION`` flag per region without a connection.
+    """
+    r = _readings(frame, value_column)
+    ok = r.ok_xy & r.ok_v
+    if len(regions) < 2 or not ok.any():
+        return _empty_flags()
+    lab = region_labels(regions, r.x[ok], r.y[ok])
+    used = sorted(set(lab.tolist()))
+    if len(used) < 2:
+        return _empty_flags()
+    gl = (region_labels(regions, [c[1] for c in connections], [c[2] for c in connections])
+          if connections else np.array([], dtype=np.intp))
+    out = []
+    for k in used:
+        if (gl == k).any():
+            continue
+        at = regions[k].representative_point()
+        n = int((lab == k).sum())
+        named = (", ".join(f"{gc[0]!r} in region {int(g) + 1}" for gc, g in
+                           zip(connections, gl, strict=True)) or "none")
+        out.append(r.survey_flag(
+            "QA-GROUND-CONNECTION",
+            f"survey {survey!r} has {n} reading(s) in continuity region {k + 1} of "
+            f"{len(regions)} of level {level!r} (around ({at.x:.1f}, {at.y:.1f}), bounded by "
+            "expansion or isolation joints) but names no ground connection there (its "
+            f"ground_connections: {named}); a half-cell reading needs a connection to the mat "
+            "it is on: connect the voltmeter to the bars of each region and record it in "
+            "ground_connections, or check the joint type", float(n)))
+    return _concat(out) if out else _empty_flags()

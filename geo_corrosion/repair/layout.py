@@ -26,7 +26,10 @@ The layout is common practice, built on [ICRI-310.1R-2008; UFGS-03931]:
 7. apply the minimum size again to the pieces the clip left (common practice, see
    :func:`_settle_slivers`): a piece narrower than it is dropped if it is margin
    only, else widened away from the cut edge inside its panel, else kept with a
-   :class:`~geo_corrosion.errors.GeometryWarning` naming the repair.
+   :class:`~geo_corrosion.errors.GeometryWarning` naming the repair;
+8. with ``round_increment_mm``, round every side up to the cutting increment,
+   keeping all the repair covered and staying in its panel, out of exclusions and
+   clear of the other repairs (:mod:`geo_corrosion.repair.rounding`).
 """
 
 from __future__ import annotations
@@ -50,16 +53,20 @@ from shapely.geometry.polygon import orient
 
 from geo_corrosion.config import LayoutParams
 from geo_corrosion.errors import GeometryWarning, RepairError
+from geo_corrosion.repair.rounding import check_no_overlap, round_up_outlines
+from geo_corrosion.surfaces.regions import split_at_lines
 from geo_corrosion.units import LENGTH_TO_M, MM_PER_INCH
 
 __all__ = [
     "DEPTH_CLASSES",
     "REPAIR_COLUMNS",
+    "SPALL_DEPTH_SHARE_OF_COVER",
     "LayoutParams",
     "clean_outlines",
     "depth_class",
     "layout_repairs",
     "n_reentrant_corners",
+    "panels",
     "polygon_parts",
     "undercut_clearance_mm",
 ]
@@ -74,8 +81,14 @@ DEPTH_CLASSES: tuple[str, ...] = ("partial_above_bars", "partial_below_bars", "f
 #: Columns of the frame returned by :func:`layout_repairs`.
 REPAIR_COLUMNS: tuple[str, ...] = (
     "repair_id", "level_id", "source_ids", "area_m2", "perimeter_m", "outline_m",
-    "n_reentrant_corners", "depth_class", "depth_mm", "volume_m3", "plan_unit", "geometry",
+    "n_reentrant_corners", "depth_class", "depth_mm", "volume_m3", "size_x_m", "size_y_m",
+    "area_before_rounding_m2", "rounding_note", "sounded", "plan_unit", "geometry",
 )
+
+#: Where a spall carries no depth, it is taken at this share of the cover: shallower than
+#: the cover, so above the bars (common practice, no source; to confirm).  A delamination
+#: without a depth is taken at the bars (below the bars), see :func:`depth_class`.
+SPALL_DEPTH_SHARE_OF_COVER = 0.5
 
 _SOURCE_KINDS = ("delamination", "spall", "zone")
 _PLAN_UNITS = ("m", "ft")
@@ -362,15 +375,12 @@ def _close(geom: BaseGeometry, gap: float) -> BaseGeometry:
     return shapely.union_all([grown.buffer(-d, join_style="mitre", mitre_limit=5.0), geom])
 
 
-def _panels(slab: Polygon, joints: Sequence[BaseGeometry], tol: float) -> list[Polygon]:
-    """Split the slab at its joint lines (joints that do not cut it through are ignored)."""
-    if not joints:
-        return [slab]
-    lines = [slab.exterior, *slab.interiors, *[j for j in joints if not j.is_empty]]
-    faces = shapely.polygonize(shapely.get_parts(shapely.union_all(lines)))
-    panels = [f for f in shapely.get_parts(faces)
-              if f.area > tol and slab.contains(f.representative_point())]
-    return panels or [slab]
+def panels(slab: Polygon, joints: Sequence[BaseGeometry], tol: float) -> list[Polygon]:
+    """Split the slab at its joint lines (joints that do not cut it through are ignored).
+
+    Also the bays of the pay areas (:func:`geo_corrosion.repair.tender.bays`).
+    """
+    return [p for p in split_at_lines(slab, joints, tol) if isinstance(p, Polygon)] or [slab]
 
 
 @dataclass
@@ -562,6 +572,8 @@ class _Piece:
     clipped: BaseGeometry  # as clipped, before any widening: numbering uses it
     narrow_mm: float | None = None  # kept below the minimum size: its short side, mm (nan if
     #                                 not a rectangle); warned once it has an id
+    unrounded: BaseGeometry | None = None  # before rounding up to the cutting increment
+    note: str = ""  # what the rounding could not do (clipped at an obstacle)
 
 
 def _fits_square(g: BaseGeometry, size: float, tol: float) -> bool:
@@ -683,7 +695,9 @@ def layout_repairs(sources: gpd.GeoDataFrame, *, slab: Polygon,
     sources : GeoDataFrame
         Polygons with columns ``source_id`` and ``kind`` (``"delamination"``,
         ``"spall"`` or ``"zone"``); optional ``cover_mm`` and ``delam_depth_mm``
-        (mm) set the depth class of the repair holding them.
+        (mm) set the depth class of the repair holding them (a spall without a depth is
+        taken at :data:`SPALL_DEPTH_SHARE_OF_COVER` of the cover: above the bars);
+        optional ``label`` (the number on the sounding plan, ``D1``).
     slab : Polygon
         The slab outline, local grid coordinates in ``unit``.
     exclusions : sequence of Polygon
@@ -709,7 +723,11 @@ def layout_repairs(sources: gpd.GeoDataFrame, *, slab: Polygon,
         edge, on an exclusion's boundary or on a joint, none of which are cut),
         ``outline_m`` (whole outline), ``n_reentrant_corners``, ``depth_class``,
         ``depth_mm`` (removal depth), ``volume_m3`` (area times removal depth),
-        ``plan_unit`` and the geometry in local grid coordinates.
+        ``size_x_m`` and ``size_y_m`` (overall size along the saw-cut axes),
+        ``area_before_rounding_m2``, ``rounding_note`` (a side that could not be rounded
+        up, '' otherwise), ``sounded`` (the ``label`` of each source held, comma-joined,
+        or its ``source_id`` where the sources carry no label), ``plan_unit`` and the
+        geometry in local grid coordinates.
 
     Raises
     ------
@@ -770,7 +788,7 @@ def _layout(sources: gpd.GeoDataFrame, slab: Polygon, exclusions: Sequence[BaseG
         warnings.warn(f"level {level_id}: {rows.loc[k, 'kind']} {rows.loc[k, 'source_id']!r} "
                       "lies wholly outside the slab; it is ignored", GeometryWarning, stacklevel=2)
     found: list[_Piece] = []
-    for panel in _panels(slab_r, [rot(j) for j in jts], tol):
+    for panel in panels(slab_r, [rot(j) for j in jts], tol):
         shapes: list[_Shape] = []
         for k, g in enumerate(parts_r):
             piece = g.intersection(panel)
@@ -795,7 +813,31 @@ def _layout(sources: gpd.GeoDataFrame, slab: Polygon, exclusions: Sequence[BaseG
                 ks = frozenset(k for k in s.ids if parts_r[k].intersects(pc)) or s.ids
                 found.append(_Piece(pc, ks, panel, pc))
     found = _settle_slivers(found, parts_r, excl_r, min_size, tol, per_mm)
+    if p.round_increment_mm:
+        _round(found, excl_r, p.round_increment_mm, per_mm, unit, tol)
     return _attributes(found, rows, row_of, slab, excl, jts, rot, unit, p, level_id, tol)
+
+
+def _round(found: list[_Piece], excl: BaseGeometry, increment_mm: float, per_mm: float,
+           unit: str, tol: float) -> None:
+    """Round every repair up to the cutting increment (:mod:`geo_corrosion.repair.rounding`)."""
+    done = round_up_outlines([pc.geom for pc in found], [pc.panel for pc in found],
+                             increment=increment_mm * per_mm, exclusions=excl, tol=tol)
+    inc = (f"{increment_mm / MM_PER_INCH:g} in" if unit == "ft"
+           else f"{increment_mm / 1000:g} m")
+    for pc, r in zip(found, done, strict=True):
+        pc.unrounded, pc.geom, pc.note = pc.geom, r.geom, r.note(inc)
+    check_no_overlap([pc.geom for pc in found], [f"#{k + 1}" for k in range(len(found))],
+                     tol=tol * 1e-3, what="repair layout")
+
+
+def _sorted_labels(labels: set[str]) -> list[str]:
+    """Sort labels such as D2, D10, S1 by prefix, then number."""
+    def key(s: str) -> tuple[str, int, str]:
+        head = s.rstrip("0123456789")
+        tail = s[len(head):]
+        return head, int(tail) if tail else -1, s
+    return sorted(labels, key=key)
 
 
 def _tidy(g: BaseGeometry, tol: float) -> BaseGeometry:
@@ -828,15 +870,21 @@ def _attributes(found: Iterable[_Piece], rows: pd.DataFrame,
         for r in srows:
             cover = _finite(rows.loc[r, "cover_mm"]) if "cover_mm" in rows else None
             dd = _finite(rows.loc[r, "delam_depth_mm"]) if "delam_depth_mm" in rows else None
+            cov = p.cover_mm if cover is None else cover
+            if dd is None and str(rows.loc[r, "kind"]) == "spall":
+                dd = SPALL_DEPTH_SHARE_OF_COVER * cov
             cls, dep = depth_class(
-                cover_mm=p.cover_mm if cover is None else cover, bar_diameter_mm=p.bar_diameter_mm,
+                cover_mm=cov, bar_diameter_mm=p.bar_diameter_mm,
                 delam_depth_mm=dd, max_aggregate_mm=p.max_aggregate_mm,
                 slab_thickness_mm=p.slab_thickness_mm, rule=p.undercut_rule,
                 sawcut_depth_mm=p.sawcut_depth_mm, full_depth_fraction=p.full_depth_fraction)
             key = (DEPTH_CLASSES.index(cls), dep, cls)
             best = max(best, key)
         area_m2 = g.area * f * f
+        sx0, sy0, sx1, sy1 = pc.geom.bounds  # in the saw-cut frame
         ids = list(dict.fromkeys(str(rows.loc[r, "source_id"]) for r in srows))
+        labels = (_sorted_labels({str(rows.loc[r, "label"]) for r in srows})
+                  if "label" in rows else ids)
         recs.append({
             "_y": round(-c.y, 6), "_x": round(c.x, 6), "_narrow": pc.narrow_mm is not None,
             "_width_mm": math.nan if pc.narrow_mm is None else pc.narrow_mm,
@@ -845,7 +893,12 @@ def _attributes(found: Iterable[_Piece], rows: pd.DataFrame,
             "outline_m": g.boundary.length * f,
             "n_reentrant_corners": n_reentrant_corners(g),
             "depth_class": best[2], "depth_mm": best[1],
-            "volume_m3": area_m2 * best[1] / 1000.0, "plan_unit": unit, "geometry": g,
+            "volume_m3": area_m2 * best[1] / 1000.0,
+            "size_x_m": (sx1 - sx0) * f, "size_y_m": (sy1 - sy0) * f,
+            "area_before_rounding_m2": (area_m2 if pc.unrounded is None
+                                        else pc.unrounded.area * f * f),
+            "rounding_note": pc.note, "sounded": ", ".join(labels), "plan_unit": unit,
+            "geometry": g,
         })
     if not recs:
         return _empty_frame()

@@ -7,9 +7,12 @@ For each level, from the kriged surfaces of :mod:`geo_corrosion.stages.map_surfa
   more negative than -350 mV CSE (ASTM C876's "high" bound), that the corrosion rate
   exceeds 1 uA/cm2 (RILEM "high") and that the resistivity is below 10 kOhm.cm (RILEM
   "high"), assuming Gaussian errors in the kriged variable (log space for lognormal kinds);
-* the area beyond each threshold as an expected value with a 90 % interval
-  (:func:`geo_corrosion.condition.probability.area_interval`, correlated errors
-  with the variogram's range as correlation length);
+* the area beyond each threshold as an expected value with a 90 % interval, and the
+  probability maps, from conditional simulations of the field (``[run].interval_method =
+  "simulation"``, :func:`geo_corrosion.condition.probability.simulated_area_intervals`;
+  conditioning by kriging [Journel-Huijbregts-1978 ch. VII, from memory]) or from the fast
+  separable approximation (:func:`geo_corrosion.condition.probability.area_interval`,
+  correlated errors with the variogram's range as correlation length);
 * the site-specific passive/active threshold from a two-component mixture fit
   [RILEM-TC154-2003; Gulikers-Elsener-2008] of the kind with ``mixture_threshold``, with the
   share of readings and of area on each side;
@@ -21,7 +24,7 @@ For each level, from the kriged surfaces of :mod:`geo_corrosion.stages.map_surfa
 from __future__ import annotations
 
 import dataclasses
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from typing import Any
 
 import numpy as np
@@ -34,9 +37,14 @@ from shapely.geometry import shape
 from geo_corrosion.condition.combined import DEFAULT_RULES, RuleTable, combine
 from geo_corrosion.condition.combined import KINDS as COMBINED_COLUMNS
 from geo_corrosion.condition.potential import fit_mixture_threshold
-from geo_corrosion.condition.probability import area_interval, exceedance_probability
+from geo_corrosion.condition.probability import (
+    INTERVAL_METHODS,
+    area_interval,
+    exceedance_probability,
+    simulated_area_intervals,
+)
 from geo_corrosion.errors import ConditionError
-from geo_corrosion.measurements import MeasurementKind, Role
+from geo_corrosion.measurements import MeasurementKind, Role, Threshold
 from geo_corrosion.model.site import Level, Survey
 from geo_corrosion.model.surface import (
     KindSurface,
@@ -45,9 +53,13 @@ from geo_corrosion.model.surface import (
     grid_values_at,
     with_role,
 )
+from geo_corrosion.stages.map_points import combined_kinds
+from geo_corrosion.stages.map_surfaces import merge_repeats
+from geo_corrosion.surfaces.simulation import ConditionalSimulator
 from geo_corrosion.units import LENGTH_TO_M
 
 __all__ = ["assess_condition", "assess_level", "log_space_moments", "life_estimates",
+           "threshold_overrides",
            "value_at_readings", "MIXTURE_MIN_READINGS"]
 
 INTERVAL_LEVEL = 0.90
@@ -112,10 +124,47 @@ def _polygons(codes: NDArray[np.int64], surface: KindSurface, labels: list[tuple
     return pd.DataFrame(rows)
 
 
+def threshold_overrides(kinds: Mapping[str, Mapping[str, Any]],
+                        surfaces: Mapping[str, KindSurface]) -> dict[str, Threshold]:
+    """Return the thresholds the site file sets (``[run.kinds.<kind>] threshold``), by kind.
+
+    Each replaces the kind's own value, keeps its direction and names the key as its
+    source; the site reader has checked it lies in the kind's plausible range.
+
+    Examples
+    --------
+    >>> from geo_corrosion.measurements import MEASUREMENTS
+    >>> from types import SimpleNamespace
+    >>> s = {"potential": SimpleNamespace(kind=MEASUREMENTS.get("potential")())}
+    >>> t = threshold_overrides({"potential": {"threshold": -300.0}}, s)["potential"]
+    >>> t.value, t.direction, t.meaning
+    (-300.0, 'below', 'potential below -300 mV CSE (site file)')
+    """
+    out = {}
+    for name, t in kinds.items():
+        s = surfaces.get(name)
+        if s is None or s.kind.threshold is None or t.get("threshold") is None:
+            continue
+        own = s.kind.threshold
+        v = float(t["threshold"])
+        unit = s.kind.canonical_unit + (" CSE" if s.kind.canonical_unit == "mV" else "")
+        out[name] = dataclasses.replace(
+            own, value=v, meaning=f"{name.replace('_', ' ')} {own.direction} {v:g} {unit} "
+                                  "(site file)",
+            source=f"site file [run.kinds.{name}].threshold, in place of {own.source}",
+            statement="")
+    return out
+
+
 def assess_level(surfaces: dict[str, KindSurface], readings: dict[str, NDArray[np.float64]],
                  *, deck: Any, unit: str, seed: int = 0,
                  rules: dict[str, Any] | None = None,
-                 low_cover: NDArray[np.bool_] | None = None) -> LevelCondition:
+                 low_cover: NDArray[np.bool_] | None = None,
+                 reading_points: dict[str, tuple[NDArray[np.float64], NDArray[np.float64],
+                                                 NDArray[np.float64]]] | None = None,
+                 interval_method: str = "separable-approximation", realisations: int = 200,
+                 n_neighbors: int = 16,
+                 thresholds: Mapping[str, Threshold] | None = None) -> LevelCondition:
     """Probability maps, area intervals, mixture threshold and combined classes of a level.
 
     Parameters
@@ -132,30 +181,64 @@ def assess_level(surfaces: dict[str, KindSurface], readings: dict[str, NDArray[n
         Low cover per cell of the surfaces' grid (kriged cover below the level's
         low-cover threshold); cells without a cover value must be ``False``.  ``None``
         when the level has no cover surface: rules on low cover then never match.
+    reading_points : dict of str to (x, y, z), optional
+        By kind, the readings each surface was kriged from (repeats merged; local grid
+        units, canonical units).  A kind without them gets the separable approximation.
+    interval_method : {"simulation", "separable-approximation"}
+        How the probability maps, expected areas and intervals are found: conditional
+        simulation of the field (:mod:`geo_corrosion.surfaces.simulation`), or the fast
+        approximation of :func:`geo_corrosion.condition.probability.area_interval`.
+    realisations : int
+        Conditional simulations (``[run].realisations``).
+    n_neighbors : int
+        The kriging neighbourhood of the surfaces (``[run].n_neighbors``).
+    thresholds : mapping of str to Threshold, optional
+        By kind, a threshold that replaces the kind's own (``[run.kinds.<kind>] threshold``,
+        :func:`threshold_overrides`).
     """
     out = LevelCondition()
     a2 = LENGTH_TO_M[unit] ** 2
+    if interval_method not in INTERVAL_METHODS:
+        raise ConditionError(f"interval_method must be one of {', '.join(INTERVAL_METHODS)}, "
+                             f"got {interval_method!r}")
     with_threshold = sorted((s for s in surfaces.values() if s.kind.threshold is not None),
                             key=lambda s: (s.kind.condition_order, s.kind.name))
     for s in with_threshold:
-        name, t = s.kind.name, s.kind.threshold
+        name, t = s.kind.name, (thresholds or {}).get(s.kind.name, s.kind.threshold)
         assert t is not None
         thr, direction = t.value, t.direction
         log = s.kind.krige_transform == "log"
-        mean, var = (log_space_moments(s.mean, s.variance) if log else (s.mean, s.variance))
-        p = exceedance_probability(mean, var, thr, direction=direction, log_space=log)
-        out.probability[name] = p
         corr_len = float(s.fit.model.range)
-        est = area_interval(mean, var, thr, cell_size=s.grid.cell, correlation_length=corr_len,
-                            direction=direction, log_space=log, level=INTERVAL_LEVEL,
-                            n_draws=400, seed=seed)
+        pts = (reading_points or {}).get(name)
+        if interval_method == "simulation" and pts is not None:
+            x, y, z = pts
+            sim = ConditionalSimulator(x, y, np.log(z) if log else z, s.fit.model, s.grid,
+                                       np.isfinite(s.mean) & np.isfinite(s.variance),
+                                       n_neighbors=n_neighbors)
+            est, p = simulated_area_intervals(sim, [(thr, direction)], log_space=log,
+                                              level=INTERVAL_LEVEL, n_realisations=realisations,
+                                              seed=seed)[0]
+            assumption = ("Gaussian field with the fitted variogram, the nugget as measurement "
+                          "error (log space for lognormal kinds)")
+            used = "simulation"
+        else:
+            mean, var = (log_space_moments(s.mean, s.variance) if log else (s.mean, s.variance))
+            p = exceedance_probability(mean, var, thr, direction=direction, log_space=log)
+            est = area_interval(mean, var, thr, cell_size=s.grid.cell,
+                                correlation_length=corr_len, direction=direction,
+                                log_space=log, level=INTERVAL_LEVEL, n_draws=400, seed=seed)
+            assumption = ("Gaussian errors in the kriged variable (log space for lognormal "
+                          "kinds)")
+            used = "separable-approximation"
+        out.probability[name] = p
         out.stats[f"{name}_area_beyond_threshold"] = {
             "meaning": t.meaning, "threshold": thr, "unit": s.kind.canonical_unit,
             "source": t.source, "expected_m2": est.expected * a2,
             "interval_level": INTERVAL_LEVEL, "lower_m2": est.lower * a2,
             "upper_m2": est.upper * a2, "mapped_area_m2": est.total_area * a2,
             "correlation_length": corr_len, "correlation_length_unit": unit,
-            "assumption": "Gaussian errors in the kriged variable (log space for lognormal kinds)",
+            "assumption": assumption, "interval_method": used, "realisations": est.n_draws,
+            "method": est.method,
         }
     mixed = [s for s in surfaces.values() if s.kind.mixture_threshold]
     if mixed and len(readings.get(mixed[0].kind.name, ())) >= MIXTURE_MIN_READINGS:
@@ -190,9 +273,27 @@ def assess_level(surfaces: dict[str, KindSurface], readings: dict[str, NDArray[n
     return out
 
 
+def _reading_points(mapped: LevelSurfaces) -> dict[str, tuple[NDArray[np.float64],
+                                                                NDArray[np.float64],
+                                                                NDArray[np.float64]]]:
+    """Return the readings each surface was kriged from, repeats merged as when kriged."""
+    out = {}
+    for name, frame in mapped.readings.items():
+        if name not in mapped.surfaces:
+            continue
+        col = mapped.surfaces[name].kind.value_column
+        r = merge_repeats(frame, col)
+        out[name] = (r["x_local"].to_numpy(float), r["y_local"].to_numpy(float),
+                     r[col].to_numpy(float))
+    return out
+
+
 def assess_condition(level: Level, mapped: LevelSurfaces, surveys: Sequence[Survey], *,
                      rules: dict[str, Any] | None, bar_diameter_mm: float,
-                     low_cover: NDArray[np.bool_] | None
+                     low_cover: NDArray[np.bool_] | None,
+                     interval_method: str = "separable-approximation", realisations: int = 200,
+                     n_neighbors: int = 16,
+                     kinds: Mapping[str, Mapping[str, Any]] | None = None,
                      ) -> tuple[LevelCondition, dict[str, pd.DataFrame]]:
     """Assess the condition of one level that has at least one surface.
 
@@ -200,6 +301,8 @@ def assess_condition(level: Level, mapped: LevelSurfaces, surveys: Sequence[Surv
     ----------
     surveys : sequence of Survey
         The level's surveys; those whose kind gives life estimates get them.
+    interval_method, realisations, n_neighbors
+        As in :func:`assess_level` (``[run]`` keys).
 
     Returns
     -------
@@ -213,7 +316,12 @@ def assess_condition(level: Level, mapped: LevelSurfaces, surveys: Sequence[Surv
     condition = assess_level(
         mapped.surfaces, {k: r[mapped.surfaces[k].kind.value_column].to_numpy(float)
                           for k, r in mapped.readings.items()},
-        deck=level.deck, unit=level.unit, rules=rules, low_cover=low_cover)
+        deck=level.deck, unit=level.unit, rules=rules, low_cover=low_cover,
+        reading_points=_reading_points(mapped), interval_method=interval_method,
+        realisations=realisations, n_neighbors=n_neighbors,
+        thresholds=threshold_overrides(kinds or {}, mapped.surfaces))
+    if "combined_rules" in condition.stats:  # which kinds the combined classes used, and why
+        condition.stats["combined_kinds"] = combined_kinds(mapped, COMBINED_COLUMNS)
     frames: dict[str, pd.DataFrame] = {}
     life: dict[str, Any] = {}
     cover = with_role(mapped.surfaces, Role.COVER)

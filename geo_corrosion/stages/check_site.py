@@ -102,6 +102,13 @@ def check_site(site: Site) -> pd.DataFrame:
                     spacing=site.levels[lid].config.grid.spacing if kind.grid_rules else None,
                     potential_rules=kind.grid_rules))
     for s in site.surveys:
+        if s.kind.needs_continuity:
+            lv = site.levels[s.config.level]
+            parts.append(qa.ground_connection_flags(
+                s.frame, lv.continuity_regions(),
+                [(g.label, g.x, g.y) for g in s.config.ground_connections],
+                value_column=s.kind.value_column, survey=s.config.id, level=lv.id))
+    for s in site.surveys:
         parts.append(derived_flags(
             s.frame, survey_id=s.config.id, level_id=s.config.level, file_name=s.config.path.name,
             electrode_temperature=s.kind.electrode_temperature))

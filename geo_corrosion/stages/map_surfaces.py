@@ -4,9 +4,10 @@ For each level and measurement kind: the readings fit for mapping (QA errors,
 implausible values and readings outside the deck left out, never deleted), a
 fitted variogram chosen by cross-validation, local ordinary kriging onto a grid
 aligned with the level's survey grid, clipped to the slab minus exclusions and
-masked beyond ``max_distance`` of any reading, contour lines and bands, and the
-class areas of the kind's class set.  Geometry is produced in local grid
-coordinates; exporters transform it to the site CRS.
+masked beyond the kind's mask distance of any reading (its own, from its spacing and
+fitted range, or ``max_distance``), contour lines and bands, and the class areas of the
+kind's class set.  A kind too sparse for a surface is shown as its readings (points).
+Geometry is produced in local grid coordinates; exporters transform it to the site CRS.
 """
 
 from __future__ import annotations
@@ -30,6 +31,7 @@ from geo_corrosion.errors import KrigingError
 from geo_corrosion.measurements import MeasurementKind
 from geo_corrosion.model.site import Level, Survey
 from geo_corrosion.model.surface import KindSurface, LevelSurfaces
+from geo_corrosion.stages.map_points import kind_points, points_record
 from geo_corrosion.surfaces import (
     CrossValidation,
     GridSpec,
@@ -37,12 +39,26 @@ from geo_corrosion.surfaces import (
     check_contour_interval,
     contour_bands,
     contour_lines,
+    contours_by_region,
     cross_validate,
     experimental_variogram,
     fit_variogram,
     grid_for_polygon,
     krige_grid,
+    krige_regions,
+    region_labels,
     surface_mask,
+)
+from geo_corrosion.surfaces.density import MIN_READINGS_FOR_SURFACE as DEFAULT_MIN_READINGS
+from geo_corrosion.surfaces.density import (
+    SparseReadingsError,
+    binding_radius,
+    count_reason,
+    density_rule,
+    kind_neighbourhood,
+    nearest_neighbour_spacing,
+    spacing_reason,
+    surface_reason,
 )
 from geo_corrosion.units import LENGTH_TO_M, ReportUnits
 
@@ -92,14 +108,15 @@ def merge_repeats(readings: pd.DataFrame, value_column: str) -> pd.DataFrame:
 
 def directional_variograms(
     x: NDArray[np.float64], y: NDArray[np.float64], z: NDArray[np.float64],
-    kind: MeasurementKind, fit: VariogramFit,
+    kind: MeasurementKind, fit: VariogramFit, *, groups: NDArray[np.intp] | None = None,
 ) -> dict[str, Any]:
     """Experimental variograms along the grid axes (the deck's bar directions).
 
     Reported with an anisotropy indication: the ratio of the mean semivariance
     over lags up to half the fitted range, along x to along y (1 = isotropic).
     The engine does not fit anisotropy automatically; fix it in the site file
-    (``[run.variogram.<kind>] anisotropy_ratio, anisotropy_angle_deg``).
+    (``[run.variogram.<kind>] anisotropy_ratio, anisotropy_angle_deg``).  ``groups`` (the
+    continuity region of each reading) keeps pairs within one region.
     """
     zz = np.log(z) if kind.krige_transform == "log" else z
     ev0 = fit.experimental  # None when the fit fell back (too few readings to estimate)
@@ -107,7 +124,7 @@ def directional_variograms(
     out: dict[str, Any] = {}
     means = {}
     for label, ang in (("along_x", 0.0), ("along_y", 90.0)):
-        ev = experimental_variogram(x, y, zz, max_lag=max_lag, direction_deg=ang)
+        ev = experimental_variogram(x, y, zz, max_lag=max_lag, direction_deg=ang, groups=groups)
         sel = (ev.lags <= 0.5 * fit.model.range) & (ev.counts > 0)
         means[label] = float(np.mean(ev.gamma[sel])) if sel.any() else float("nan")
         out[label] = {"direction_deg": ang, "lags": ev.lags.tolist(), "gamma": ev.gamma.tolist(),
@@ -193,7 +210,6 @@ def build_surface(
     """
     u = LENGTH_TO_M[level.unit]
     cell = params.cell_size_m / u
-    max_d = params.max_distance_m / u
     col = kind.value_column
     readings = merge_repeats(readings, col)
     x = readings["x_local"].to_numpy(float)
@@ -209,27 +225,61 @@ def build_surface(
     chosen = fixed.get("model") or params.variogram_model
     models = (("spherical", "exponential", "gaussian", "matern") if chosen == "auto"
               else (chosen,))
+    # a kind read against the mat is kriged per continuity region (the deck split at the
+    # joints that break the mat): pairs, neighbours and cross-validation stay in one region
+    regions = level.continuity_regions() if kind.needs_continuity else []
+    groups = region_labels(regions, x, y) if len(regions) > 1 else None
     fit = fit_variogram(x, y, z, models=models, transform=kind.krige_transform,
-                        n_neighbors=params.n_neighbors, fixed=fixed or None)
+                        n_neighbors=params.n_neighbors, fixed=fixed or None, groups=groups)
+    # the density rule and the kind's own neighbourhood (surfaces/density.py)
+    spacing = nearest_neighbour_spacing(x, y)
+    sparse = spacing_reason(spacing, float(fit.model.range), density_rule(params.kinds, kind.name),
+                            level.unit)
+    if sparse is not None:
+        raise SparseReadingsError(sparse)
+    hood = kind_neighbourhood(params.kinds, params.max_distance_m, kind.name, spacing,
+                              float(fit.model.range), u)
     cv = cross_validate(x, y, z, fit.model, n_neighbors=params.n_neighbors,
-                        transform=kind.krige_transform)
+                        transform=kind.krige_transform, groups=groups)
     if params.calibrate_variance and not ({"nugget", "psill"} & set(fixed)):
         fit, cv = calibrate_variance(fit, cv)
-    directional = directional_variograms(x, y, z, kind, fit)
+    directional = directional_variograms(x, y, z, kind, fit, groups=groups)
     deck = level.deck
     grid = grid_for_polygon(deck, cell)
-    mask = surface_mask(grid, deck, x, y, max_distance=max_d)
-    mean, var = krige_grid(x, y, z, grid, fit.model, mask=mask, n_neighbors=params.n_neighbors,
-                           transform=kind.krige_transform, progress=progress)
+    cell_region = None
+    if groups is None:
+        mask = surface_mask(grid, deck, x, y, max_distance=hood.mask_distance)
+        cx, cy = grid.row_centers(slice(None))
+        flat = mask.ravel()
+        radius = binding_radius(x, y, cx[flat], cy[flat], params.n_neighbors,
+                                hood.search_radius, fit.model.transform_coords)
+        mean, var = krige_grid(x, y, z, grid, fit.model, mask=mask,
+                               n_neighbors=params.n_neighbors, radius=radius,
+                               transform=kind.krige_transform, progress=progress)
+    else:
+        cell_region, mean, var, region_notes = krige_regions(
+            x, y, z, groups, regions, grid, fit.model, max_distance=hood.mask_distance,
+            n_neighbors=params.n_neighbors, transform=kind.krige_transform,
+            search_radius=hood.search_radius)
+        counts = ", ".join(str(int((groups == r).sum())) for r in range(len(regions)))
+        fit = dataclasses.replace(fit, notes=(
+            *fit.notes,
+            f"kriged in {len(regions)} continuity regions split by joints that break the "
+            f"mat's continuity ({counts} readings): one variogram fitted on pairs within a "
+            "region, each region kriged from its own readings only", *region_notes))
     res = pd.DataFrame({"reading_id": readings["reading_id"], "x_local": x, "y_local": y,
                         "residual": np.asarray(cv.residuals, float)})
     interval = kind.contour_interval_for(params)
     check_kind_interval(kind, interval)
-    lines = contour_lines(mean, grid, interval=interval)
-    bands = contour_bands(mean, grid, interval=interval)
+    if cell_region is None:
+        lines = contour_lines(mean, grid, interval=interval)
+        bands = contour_bands(mean, grid, interval=interval)
+    else:  # traced region by region: no contour runs along a breaking joint
+        lines, bands = contours_by_region(mean, grid, cell_region, interval=interval)
     classes = _class_polygons(kind, mean, grid, deck, class_set)
     return KindSurface(kind, grid, mean, var, fit, cv.to_dict(value_unit=kind.canonical_unit),
-                       res, len(z), interval, lines, bands, classes, directional)
+                       res, len(z), interval, lines, bands, classes, directional,
+                       regions=cell_region, neighbourhood=hood)
 
 
 def check_kind_interval(kind: MeasurementKind, interval: float) -> None:
@@ -245,8 +295,9 @@ def check_kind_interval(kind: MeasurementKind, interval: float) -> None:
                            what=f"{kind.name} surfaces")
 
 
-#: Fewest usable readings for which a kind is kriged on a level.
-MIN_READINGS_FOR_SURFACE = 30
+#: Fewest usable readings for which a kind is kriged on a level (the default of the density
+#: rule, :mod:`geo_corrosion.surfaces.density`; ``[run.kinds.<kind>] min_readings_for_surface``).
+MIN_READINGS_FOR_SURFACE = DEFAULT_MIN_READINGS
 
 
 def reading_statistics(values: NDArray[np.float64]) -> dict[str, float]:
@@ -265,8 +316,11 @@ def map_level(level: Level, surveys: Sequence[Survey], flags: pd.DataFrame, para
               ) -> LevelSurfaces:
     """Krige every kind surveyed on a level, with the statistics ``run.json`` keeps.
 
-    A kind with fewer than :data:`MIN_READINGS_FOR_SURFACE` usable readings, or whose
-    kriging fails, gets no surface; the reason is kept in ``skipped``.
+    A kind below the density rule of :mod:`geo_corrosion.surfaces.density` (fewer than
+    ``min_readings_for_surface`` usable readings, or readings too far apart for the fitted
+    range), or whose kriging fails, gets no surface: it is shown as points
+    (``LevelSurfaces.points``, :mod:`geo_corrosion.stages.map_points`) and the reason is kept
+    in ``skipped`` and in the kind's record (``representation``, ``representation_reason``).
 
     Parameters
     ----------
@@ -298,23 +352,32 @@ def map_level(level: Level, surveys: Sequence[Survey], flags: pd.DataFrame, para
             entry["class_share_of_readings"] = {str(k): float(v / len(readings))
                                                 for k, v in vc.items()}
         out.kinds[name] = entry
-        if len(readings) < MIN_READINGS_FOR_SURFACE:
-            out.skipped[name] = (f"{len(readings)} usable readings; a kriged surface needs at "
-                                 f"least {MIN_READINGS_FOR_SURFACE}")
-            entry["surface"] = None
-            entry["surface_skipped"] = out.skipped[name]
-            say(f"level {level.id}: {name}: no surface ({out.skipped[name]})")
-            continue
-        say(f"level {level.id}: kriging {len(readings)} {name} readings")
         class_set = next((sv.config.options.get("class_set") for sv in of_kind
                           if sv.config.options.get("class_set")), None)
+        rule = density_rule(params.kinds, name)
+        spacing = (nearest_neighbour_spacing(readings["x_local"], readings["y_local"])
+                   if len(readings) else float("nan"))
+        few = (count_reason(len(readings), rule) if len(readings)
+               else "no usable readings, so there is nothing to map")
+        entry["representation"] = "points" if len(readings) else None
+        entry["representation_reason"] = few
+        entry["spacing"] = {"median_nearest_neighbour": spacing if math.isfinite(spacing)
+                            else None, "unit": level.unit}
+        entry["density_rule"] = rule.to_dict()
+        if few is not None:
+            _show_as_points(out, entry, level, kind, readings, few, class_set)
+            say(f"level {level.id}: {name}: points, no surface ({few})")
+            continue
+        say(f"level {level.id}: kriging {len(readings)} {name} readings")
         try:
             s = build_surface(level, kind, readings, params, class_set=class_set)
-        except KrigingError as err:
-            out.skipped[name] = str(err)
-            entry["surface_skipped"] = str(err)
-            say(f"level {level.id}: {name}: no surface: {err}")
+        except KrigingError as err:  # SparseReadingsError too: readings too far apart
+            _show_as_points(out, entry, level, kind, readings, str(err), class_set)
+            say(f"level {level.id}: {name}: points, no surface: {err}")
             continue
+        entry["representation"] = "surface"
+        entry["representation_reason"] = surface_reason(
+            len(readings), spacing, float(s.fit.model.range), rule, level.unit)
         out.surfaces[name] = s
         out.readings[name] = readings
         vunit = (kind.canonical_unit if kind.krige_transform is None
@@ -329,6 +392,8 @@ def map_level(level: Level, surveys: Sequence[Survey], flags: pd.DataFrame, para
             "directional_variograms": s.directional,
             "contour_interval": s.interval, "kriged_in": s.kind.krige_transform or "linear",
         }
+        if s.neighbourhood is not None:
+            entry["neighbourhood"] = s.neighbourhood.to_dict(level.unit)
         if s.classes is not None and len(s.classes):
             deck_area = level.deck.area * a2
             entry["class_areas"] = [
@@ -338,3 +403,19 @@ def map_level(level: Level, surveys: Sequence[Survey], flags: pd.DataFrame, para
                  "share_of_deck": r["area_local"] * a2 / deck_area}
                 for r in s.classes.to_dict("records")]
     return out
+
+
+def _show_as_points(out: LevelSurfaces, entry: dict[str, Any], level: Level,
+                    kind: MeasurementKind, readings: pd.DataFrame, reason: str,
+                    class_set: str | None) -> None:
+    """Record a kind that gets no surface; with usable readings, show them as points."""
+    out.skipped[kind.name] = reason
+    entry["surface"] = None
+    entry["surface_skipped"] = reason
+    entry["representation_reason"] = reason
+    if not len(readings):
+        return
+    entry["representation"] = "points"
+    p = kind_points(kind, readings, level.deck, reason, class_set=class_set)
+    out.points[kind.name] = p
+    entry["points"] = points_record(p, a2=LENGTH_TO_M[level.unit] ** 2)

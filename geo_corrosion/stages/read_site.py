@@ -26,18 +26,23 @@ from geo_corrosion.config import (
     TABLES,
     TOP,
     ControlPoint,
+    DrawingParams,
     GridConfig,
+    GroundConnection,
+    JointRef,
     Key,
     LayerRef,
     LayoutParams,
     LevelConfig,
     OverlayRef,
+    QuantitiesConfig,
     RunParams,
     SiteConfig,
     SurveyConfig,
 )
 from geo_corrosion.crs import site_crs
 from geo_corrosion.errors import RepairError, SiteFileError, UnitError
+from geo_corrosion.repair.rounding import default_increment_mm
 from geo_corrosion.units import normalize_unit, parse_area
 
 __all__ = ["read_site"]
@@ -113,6 +118,45 @@ def _layer(data: object, where: str, root: Path) -> LayerRef:
     )
 
 
+def _joints(t: Table, root: Path) -> tuple[JointRef, ...]:
+    """Read ``joints``: one joint layer reference (a table or a path) or a list of them."""
+    if not t.has("joints"):
+        return ()
+    raw = t.data["joints"]
+    many = isinstance(raw, list)
+    items = raw if many else [raw]
+    out = []
+    for i, item in enumerate(items):
+        jw = f"{t.key('joints')}[{i}]" if many else t.key("joints")
+        if isinstance(item, str):
+            item = {"path": item}
+        jt = _table(item, jw, "levels.joints")
+        keys = TABLES["levels.joints"]
+        rest = {k: v for k, v in jt.data.items() if k not in ("type", "breaks_continuity")}
+        out.append(JointRef(joint_type=_read(jt, keys["type"]),
+                            breaks_continuity=_read(jt, keys["breaks_continuity"]),
+                            ref=_layer(rest, jw, root)))
+    return tuple(out)
+
+
+def _ground_connections(t: Table) -> tuple[GroundConnection, ...]:
+    """Read a survey's ``ground_connections``: a list of ``{ x, y, label }``."""
+    out = []
+    seen: dict[str, int] = {}
+    for i, g in enumerate(t.array("ground_connections")):
+        gw = f"{t.key('ground_connections')}[{i}]"
+        gt = _table(g, gw, "surveys.ground_connections")
+        keys = TABLES["surveys.ground_connections"]
+        label = _read(gt, keys["label"], f"G{i + 1}")
+        if label in seen:
+            raise SiteFileError(
+                f"{gt.key('label')}: ground connection {label!r} is already named by "
+                f"ground_connections[{seen[label]}] of this survey; give each its own label")
+        seen[label] = i
+        out.append(GroundConnection(x=_read(gt, keys["x"]), y=_read(gt, keys["y"]), label=label))
+    return tuple(out)
+
+
 def _grid(data: object, where: str) -> GridConfig:
     t = _table(data, where, "levels.grid")
     keys = TABLES["levels.grid"]
@@ -175,11 +219,16 @@ def _level(data: object, where: str, root: Path) -> LevelConfig:
             _layer(e, f"{t.key('exclusions')}[{i}]", root)
             for i, e in enumerate(t.array("exclusions"))
         ),
-        joints=_layer(t.data["joints"], t.key("joints"), root) if t.has("joints") else None,
+        joints=_joints(t, root),
+        column_grid=(_layer(t.data["column_grid"], t.key("column_grid"), root)
+                     if t.has("column_grid") else None),
         overlays=tuple(overlays),
         grid=_grid(t.data["grid"], t.key("grid")),
         specified_cover_mm=_read(t, keys["specified_cover"]),
         cover_tolerance_mm=_read(t, keys["cover_tolerance"]),
+        slab_thickness_mm=_read(t, keys["slab_thickness"]),
+        station_start=_read(t, keys["station_start"]),
+        station_centerline_y=_read(t, keys["station_centerline_y"]),
     )
 
 
@@ -235,6 +284,7 @@ def _survey(data: object, where: str, root: Path, level_ids: set[str]) -> Survey
         where=where,
         options=options,
         allow_outside=allow,
+        ground_connections=_ground_connections(t),
     )
 
 
@@ -338,12 +388,59 @@ def _variogram(t: Table) -> dict[str, dict[str, Any]]:
     return fixed
 
 
-def _run(data: object, where: str) -> tuple[dict[str, Any], LayoutParams]:
+def _kinds(t: Table) -> dict[str, dict[str, Any]]:
+    """Read the [run.kinds.<kind>] tables (surface rule and neighbourhood of a kind)."""
+    from geo_corrosion.errors import PluginError
+    from geo_corrosion.measurements import MEASUREMENTS
+
+    kt_all = t.data.get("kinds", {})
+    if not isinstance(kt_all, dict):
+        raise SiteFileError(f"{t.key('kinds')}: expected tables such as [run.kinds.cover]")
+    file = t.where.removesuffix(": [run]")
+    out: dict[str, dict[str, Any]] = {}
+    for kind, spec in kt_all.items():
+        w = f"{file}: [run.kinds.{kind}]"
+        if kind not in MEASUREMENTS.load():
+            known = MEASUREMENTS.names()
+            close = difflib.get_close_matches(kind, known, n=1)
+            hint = f"; did you mean {close[0]!r}?" if close else ""
+            raise SiteFileError(
+                f"{w}: unknown measurement kind {kind!r}{hint} Known kinds: {', '.join(known)}. "
+                "Name the table [run.kinds.<kind>] after one of them")
+        try:
+            MEASUREMENTS.get(kind)
+        except PluginError as err:
+            raise SiteFileError(f"{w}: {err}") from err
+        kt = _table(spec, w, "run.kinds.<kind>")
+        out[str(kind)] = {k.field: _read(kt, k) for k in TABLES["run.kinds.<kind>"].keys
+                          if kt.has(str(k.name))}
+        if "threshold" in out[str(kind)]:
+            _check_threshold(MEASUREMENTS.get(kind), out[str(kind)]["threshold"],
+                             kt.key("threshold"))
+    return out
+
+
+def _check_threshold(kind: Any, value: float, where: str) -> None:
+    """Refuse a threshold for a kind without one, or outside the kind's plausible range."""
+    if kind.threshold is None:
+        raise SiteFileError(f"{where}: the {kind.name} kind makes no area-beyond-threshold "
+                            "statement, so it takes no threshold; remove the key")
+    lo, hi = kind.plausible_range
+    if not lo < value < hi:
+        raise SiteFileError(
+            f"{where}: {value:g} {kind.canonical_unit} lies outside the plausible range of "
+            f"{kind.name} readings ({lo:g} to {hi:g} {kind.canonical_unit}), so no reading "
+            f"could be beyond it in a meaningful way; give a value inside that range (the "
+            f"published threshold is {kind.threshold.value:g} {kind.canonical_unit})")
+
+
+def _run(data: object, where: str, units: str) -> tuple[dict[str, Any], LayoutParams]:
     """Read [run]: the keyword arguments of :class:`RunParams`, and the repair layout's.
 
     The layout's keys are checked against the ranges declared on
     :class:`~geo_corrosion.config.LayoutParams` here, each message naming its [run] key, and
-    the layout parameters are built once.
+    the layout parameters are built once.  ``repair_increment`` not given takes the default
+    of the reporting ``units`` (3 in or 50 mm).
     """
     t = _table(data, where, "run")
     run: dict[str, Any] = {}
@@ -351,13 +448,23 @@ def _run(data: object, where: str) -> tuple[dict[str, Any], LayoutParams]:
     for k in TABLES["run"].keys:
         if k.field == "variogram":
             run["variogram"] = _variogram(t)
+        elif k.field == "kinds":
+            run["kinds"] = _kinds(t)
         else:
             (layout if k.owner is LayoutParams else run)[k.field] = _read(t, k)
+    if layout.get("round_increment_mm") is None:  # the default follows the reporting units
+        layout["round_increment_mm"] = default_increment_mm(units)
     try:
         params = LayoutParams(**layout)
     except RepairError as err:  # a check across keys: the table is named
         raise SiteFileError(f"{where}: {err}") from err
     return run, params
+
+
+def _drawings(data: object, where: str) -> DrawingParams:
+    """Read the [drawings] table: the drawing sheets' coordinates, size and engineer."""
+    t = _table(data, where, "drawings")
+    return DrawingParams(**{k.field: _read(t, k) for k in TABLES["drawings"].keys})
 
 
 def _webmap(data: object, where: str) -> dict[str, Any]:
@@ -392,6 +499,17 @@ def _webmap(data: object, where: str) -> dict[str, Any]:
         raise SiteFileError(f"{t.key('basemap_attribution')}: given without basemap_url; give "
                             "both, or remove it")
     return {"basemap_url": url, "basemap_attribution": attribution}
+
+
+def _quantities(data: object, where: str, root: Path) -> QuantitiesConfig:
+    """Read the [quantities] table: the price list of the estimate, its path checked."""
+    t = _table(data, where, "quantities")
+    keys = TABLES["quantities"]
+    allow = _read(t, keys["allow_outside"])
+    raw = _read(t, keys["price_list"])
+    path = None if raw is None else site_path(raw, root, t.key("price_list"),
+                                              allow_outside=allow)
+    return QuantitiesConfig(price_list=path, allow_outside=allow)
 
 
 def _zoning(rules: list[Any], where: str) -> tuple[tuple[str, dict[str, Any]], ...]:
@@ -626,7 +744,7 @@ def read_site(path: str | Path) -> SiteConfig:
         dup = sorted({s for s in sids if sids.count(s) > 1})
         raise SiteFileError(f"{p}: survey ids must be unique; repeated: {', '.join(dup)}")
     site = {k: _read(st, keys[k]) for k in ("name", "owner", "units", "notes")}
-    run, layout = _run(data.get("run", {}), f"{p}: [run]")
+    run, layout = _run(data.get("run", {}), f"{p}: [run]", str(site["units"]))
     return SiteConfig(
         path=p.resolve(),
         root=root,
@@ -639,4 +757,6 @@ def read_site(path: str | Path) -> SiteConfig:
         layout=layout,
         zoning=_zoning(_array(top, "zoning"), f"{p}: [[zoning]]"),
         combined_rules=_condition(data.get("condition"), f"{p}: [condition]"),
+        drawings=_drawings(data.get("drawings", {}), f"{p}: [drawings]"),
+        quantities=_quantities(data.get("quantities", {}), f"{p}: [quantities]", root),
     )

@@ -9,6 +9,13 @@ from geo_corrosion.surfaces.contours import (
 from geo_corrosion.surfaces.fitting import CandidateFit, VariogramFit, fit_variogram
 from geo_corrosion.surfaces.grid import GridSpec, grid_for_polygon, krige_grid, surface_mask
 from geo_corrosion.surfaces.kriging import CrossValidation, KrigingEngine, cross_validate, krige
+from geo_corrosion.surfaces.regions import (
+    contours_by_region,
+    dangling_lines,
+    krige_regions,
+    region_labels,
+    split_at_lines,
+)
 from geo_corrosion.surfaces.variogram import (
     MODEL_NAMES,
     ExperimentalVariogram,
@@ -36,4 +43,9 @@ __all__ = [
     "contour_lines",
     "contour_bands",
     "check_contour_interval",
+    "split_at_lines",
+    "region_labels",
+    "dangling_lines",
+    "krige_regions",
+    "contours_by_region",
 ]

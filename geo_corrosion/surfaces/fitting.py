@@ -244,6 +244,7 @@ def fit_variogram(
     cv_max_points: int = 2000,
     min_readings: int = 30,
     max_pairs: int = 2_000_000,
+    groups: ArrayLike | None = None,
 ) -> VariogramFit:
     """Fit candidate variogram models and choose one by cross-validation.
 
@@ -276,6 +277,11 @@ def fit_variogram(
         Below this many readings the fallback model is used.
     max_pairs : int
         Pair budget of the experimental variogram.
+    groups : array_like, optional
+        A label per reading (the continuity region of a deck split by breaking joints):
+        the experimental variogram counts only pairs within one group and each group is
+        cross-validated from its own readings, so the fit never pairs readings across a
+        breaking joint.  The readings must not hold coincident locations.
 
     Returns
     -------
@@ -335,7 +341,8 @@ def fit_variogram(
             fallback=not complete, notes=tuple(notes),
         )
     ev = experimental_variogram(
-        xa, ya, zt, max_lag=max_lag, n_lags=n_lags, max_pairs=max_pairs, seed=seed
+        xa, ya, zt, max_lag=max_lag, n_lags=n_lags, max_pairs=max_pairs, seed=seed,
+        groups=groups,
     )
     ml = float(ev.bin_edges[-1])
     var = float(np.var(zt))
@@ -349,7 +356,8 @@ def fit_variogram(
                 break
             ml = max(ml / 4.0, 2.0 * spacing * n_lags)
             ev = experimental_variogram(
-                xa, ya, zt, max_lag=ml, n_lags=n_lags, max_pairs=max_pairs, seed=seed
+                xa, ya, zt, max_lag=ml, n_lags=n_lags, max_pairs=max_pairs, seed=seed,
+        groups=groups,
             )
             notes.append(f"experimental variogram re-binned to max_lag={ml:g}: the first lag "
                          "bin already held most of the variance")
@@ -359,7 +367,8 @@ def fit_variogram(
         # the structure is short compared with the default maximum lag: re-bin the
         # experimental variogram on twice the fitted range so the short lags are resolved
         ev = experimental_variogram(
-            xa, ya, zt, max_lag=2.0 * short, n_lags=n_lags, max_pairs=max_pairs, seed=seed
+            xa, ya, zt, max_lag=2.0 * short, n_lags=n_lags, max_pairs=max_pairs, seed=seed,
+        groups=groups,
         )
         ml = float(ev.bin_edges[-1])
         notes.append(f"experimental variogram re-binned to max_lag={ml:g} (twice the range)")
@@ -369,13 +378,16 @@ def fit_variogram(
             f"experimental variogram from a random subsample of {ev.n_readings_used} of "
             f"{ev.n_readings} readings ({ev.n_pairs} pairs)"
         )
-    xm, ym, zm = merge_coincident(xa, ya, zt, what="variogram fit")
+    if groups is None:
+        xm, ym, zm = merge_coincident(xa, ya, zt, what="variogram fit")
+    else:
+        xm, ym, zm = xa, ya, zt
     fits: dict[str, CandidateFit] = {}
     for name, (model, cost) in wls.items():
         cv = cross_validate(
             xm, ym, zm, model, n_neighbors=n_neighbors,
             method="loo" if cv_folds is None else "kfold", k=cv_folds or 5,
-            max_points=cv_max_points if cv_folds is None else None, seed=seed,
+            max_points=cv_max_points if cv_folds is None else None, seed=seed, groups=groups,
         )
         fits[name] = CandidateFit(model=model, wls_residual=cost, cv=cv)
     scored = [(c.cv.rmse if c.cv and math.isfinite(c.cv.rmse) else math.inf, c.wls_residual, n)

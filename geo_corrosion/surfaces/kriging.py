@@ -63,7 +63,8 @@ from geo_corrosion.errors import KrigingError, KrigingWarning
 from geo_corrosion.surfaces._kernel import kernel_for, solve_points
 from geo_corrosion.surfaces.variogram import VariogramModel, as_xyz
 
-__all__ = ["krige", "cross_validate", "CrossValidation", "KrigingEngine", "EXACT_EPS"]
+__all__ = ["krige", "cross_validate", "cross_validate_groups", "CrossValidation", "KrigingEngine",
+           "EXACT_EPS"]
 
 log = logging.getLogger(__name__)
 
@@ -530,6 +531,7 @@ def cross_validate(
     transform: str | None = None,
     max_points: int | None = None,
     seed: int = 0,
+    groups: ArrayLike | None = None,
 ) -> CrossValidation:
     """Cross-validate a variogram model with the local kriging engine.
 
@@ -557,6 +559,9 @@ def cross_validate(
         Test only a random subset of this many readings (leave-one-out only).
     seed : int
         Seed of the folds and the subset.
+    groups : array_like, optional
+        A label per reading (continuity region): each group is cross-validated from its own
+        readings only (:func:`cross_validate_groups`).
 
     Returns
     -------
@@ -567,6 +572,10 @@ def cross_validate(
     KrigingError
         With fewer than 3 readings or an unknown method.
     """
+    if groups is not None:
+        return cross_validate_groups(x, y, z, model, groups, n_neighbors=n_neighbors,
+                                     method=method, k=k, transform=transform,
+                                     max_points=max_points, seed=seed)
     xa, ya, za = as_xyz(x, y, z, min_n=3, what="cross-validation")
     xa, ya, za = merge_coincident(xa, ya, za, what="cross-validation")
     zt = _check_transform(transform, za)
@@ -619,4 +628,54 @@ def cross_validate(
         residuals=resid,
         variance=var_t,
         n_tested=int(tested.sum()),
+    )
+
+
+def cross_validate_groups(
+    x: ArrayLike,
+    y: ArrayLike,
+    z: ArrayLike,
+    model: VariogramModel,
+    groups: ArrayLike,
+    **kw: Any,
+) -> CrossValidation:
+    """Cross-validate each group (continuity region) from its own readings; pool the results.
+
+    A group of fewer than 3 readings is not tested (NaN residuals).  The pooled mean error
+    and RMSE are over every tested reading; the MSSE is the mean of the groups' MSSEs
+    weighted by the readings they tested.  Residuals and variances stay in reading order
+    (the readings must not hold coincident locations: merge repeats first).
+    """
+    xa, ya, za = as_xyz(x, y, z, min_n=3, what="cross-validation")
+    ga = np.asarray(groups).ravel()
+    if ga.size != xa.size:
+        raise KrigingError(f"groups has {ga.size} labels for {xa.size} readings")
+    n = xa.size
+    resid = np.full(n, np.nan)
+    var = np.full(n, np.nan)
+    sse_sum, sse_n, method = 0.0, 0, str(kw.get("method", "loo"))
+    max_points = kw.pop("max_points", None)
+    for g in dict.fromkeys(ga.tolist()):
+        idx = np.flatnonzero(ga == g)
+        if idx.size < 3:
+            continue
+        mp = None if max_points is None else max(3, int(max_points * idx.size / n))
+        cv = cross_validate(xa[idx], ya[idx], za[idx], model, max_points=mp, **kw)
+        if cv.residuals.size != idx.size:
+            raise KrigingError("cross-validation by group needs distinct reading locations; "
+                               "merge repeated readings first")
+        resid[idx] = cv.residuals
+        var[idx] = cv.variance
+        if math.isfinite(cv.msse):
+            sse_sum += cv.msse * cv.n_tested
+            sse_n += cv.n_tested
+    r = resid[np.isfinite(resid)]
+    return CrossValidation(
+        method=method,
+        mean_error=float(np.mean(r)) if r.size else math.nan,
+        rmse=float(np.sqrt(np.mean(r * r))) if r.size else math.nan,
+        msse=sse_sum / sse_n if sse_n else math.nan,
+        residuals=resid,
+        variance=var,
+        n_tested=int(r.size),
     )

@@ -400,6 +400,7 @@ def experimental_variogram(
     tolerance_deg: float = 22.5,
     max_pairs: int = 2_000_000,
     seed: int = 0,
+    groups: ArrayLike | None = None,
 ) -> ExperimentalVariogram:
     """Compute the binned (Matheron) semivariogram without an all-pairs matrix.
 
@@ -422,6 +423,9 @@ def experimental_variogram(
         Budget of pairs; above it a random subsample of readings is used.
     seed : int
         Seed of the subsample.
+    groups : array_like, optional
+        A label per reading (the continuity region of a deck split by breaking joints):
+        only pairs of one label are counted, so no pair spans a joint.
 
     Returns
     -------
@@ -463,6 +467,16 @@ def experimental_variogram(
     i = use[pairs[:, 0]]
     j = use[pairs[:, 1]]
     del pairs
+    if groups is not None:
+        ga = np.asarray(groups).ravel()
+        if ga.size != n:
+            raise KrigingError(f"groups has {ga.size} labels for {n} readings")
+        same = ga[i] == ga[j]
+        i, j = i[same], j[same]
+        if i.size == 0:
+            raise KrigingError(
+                f"no pair of readings of one group lies within max_lag={max_lag:g}; increase "
+                "max_lag or survey each region more densely")
     dx = xa[j] - xa[i]
     dy = ya[j] - ya[i]
     h = np.hypot(dx, dy)

@@ -16,6 +16,7 @@ import pytest
 from geo_corrosion import config
 from geo_corrosion.config import TABLES, LayoutParams, RunParams, render_docs, site_template
 from geo_corrosion.errors import RepairError, SiteFileError
+from geo_corrosion.repair.rounding import default_increment_mm
 from geo_corrosion.stages.read_site import read_site
 from geo_corrosion.units import parse_length
 from tests.core.conftest import edit
@@ -28,11 +29,14 @@ TEMPLATE = ROOT / "geo_corrosion" / "templates" / "site.toml"
 #: in /work/runs/before; docs/file-formats.md §3.5): names, order and units stay.
 PARAMETERS = (
     "cell_size_m", "max_distance_m", "contour_interval_mv", "repair_margin_m", "merge_gap_m",
-    "min_repair_size_m", "contingency", "n_neighbors", "variogram_model",
+    "min_repair_size_m", "repair_increment_m", "contingency", "n_neighbors", "variogram_model",
     "resistivity_reference_c", "activation_energy_kj_mol", "cse_reference_c",
-    "correct_only_outside_band", "calibrate_variance", "bar_diameter_mm", "max_aggregate_mm",
+    "correct_only_outside_band", "calibrate_variance", "interval_method", "realisations",
+    "bar_diameter_mm", "max_aggregate_mm",
     "slab_thickness_mm", "sawcut_depth_mm", "axis_angle_deg", "anode_spacing_mm",
-    "min_zone_area_m2", "zone_smoothing_m", "variogram", "basemap_url", "basemap_attribution",
+    "bar_replacement_share", "bar_spacing_mm", "pay_area", "pay_area_share",
+    "min_zone_area_m2", "zone_smoothing_m", "variogram", "kinds", "basemap_url",
+    "basemap_attribution",
 )
 
 
@@ -45,9 +49,10 @@ def test_docs_key_tables_are_generated_from_the_declaration() -> None:
     text = DOCS.read_text(encoding="utf-8")
     assert render_docs(text) == text, "docs/site-file.md is stale: python -m geo_corrosion.config"
     blocks = {m.group("table") for m in config._BLOCK.finditer(text)}
-    assert blocks == {"site", "run", "run.variogram.<kind>", "webmap", "levels", "layer",
-                      "levels.grid", "surveys", "condition.combined",
-                      "condition.combined.rules"}
+    assert blocks == {"site", "run", "run.variogram.<kind>", "run.kinds.<kind>", "webmap",
+                      "drawings", "levels", "layer", "levels.joints", "levels.grid", "surveys",
+                      "surveys.ground_connections", "condition.combined",
+                      "condition.combined.rules", "quantities"}
     for name in blocks:  # every declared key has its row
         for k in TABLES[name].keys:
             assert f"| `{k.name}` |" in text, (name, k.name)
@@ -96,21 +101,25 @@ def test_writing_every_default_out_gives_the_same_config(site_dir: Path) -> None
     text = text.replace('cell_size = "1 ft"\nmax_distance = "6 ft"\n', "")
     (site_dir / "site.toml").write_text(text)
     bare = read_site(site_dir)
-    assert bare.run == RunParams() and bare.layout == LayoutParams()
+    # the cutting increment's default follows the reporting units (issue 13, common practice)
+    assert bare.run == RunParams() and bare.layout == LayoutParams(
+        round_increment_mm=default_increment_mm(bare.units))
     edit(site_dir / "site.toml", "[run]\n", "[run]\n" + "\n".join(lines) + "\n")
     full = read_site(site_dir)
-    assert full.run == RunParams() and full.layout == LayoutParams()
+    assert full.run == RunParams() and full.layout == LayoutParams(
+        round_increment_mm=default_increment_mm(full.units))
     assert len(lines) >= 18
 
 
 def test_declared_defaults_as_held() -> None:
     # the defaults of before the declaration ([ICRI-310.1R-2008, from memory] and common
     # practice): 150 mm margin, 300 mm gap and size, 3/4 in = 19.05 mm saw cut
-    # (1 in = 25.4 mm exactly), 1 ft = 0.3048 m cells
+    # (1 in = 25.4 mm exactly), 1 ft = 0.3048 m cells; max_distance: none, derived per kind
+    # (issue 12: surfaces/density.py)
     lay, run = LayoutParams(), RunParams()
     assert (lay.margin_mm, lay.merge_gap_mm, lay.min_size_mm) == (150.0, 300.0, 300.0)
     assert (lay.sawcut_depth_mm, lay.bar_diameter_mm, lay.max_aggregate_mm) == (19.05, 16.0, 9.5)
-    assert (run.cell_size_m, run.max_distance_m, run.zone_smoothing_m) == (0.3048, 1.8288, 0.15)
+    assert (run.cell_size_m, run.max_distance_m, run.zone_smoothing_m) == (0.3048, None, 0.15)
     assert (run.contour_interval_mv, run.contingency, run.n_neighbors) == (50.0, 0.2, 16)
     assert run.min_zone_area_m2 == 0.5 and run.variogram == {} and run.variogram is not \
         RunParams().variogram

@@ -35,3 +35,26 @@ def interior_angles_deg(geom: BaseGeometry) -> np.ndarray:
             # CCW exterior / CW holes: region on the left; interior angle from b to a
             out.append((360.0 - np.mod(ang, 360.0)) % 360.0)
     return np.concatenate(out) if out else np.array([])
+
+
+def evaluate_xlsx(path: object) -> dict[tuple[str, str], object]:
+    """Evaluate every cell of a workbook with the ``formulas`` library, not openpyxl.
+
+    An engine independent of the writer (``formulas`` parses and computes Excel formulas
+    itself); returns the value of each cell by (sheet title in capitals, coordinate).
+    """
+    import re
+
+    import formulas
+
+    sol = formulas.ExcelModel().loads(str(path)).finish().calculate()
+    out: dict[tuple[str, str], object] = {}
+    for key, v in sol.items():
+        m = re.fullmatch(r"'\[[^\]]+\](.+)'!([A-Z]+\d+)", str(key))
+        if m is None:
+            continue  # a range
+        val = getattr(v, "value", v)
+        while hasattr(val, "__len__") and not isinstance(val, str) and len(val) == 1:
+            val = val[0]
+        out[(m.group(1).upper(), m.group(2))] = val.item() if hasattr(val, "item") else val
+    return out

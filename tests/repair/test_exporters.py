@@ -15,7 +15,7 @@ from geo_corrosion.quantities import bid_schedule
 from geo_corrosion.repair import LayoutParams, layout_repairs
 from geo_corrosion.units import report_units
 from geo_corrosion.zoning import ZoningLayers, default_rules, zone
-from repair.helpers import sources
+from repair.helpers import evaluate_xlsx, sources
 
 US = report_units("us")
 SLAB = box(0, 0, 60, 40)  # feet
@@ -41,7 +41,7 @@ def test_dxf_read_back(tmp_path, level) -> None:
     doc = ezdxf.readfile(out)
     assert doc.header["$INSUNITS"] == 2  # DXF code 2 = feet (ezdxf.units.FT)
     names = {ly.dxf.name for ly in doc.layers}
-    assert {"GC-SLAB", "GC-EXCLUSION", "GC-JOINT", "GC-DELAM", "GC-TEXT",
+    assert {"GC-SLAB", "GC-EXCLUSION", "GC-JOINT", "GC-DELAM", "GC-LABEL",
             "GC-REPAIR-PARTIAL-BELOW-BARS", "GC-ZONE-LOW-COVER", "GC-ZONE-NO-ACTION"} <= names
     msp = doc.modelspace()
     polys = msp.query('LWPOLYLINE[layer=="GC-REPAIR-PARTIAL-BELOW-BARS"]')
@@ -51,9 +51,12 @@ def test_dxf_read_back(tmp_path, level) -> None:
                   for g in rep.geometry)
     assert got == want
     texts = [t.dxf.text for t in msp.query("TEXT")]
-    assert "P1-R001" in texts and "P1-R002" in texts
-    assert "9.00 ft2" in texts  # the 9.00 ft2 repair labelled in reporting units
-    assert any("CAUTIONS" in m.text and "tendons" in m.text for m in msp.query("MTEXT"))
+    assert "P1-R001 PB" in texts and "P1-R002 PB" in texts  # id and depth class
+    # the 9.00 ft2 repair's area in reporting units, in the sheet's repair table
+    paper = [t.dxf.text for lay in doc.layouts if not lay.is_modelspace
+             for t in lay.query("TEXT")]
+    assert "9.0" in paper
+    assert any("tendons" in t for t in paper)  # the cautions are the sheet's general notes
     assert [p.name for p in tmp_path.iterdir()] == ["P1.dxf"]
 
 
@@ -91,9 +94,13 @@ def test_xlsx_read_back(tmp_path, level) -> None:
     body = {(r[0], r[1]): r for r in rows[hdr + 1:] if r[1]}
     rep_ft2 = float(US.area_from_m2(rep.area_m2.sum()))  # 9 + 6 ft2 (hand-worked)
     assert rep_ft2 == pytest.approx(15.0)
-    assert body[("ALL", "REP-PD-BARS")][3:] == ["ft2", pytest.approx(15.0), pytest.approx(3.0),
-                                                pytest.approx(18.0)]
     all_row = [i for i, r in enumerate(rows) if r[:2] == ["ALL", "REP-PD-BARS"]][0] + 1
+    # the ALL line's quantities are formulas over the level's lines, evaluated by the
+    # formulas library: 15 ft2 + 20 % = 3 ft2, total 18 ft2 (hand-worked)
+    assert body[("ALL", "REP-PD-BARS")][3] == "ft2"
+    got = evaluate_xlsx(out)
+    assert [got[("SCHEDULE", f"{c}{all_row}")] for c in "EFG"] == pytest.approx([15, 3, 18])
+    assert hdr + 2 == [i for i, r in enumerate(rows) if r[0] == "P1"][0] + 1  # no empty row
     assert ws.cell(row=all_row, column=1).font.bold  # totals in bold
     assert not ws.cell(row=hdr + 2, column=1).font.bold
     assert ("P1", "PROTECT-LOWCOVER") in body

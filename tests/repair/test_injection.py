@@ -8,6 +8,7 @@ quote), and openpyxl's cell model (data type ``'f'`` is a formula, ``'s'`` a str
 from __future__ import annotations
 
 import csv
+import re
 from pathlib import Path
 
 import openpyxl
@@ -18,6 +19,7 @@ from ezdxf.filemanagement import readfile
 
 from geo_corrosion._io import safe_cell, safe_frame
 from geo_corrosion.cli.main import cli
+from repair.helpers import evaluate_xlsx
 
 TRIGGERS = ("=", "+", "-", "@", "\t", "\r")  # OWASP CSV injection
 SITE_NAME = '=HYPERLINK("http://x","y")'
@@ -69,7 +71,16 @@ name = "high potential"
 potential = "high"
 class = "bad"
 '''
+    text += '\n[quantities]\nprice_list = "prices.csv"\n'
     p.write_text(text)
+    # a price list whose texts look like formulas too; its prices make the workbook's own
+    # formulas (amounts, subtotals), the only formulas allowed
+    (root / "site" / "prices.csv").write_text(
+        "item,description,unit,unit_price,currency\n"
+        f'"{BID_ITEM}","{SITE_NAME.replace(chr(34), chr(34) * 2)}",ft2,12.5,USD\n'
+        'REP-PD-SURF,"=1+1",ft2,80,USD\nREP-PD-BARS,@x,ft2,95,USD\nREP-FD,+x,ft2,150,USD\n'
+        "REP-VOL,-x,CY,600,USD\nSAWCUT,x,LF,6,USD\nTREAT-ACTIVE,x,ft2,4,USD\n"
+        "PROTECT-LOWCOVER,x,ft2,3,USD\n", encoding="utf-8")
     dest = root / "out"
     res = CliRunner().invoke(cli, ["run", str(root / "site"), "--out", str(dest), "-q"])
     assert res.exit_code == 0, res.output
@@ -91,15 +102,22 @@ def test_safe_cell_leaves_numbers() -> None:
     assert list(frame["t"]) == ["-2", TREATMENT]  # the frame given is left alone
 
 
-def test_xlsx_has_no_formula_and_shows_the_text(out: Path) -> None:
+#: What our own formulas may hold: cell references, + and *, SUM of a range, ROUND to cents;
+#: no quote, so no text of the input (exporters/xlsx.py).
+OWN_FORMULA = re.compile(r"=(?:[A-Z]{1,2}\d+|SUM\(|ROUND\(|[+*:]|,2\)|\))+")
+
+
+def test_xlsx_has_only_our_formulas_and_shows_the_text(out: Path) -> None:
     wb = openpyxl.load_workbook(out / "quantities.xlsx")
     texts: list[str] = []
-    numbers = 0
+    numbers = formulas = 0
     for ws in wb.worksheets:
         for row in ws.iter_rows():
             for c in row:
-                # the workbook writes no formulas of its own (exporters/xlsx.py)
-                assert c.data_type != "f", (ws.title, c.coordinate, c.value)
+                if c.data_type == "f":  # only the workbook's own: references and sums
+                    assert OWN_FORMULA.fullmatch(c.value), (ws.title, c.coordinate, c.value)
+                    formulas += 1
+                    continue
                 if isinstance(c.value, str):
                     assert not _formula_looking(c.value), (ws.title, c.coordinate, c.value)
                     texts.append(c.value)
@@ -109,12 +127,16 @@ def test_xlsx_has_no_formula_and_shows_the_text(out: Path) -> None:
     # shown as written, apart from the leading quote
     assert sched["A1"].value == f"'{SITE_NAME}: schedule of repair quantities"
     rows = [[c.value for c in r] for r in sched.iter_rows(min_row=5)]
-    zone_rows = [r for r in rows if r[1] == "'" + BID_ITEM]
+    zone_rows = [i for i, r in enumerate(rows, 5) if r[1] == "'" + BID_ITEM]
     assert len(zone_rows) == 2  # the level and the ALL total
-    for r in zone_rows:
-        assert r[2] == "'" + TREATMENT
-        assert all(isinstance(v, float) and v > 0 for v in r[4:7])  # quantities stay numbers
-    assert numbers > 10
+    got = evaluate_xlsx(out / "quantities.xlsx")  # the formulas library, not openpyxl
+    for i in zone_rows:
+        assert sched.cell(row=i, column=3).value == "'" + TREATMENT
+        # quantities, unit price and amounts stay numbers
+        vals = [got[("SCHEDULE", f"{col}{i}")] for col in "EFGHIJ"]
+        assert all(isinstance(v, int | float) and v > 0 for v in vals), vals
+        assert vals[3] == 12.5
+    assert numbers > 10 and formulas > 10
 
 
 def test_csvs_have_no_formula_looking_field(out: Path) -> None:
@@ -131,15 +153,17 @@ def test_csvs_have_no_formula_looking_field(out: Path) -> None:
     assert {"'" + BID_ITEM, "'" + TREATMENT, "'" + CLASS_LABELS[0]} <= seen
     # numbers stay numbers: every quantity parses
     sched = pd.read_csv(out / "quantities.csv")
-    assert pd.api.types.is_float_dtype(sched["quantity"])
+    assert pd.api.types.is_numeric_dtype(sched["quantity"])  # whole ft2 read as integers
+    assert pd.api.types.is_float_dtype(sched["amount"])
     cond = pd.read_csv(out / "condition_areas.csv")
     assert pd.api.types.is_float_dtype(cond["area_ft2"])
 
 
 def test_dxf_and_report_keep_the_text_as_written(out: Path) -> None:
     # not spreadsheets: the DXF and the report show the input text unchanged
-    msp = readfile(out / "drawings" / "D1_repairs.dxf").modelspace()
-    texts = [str(t.dxf.text) for t in msp.query("TEXT")]
+    doc = readfile(out / "drawings" / "D1_repairs.dxf")
+    # the site name stands in the sheet's title block (paper space) since the drawing sheets
+    texts = [str(t.dxf.text) for layout in doc.layouts for t in layout.query("TEXT")]
     assert any(t.startswith(SITE_NAME) for t in texts), texts
     html = (out / "report.html").read_text(encoding="utf-8")
     for t in (TREATMENT, LEVEL_NAME, OWNER, BID_ITEM):

@@ -38,7 +38,7 @@ def q(schedule, level, item, line):
     s = schedule[(schedule.level_id == level) & (schedule["item"] == item)
                  & (schedule.line == line)]
     assert len(s) == 1, s
-    return float(s.quantity.iloc[0])
+    return float(s.quantity_unrounded.iloc[0])  # the computation, before bid rounding
 
 
 def test_bid01_contingency_as_separate_line() -> None:
@@ -134,7 +134,8 @@ def test_csv_written_atomically(tmp_path) -> None:
     s = bid_schedule(repairs_ft([(0, 0, 20, 25)]), None, units=US, anode_spacing_mm=600.0)
     out = write_quantities_csv(s, tmp_path / "q" / "quantities.csv")
     back = pd.read_csv(out)
-    assert list(back.columns) == list(s.columns)
+    # the unrounded quantity goes to run.json only
+    assert list(back.columns) == [c for c in s.columns if c != "quantity_unrounded"]
     assert back.loc[(back["item"] == "REP-PD-BARS") & (back.level_id == "ALL"),
                     "quantity"].tolist() == [500.0, 100.0]
     assert [p.name for p in out.parent.iterdir()] == ["quantities.csv"]

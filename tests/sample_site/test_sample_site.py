@@ -171,7 +171,10 @@ def test_file_set_and_formats(site: Path, cfg: dict) -> None:
         assert (site / rel).is_file(), rel
     assert cfg["site"]["crs"] == "EPSG:26918" and cfg["site"]["units"] == "us"
     assert [lv["id"] for lv in cfg["levels"]] == ["L2", "RF"]
-    refs = [cfg["levels"][i][k] for i in range(2) for k in ("slab", "joints")]
+    refs = [cfg["levels"][i]["slab"] for i in range(2)]
+    # joints: one layer reference, or a list of them (RF: construction and expansion joints)
+    refs += [j for lv in cfg["levels"]
+             for j in (lv["joints"] if isinstance(lv["joints"], list) else [lv["joints"]])]
     refs += [r for lv in cfg["levels"] for r in (*lv["exclusions"], *lv["overlays"])]
     for ref in refs:
         assert (site / ref["path"]).is_file(), ref
@@ -207,12 +210,16 @@ def test_plan_layers(site: Path) -> None:
         assert cols and opens
         assert all(math.isclose(c.area, 4.0) for c in cols)  # 2 ft x 2 ft
         assert all(slab[0].contains(g) for g in cols + opens)
-        joints = _layer_entities(p, "JOINTS")
+        joints = _layer_entities(p, "JOINTS") + _layer_entities(p, "EXP-JOINTS")
         assert joints and all(e.dxftype() in ("LINE", "LWPOLYLINE") for e in joints)
         assert all(not e.closed for e in joints if e.dxftype() == "LWPOLYLINE")
         drains = _layer_entities(p, "DRAINS")
         assert drains and all(e.dxftype() == "CIRCLE" and e.dxf.radius == 0.5 for e in drains)
     assert len(_polygons(site / "plans/RF.dxf", "OPENINGS")) == 3  # stair, elevator, ramp
+    # RF's expansion joint on a layer of its own, across the deck (through the ramp opening)
+    (exp,) = _layer_entities(site / "plans/RF.dxf", "EXP-JOINTS")
+    ys = [q[1] for q in exp.get_points()]
+    assert (min(ys), max(ys)) == (0.0, 120.0)
 
 
 def test_sounding_layers(site: Path) -> None:
@@ -340,7 +347,7 @@ def test_corrosion_clusters_near_drains_and_joints(site: Path, cfg: dict, mk: Mo
         drains = shapely.union_all([Point(e.dxf.center.x, e.dxf.center.y)
                                     for e in _layer_entities(plan, "DRAINS")])
         joints = []
-        for e in _layer_entities(plan, "JOINTS"):
+        for e in _layer_entities(plan, "JOINTS") + _layer_entities(plan, "EXP-JOINTS"):
             if e.dxftype() == "LINE":
                 a, b = e.dxf.start, e.dxf.end
                 joints.append(LineString([(a.x, a.y), (b.x, b.y)]))

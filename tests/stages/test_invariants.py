@@ -222,8 +222,10 @@ def _expected_base_quantities(out: RunOutputs, lid: str) -> dict[str, float]:
     exp: dict[str, float] = defaultdict(float)
     reps = out.layer(f"{lid}_repairs")
     if len(reps):
-        for cls, g in reps.groupby("depth_class"):
-            item = DEPTH_CLASS_ITEMS[str(cls)]
+        # the repair's bid item (overhead repairs: REP-OVH), else that of its depth class
+        key = "bid_item" if "bid_item" in reps else "depth_class"
+        for cls, g in reps.groupby(key):
+            item = str(cls) if key == "bid_item" else DEPTH_CLASS_ITEMS[str(cls)]
             areas = g.geometry.area.to_numpy()
             # quantities.py: measured on the union of the item's polygons (shapely area)
             union = shapely.union_all(g.geometry.to_numpy()).area
@@ -246,8 +248,25 @@ def _expected_base_quantities(out: RunOutputs, lid: str) -> dict[str, float]:
         spacing = out.manifest["parameters"].get("anode_spacing_mm")
         if spacing:  # common practice: ceil(perimeter / spacing) anodes per repair
             exp["ANODE"] = float(sum(math.ceil(c * 1000.0 / spacing - 1e-9) for c in cut_m))
-    zones = out.layer(f"{lid}_zones")
-    if len(zones):
+        # joint seal or header: the outline on a joint (repair.tender.joint_edge_length)
+        on_joint = shapely.union_all([affinity.translate(ln, -x0, -y0).buffer(tol)
+                                      for ln in out.joints(lid)]) if out.joints(lid) else None
+        if on_joint is not None:
+            jl = sum(affinity.translate(g.boundary, -x0, -y0).intersection(on_joint).length * k
+                     for g in reps.geometry)
+            if jl > 0:
+                exp["JOINT-RPR"] = jl * f
+        # bar allowance: share x area of the repairs exposing the bars x 2 / spacing
+        # (repair.tender.bar_replacement_length, common practice)
+        prm = out.manifest["parameters"]
+        exposed = reps[reps["depth_class"].isin(["partial_below_bars", "full_depth"])]
+        bars = (float(exposed.geometry.area.sum()) * k**2 * prm["bar_replacement_share"] * 2.0
+                / (prm["bar_spacing_mm"] / 1000.0))
+        if bars > 0:
+            exp["BAR-REPL"] = bars * f
+    pay = out.layer(f"{lid}_pay_areas")
+    zones = pay if len(pay) else out.layer(f"{lid}_zones")
+    if len(pay) or out.manifest["parameters"].get("pay_area", "zone") == "zone":
         priced = zones[zones["bid_item"].notna() & (zones["bid_item"].astype(str) != "")]
         for item, g in priced.groupby("bid_item"):
             # zone treatments by area: shapely area of the union of the item's zones
@@ -255,31 +274,50 @@ def _expected_base_quantities(out: RunOutputs, lid: str) -> dict[str, float]:
     return dict(exp)
 
 
+#: Bid increment of each unit (common practice, no source: whole ft2, LF and EA, 0.1 CY,
+#: 0.1 m2 and 0.1 m, 0.01 m3; docs/file-formats.md).
+BID_INCREMENT = {"ft2": 1.0, "LF": 1.0, "EA": 1.0, "LS": 1.0, "CY": 0.1, "m2": 0.1, "m": 0.1,
+                 "m3": 0.01}
+
+
 def test_bid_quantities_are_sums_over_repairs_and_zones(out: RunOutputs) -> None:
-    """Guards quantities: each base quantity is the sum over its repairs or zones, in units."""
+    """Guards quantities: each base quantity is the sum over its repairs, zones or pay areas.
+
+    The unrounded quantity (run.json) is the sum; quantities.csv holds it rounded up to
+    its unit's bid increment.
+    """
     q = out.quantities
     assert len(q), f"{out.name}: empty quantities.csv"
     contingency = float(out.manifest["parameters"]["contingency"])
+    exact = {(r["level_id"], r["item"], r["line"]): r["quantity_unrounded"]
+             for r in out.manifest["schedule"]}
+    for r in q.itertuples():  # rounded up to the increment; float noise is no increment
+        inc = BID_INCREMENT[r.unit]
+        x = exact[(r.level_id, r.item, r.line)]
+        if r.level_id != "ALL":
+            assert r.quantity == pytest.approx(math.ceil(x / inc - 1e-6) * inc), r
     for lid in out.levels:
         exp = _expected_base_quantities(out, lid)
         rows = q[q["level_id"] == lid]
         base = rows[rows["line"] == "base"].set_index("item")["quantity"]
+        units = rows[rows["line"] == "base"].set_index("item")["unit"]
         assert sorted(base.index) == sorted(exp), (out.name, lid)
         for item, want in exp.items():
-            # quantities.csv is written to 2 decimals (counts whole): half a unit of the
-            # last place, plus float noise
-            assert base[item] == pytest.approx(want, abs=0.0051, rel=1e-6), (
-                f"{out.name}: {lid} {item}: {base[item]} in quantities.csv, {want:.4f} from the "
+            if units[item] == "CY":
+                want /= 27.0  # 1 yd3 = 27 ft3 [NIST-SP811-2008 App. B]
+            got = exact[(lid, item, "base")]
+            assert got == pytest.approx(want, abs=1e-6, rel=1e-6), (
+                f"{out.name}: {lid} {item}: {got} in run.json, {want:.4f} from the "
                 "repairs and zones")
-        cont = rows[rows["line"] == "contingency"].set_index("item")["quantity"]
         for item in base.index:  # contingency line = fraction x base (common practice)
-            want = base[item] * contingency
+            want = exact[(lid, item, "base")] * contingency
             if item == "ANODE":
                 want = math.ceil(want - 1e-9)
-            assert cont[item] == pytest.approx(want, abs=0.011), (lid, item)
-    # level ALL holds the totals of the levels (to the rounding of the CSV)
+            assert exact[(lid, item, "contingency")] == pytest.approx(want, abs=1e-6), (
+                lid, item)
+    # level ALL holds the sums of the levels' rounded lines (a schedule adds up as printed)
     per_level = q[q["level_id"] != "ALL"].groupby(["item", "line"])["quantity"].sum()
     total = q[q["level_id"] == "ALL"].set_index(["item", "line"])["quantity"]
     assert sorted(per_level.index) == sorted(total.index)
     for key, v in per_level.items():
-        assert total[key] == pytest.approx(v, abs=0.0051 * len(out.levels) + 1e-9), key
+        assert total[key] == pytest.approx(v, abs=1e-9), key

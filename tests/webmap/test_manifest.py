@@ -91,15 +91,19 @@ def _reshape(data: dict[str, Any], case: str) -> None:
     """Give the level's record a shape the run writes in cases these runs do not meet."""
     lv = next(iter(data["levels"].values()))
     kind = lv["kinds"]["resistivity"]
+    if case in ("too few readings", "kriging failed"):  # map_level: shown as points
+        for k in ("surface", "neighbourhood", "class_areas"):
+            kind.pop(k, None)
+        kind["representation"] = "points"
     if case == "too few readings":  # map_level: "surface": null, then the reason
-        kind.pop("surface")
-        kind.pop("class_areas", None)
         kind["surface"] = None
         kind["surface_skipped"] = "12 usable readings; a kriged surface needs at least 30"
-    elif case == "kriging failed":  # map_level: only the reason, no "surface" key
-        kind.pop("surface")
-        kind.pop("class_areas", None)
+        kind["points"] = {"points": 12, "class_counts": [
+            {"class": "high", "readings": 12, "share_of_readings": 1.0,
+             "thiessen_area_m2": 200.0}]}
+    elif case == "kriging failed":  # an older shape: only the reason, no "surface" key
         kind["surface_skipped"] = "level D1: a grid too large to compute"
+        kind["points"] = {"points": 200}
     elif case == "no site threshold":  # assess_level: the mixture fit's error
         assert "site_threshold" in lv["condition"]
         lv["condition"]["site_threshold"] = {"not_available": "the mixture did not converge"}

@@ -12,6 +12,7 @@ import pytest
 from geo_corrosion.exporters.webmap.palette import (
     NO_ACTION_COLOR,
     OVERLAY,
+    POINT_CLASS_COLORS,
     READING_COLORS,
     SEVERITY_RAMP,
     ZONE_COLORS,
@@ -39,6 +40,7 @@ def test_overlays_stand_apart_from_every_map_colour(n: int) -> None:
     colours["readings, a plugin kind"] = [reading_color("chloride", 0)]
     colours |= {f"zone {i}": [c] for i, c in enumerate(ZONE_COLORS)}
     colours["zone no action"] = [NO_ACTION_COLOR]
+    colours["points of a sparse kind"] = list(POINT_CLASS_COLORS)
     colours["map"] = list(SEVERITY_RAMP) if n == 0 else class_colors(n)
     assert clashes(colours) == []
 

@@ -51,6 +51,13 @@ def check(site: Path, quiet: bool, max_rows: int) -> None:
     for sv in s.surveys:
         click.echo(f"survey {sv.id}: {len(sv.frame)} {sv.kind.name} readings "
                    f"({sv.kind.canonical_unit})")
+    from geo_corrosion.stages.plan_surfaces import planned_representation
+
+    for lv in s.levels.values():  # surface or points per kind (surfaces/density.py)
+        click.echo(f"level {lv.id}: what will be mapped")
+        for kind, what, why in planned_representation(lv, s.surveys_of(lv.id), flags,
+                                                       s.config.run):
+            click.echo(f"  {kind}: {what}: {why}")
     if len(flags):
         click.echo(f"\nQA findings ({len(flags)}; all of them are in the qa_flags layer of a run):")
         click.echo(qa.format_flags(flags, max_rows=max_rows))

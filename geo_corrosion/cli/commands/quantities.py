@@ -33,5 +33,10 @@ def quantities(run_dir: Path) -> None:
 
     from geo_corrosion.quantities import schedule_table
 
-    click.echo(schedule_table(pd.DataFrame(list(rows))).round(1).to_string(index=False))
+    sched = pd.DataFrame(list(rows))
+    click.echo(schedule_table(sched).iloc[:, :7].to_string(index=False))
+    from geo_corrosion.pricing import estimate_text
+
+    if est := estimate_text(sched):
+        click.echo("\nengineer's estimate:\n" + est)
     click.echo("\n" + QUANTITIES_CAUTION)

@@ -37,7 +37,12 @@ def run(site: Path, out: Path | None, overwrite: bool, quiet: bool) -> None:
         from geo_corrosion.quantities import schedule_table
 
         click.echo("\nschedule of quantities (estimates for bidding):")
-        click.echo(schedule_table(result.schedule).round(1).to_string(index=False))
+        click.echo(schedule_table(result.schedule).iloc[:, :7].to_string(index=False))
+        from geo_corrosion.pricing import estimate_text
+
+        if est := estimate_text(result.schedule):
+            click.echo("\nengineer's estimate (amounts in quantities.csv and .xlsx):")
+            click.echo(est)
     click.echo("")
     click.echo(qa_line(result.flags, result.files))
 

@@ -19,6 +19,7 @@ import dataclasses
 import importlib
 import io
 import logging
+from collections.abc import Mapping
 from pathlib import Path
 from types import ModuleType
 from typing import TYPE_CHECKING, Any, ClassVar
@@ -37,6 +38,8 @@ from geo_corrosion.exporters.report.text import (
     _surveys_table,
     _table,
     parameter_unit,
+    points_class_table,
+    points_sentences,
     sources_and_assumptions,
     summarize_correction,
 )
@@ -87,9 +90,15 @@ METHODS: tuple[tuple[str, str, str], ...] = (
      "-200 mV uncertain, > -200 mV low probability of corrosion); resistivity and corrosion "
      "rate classes after RILEM TC 154.", "[ASTM-C876-91 App. X1, from memory]; "
      "[RILEM-TC154-2000, from memory; Andrade-Alonso-2004, from memory]"),
-    ("Probability maps", "Probability that the kriged value is beyond the class threshold, "
-     "assuming Gaussian kriging errors; areas with intervals; a two-component mixture for the "
-     "site threshold.", "RILEM TC 154 statistical evaluation [Gulikers-Elsener-2008]"),
+    ("Probability maps", "Probability that the value is beyond the class threshold and the "
+     "area beyond it with a 90 % interval, from conditional simulations of the Gaussian field "
+     "(conditioning by kriging, the nugget taken as measurement error, areas at sub-cell "
+     "resolution; the number of realisations is stated with each area), or from the kriging "
+     "errors when [run].interval_method is the separable approximation; a two-component "
+     "mixture for the site threshold.",
+     "[Journel-Huijbregts-1978 ch. VII, from memory; Chiles-Delfiner-2012 §7.3.1, from memory] "
+     "[Wood-Chan-1994; Dietrich-Newsam-1997]; "
+     "RILEM TC 154 statistical evaluation [Gulikers-Elsener-2008]"),
     ("Repair layout", "Sounded delaminations and spalls enlarged by the margin, merged, squared "
      "to saw-cut rectangles aligned with the grid, clipped to the slab; depth class from the "
      "kriged cover; undercut clearance max(3/4 in, 1/4 in + largest aggregate).",
@@ -168,6 +177,21 @@ def _repair_layout_png(gpkg: RunLayers, lid: str) -> str | None:
         g = gpkg.get(f"{lid}_{what}")
         if g is not None:
             g.plot(ax=ax, **kw)
+    joints = gpkg.get(f"{lid}_joints")
+    joint_note = ""
+    if joints is not None and len(joints):
+        from geo_corrosion.condition.plots import JOINT_STYLES
+
+        brk = (joints["breaks_continuity"].astype(bool) if "breaks_continuity" in joints.columns
+               else [False] * len(joints))
+        for geom, b in zip(joints.geometry, brk, strict=True):
+            st = JOINT_STYLES[bool(b)]
+            for part in getattr(geom, "geoms", [geom]):
+                xy = list(part.coords)
+                ax.plot([p[0] for p in xy], [p[1] for p in xy], color=st["color"],
+                        lw=st["lw"], linestyle=st["ls"])
+        joint_note = ("\njoints dashed (thick purple: expansion/isolation, the mat is not "
+                      "continuous across it)")
     if rep is not None:
         rep.boundary.plot(ax=ax, color="#0072B2", linewidth=1.0)
         for rid, geom in zip(rep["repair_id"], rep.geometry, strict=True):
@@ -181,7 +205,7 @@ def _repair_layout_png(gpkg: RunLayers, lid: str) -> str | None:
     ax.ticklabel_format(useOffset=False, style="plain")
     ax.tick_params(labelsize=6)
     ax.set_title("repair layout: saw-cut outlines (blue, numbered as in the repair list), "
-                 "delaminations (vermillion), spalls (pink)", fontsize=7)
+                 f"delaminations (vermillion), spalls (pink){joint_note}", fontsize=7)
     fig.text(0.01, 0.005, SHORT_CAUTION, fontsize=6, wrap=True)
     buf = io.BytesIO()
     fig.savefig(buf, format="png", bbox_inches="tight")
@@ -222,7 +246,7 @@ def _repair_list(rep: gpd.GeoDataFrame | None, units: ReportUnits) -> str:
 def _quantities(schedule: tuple[ScheduleRow, ...], lid: str | None) -> str:
     import pandas as pd
 
-    from geo_corrosion.quantities import schedule_table
+    from geo_corrosion.quantities import bid_decimals, schedule_table
 
     if not schedule:
         return '<p class="none">no quantities</p>'
@@ -231,8 +255,8 @@ def _quantities(schedule: tuple[ScheduleRow, ...], lid: str | None) -> str:
         t = t[t["level_id"].astype(str) == lid]
     rows = []
     for r in t.to_dict("records"):
-        # as in quantities.csv: 2 decimals, counts and lump sums as whole numbers
-        fmt = "{:,.0f}" if str(r.get("unit")) in ("EA", "LS") else "{:,.2f}"
+        # as in quantities.csv: the bid quantities with their unit's decimals
+        fmt = f"{{:,.{bid_decimals(str(r.get('unit')))}f}}"
         totals = {c: fmt.format(float(r[c])) for c in ("base", "contingency", "total")}
         rows.append({**{str(k): v for k, v in r.items()}, **totals})
     return _table(rows, [("level_id", "level"), ("item", "item"), ("description", "description"),
@@ -242,6 +266,27 @@ def _quantities(schedule: tuple[ScheduleRow, ...], lid: str | None) -> str:
 
 
 # --------------------------------------------------------------------------- sections
+
+
+def _joints_note(gpkg: RunLayers, lid: str, kinds: Mapping[str, Any]) -> str:
+    """Say which joints break the mat's continuity and how the surfaces treated them."""
+    j = gpkg.get(f"{lid}_joints")
+    if j is None or not len(j) or "breaks_continuity" not in j.columns:
+        return ""
+    brk = j["breaks_continuity"].astype(bool)
+    if not brk.any():
+        return ""
+    types = ", ".join(sorted({str(t) for t in j.loc[brk, "joint_type"]}))
+    split = [k.replace("_", " ") for k, v in kinds.items()
+             if v.surface is not None
+             and any("continuity regions" in n for n in v.surface.variogram.notes)]
+    how = (f" The {', '.join(split)} surface{'s were' if len(split) > 1 else ' was'} kriged in "
+           "each region from that region's readings only; no contour crosses such a joint."
+           if split else "")
+    return (f'<p class="joints">{int(brk.sum())} joint line(s) of type {_e(types)} break the '
+            "electrical continuity of the reinforcing mat and split the deck into continuity "
+            f"regions (drawn thick and dashed).{_e(how)} A half-cell reading needs a connection "
+            "to the mat it is on [ACI-222R-19, from memory; ASTM-C876-22a].</p>")
 
 
 def _level_section(run_dir: Path, lid: str, info: LevelRecord, man: Manifest,
@@ -261,6 +306,7 @@ def _level_section(run_dir: Path, lid: str, info: LevelRecord, man: Manifest,
     parts.append(_table(srows, [("kind", "kind"), ("unit", "unit"), ("readings", "readings"),
                                 ("mapped", "mapped"), ("mean", "mean"), ("std", "std. dev."),
                                 ("p10", "10 %"), ("median", "median"), ("p90", "90 %")]))
+    parts.append(points_sentences(kinds))
     parts.append('<h3 class="classes">Class areas</h3><div class="cols">')
     for k, v in kinds.items():
         rows = [{"class": r.class_name, "area": r.area_report,
@@ -270,12 +316,16 @@ def _level_section(run_dir: Path, lid: str, info: LevelRecord, man: Manifest,
             parts.append(f'<div class="col"><h4>{_e(k.replace("_", " "))}</h4>')
             parts.append(_table(rows, [("class", "class"), ("area", f"area ({units.area})"),
                                        ("share", "share of deck (%)")]) + "</div>")
+        parts.append(points_class_table(k, v))
     parts.append("</div>")
     parts.append(_condition_block(info, units))
-    parts.append('<h3 class="maps">Maps</h3><div class="figs">')
-    for k in kinds:
+    parts.append('<h3 class="maps">Maps</h3>')
+    parts.append(_joints_note(gpkg, lid, kinds))
+    parts.append('<div class="figs">')
+    for k, v in kinds.items():
+        shown = " of the readings (points, no surface)" if v.representation == "points" else ""
         parts.append(_figure(plots / f"{lid}_{k}_classes.png", f"{info.name}: "
-                             f"{k.replace('_', ' ')} classes"))
+                             f"{k.replace('_', ' ')} classes{shown}"))
     parts.append('</div><h3 class="plots">Cumulative frequency and histograms</h3>'
                  '<div class="figs">')
     parts.append(_figure(plots / f"{lid}_potential_cumulative.png",

@@ -17,6 +17,7 @@ from geo_corrosion.exporters._html import Raw, escape
 from geo_corrosion.model.manifest import (
     AreaBeyondThreshold,
     ConditionRecord,
+    KindRecord,
     LevelRecord,
     SiteThreshold,
     SiteThresholdUnavailable,
@@ -27,7 +28,8 @@ from geo_corrosion.units import M_PER_FT, MM_PER_INCH
 if TYPE_CHECKING:
     from geo_corrosion.units import ReportUnits
 
-__all__ = ["parameter_unit", "summarize_correction", "sources_and_assumptions"]
+__all__ = ["parameter_unit", "summarize_correction", "sources_and_assumptions",
+           "points_sentences", "points_class_table", "no_surface_sentence"]
 
 _NBSP = "\u00a0"  # between a number and its unit, so a line never starts with the unit
 
@@ -329,6 +331,35 @@ def _threshold_statement(st: SiteThreshold | SiteThresholdUnavailable, units: Re
             + (f' <span class="src">Method: {_e(method)}.</span>' if method else "") + "</li>")
 
 
+def no_surface_sentence(kind: str, rec: KindRecord) -> str:
+    """Say in one sentence why a kind has no surface and is shown as points."""
+    reason = rec.representation_reason or rec.skipped or "too few readings for a surface"
+    return f"No {kind.replace('_', ' ')} surface: {reason}."
+
+
+def points_sentences(kinds: Mapping[str, KindRecord]) -> str:
+    """Return the sentences of the kinds shown as points (empty without any)."""
+    items = [f"<li>{_e(no_surface_sentence(k, v))}</li>" for k, v in kinds.items()
+             if v.representation == "points"]
+    if not items:
+        return ""
+    return ('<p class="points">Shown as readings, not as surfaces (their statistics and class '
+            f'shares are of readings):</p><ul class="statements points">{"".join(items)}</ul>')
+
+
+def points_class_table(kind: str, rec: KindRecord) -> str:
+    """Return the class counts of a kind shown as points: readings and shares of readings."""
+    counts = rec.points.class_counts if rec.points is not None else None
+    if not counts:
+        return ""
+    rows = [{"class": c.class_name, "readings": c.readings,
+             "share": 100.0 * float(c.share_of_readings)} for c in counts]
+    return (f'<div class="col"><h4>{_e(kind.replace("_", " "))} (points: shares of '
+            "readings, no surface)</h4>"
+            + _table(rows, [("class", "class"), ("readings", "readings"),
+                            ("share", "share of readings (%)")], cls="points") + "</div>")
+
+
 def _condition_block(info: LevelRecord, units: ReportUnits) -> str:
     cond = info.condition or ConditionRecord()
     parts = ['<h3 class="condition">Condition statements</h3>']
@@ -339,7 +370,12 @@ def _condition_block(info: LevelRecord, units: ReportUnits) -> str:
     if items:
         parts.append(f'<ul class="statements">{"".join(items)}</ul>')
         assumptions = sorted({v.assumption for v in cond.beyond.values() if v.assumption})
-        if assumptions:
+        methods = sorted({v.method for v in cond.beyond.values() if v.method})
+        if assumptions and methods:
+            parts.append(f'<p class="src">Expected areas, intervals and probability maps: '
+                         f"{_e('; '.join(methods))}; assumption: "
+                         f"{_e('; '.join(assumptions))}.</p>")
+        elif assumptions:
             parts.append(f'<p class="src">Expected areas and intervals from the probability '
                          f"maps; assumption: {_e('; '.join(assumptions))}.</p>")
     else:
@@ -353,6 +389,15 @@ def _condition_block(info: LevelRecord, units: ReportUnits) -> str:
                 for c in combined]
         parts.append(_table(rows, [("class", "class"), ("area", f"area ({units.area})"),
                                    ("share", "share of deck (%)")], cls="combined"))
+        used = [k for k, v in (cond.combined_kinds or {}).items() if v.startswith("used")]
+        unused = {k: v for k, v in (cond.combined_kinds or {}).items()
+                  if not v.startswith("used")}
+        if cond.combined_kinds:
+            text = ("The combined classes use a kind only where it has a surface: they use "
+                    + (", ".join(used) if used else "no kind") + ".")
+            text += "".join(f" They do not use {k}: {v.removeprefix('not used: ')}."
+                            for k, v in unused.items())
+            parts.append(f'<p class="src combined-kinds">{_e(text)}</p>')
     life = cond.life or {}
     if life:
         parts.append("<h4>Life indications (corrosion-rate surveys)</h4>")

@@ -118,8 +118,9 @@ function gcStart(map, cfg) {
   function points(s) {
     var g = L.featureGroup(), ll = s.latlon, n = ll.length / 2;
     for (var i = 0; i < n; i++) {
+      var fc = s.fills ? cell(s.fills, i) : s.color;
       var m = L.circleMarker([ll[2 * i], ll[2 * i + 1]], {renderer: canvas, radius: s.radius,
-        color: s.color, weight: s.ring ? 2.5 : 0, fill: !s.ring, fillColor: s.color,
+        color: fc, weight: s.ring ? 2.5 : 0, fill: !s.ring, fillColor: fc,
         fillOpacity: s.ring ? 0 : 0.95});
       m._gcIndex = i;
       g.addLayer(m);

@@ -31,6 +31,7 @@ import numpy as np
 
 from geo_corrosion._io import atomic_write
 from geo_corrosion.cautions import CAUTIONS
+from geo_corrosion.config import BREAKING_JOINT_TYPES
 from geo_corrosion.errors import ExportError
 from geo_corrosion.exporters._html import escape, png_data_url
 from geo_corrosion.exporters.base import Exporter
@@ -46,6 +47,7 @@ from geo_corrosion.exporters.webmap.palette import (
     ZONE_COLORS,
     class_colors,
     hex_color,
+    point_class_colors,
     ramp_colors,
     reading_color,
 )
@@ -83,9 +85,6 @@ WGS84 = "EPSG:4326"
 #: Decimal places of longitude and latitude on the page: 1e-7 degree is about 1 cm.
 COORD_DECIMALS = 7
 _HEX = re.compile(r"^#[0-9A-Fa-f]{6}$")
-#: Joint types whose joint breaks the bar mat (h/joints); used when a run has no
-#: ``breaks_continuity`` column.
-_BREAKING = frozenset({"expansion", "isolation"})
 
 _e = escape
 
@@ -269,6 +268,9 @@ def _level(run_dir: Path, lid: str, info: LevelRecord, layers: RunLayers,
     kinds = {k: v for k, v in info.kinds.items() if v.surface is not None}
     _maps(lv, run_dir, lid, kinds, layers, units)
     _survey(lv, lid, kinds, layers, units, grid_unit)
+    for kind, kv in info.kinds.items():  # kinds too sparse for a surface: classed points
+        if kv.representation == "points":
+            _points(lv, lid, kind, kv, layers, units)
     _repairs(lv, lid, layers, units, crs_to_m)
     return lv
 
@@ -349,6 +351,78 @@ def _class_palette(cls: gpd.GeoDataFrame) -> dict[str, str]:
     uniq = list(dict.fromkeys(colours))
     ranked = sorted(uniq, key=lambda c: (CLASS_RANK.get(c, 99), uniq.index(c)))
     return dict(zip(ranked, class_colors(len(ranked)), strict=True))
+
+
+
+def _points(lv: _Level, lid: str, kind: str, kv: KindRecord, layers: RunLayers,
+            units: Any) -> None:
+    """Add a kind shown as points: its readings coloured by class, and their Thiessen cells.
+
+    The points (on the canvas, one hue per class from :func:`.palette.point_class_colors`,
+    the legend saying why there is no surface) are shown when the level opens; the cells
+    (a map of the "Maps" group, labelled: nearest reading, not a surface) are off.
+    """
+    pts = layers.get(f"{lid}_points_{kind}")
+    if pts is None or not len(pts):
+        return
+    pts = pts.reset_index(drop=True).to_crs(WGS84)
+    name = _kind_label(kind)
+    reason = _e(kv.representation_reason or kv.skipped or "too few readings for a surface")
+    classed = "class" in pts.columns and "class_code" in pts.columns
+    if classed:
+        codes = [int(c) for c in pts["class_code"]]
+        ranked = sorted({c for c in codes if c >= 0})
+        pc = dict(zip(ranked, point_class_colors(len(ranked)), strict=True))
+        names = _class_names(pts)
+        fills = [pc.get(c, NO_ACTION_COLOR) for c in codes]
+        seen = dict.fromkeys((pc.get(c, NO_ACTION_COLOR), n or "no class")
+                             for c, n in sorted(zip(codes, names, strict=True)))
+        items = list(seen)
+    else:
+        color = reading_color(kind, 0)
+        names = [""] * len(pts)
+        fills = [color] * len(pts)
+        items = [(color, "reading")]
+    u = unit_label(kv.unit)
+    cols: dict[str, Any] = {
+        "Point": _esc_col(pts, "point_id"),
+        "Value": [(fmt_potential(x) if kv.unit == "mV" else f"{_num(x)}\u00a0{_e(u)}")
+                  if np.isfinite(x) else "no value" for x in pts["value"].to_numpy(float)],
+        "Class": names,
+        "Shown as": ["points: no surface"] * len(pts),
+    }
+    xy = np.column_stack([pts.geometry.y.to_numpy(float), pts.geometry.x.to_numpy(float)])
+    lv.add(f"points_{kind}", f"{name} {word('readings')} (points, no surface)", "survey",
+           {"type": "points", "latlon": np.round(xy, COORD_DECIMALS).ravel().tolist(),
+            "color": items[0][0], "fills": _compact(fills), "radius": 6, "ring": False,
+            "cols": {k: _compact(c) for k, c in cols.items()}},
+           _swatch_legend(f"{name} readings, shown as points", items, "dot")
+           + f'<div class="gc-note">no surface: {reason}</div>',
+           [c for c, _ in items], on=True)
+    cells = layers.get(f"{lid}_thiessen_{kind}")
+    if cells is None or not len(cells):
+        return
+    cells = cells.reset_index(drop=True)
+    if "color" in cells.columns and "class" in cells.columns:
+        recolor = _class_palette(cells)
+        cells["_c"] = [recolor.get(str(c).upper(), NO_ACTION_COLOR) for c in cells["color"]]
+        cells["_label"] = _class_names(cells)
+        citems = sorted({(c, k) for c, k in zip(cells["_c"], cells["_label"], strict=True)},
+                        key=lambda it: -list(recolor.values()).index(it[0])
+                        if it[0] in recolor.values() else 0)
+    else:
+        cells["_c"] = SEVERITY_RAMP[2]
+        cells["_label"] = ""
+        citems = [(SEVERITY_RAMP[2], "cell of a reading")]
+    area = [fmt_area(a, units) for a in cells["area_m2"].to_numpy(float)]
+    lv.add(f"thiessen_{kind}", f"{name} Thiessen cells (nearest reading, not a surface)",
+           "maps", {"type": "geojson", "fc": _fc(cells, {
+               "_c": list(cells["_c"]), "Nearest reading": _esc_col(cells, "point_id"),
+               "Class": list(cells["_label"]), "Area": area}),
+               "style": {"weight": 0, "fillOpacity": 0.85, "byColor": True}, "popup": True},
+           _swatch_legend(f"{name} Thiessen cells", citems)
+           + '<div class="gc-note">each cell takes the class of its nearest reading; '
+             "not a surface</div>", [c for c, _ in citems], fill=True)
 
 
 def _class_layers(lid: str, kinds: dict[str, KindRecord], layers: RunLayers
@@ -437,16 +511,18 @@ def _joints(lv: _Level, lid: str, layers: RunLayers) -> None:
     j = j.reset_index(drop=True)
     types = [str(t) for t in j["joint_type"]] if "joint_type" in j.columns else [""] * len(j)
     brk = ([bool(v) for v in j["breaks_continuity"]] if "breaks_continuity" in j.columns
-           else [t in _BREAKING for t in types])
+           else [t in BREAKING_JOINT_TYPES for t in types])
     colors = [OVERLAY["joint_break"] if b else OVERLAY["joint"] for b in brk]
     items = []
     if any(brk):
-        items.append((OVERLAY["joint_break"], "joint breaking the bar mat"))
+        items.append((OVERLAY["joint_break"],
+                      "expansion/isolation joint (mat not continuous across it)"))
     if not all(brk):
-        items.append((OVERLAY["joint"], "joint"))
+        items.append((OVERLAY["joint"], "construction/control joint"))
     lv.add("joints", word("joints"), "survey", {"type": "geojson", "fc": _fc(j, {
         "_c": colors,
         "Joint": [_e(term(t, humanise(t) + " joint")) if t else "joint" for t in types],
+        "Bar continuity": ["broken: kriged apart" if b else "continuous" for b in brk],
         "Label": _esc_col(j, "label"), "From": _esc_col(j, "source")}),
         "style": {"weight": 3, "dashArray": "8 4", "fill": False, "byColor": True},
         "tooltip": True},
@@ -577,6 +653,7 @@ def _repairs(lv: _Level, lid: str, layers: RunLayers, units: Any, crs_to_m: floa
         "Zone": [_e(term(z, humanise(z))) if z else "" for z in _zone_of(rep, zones)],
         "Dimensions": _dimensions(rep, units, crs_to_m),
         "Location": _esc_col(rep, "location"),
+        "Sounded areas": _esc_col(rep, "sounded"),
         "Depth class": [_e(term(c, humanise(c))) if c else "" for c in depth],
         "Removal depth": ([fmt_depth(x, units) for x in rep["depth_mm"].to_numpy(float)]
                           if "depth_mm" in rep.columns else [""] * len(rep)),
@@ -587,6 +664,7 @@ def _repairs(lv: _Level, lid: str, layers: RunLayers, units: Any, crs_to_m: floa
         "Saw-cut length": fmt("outline_m", units.length_from_m, units.length),  # LF or m
         "Volume": fmt("volume_m3", units.volume_from_m3, units.volume),
         "Bid item": bid,
+        "Rounding": _esc_col(rep, "rounding_note"),
         "_id": [str(x) for x in rep.get("repair_id", [""] * len(rep))],
     }
     props = {k: v for k, v in props.items() if any(v)}

@@ -16,7 +16,8 @@ from __future__ import annotations
 import numpy as np
 
 __all__ = ["CLASS_RANK", "NO_ACTION_COLOR", "OVERLAY", "READING_COLORS", "SEVERITY_RAMP",
-           "ZONE_COLORS", "class_colors", "hex_color", "ramp_colors", "reading_color"]
+           "POINT_CLASS_COLORS", "ZONE_COLORS", "class_colors", "hex_color",
+           "point_class_colors", "ramp_colors", "reading_color"]
 
 #: Our sequential palette, light (least severe) to dark (most severe).
 SEVERITY_RAMP: tuple[str, ...] = ("#F7F3E3", "#F0E442", "#E69F00", "#D55E00", "#5B2149")
@@ -33,6 +34,9 @@ _READING_SPARE = ("#88CCEE",)
 #: Zone outlines, in the order the zones appear; "no action" is a pale outline.
 ZONE_COLORS: tuple[str, ...] = ("#AA4499", "#6699CC", "#1D4E3F", "#8C510A")
 NO_ACTION_COLOR = "#BBBBBB"
+#: Classed readings of a kind too sparse for a surface (shown as points over whatever map is
+#: shown): greens, light (least severe) to dark, apart from the ramp and every overlay.
+POINT_CLASS_COLORS: tuple[str, ...] = ("#77EE66", "#55BB44", "#448877", "#116644", "#004400")
 #: Severity rank of the class colours of ``condition/classes.py`` (Okabe & Ito hues,
 #: benign blue to severe purple): the map recolours classes onto the ramp by this rank.
 CLASS_RANK: dict[str, int] = {"#0072B2": 0, "#56B4E9": 1, "#009E73": 2, "#F0E442": 3,
@@ -62,3 +66,13 @@ def class_colors(n: int) -> list[str]:
 def reading_color(kind: str, i: int) -> str:
     """Return the dot colour of a kind's readings (``i``: its index among plugin kinds)."""
     return READING_COLORS.get(kind, _READING_SPARE[i % len(_READING_SPARE)])
+
+
+def point_class_colors(n: int) -> list[str]:
+    """Return ``n`` colours for classed points, least severe first (spread over the set)."""
+    if n <= 0:
+        return []
+    idx = np.round(np.linspace(0, len(POINT_CLASS_COLORS) - 1, n)).astype(int)
+    if n == 1:
+        idx = np.array([2])
+    return [POINT_CLASS_COLORS[min(i, len(POINT_CLASS_COLORS) - 1)] for i in idx]

@@ -133,13 +133,20 @@ def test_quantities_never_below_polygon_area(c, unit, system) -> None:
     u = report_units(system)
     s = bid_schedule(rep, None, units=u, contingency=0.15)
     area_items = s[(s.unit_kind == "area") & (s.level_id == ALL_LEVELS)]
-    base = area_items.loc[area_items.line == "base", "quantity"].sum()
+    base = area_items.loc[area_items.line == "base", "quantity_unrounded"].sum()
     poly_area = float(u.area_from_m2(shapely.union_all(list(rep.geometry)).area
                                      * LENGTH_TO_M[unit] ** 2))
     assert base >= poly_area * (1 - 1e-9)
     assert base <= poly_area * (1 + 1e-9) + 1e-12  # and not counted twice
-    cont = area_items.loc[area_items.line == "contingency", "quantity"].sum()
+    cont = area_items.loc[area_items.line == "contingency", "quantity_unrounded"].sum()
     assert cont >= 0.15 * poly_area * (1 - 1e-9)
+    # the bid quantity is rounded up, by less than one increment per line (common practice:
+    # whole ft2 or 0.1 m2)
+    inc = 1.0 if system == "us" else 0.1
+    for line, exact in (("base", base), ("contingency", cont)):
+        rows = area_items[area_items.line == line]
+        bid = rows["quantity"].sum()
+        assert exact * (1 - 1e-9) - 1e-9 <= bid < exact + inc * len(rows) + 1e-9, line
 
 
 @SETTINGS
@@ -158,3 +165,34 @@ def test_totals_equal_sum_of_levels(cases, system, spacing) -> None:
     total = s[s.level_id == ALL_LEVELS].set_index(["item", "line"]).quantity
     pd.testing.assert_series_equal(parts.sort_index(), total.sort_index(), check_names=False,
                                    rtol=1e-12)
+
+
+@SETTINGS
+@given(case(), st.sampled_from([76.2, 50.0, 152.4]))
+def test_rounding_covers_what_it_covered_and_crosses_no_joint(c, inc) -> None:
+    # issue 13 item 2 (common practice, no source): rounding up never gives up an area the
+    # unrounded layout covered, never crosses a joint, never enters an exclusion or leaves
+    # the slab, and leaves no two repairs overlapping
+    delams, excl, joints, params = c
+    _, before = layout(delams, excl, joints, params, unit="ft")
+    rounded = LayoutParams(**{**params.__dict__, "round_increment_mm": inc})
+    _, after = layout(delams, excl, joints, rounded, unit="ft")
+    assert len(after) == len(before)
+    covered = shapely.union_all(list(after.geometry)) if len(after) else Polygon()
+    for g in before.geometry:
+        assert g.difference(covered).area <= 1e-9 * max(g.area, 1.0), g.wkt
+    geoms = list(after.geometry)
+    for i, a in enumerate(geoms):
+        assert a.difference(SLAB).area < 1e-9
+        for e in excl:
+            assert a.intersection(e).area < 1e-9
+        for j in joints:
+            # a joint may bound a repair but never run through its inside
+            assert j.intersection(a.buffer(-1e-6)).length < 1e-9, (a.wkt, j.wkt)
+        for b in geoms[i + 1:]:
+            assert a.intersection(b).area < 1e-9
+    inc_ft = inc / 304.8
+    for sx, sy, note in zip(after.size_x_m, after.size_y_m, after.rounding_note, strict=True):
+        if not note:  # every side rounded: a multiple of the increment
+            for v in (sx / 0.3048, sy / 0.3048):
+                assert abs(v / inc_ft - round(v / inc_ft)) < 1e-6
