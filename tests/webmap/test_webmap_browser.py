@@ -393,13 +393,13 @@ def test_repair_popup_carries_what_a_contractor_asks(sample_page: Any, sample_ru
         f"Removal depth\t{frac or whole} in" in text
     assert "REP-PD" in text or "REP-FD" in text  # bid item of the depth class
     assert "Partial depth" in text or "Full depth" in text  # depth class, as words
-    # overall dimensions: the minimum rotated rectangle's sides (shapely), in ft
-    xy = np.asarray(r.geometry.minimum_rotated_rectangle.exterior.coords)
-    to_m = rep.crs.axis_info[0].unit_conversion_factor  # the site CRS's unit (pyproj)
-    sides = sorted(np.hypot(*np.diff(xy[:3], axis=0).T) * to_m / ft, reverse=True)
-    assert f"{sides[0]:,.1f} ft x {sides[1]:,.1f} ft" in text
-    for word in ("Dimensions", "Depth class", "Removal depth", "Area", "Perimeter",
-                 "Saw-cut length", "Volume", "Bid item"):
+    # overall dimensions, location and sounded areas: the repair layout's tender columns
+    # as a contractor writes them (h/geom, issue 13), shown as written in the GeoPackage
+    assert f"Dimensions\t{r['dimensions']}" in text
+    assert f"Location\t{r['location']}" in text
+    assert f"Sounded areas\t{r['sounded']}" in text
+    for word in ("Dimensions", "Location", "Sounded areas", "Depth class", "Removal depth",
+                 "Area", "Perimeter", "Saw-cut length", "Volume", "Bid item"):
         assert word in text, word
     assert "_" not in text.replace(str(r["repair_id"]), "")  # no internal identifier
     assert log.errors == []

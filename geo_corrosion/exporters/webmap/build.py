@@ -370,13 +370,18 @@ def _points(lv: _Level, lid: str, kind: str, kv: KindRecord, layers: RunLayers,
     reason = _e(kv.representation_reason or kv.skipped or "too few readings for a surface")
     classed = "class" in pts.columns and "class_code" in pts.columns
     if classed:
+        from geo_corrosion.condition.classes import CLASS_SETS
+
         codes = [int(c) for c in pts["class_code"]]
-        ranked = sorted({c for c in codes if c >= 0})
-        pc = dict(zip(ranked, point_class_colors(len(ranked)), strict=True))
+        cs = CLASS_SETS.get(str(pts["class_set"].iloc[0])) if "class_set" in pts else None
+        # one colour per class of the whole set, so a class keeps its colour on every level
+        n = len(cs.colors) if cs is not None else max(codes) + 1
+        pc = dict(enumerate(point_class_colors(n)))
         names = _class_names(pts)
         fills = [pc.get(c, NO_ACTION_COLOR) for c in codes]
-        seen = dict.fromkeys((pc.get(c, NO_ACTION_COLOR), n or "no class")
-                             for c, n in sorted(zip(codes, names, strict=True)))
+        # most severe first, as the class layers' legends
+        seen = dict.fromkeys((pc.get(c, NO_ACTION_COLOR), nm or "no class")
+                             for c, nm in sorted(zip(codes, names, strict=True), reverse=True))
         items = list(seen)
     else:
         color = reading_color(kind, 0)
