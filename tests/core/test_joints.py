@@ -286,10 +286,22 @@ def test_joints_in_the_dxf(joint_run: Path) -> None:
 
 
 def test_joints_in_the_webmap_page_data(joint_run: Path) -> None:
+    import json
+    import re
+
     text = (joint_run / "webmap.html").read_text()
-    assert "Test deck: joints" in text  # the layer-control label
-    assert "expansion/isolation joint (mat not continuous across it)" in text  # its legend
-    assert '"joint_type": "expansion"' in text  # the feature's properties in the page data
+    # the level's page data: a JSON block the page's script reads (issue 14 item 1)
+    block = re.search(r'<script type="application/json" id="gc-level-0">(.*?)</script>',
+                      text, re.S)
+    assert block is not None
+    layers = {ly["key"]: ly for ly in json.loads(block.group(1))["layers"]}
+    joints = layers["joints"]
+    assert joints["label"] == "Joints" and joints["on"] is True  # the layer-control label
+    # its legend
+    assert "expansion/isolation joint (mat not continuous across it)" in joints["legend"]
+    props = [f["properties"] for f in joints["fc"]["features"]]
+    assert [p["Joint"] for p in props] == ["Expansion joint"]  # the feature's properties
+    assert [p["Bar continuity"] for p in props] == ["broken: kriged apart"]
 
 
 def test_joint_plot_and_report(joint_run: Path) -> None:

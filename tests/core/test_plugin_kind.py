@@ -264,13 +264,13 @@ def test_webmap_lists_the_plugin_layers(chloride_run: tuple[Path, np.ndarray]) -
     out, _values = chloride_run
     text = (out / "webmap.html").read_text()
     # the layer control's labels: the kind's name, and its own class-layer titles
-    for label in ("Test deck: chloride surface", "Test deck: chloride contours",
-                  "Test deck: chloride classes", "Test deck: chloride readings",
-                  "Test deck: probability, chloride",
+    for label in ('"Chloride surface"', '"Chloride contours"', '"Chloride classes"',
+                  '"Chloride readings"', '"Chloride probability"',
                   "chloride at bar depth (% by mass of cement)"):
         assert label in text, label
     # the built-in potential surface is still the one shown when the map opens
-    assert "Test deck: potential surface" in text
+    assert '"key":"surface_potential","label":"Half-cell potential surface",' \
+           '"group":"maps","on":true' in text
 
 
 def test_two_kinds_in_one_role_are_refused(plugin_registered: None, tmp_path: Path) -> None:
@@ -304,8 +304,7 @@ def test_webmap_layer_control_in_a_browser(chloride_run: tuple[Path, np.ndarray]
         finally:
             browser.close()
     # the layer control lists the plugin's layers like a built-in's (Leaflet renders them)
-    for want in ("Test deck: chloride surface", "Test deck: chloride classes",
-                 "Test deck: chloride readings"):
+    for want in ("Test deck", "Chloride surface", "Chloride classes", "Chloride readings"):
         assert want in labels, (want, labels)
     # nothing fetched and no script error on the page (common practice: the map is offline)
     assert not log.blocked and not [e for e in log.errors if "error" in e], log

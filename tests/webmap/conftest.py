@@ -2,14 +2,17 @@
 
 Two runs: the synthetic site of :func:`geo_corrosion.testing.make_synthetic_site` with
 metric reporting units and input texts that hold a script tag (fast), and the sample site
-(``sample_sites/millbrook_garage``, two levels, US units; slow).  Browser tests drive
-Debian's chromium (``/usr/bin/chromium``) through Playwright with every request that is
-not ``file:`` or ``data:`` aborted and recorded; they never download a browser.
+(``sample_sites/millbrook_garage``, two levels, US units; slow; with
+``GC_WEBMAP_SAMPLE_RUN=<a finished run folder of it>`` only its web map is rebuilt).
+Browser tests drive Debian's chromium (``/usr/bin/chromium``) through Playwright with
+every request that is not ``file:`` or ``data:`` aborted and recorded; they never
+download a browser.
 """
 
 from __future__ import annotations
 
 import json
+import os
 import shutil
 from collections.abc import Iterator
 from dataclasses import dataclass, field
@@ -72,6 +75,14 @@ def sample_run(tmp_path_factory: pytest.TempPathFactory) -> Path:
     from geo_corrosion.pipeline import run
 
     root = tmp_path_factory.mktemp("webmap_sample")
+    reuse = os.environ.get("GC_WEBMAP_SAMPLE_RUN")
+    if reuse:  # a finished run of the sample site: only the web map is rebuilt (fast edits)
+        from geo_corrosion.exporters.webmap import write_webmap
+
+        out = root / "out"
+        shutil.copytree(reuse, out)
+        write_webmap(out)
+        return out
     site = root / "millbrook_garage"
     shutil.copytree(SAMPLE, site, ignore=shutil.ignore_patterns("out"))
     out = root / "out"
@@ -135,7 +146,7 @@ def open_page(browser: Any, path: Path, *, width: int = 1400,
 
     page.on("dialog", dialog)
     page.goto(path.as_uri())
-    page.wait_for_function("window.gcMap !== undefined && window.gcLevels !== undefined",
-                           timeout=20000)
+    page.wait_for_function("window.__geoCorrosion !== undefined && window.__geoCorrosion.ready",
+                           timeout=60000)
     page.wait_for_timeout(300)
     return page, log

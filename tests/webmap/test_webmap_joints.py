@@ -1,4 +1,7 @@
-"""The joints layer of the web map in a real browser (Debian's chromium, network blocked)."""
+"""The joints layer of the web map in a real browser (Debian's chromium, network blocked).
+
+The page's hook is ``window.__geoCorrosion`` (issue 14 item 1).
+"""
 
 from __future__ import annotations
 
@@ -10,9 +13,18 @@ from typing import Any
 import numpy as np
 import pytest
 
+from geo_corrosion.exporters.webmap.palette import OVERLAY
 from tests.webmap.conftest import open_page
 
 pytestmark = pytest.mark.browser
+
+
+def _gc(page: Any, expr: str) -> Any:
+    return page.evaluate(f"(() => {{ const gc = window.__geoCorrosion; return {expr}; }})()")
+
+
+def _box(page: Any) -> Any:
+    return page.locator(".leaflet-control-layers-overlays input[data-key='joints']")
 
 
 @pytest.fixture(scope="module")
@@ -32,32 +44,35 @@ def joint_page(browser: Any, tmp_path_factory: pytest.TempPathFactory) -> Any:
 def test_joints_layer_is_listed_shown_and_in_the_legend(joint_page: Any) -> None:
     page, log = joint_page
     assert not log.errors and not log.blocked
-    labels = page.eval_on_selector_all(".leaflet-control-layers label",
+    lid = _gc(page, "gc.current()")
+    labels = page.eval_on_selector_all(".leaflet-control-layers-overlays label",
                                        "els => els.map(e => e.textContent.trim())")
-    assert "Test deck: joints" in labels
-    name = page.evaluate("Object.keys(gcLabels).find(k => gcLabels[k].endsWith(': joints'))")
+    assert "Joints" in labels
     # shown when the level opens, like the sounding: the joints frame every other layer
-    assert page.evaluate(f"gcMap.hasLayer(gcLayers['{name}'])") is True
+    assert _box(page).is_checked()
+    assert {ly["key"]: ly["on"] for ly in _gc(page, f"gc.layers('{lid}')")}["joints"] is True
     legend = page.inner_text("#gc-legend")
     assert "expansion/isolation joint (mat not continuous across it)" in legend
-    props = page.evaluate(f"""() => {{ const out = [];
-      gcLayers['{name}'].eachLayer(l => out.push([l.feature.properties.joint_type,
-                                                   l.options.color, l.options.dashArray]));
-      return out; }}""")
-    # one expansion joint, drawn in the breaking style (reddish purple, long dashes)
-    assert props == [["expansion", "#CC79A7", "10 4"]]
-    page.locator(".leaflet-control-layers label", has_text="Test deck: joints").locator(
-        "input").click()
+    props = _gc(page, f"""(() => {{ const out = [];
+      gc.layer('{lid}', 'joints').eachLayer(l => out.push([l.feature.properties.Joint,
+        l.feature.properties['Bar continuity'], l.options.color, l.options.dashArray]));
+      return out; }})()""")
+    # one expansion joint, drawn in the breaking style (palette.OVERLAY, dashed)
+    assert props == [["Expansion joint", "broken: kriged apart", OVERLAY["joint_break"],
+                      "8 4"]]
+    _box(page).click()
     assert "expansion/isolation joint" not in page.inner_text("#gc-legend")  # legend follows
-    page.locator(".leaflet-control-layers label", has_text="Test deck: joints").locator(
-        "input").click()
+    _box(page).click()
+    assert "expansion/isolation joint" in page.inner_text("#gc-legend")
 
 
 def _joint_coloured(png: bytes) -> int:
     from PIL import Image
 
+    c = OVERLAY["joint_break"]
+    rgb = np.array([int(c[i:i + 2], 16) for i in (1, 3, 5)])
     img = np.asarray(Image.open(io.BytesIO(png)).convert("RGB"), int)
-    return int((np.abs(img - np.array([0xCC, 0x79, 0xA7])).sum(axis=2) < 30).sum())
+    return int((np.abs(img - rgb).sum(axis=2) < 30).sum())
 
 
 def test_joints_screenshot(joint_page: Any, tmp_path: Path) -> None:
@@ -66,11 +81,9 @@ def test_joints_screenshot(joint_page: Any, tmp_path: Path) -> None:
     keep = os.environ.get("GC_SCREENSHOT_DIR")
     for d in (tmp_path, *([Path(keep)] if keep else [])):
         (d / "webmap_joints.png").write_bytes(png)
-    toggle = page.locator(".leaflet-control-layers label", has_text="Test deck: joints").locator(
-        "input")
-    toggle.click()
+    _box(page).click()
     without = page.screenshot()
-    toggle.click()
-    # the joint line is drawn in its colour: pixels of #CC79A7 appear with the layer and go
-    # with it (spalls share the hue, so the difference is counted; common practice, no source)
+    _box(page).click()
+    # the joint line is drawn in its colour: pixels of it appear with the layer and go
+    # with it (the difference is counted; common practice, no source)
     assert _joint_coloured(png) - _joint_coloured(without) > 50

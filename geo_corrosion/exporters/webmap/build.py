@@ -1,23 +1,25 @@
 """Web map: one self-contained HTML file the owner can open anywhere, with no network.
 
-The map is built with folium **from a run's output folder** (``survey.gpkg``,
-``rasters/*.tif``, ``run.json``), so ``geo-corrosion map RUN_DIR`` rebuilds it and
-``geo-corrosion run`` calls the same :func:`write_webmap` after the other exporters.
+The map is built **from a run's output folder** (``survey.gpkg``, ``rasters/*.tif``,
+``run.json``), so ``geo-corrosion map RUN_DIR`` rebuilds it and ``geo-corrosion run``
+calls the same :func:`write_webmap` after the other exporters.
 
-Each level is a base layer (radio button: the level switch; its slab outline is always
-drawn) with its own overlays: kriged surfaces and probability maps as image overlays,
-contour lines, ASTM C876 classes, delaminations and spalls, zones, repairs (popup with
-id, zone, depth class, area in the reporting unit and bid item) and readings (value and
-QA flags).  Legends follow the overlays shown; a scale bar and a cautions panel are
-always there.  Leaflet is inlined from its release files vendored in this package
-(:mod:`~geo_corrosion.exporters.webmap.assets`, BSD-2-Clause), at the version folium
-declares; nothing is fetched from a CDN.  Every text that comes from input files is
-HTML-escaped before it reaches the page.
+The page is folium's Leaflet map with our own script (:mod:`.app`): a level switch and,
+per level, its layers in three groups (maps, survey, repairs) with short names from
+:mod:`.labels`.  Each level's data is a JSON block parsed, and each layer built, only
+when first shown, so a big garage opens fast; readings are drawn on a canvas;
+coordinates are rounded to 1e-7 degree (about 1 cm).  Surfaces and probability maps are
+images at the raster's cell size.  Colours are :mod:`.palette`: one severity ramp for
+every map, of which one is shown at a time, and distinct hues, outlines and hatching for
+everything over it.  Popups: a reading's point, grid position, value as read with its
+electrode, value as mapped and QA flags; a repair's dimensions, depth class, removal
+depth, area, perimeter, saw-cut length, volume and bid item.  Leaflet is inlined from its
+release files vendored in this package (:mod:`.assets`, BSD-2-Clause).  Every text from
+an input file is HTML-escaped before it reaches the page.
 """
 
 from __future__ import annotations
 
-import html
 import io
 import json
 import logging
@@ -34,7 +36,21 @@ from geo_corrosion.errors import ExportError
 from geo_corrosion.exporters._html import escape, png_data_url
 from geo_corrosion.exporters.base import Exporter
 from geo_corrosion.exporters.runfiles import RunLayers
+from geo_corrosion.exporters.webmap.app import APP_CSS, APP_JS
 from geo_corrosion.exporters.webmap.assets import LEAFLET_VERSION, leaflet_assets
+from geo_corrosion.exporters.webmap.labels import term, unit_label, word
+from geo_corrosion.exporters.webmap.palette import (
+    CLASS_RANK,
+    NO_ACTION_COLOR,
+    OVERLAY,
+    SEVERITY_RAMP,
+    ZONE_COLORS,
+    class_colors,
+    hex_color,
+    point_class_colors,
+    ramp_colors,
+    reading_color,
+)
 from geo_corrosion.measurements import MeasurementKind, Role
 from geo_corrosion.model.manifest import (
     KindRecord,
@@ -43,6 +59,15 @@ from geo_corrosion.model.manifest import (
     SiteRecord,
     read_run,
     result_manifest,
+)
+from geo_corrosion.vocabulary import (
+    class_label,
+    fmt_area,
+    fmt_depth,
+    fmt_length,
+    fmt_number,
+    fmt_potential,
+    humanise,
 )
 
 if TYPE_CHECKING:
@@ -57,27 +82,9 @@ __all__ = ["WebMapExporter", "build_webmap", "write_webmap", "MAP_NAME",
 log = logging.getLogger(__name__)
 MAP_NAME = "webmap.html"
 WGS84 = "EPSG:4326"
-
-#: Our sequential palette, light (least severe) to dark (most severe).  Lightness falls
-#: monotonically, so the order reads in grey scale and for the common colour-vision
-#: deficiencies; the hues are taken from Okabe & Ito (2008).
-SEVERITY_RAMP: tuple[str, ...] = ("#F7F3E3", "#F0E442", "#E69F00", "#D55E00", "#5B2149")
-#: Overlay colours (Okabe & Ito 2008 qualitative set).
-COLORS = {"slab": "#303030", "delamination": "#D55E00", "spall": "#CC79A7",
-          "repair": "#0072B2", "exclusion": "#999999", "contour": "#000000",
-          "flag": "#000000"}
-NO_ACTION_COLOR = "#AAAAAA"
-#: Joint lines: breaking (expansion, isolation: the mat is not continuous across them) and
-#: not (construction, control), told apart by colour, width and dash (Okabe & Ito hues).
-JOINT_STYLES = {
-    "break": {"color": "#CC79A7", "weight": 4, "dashArray": "10 4", "opacity": 0.95},
-    "cont": {"color": "#555555", "weight": 2, "dashArray": "3 4", "opacity": 0.9},
-}
-JOINT_LABELS = {"break": "expansion/isolation joint (mat not continuous across it)",
-                "cont": "construction/control joint"}
-ZONE_COLORS = ("#0072B2", "#009E73", "#56B4E9", "#E69F00", "#CC79A7", "#F0E442", "#D55E00")
+#: Decimal places of longitude and latitude on the page: 1e-7 degree is about 1 cm.
+COORD_DECIMALS = 7
 _HEX = re.compile(r"^#[0-9A-Fa-f]{6}$")
-
 
 _e = escape
 
@@ -87,25 +94,16 @@ def _num(x: float) -> str:
     return f"{x:.1f}" if abs(x) >= 10 else f"{x:.3g}"
 
 
-def _safe_color(c: Any, default: str) -> str:
-    return str(c) if isinstance(c, str) and _HEX.match(c) else default
-
-
-def ramp_colors(t: np.ndarray) -> np.ndarray:
-    """Map values in [0, 1] onto :data:`SEVERITY_RAMP`; return RGB in [0, 1], shape (..., 3)."""
-    stops = np.array([[int(h[i:i + 2], 16) / 255 for i in (1, 3, 5)] for h in SEVERITY_RAMP])
-    x = np.linspace(0, 1, len(stops))
-    t = np.clip(np.asarray(t, float), 0, 1)
-    return np.stack([np.interp(t, x, stops[:, k]) for k in range(3)], axis=-1)
-
-
 def _hex(rgb: np.ndarray) -> str:
-    return "#" + "".join(f"{int(round(v * 255)):02X}" for v in rgb)
+    return hex_color(rgb)
 
 
 def _surface_overlay(tif: Path, direction: int
                      ) -> tuple[str, list[list[float]], float, float] | None:
-    """Warp a GeoTIFF to lon/lat and colour it with our ramp: data URL, bounds, lo, hi."""
+    """Warp a GeoTIFF to lon/lat at its cell size, coloured with our ramp.
+
+    Returns the PNG data URL, its bounds, and the values at the ramp's ends.
+    """
     import rasterio
     import rasterio.errors
     import rasterio.warp
@@ -142,141 +140,163 @@ def _surface_overlay(tif: Path, direction: int
     t = (np.nan_to_num(dst, nan=lo) - lo) / (hi - lo)
     if direction < 0:
         t = 1 - t
-    rgba = np.concatenate([ramp_colors(t), np.where(ok, 0.8, 0.0)[..., None]], axis=-1)
+    rgba = np.concatenate([ramp_colors(t), np.where(ok, 0.85, 0.0)[..., None]], axis=-1)
     buf = io.BytesIO()
-    Image.fromarray((rgba * 255).round().astype(np.uint8)).save(buf, format="PNG")
+    Image.fromarray((rgba * 255).round().astype(np.uint8)).save(buf, format="PNG",
+                                                                 optimize=True)
     west, north = tr.c, tr.f
     east, south = tr.c + tr.a * w, tr.f + tr.e * h
-    return png_data_url(buf.getvalue()), [[south, west], [north, east]], lo, hi
+    return png_data_url(buf.getvalue()), [[_r(south), _r(west)], [_r(north), _r(east)]], lo, hi
 
 
-def _geojson(gdf: gpd.GeoDataFrame, name: str, style: Any, fields: dict[str, str], *,
-             show: bool, popup: bool = False, marker: Any = None,
-             style_columns: tuple[str, ...] = ()) -> folium.GeoJson:
-    """Build a GeoJSON layer whose property values are escaped.
+def _r(x: float) -> float:
+    return round(float(x), COORD_DECIMALS)
 
-    ``fields`` maps the columns shown in the popup or tooltip to their labels;
-    ``style_columns`` are kept in the properties for the style function only.
-    """
-    import folium
+
+def _round_geom(g: Any) -> Any:
+    """Return a geometry with its coordinates rounded to :data:`COORD_DECIMALS`."""
+    import shapely
+
+    return shapely.transform(g, lambda c: np.round(c, COORD_DECIMALS))
+
+
+def _fc(gdf: gpd.GeoDataFrame, props: dict[str, list[str]]) -> dict[str, Any]:
+    """Return a lon/lat FeatureCollection, coordinates rounded, with the given properties."""
+    from shapely.geometry import mapping
 
     g = gdf.to_crs(WGS84)
-    keep = [c for c in fields if c in g.columns]
-    props = {c: [_e(v) for v in g[c]] for c in (*keep, *style_columns) if c in g.columns}
-    import geopandas as gpd
+    feats = []
+    for i, geom in enumerate(g.geometry):
+        if geom is None or geom.is_empty:
+            continue
+        feats.append({"type": "Feature", "properties": {k: v[i] for k, v in props.items()},
+                      "geometry": mapping(_round_geom(geom))})
+    return {"type": "FeatureCollection", "features": feats}
 
-    out = gpd.GeoDataFrame(props, geometry=g.geometry.values, crs=WGS84)
-    aliases = [html.escape(fields[c]) for c in keep]
-    kw: dict[str, Any] = {}
-    if keep and popup:
-        kw["popup"] = folium.GeoJsonPopup(fields=keep, aliases=aliases, labels=True)
-    elif keep:
-        kw["tooltip"] = folium.GeoJsonTooltip(fields=keep, aliases=aliases)
-    style_fn = style if callable(style) else (lambda _f, st=style: st)
-    return folium.GeoJson(out.__geo_interface__, name=name, style_function=style_fn,
-                          show=show, marker=marker, **kw)
+
+def _esc_col(gdf: gpd.GeoDataFrame, col: str) -> list[str]:
+    if col not in gdf.columns:
+        return [""] * len(gdf)
+    return [_e(v) if v is not None and v == v else "" for v in gdf[col]]
 
 
 def _gradient_legend(title: str, lo: float, hi: float, unit: str, direction: int) -> str:
     stops = SEVERITY_RAMP if direction > 0 else SEVERITY_RAMP[::-1]
     grad = ",".join(stops)
+    u = _e(unit_label(unit))
     return (f'<div class="gc-leg-title">{title}</div>'
-            f'<div class="gc-ramp" style="background:linear-gradient(to right,{grad})"></div>'
-            f'<div class="gc-ramp-lab"><span>{lo:.3g} {_e(unit)}</span>'
-            f'<span>{hi:.3g} {_e(unit)}</span></div>'
-            '<div class="gc-note">darker = more severe (our ramp; reads in grey scale)</div>')
+            f'<div class="gc-ramp" data-colors="{" ".join(SEVERITY_RAMP)}" '
+            f'style="background:linear-gradient(to right,{grad})"></div>'
+            f'<div class="gc-ramp-lab"><span>{lo:.3g} {u}</span>'
+            f'<span>{hi:.3g} {u}</span></div>'
+            '<div class="gc-note">darker = more severe</div>')
 
 
-def _swatch_legend(title: str, items: list[tuple[str, str]], line: bool = False) -> str:
+def _swatch_legend(title: str, items: list[tuple[str, str]], kind: str = "fill") -> str:
+    """Return a legend of swatches (``kind``: fill, line, dash, hatch or dot)."""
     rows = "".join(
-        f'<div><span class="gc-sw{" gc-line" if line else ""}" style="background:{c}"></span>'
-        f"{label}</div>" for c, label in items)
+        f'<div><span class="gc-sw gc-{kind}" data-color="{c}" style="--c:{c}"></span>'
+        f"{text}</div>" for c, text in items)
     return f'<div class="gc-leg-title">{title}</div>{rows}'
 
 
-_CSS = """
-.gc-panel{position:fixed;z-index:1000;background:#fff;border:1px solid #777;padding:6px 8px;
- font:11px/1.35 sans-serif;max-width:360px;max-height:40vh;overflow:auto}
-#gc-cautions{top:62px;left:54px;max-height:24vh} #gc-legend{bottom:28px;right:10px;min-width:180px}
-.leaflet-control-layers{max-height:55vh;overflow:auto;font-size:11px}
-#gc-title{top:10px;left:54px;font-size:13px;font-weight:bold}
-.gc-leg-title{font-weight:bold;margin-top:4px} .gc-note{color:#555;font-size:10px}
-.gc-ramp{height:10px;border:1px solid #555} .gc-ramp-lab{display:flex;justify-content:space-between}
-.gc-sw{display:inline-block;width:14px;height:10px;margin-right:5px;border:1px solid #444;
- vertical-align:middle} .gc-line{height:3px}
-"""
+class _Level:
+    """One level's page data: its slab, its always-drawn base and its layers."""
+
+    def __init__(self, lid: str, name: str) -> None:
+        self.lid = lid
+        self.name = name
+        self.bounds: list[list[float]] | None = None
+        self.base: list[dict[str, Any]] = []
+        self.layers: list[dict[str, Any]] = []
+
+    def add(self, key: str, text: str, group: str, spec: dict[str, Any], legend: str,
+            colors: list[str], *, on: bool = False, fill: bool = False,
+            excl: str | None = None) -> None:
+        """Add a layer; ``fill``: a map under the rest; ``excl``: one of its set at a time."""
+        self.layers.append({"key": key, "label": text, "group": group, "on": on,
+                            "fill": fill, "excl": excl or ("maps" if fill else None),
+                            "legend": legend, "colors": colors, **spec})
+
+    def data(self) -> dict[str, Any]:
+        return {"id": self.lid, "name": self.name, "bounds": self.bounds, "base": self.base,
+                "layers": self.layers}
 
 
-class _Builder:
-    """Collects layers, legends and level membership while the map is built."""
-
-    def __init__(self, fmap: folium.Map) -> None:
-        self.fmap = fmap
-        self.legends: dict[str, str] = {}  # JS variable name -> legend HTML
-        self.labels: dict[str, str] = {}  # JS variable name -> layer-control label (escaped)
-        self.levels: dict[str, dict[str, Any]] = {}  # level id -> {"base", "overlays", "shown"}
-
-    def add(self, lid: str, layer: Any, show: bool, legend: str | None = None) -> None:
-        layer.add_to(self.fmap)
-        lv = self.levels[lid]
-        lv["overlays"].append(layer.get_name())
-        self.labels[layer.get_name()] = layer.layer_name
-        if show:
-            lv["shown"].append(layer.get_name())
-        if legend:
-            self.legends[layer.get_name()] = legend
+def _dimensions(rep: gpd.GeoDataFrame, units: Any, crs_to_m: float) -> list[str]:
+    """Overall length x width of each repair (its minimum rotated rectangle)."""
+    if "dimensions" in rep.columns:  # rounded dimensions written by the repair layout
+        return _esc_col(rep, "dimensions")
+    out = []
+    for g in rep.geometry:
+        if g is None or g.is_empty:
+            out.append("")
+            continue
+        xy = np.asarray(g.minimum_rotated_rectangle.exterior.coords)
+        sides = np.hypot(*np.diff(xy[:3], axis=0).T) * crs_to_m
+        a, b = sorted(sides, reverse=True)
+        out.append(f"{fmt_length(a, units)} x {fmt_length(b, units)}")
+    return out
 
 
-def _level(b: _Builder, run_dir: Path, lid: str, info: LevelRecord, layers: RunLayers,
-           units: Any, first: bool) -> None:
-    """Add one level's base layer and overlays."""
-    import folium
+def _level(run_dir: Path, lid: str, info: LevelRecord, layers: RunLayers,
+           units: Any) -> _Level:
+    """Collect one level's base and layers (nothing is drawn here: the page builds them)."""
+    from geo_corrosion.units import LENGTH_TO_M
 
-    from geo_corrosion.quantities import DEPTH_CLASS_ITEMS
-
-    lname = _e(info.name or lid)
-    base = folium.FeatureGroup(name=f"{lname} ({_e(lid)})", overlay=False, show=first)
+    lv = _Level(lid, _e(info.name or lid))
+    grid_unit = unit_label(info.georeference.local_unit)
+    crs_to_m = LENGTH_TO_M.get(info.georeference.crs_unit, 1.0)
     slab = layers.get(f"{lid}_slab")
     if slab is not None:
-        slab["area_rep"] = [f"{a:,.0f} {units.area}"
-                            for a in units.area_from_m2(slab["area_m2"].to_numpy(float))]
-        _geojson(slab, "slab", {"color": COLORS["slab"], "weight": 2, "fillOpacity": 0.0},
-                 {"name": "level", "area_rep": "slab area"}, show=True).add_to(base)
+        x0, y0, x1, y1 = slab.to_crs(WGS84).total_bounds
+        lv.bounds = [[_r(y0), _r(x0)], [_r(y1), _r(x1)]]
+        area = [fmt_area(a, units) for a in slab["area_m2"].to_numpy(float)]
+        lv.base.append({"type": "geojson", "key": "slab", "fc": _fc(slab, {
+            "Level": [lv.name] * len(slab), "Slab area": area}),
+            "style": {"color": OVERLAY["slab"], "weight": 2, "fill": False},
+            "tooltip": True, "colors": [OVERLAY["slab"]],
+            "legend": _swatch_legend(lv.name, [(OVERLAY["slab"], "slab outline")], "line")})
     exc = layers.get(f"{lid}_exclusions")
     if exc is not None:
-        _geojson(exc, "exclusions", {"color": COLORS["exclusion"], "weight": 1,
-                 "fillColor": COLORS["exclusion"], "fillOpacity": 0.5},
-                 {"label": "exclusion"}, show=True).add_to(base)
-    base.add_to(b.fmap)
-    b.levels[lid] = {"base": base.get_name(), "overlays": [], "shown": [], "name": lname}
+        lv.base.append({"type": "geojson", "key": "exclusions", "fc": _fc(exc, {
+            "Not surveyed": _esc_col(exc, "label")}),
+            "style": {"color": OVERLAY["exclusion"], "weight": 1, "pattern": "hatch",
+                      "fillOpacity": 1.0}, "tooltip": True, "colors": [OVERLAY["exclusion"]],
+            "legend": _swatch_legend("", [(OVERLAY["exclusion"], "not surveyed (opening, column)")],
+                                     "hatch")})
     kinds = {k: v for k, v in info.kinds.items() if v.surface is not None}
+    _maps(lv, run_dir, lid, kinds, layers, units)
+    _survey(lv, lid, kinds, layers, units, grid_unit)
+    for kind, kv in info.kinds.items():  # kinds too sparse for a surface: classed points
+        if kv.representation == "points":
+            _points(lv, lid, kind, kv, layers, units)
+    _repairs(lv, lid, layers, units, crs_to_m)
+    return lv
+
+
+def _kind_label(kind: str) -> str:
+    text = term(kind, humanise(kind))
+    return _e(text[:1].upper() + text[1:])
+
+
+def _maps(lv: _Level, run_dir: Path, lid: str, kinds: dict[str, KindRecord],
+          layers: RunLayers, units: Any) -> None:
+    """Add surfaces, probability maps and class layers: one fill at a time, the ramp's colours."""
     for kind, kv in kinds.items():
-        unit = kv.unit
-        label = _e(kind.replace("_", " "))
         mk = _kind(kind)
         d = mk.severity_direction if mk is not None else 1
         # the potential surface is the one shown when the map opens
         shown = mk is not None and Role.POTENTIAL in mk.roles
         tif = run_dir / "rasters" / f"{lid}_{kind}.tif"
         ov = _surface_overlay(tif, d) if tif.is_file() else None
+        name = _kind_label(kind)
         if ov is not None:
             url, bounds, lo, hi = ov
-            layer = folium.raster_layers.ImageOverlay(
-                url, bounds=bounds, name=f"{lname}: {label} surface",
-                show=first and shown)
-            b.add(lid, layer, shown,
-                  _gradient_legend(f"{lname}: kriged {label}", lo, hi, unit, d))
-        cont = layers.get(f"{lid}_contours_{kind}")
-        if cont is not None:
-            interval = kv.surface.contour_interval if kv.surface is not None else None
-            cont["value_unit"] = [f"{v:g} {unit}" for v in cont["value"]]
-            b.add(lid, _geojson(cont, f"{lname}: {label} contours",
-                                {"color": COLORS["contour"], "weight": 1, "dashArray": "4 3"},
-                                {"value_unit": "contour"}, show=False),
-                  False, _swatch_legend(f"{lname}: {label} contours",
-                                        [(COLORS["contour"], f"every {interval:g} {_e(unit)}"
-                                          if isinstance(interval, int | float) else "contour")],
-                                        line=True))
+            lv.add(f"surface_{kind}", f"{name} {word('surface')}", "maps",
+                   {"type": "image", "url": url, "bounds": bounds, "opacity": 0.85},
+                   _gradient_legend(f"{name}, kriged", lo, hi, kv.unit, d),
+                   list(SEVERITY_RAMP), on=shown, fill=True)
         prob = run_dir / "rasters" / f"{lid}_{kind}_probability.tif"
         pov = _surface_overlay(prob, 1) if prob.is_file() else None
         if pov is not None:
@@ -288,148 +308,131 @@ def _level(b: _Builder, run_dir: Path, lid: str, info: LevelRecord, layers: RunL
                     meaning = src.tags().get("meaning", "")
             except Exception:  # noqa: BLE001 - the tag is only a legend text
                 meaning = ""
-            b.add(lid, folium.raster_layers.ImageOverlay(
-                pov[0], bounds=pov[1], name=f"{lname}: probability, {label}", show=False),
-                False, _gradient_legend(f"{lname}: probability that {label} is "
-                                        f"{_e(meaning) or 'beyond its threshold'}",
-                                        0.0, 1.0, "", 1))
-    for layer_name, label, title in _class_layers(lid, kinds, layers):
+            lv.add(f"probability_{kind}", f"{name} {word('probability')}", "maps",
+                   {"type": "image", "url": pov[0], "bounds": pov[1], "opacity": 0.85},
+                   _gradient_legend(f"{name}: probability of "
+                                    f"{_e(meaning) or 'exceeding its threshold'}",
+                                    0.0, 1.0, "", 1), list(SEVERITY_RAMP), fill=True)
+    for layer_name, key, text, title in _class_layers(lid, kinds, layers):
         cls = layers.get(layer_name)
         if cls is None or not len(cls):
             continue
-        cls["color"] = [_safe_color(c, "#999999") for c in cls.get("color", ["#999999"] * len(cls))]
-        cls["area_rep"] = [f"{v:.1f} {units.area}"
-                           for v in units.area_from_m2(cls["area_m2"].to_numpy(float))]
-        items = [(c, _e(k)) for c, k in zip(cls["color"], cls["class"], strict=True)]
-        b.add(lid, _classes_layer(cls, f"{lname}: {label}", units), False,
-              _swatch_legend(f"{lname}: {title}", items))
-    for kind, kv in info.kinds.items():  # kinds too sparse for a surface: classed points
-        if kv.representation == "points":
-            _points(b, lid, lname, kind, kv, layers, units, first)
-    for key, color, what in (("delaminations", COLORS["delamination"], "delamination"),
-                             ("spalls", COLORS["spall"], "spall")):
-        g = layers.get(f"{lid}_{key}")
-        if g is None:
-            continue
-        g["area_rep"] = units.area_from_m2(g["area_m2"].to_numpy(float))
-        b.add(lid, _geojson(g, f"{lname}: {key}", {"color": color, "weight": 1,
-                            "fillColor": color, "fillOpacity": 0.5},
-                            {"label": "label", "area_rep": f"area ({units.area})",
-                             "source": "source"}, show=first),
-              True, _swatch_legend(f"{lname}: sounding", [(color, what + "s (from the plans)")]))
-    _joints(b, lid, lname, layers, first)
-    zones = layers.get(f"{lid}_zones")
-    if zones is not None:
-        zones = zones.reset_index(drop=True)
-        named = [z for z in dict.fromkeys(zones["zone"]) if z != "no_action"]
-        zc = {z: ZONE_COLORS[i % len(ZONE_COLORS)] for i, z in enumerate(named)}
-        if "no_action" in set(zones["zone"]):
-            zc["no_action"] = NO_ACTION_COLOR  # outline only: the rest of the slab
-        zones["_c"] = [zc[z] for z in zones["zone"]]
-        zones["area_rep"] = units.area_from_m2(zones["area_m2"].to_numpy(float))
-        b.add(lid, _styled(zones, f"{lname}: zones", {"zone": "zone", "treatment": "treatment",
-                           "bid_item": "bid item", "area_rep": f"area ({units.area})"},
-                           lambda c: {"color": c, "weight": 1, "fillColor": c,
-                                      "fillOpacity": 0.0 if c == NO_ACTION_COLOR else 0.3}),
-              False, _swatch_legend(f"{lname}: zones", [(c, _e(z) + (" (outline only)" if
-                                    c == NO_ACTION_COLOR else "")) for z, c in zc.items()]))
-    rep = layers.get(f"{lid}_repairs")
-    if rep is not None:
-        rep = rep.reset_index(drop=True)
-        rep["area_rep"] = [f"{v:.1f} {units.area}" for v in
-                           units.area_from_m2(rep["area_m2"].to_numpy(float))]
-        if "bid_item" not in rep.columns:
-            rep["bid_item"] = [DEPTH_CLASS_ITEMS.get(str(c), "") for c in rep["depth_class"]]
-        rep["zone"] = _zone_of(rep, zones)
-        b.add(lid, _geojson(rep, f"{lname}: repairs", {"color": COLORS["repair"], "weight": 2,
-                            "fillColor": COLORS["repair"], "fillOpacity": 0.15},
-                            {"repair_id": "repair", "zone": "zone", "depth_class": "depth class",
-                             "area_rep": "area", "bid_item": "bid item"}, show=first, popup=True),
-              True, _swatch_legend(f"{lname}: repairs (estimates for bidding)",
-                                   [(COLORS["repair"],
-                                     "saw-cut repair outline; click for details")]))
-    _readings(b, lid, lname, layers, kinds)
+        cls = cls.reset_index(drop=True)
+        recolor = _class_palette(cls)
+        cls["_c"] = [recolor.get(str(c).upper(), "#999999") for c in cls.get(
+            "color", ["#999999"] * len(cls))]
+        area = [fmt_area(a, units) for a in cls["area_m2"].to_numpy(float)]
+        cls["_label"] = _class_names(cls)
+        items = sorted({(c, k) for c, k in zip(cls["_c"], cls["_label"], strict=True)},
+                       key=lambda it: -list(recolor.values()).index(it[0])
+                       if it[0] in recolor.values() else 0)
+        lv.add(key, text, "maps", {"type": "geojson", "fc": _fc(cls, {
+            "_c": list(cls["_c"]), "Class": list(cls["_label"]), "Area": area}),
+            "style": {"weight": 0, "fillOpacity": 0.85, "byColor": True}, "popup": True},
+            _swatch_legend(title, items), [c for c, _ in items], fill=True)
 
 
-def _joints(b: _Builder, lid: str, lname: str, layers: RunLayers, first: bool) -> None:
-    """Add a level's joint lines, breaking and not styled apart, with their legend."""
-    j = layers.get(f"{lid}_joints")
-    if j is None or not len(j):
-        return
-    j = j.reset_index(drop=True)
-    if "joint_type" not in j.columns:  # a run folder written before joints had types
-        j["joint_type"] = "construction"
-    brk = (j["breaks_continuity"].astype(bool) if "breaks_continuity" in j.columns
-           else j["joint_type"].isin(BREAKING_JOINT_TYPES))
-    j["_c"] = ["break" if v else "cont" for v in brk]
-    j["continuity"] = ["broken: kriged apart" if v else "continuous" for v in brk]
-    used = [k for k in ("break", "cont") if k in set(j["_c"])]
-    items = "".join(
-        f'<div><span class="gc-sw gc-line" style="background:{JOINT_STYLES[k]["color"]};'
-        f'height:{JOINT_STYLES[k]["weight"]}px"></span>{JOINT_LABELS[k]}</div>' for k in used)
-    b.add(lid, _geojson(j, f"{lname}: joints",
-                        lambda f: JOINT_STYLES.get(f["properties"].get("_c", "cont"),
-                                                   JOINT_STYLES["cont"]),
-                        {"joint_type": "joint type", "continuity": "bar continuity",
-                         "source": "source"}, show=first, style_columns=("_c",)),
-          True, f'<div class="gc-leg-title">{lname}: joints</div>{items}')
+def _class_palette(cls: gpd.GeoDataFrame) -> dict[str, str]:
+    """Map a class layer's colours onto the ramp, least severe to most severe.
+
+    The class set's own colours (``condition/classes.py``) run from blue (benign) to
+    vermilion and purple (severe); their rank gives the order.  A class set the map does
+    not know keeps the order of its class codes.
+    """
+    from geo_corrosion.condition.classes import CLASS_SETS
+
+    name = str(cls["class_set"].iloc[0]) if "class_set" in cls.columns else ""
+    cs = CLASS_SETS.get(name)
+    present = [str(c).upper() for c in cls.get("color", [])]
+    colours = [c.upper() for c in cs.colors] if cs is not None else present
+    if "class_code" in cls.columns and cs is None:
+        order = dict(zip(present, cls["class_code"], strict=True))
+        colours = sorted(dict.fromkeys(present), key=lambda c: order[c])
+    uniq = list(dict.fromkeys(colours))
+    ranked = sorted(uniq, key=lambda c: (CLASS_RANK.get(c, 99), uniq.index(c)))
+    return dict(zip(ranked, class_colors(len(ranked)), strict=True))
 
 
-def _points(b: _Builder, lid: str, lname: str, kind: str, kv: KindRecord, layers: RunLayers,
-            units: Any, first: bool) -> None:
+
+def _points(lv: _Level, lid: str, kind: str, kv: KindRecord, layers: RunLayers,
+            units: Any) -> None:
     """Add a kind shown as points: its readings coloured by class, and their Thiessen cells.
 
-    The points are shown when the level opens; the cells (labelled: nearest reading, not a
-    surface) are listed in the layer control, off.
+    The points (on the canvas, one hue per class from :func:`.palette.point_class_colors`,
+    the legend saying why there is no surface) are shown when the level opens; the cells
+    (a map of the "Maps" group, labelled: nearest reading, not a surface) are off.
     """
-    import folium
-
-    label = _e(kind.replace("_", " "))
-    reason = _e(kv.representation_reason or kv.skipped or "too few readings for a surface")
     pts = layers.get(f"{lid}_points_{kind}")
-    if pts is None:
+    if pts is None or not len(pts):
         return
-    pts = pts.reset_index(drop=True)
-    pts["_c"] = [_safe_color(c, "#0072B2") for c in pts.get("color", ["#0072B2"] * len(pts))]
-    pts["value_unit"] = [f"{_num(float(v))} {u}" for v, u in zip(pts["value"], pts["unit"],
-                                                                   strict=True)]
-    fields = {"point_id": "point", "value_unit": "value", "class": "class",
-              "representation": "shown as"}
-    if "class" in pts and "color" in pts:
-        order = pts.sort_values("class_code") if "class_code" in pts else pts
-        seen = dict.fromkeys(zip(order["_c"], order["class"], strict=True))
-        items = [(c, _e(k)) for c, k in seen]
+    pts = pts.reset_index(drop=True).to_crs(WGS84)
+    name = _kind_label(kind)
+    reason = _e(kv.representation_reason or kv.skipped or "too few readings for a surface")
+    classed = "class" in pts.columns and "class_code" in pts.columns
+    if classed:
+        from geo_corrosion.condition.classes import CLASS_SETS
+
+        codes = [int(c) for c in pts["class_code"]]
+        cs = CLASS_SETS.get(str(pts["class_set"].iloc[0])) if "class_set" in pts else None
+        # one colour per class of the whole set, so a class keeps its colour on every level
+        n = len(cs.colors) if cs is not None else max(codes) + 1
+        pc = dict(enumerate(point_class_colors(n)))
+        names = _class_names(pts)
+        fills = [pc.get(c, NO_ACTION_COLOR) for c in codes]
+        # most severe first, as the class layers' legends
+        seen = dict.fromkeys((pc.get(c, NO_ACTION_COLOR), nm or "no class")
+                             for c, nm in sorted(zip(codes, names, strict=True), reverse=True))
+        items = list(seen)
     else:
-        items = [("#0072B2", "reading")]
-    layer = _geojson(
-        pts, f"{lname}: {label} readings (points, no surface)",
-        lambda f: {"color": "#000000", "weight": 1, "fillColor": f["properties"]["_c"],
-                   "fillOpacity": 0.95, "radius": 6},
-        fields, show=first, popup=True, style_columns=("_c",),
-        marker=folium.CircleMarker(radius=6, fill=True))
-    b.add(lid, layer, True, _swatch_legend(f"{lname}: {label} readings, shown as points", items)
-          + f'<div class="gc-note">no surface: {reason}</div>')
+        color = reading_color(kind, 0)
+        names = [""] * len(pts)
+        fills = [color] * len(pts)
+        items = [(color, "reading")]
+    u = unit_label(kv.unit)
+    cols: dict[str, Any] = {
+        "Point": _esc_col(pts, "point_id"),
+        "Value": [(fmt_potential(x) if kv.unit == "mV" else f"{_num(x)}\u00a0{_e(u)}")
+                  if np.isfinite(x) else "no value" for x in pts["value"].to_numpy(float)],
+        "Class": names,
+        "Shown as": ["points: no surface"] * len(pts),
+    }
+    xy = np.column_stack([pts.geometry.y.to_numpy(float), pts.geometry.x.to_numpy(float)])
+    lv.add(f"points_{kind}", f"{name} {word('readings')} (points, no surface)", "survey",
+           {"type": "points", "latlon": np.round(xy, COORD_DECIMALS).ravel().tolist(),
+            "color": items[0][0], "fills": _compact(fills), "radius": 6, "ring": False,
+            "cols": {k: _compact(c) for k, c in cols.items()}},
+           _swatch_legend(f"{name} readings, shown as points", items, "dot")
+           + f'<div class="gc-note">no surface: {reason}</div>',
+           [c for c, _ in items], on=True)
     cells = layers.get(f"{lid}_thiessen_{kind}")
-    if cells is None:
+    if cells is None or not len(cells):
         return
     cells = cells.reset_index(drop=True)
-    cells["_c"] = [_safe_color(c, "#0072B2") for c in cells.get("color",
-                                                                 ["#0072B2"] * len(cells))]
-    cells["area_rep"] = [f"{v:.1f} {units.area}"
-                         for v in units.area_from_m2(cells["area_m2"].to_numpy(float))]
-    b.add(lid, _styled(cells, f"{lname}: {label} Thiessen cells (nearest reading, not a "
-                       "surface)", {"point_id": "nearest reading", "class": "class",
-                                    "area_rep": f"area ({units.area})"},
-                       lambda c: {"color": "#555555", "weight": 1, "fillColor": c,
-                                  "fillOpacity": 0.3}),
-          False, _swatch_legend(f"{lname}: {label} Thiessen cells", items)
-          + '<div class="gc-note">each cell takes the class of its nearest reading; '
-            "not a surface</div>")
+    if "color" in cells.columns and "class" in cells.columns:
+        recolor = _class_palette(cells)
+        cells["_c"] = [recolor.get(str(c).upper(), NO_ACTION_COLOR) for c in cells["color"]]
+        cells["_label"] = _class_names(cells)
+        citems = sorted({(c, k) for c, k in zip(cells["_c"], cells["_label"], strict=True)},
+                        key=lambda it: -list(recolor.values()).index(it[0])
+                        if it[0] in recolor.values() else 0)
+    else:
+        cells["_c"] = SEVERITY_RAMP[2]
+        cells["_label"] = ""
+        citems = [(SEVERITY_RAMP[2], "cell of a reading")]
+    area = [fmt_area(a, units) for a in cells["area_m2"].to_numpy(float)]
+    lv.add(f"thiessen_{kind}", f"{name} Thiessen cells (nearest reading, not a surface)",
+           "maps", {"type": "geojson", "fc": _fc(cells, {
+               "_c": list(cells["_c"]), "Nearest reading": _esc_col(cells, "point_id"),
+               "Class": list(cells["_label"]), "Area": area}),
+               "style": {"weight": 0, "fillOpacity": 0.85, "byColor": True}, "popup": True},
+           _swatch_legend(f"{name} Thiessen cells", citems)
+           + '<div class="gc-note">each cell takes the class of its nearest reading; '
+             "not a surface</div>", [c for c, _ in citems], fill=True)
 
 
 def _class_layers(lid: str, kinds: dict[str, KindRecord], layers: RunLayers
-                  ) -> list[tuple[str, str, str]]:
-    """(GeoPackage layer, layer-control label, legend title) of a level's class layers."""
+                  ) -> list[tuple[str, str, str, str]]:
+    """(GeoPackage layer, key, layer-control label, legend title) of a level's class layers."""
     out = []
     for kind in kinds:
         name = f"{lid}_classes_{kind}"
@@ -437,24 +440,274 @@ def _class_layers(lid: str, kinds: dict[str, KindRecord], layers: RunLayers
             continue
         mk = _kind(kind)
         titles = mk.class_layer_titles if mk is not None else None
-        label, title = titles or (f"{kind.replace('_', ' ')} classes",) * 2
-        out.append((name, _e(label), _e(title)))
+        text, title = titles or (f"{_kind_label(kind)} {word('classes')}",) * 2
+        out.append((name, f"classes_{kind}", _e(text[:1].upper() + text[1:]), _e(title)))
     if f"{lid}_combined_classes" in layers.names:
-        out.append((f"{lid}_combined_classes", "combined condition",
-                    "combined condition (rule table in run.json)"))
+        out.append((f"{lid}_combined_classes", "classes_combined", word("combined"),
+                    "Combined condition (rule table in run.json)"))
     return out
 
 
-def _classes_layer(cls: gpd.GeoDataFrame, name: str, units: Any) -> folium.GeoJson:
-    return _styled(cls.assign(_c=cls["color"]), name,
-                   {"class": "class", "area_rep": f"area ({units.area})"},
-                   lambda c: {"weight": 0, "fillColor": c, "fillOpacity": 0.55})
+def _survey(lv: _Level, lid: str, kinds: dict[str, KindRecord], layers: RunLayers,
+            units: Any, grid_unit: str) -> None:
+    """Add readings, contours with their values, sounding and joints."""
+    spare = 0
+    for kind, kv in kinds.items():
+        if kind not in ("potential", "resistivity", "corrosion_rate", "cover"):
+            spare += 1
+        color = reading_color(kind, spare - 1)
+        _readings(lv, lid, kind, kv, layers, grid_unit, color)
+        cont = layers.get(f"{lid}_contours_{kind}")
+        if cont is not None:
+            interval = kv.surface.contour_interval if kv.surface is not None else None
+            u = unit_label(kv.unit)
+            text = [f"{float(v):g}" for v in cont["value"]]
+            every = (f"every {interval:g} {_e(u)}" if isinstance(interval, int | float)
+                     else "contour")
+            lv.add(f"contours_{kind}", f"{_kind_label(kind)} {word('contours')}", "survey",
+                   {"type": "geojson", "fc": _fc(cont.reset_index(drop=True), {
+                       "Contour": [f"{t} {_e(u)}" for t in text]}),
+                    "style": {"color": OVERLAY["contour"], "weight": 1, "dashArray": "4 3",
+                              "fill": False},
+                    "tooltip": True, "labels": _contour_labels(cont, text)},
+                   _swatch_legend(f"{_kind_label(kind)} contours ({_e(u)})",
+                                  [(OVERLAY["contour"], every)], "dash"),
+                   [OVERLAY["contour"]], excl="contours")
+    for key, what in (("delaminations", "delamination"), ("spalls", "spall")):
+        g = layers.get(f"{lid}_{key}")
+        if g is None:
+            continue
+        g = g.reset_index(drop=True)
+        area = [fmt_area(a, units) for a in g["area_m2"].to_numpy(float)]
+        color = OVERLAY[what]
+        lv.add(key, word(key), "survey", {"type": "geojson", "fc": _fc(g, {
+            "Label": _esc_col(g, "label"), "Area": area, "From": _esc_col(g, "source")}),
+            "style": {"color": color, "weight": 1.5,
+                      "pattern": "hatch" if what == "delamination" else "cross",
+                      "fillOpacity": 1.0}, "tooltip": True},
+            _swatch_legend(word(key), [(color, f"{what}s (from the plans)")], "hatch"),
+            [color], on=True)
+    _joints(lv, lid, layers)
+    _qa(lv, lid, layers)
 
 
-def _styled(g: gpd.GeoDataFrame, name: str, fields: dict[str, str], style: Any) -> folium.GeoJson:
-    """Build a layer styled by its ``_c`` colour column (kept out of the tooltip)."""
-    return _geojson(g, name, lambda f: style(f["properties"].get("_c", "#999999")), fields,
-                    show=False, style_columns=("_c",))
+def _contour_labels(cont: gpd.GeoDataFrame, text: list[str]) -> list[list[Any]]:
+    """One label point per contour line part: its middle (lat, lon, value)."""
+    g = cont.to_crs(WGS84)
+    out: list[list[Any]] = []
+    for geom, t in zip(g.geometry, text, strict=True):
+        if geom is None or geom.is_empty:
+            continue
+        parts = list(getattr(geom, "geoms", [geom]))
+        longest = max(p.length for p in parts)
+        for p in parts:
+            if p.length < 0.25 * longest:
+                continue  # no label on short pieces: they would crowd the map
+            pt = p.interpolate(0.5, normalized=True)
+            out.append([_r(pt.y), _r(pt.x), t])
+    return out
+
+
+def _joints(lv: _Level, lid: str, layers: RunLayers) -> None:
+    """Add a level's joint lines (breaking the bar mat or not, styled apart), when it has any."""
+    j = layers.get(f"{lid}_joints")
+    if j is None or not len(j):
+        return
+    j = j.reset_index(drop=True)
+    types = [str(t) for t in j["joint_type"]] if "joint_type" in j.columns else [""] * len(j)
+    brk = ([bool(v) for v in j["breaks_continuity"]] if "breaks_continuity" in j.columns
+           else [t in BREAKING_JOINT_TYPES for t in types])
+    colors = [OVERLAY["joint_break"] if b else OVERLAY["joint"] for b in brk]
+    items = []
+    if any(brk):
+        items.append((OVERLAY["joint_break"],
+                      "expansion/isolation joint (mat not continuous across it)"))
+    if not all(brk):
+        items.append((OVERLAY["joint"], "construction/control joint"))
+    lv.add("joints", word("joints"), "survey", {"type": "geojson", "fc": _fc(j, {
+        "_c": colors,
+        "Joint": [_e(term(t, humanise(t) + " joint")) if t else "joint" for t in types],
+        "Bar continuity": ["broken: kriged apart" if b else "continuous" for b in brk],
+        "Label": _esc_col(j, "label"), "From": _esc_col(j, "source")}),
+        "style": {"weight": 3, "dashArray": "8 4", "fill": False, "byColor": True},
+        "tooltip": True},
+        _swatch_legend("Joints", items, "dash"), [c for c, _ in items], on=True)
+
+
+def _readings(lv: _Level, lid: str, kind: str, kv: KindRecord, layers: RunLayers,
+              grid_unit: str, color: str) -> None:
+    """Add a kind's readings on a canvas: dots of one hue, flagged ones ringed; popups."""
+    from geo_corrosion.corrections import ELECTRODES
+
+    g = layers.get(f"readings_{kind}")
+    col = _value_column(kind)
+    if g is None or "level_id" not in g.columns or col is None or col not in g.columns:
+        return
+    g = g[g["level_id"].astype(str) == lid]
+    if not len(g):
+        return
+    g = g.to_crs(WGS84)
+    u = unit_label(kv.unit)
+    v = g[col].to_numpy(float)
+    flags = (g["qa_flags"].fillna("").astype(str).tolist() if "qa_flags" in g.columns
+             else [""] * len(g))
+    cols: dict[str, Any] = {
+        "Point": _esc_col(g, "point_id"),
+        "Grid x, y": [f"{x:.2f}, {y:.2f} {grid_unit}" for x, y in
+                      zip(g["x_local"].to_numpy(float), g["y_local"].to_numpy(float),
+                          strict=True)],
+    }
+    if "raw_value" in g.columns:
+        raw = g["raw_value"].to_numpy(float)
+        ru = _esc_col(g, "raw_unit")
+        el = ([_e(term(f"electrode.{c}", ELECTRODES[c].name if c in ELECTRODES else c))
+               if c else "" for c in g["electrode"].fillna("").astype(str)]
+              if "electrode" in g.columns else [""] * len(g))
+        cols["As read"] = [
+            (f"{_num(r)} {unit_label(x) if x != 'mV' else 'mV'}" if np.isfinite(r) else "")
+            + (f" vs {e}" if e else "") for r, x, e in zip(raw, ru, el, strict=True)]
+    cols["Value"] = [(fmt_potential(x) if kv.unit == "mV" else f"{_num(x)}\u00a0{_e(u)}")
+                     if np.isfinite(x) else "no value" for x in v]
+    cols["QA flags"] = [_e(", ".join(f"{c} ({term(c, c)})" for c in f.split(",") if c))
+                        for f in flags]
+    cols["Where"] = _esc_col(g, "where")
+    xy = np.column_stack([g.geometry.y.to_numpy(float), g.geometry.x.to_numpy(float)])
+    lv.add(f"readings_{kind}", f"{_kind_label(kind)} {word('readings')}", "survey",
+           {"type": "points", "latlon": np.round(xy, COORD_DECIMALS).ravel().tolist(),
+            "color": color, "radius": 3, "ring": False,
+            "cols": {k: _compact(c) for k, c in cols.items()}},
+           _swatch_legend(f"{_kind_label(kind)} readings ({_e(u)})",
+                          [(color, "reading; click for its values")], "dot"),
+           [color])
+
+
+def _qa(lv: _Level, lid: str, layers: RunLayers) -> None:
+    """Add the QA findings of a level's readings: a ring on each, the finding in its popup."""
+    q = layers.get("qa_flags")
+    if q is None or "level_id" not in q.columns:
+        return
+    q = q[(q["level_id"].astype(str) == lid) & q.geometry.notna()]
+    q = q[~q.geometry.is_empty]
+    if not len(q):
+        return
+    q = q.to_crs(WGS84)
+    xy = np.column_stack([q.geometry.y.to_numpy(float), q.geometry.x.to_numpy(float)])
+    cols = {"Where": _esc_col(q, "where"),
+            "Check": [_e(f"{c} ({term(c, c)})") for c in q["rule"].astype(str)],
+            "Severity": [_e(term(f"severity.{s}", humanise(s))) for s in
+                         q["severity"].fillna("").astype(str)] if "severity" in q.columns
+            else [""] * len(q),
+            "Finding": _esc_col(q, "message")}
+    lv.add("qa_flags", word("qa_flags"), "survey",
+           {"type": "points", "latlon": np.round(xy, COORD_DECIMALS).ravel().tolist(),
+            "color": OVERLAY["flag"], "radius": 7, "ring": True,
+            "cols": {k: _compact(c) for k, c in cols.items()}},
+           _swatch_legend("QA findings", [(OVERLAY["flag"], "ring: a reading with a QA "
+                                           "finding; click for it")], "ring"),
+           [OVERLAY["flag"]])
+
+
+def _compact(values: list[str]) -> Any:
+    """Return a column of strings as is, or as a dictionary and codes when it repeats itself."""
+    uniq = list(dict.fromkeys(values))
+    if len(uniq) * 4 > len(values):
+        return values
+    idx = {u: i for i, u in enumerate(uniq)}
+    return {"d": uniq, "i": [idx[v] for v in values]}
+
+
+def _repairs(lv: _Level, lid: str, layers: RunLayers, units: Any, crs_to_m: float) -> None:
+    """Add zones (outlines) and repairs (outlines, popup with what a contractor asks)."""
+    from geo_corrosion.quantities import DEPTH_CLASS_ITEMS
+
+    zones = layers.get(f"{lid}_zones")
+    if zones is not None:
+        zones = zones.reset_index(drop=True)
+        named = [z for z in dict.fromkeys(zones["zone"].astype(str)) if z != "no_action"]
+        zc = {z: ZONE_COLORS[i % len(ZONE_COLORS)] for i, z in enumerate(named)}
+        if "no_action" in set(zones["zone"].astype(str)):
+            zc["no_action"] = NO_ACTION_COLOR  # the rest of the slab
+        area = [fmt_area(a, units) for a in zones["area_m2"].to_numpy(float)]
+        lv.add("zones", word("zones"), "repairs", {"type": "geojson", "fc": _fc(zones, {
+            "_c": [zc[str(z)] for z in zones["zone"]],
+            "Zone": [_e(term(str(z), humanise(str(z)))) for z in zones["zone"]],
+            "Treatment": _esc_col(zones, "treatment"),
+            "Bid item": _bid_items(zones), "Area": area}),
+            "style": {"weight": 3, "dashArray": "10 5", "fill": True, "fillOpacity": 0,
+                      "byColor": True}, "popup": True},
+            _swatch_legend("Zones (outlines)", [(c, _e(term(z, humanise(z))))
+                                                for z, c in zc.items()],
+                           "dash"), list(zc.values()))
+    rep = layers.get(f"{lid}_repairs")
+    if rep is None:
+        return
+    rep = rep.reset_index(drop=True)
+    depth = rep["depth_class"].astype(str).tolist() if "depth_class" in rep else [""] * len(rep)
+    if "bid_item" not in rep.columns:
+        rep["bid_item"] = [DEPTH_CLASS_ITEMS.get(c, "") for c in depth]
+    bid = _bid_items(rep)
+
+    def fmt(col: str, conv: Any, unit: str) -> list[str]:
+        if col not in rep.columns:
+            return [""] * len(rep)
+        return [f"{fmt_number(float(conv(x)), 1)}\u00a0{unit_label(unit)}"
+                if np.isfinite(x) else "" for x in rep[col].to_numpy(float)]
+
+    props = {
+        "Repair": _esc_col(rep, "repair_id"),
+        "Zone": [_e(term(z, humanise(z))) if z else "" for z in _zone_of(rep, zones)],
+        "Dimensions": _dimensions(rep, units, crs_to_m),
+        "Location": _esc_col(rep, "location"),
+        "Sounded areas": _esc_col(rep, "sounded"),
+        "Depth class": [_e(term(c, humanise(c))) if c else "" for c in depth],
+        "Removal depth": ([fmt_depth(x, units) for x in rep["depth_mm"].to_numpy(float)]
+                          if "depth_mm" in rep.columns else [""] * len(rep)),
+        "Area": ([fmt_area(x, units) for x in rep["area_m2"].to_numpy(float)]
+                 if "area_m2" in rep.columns else [""] * len(rep)),
+        "Perimeter": ([fmt_length(x, units) for x in rep["perimeter_m"].to_numpy(float)]
+                      if "perimeter_m" in rep.columns else [""] * len(rep)),
+        "Saw-cut length": fmt("outline_m", units.length_from_m, units.length),  # LF or m
+        "Volume": fmt("volume_m3", units.volume_from_m3, units.volume),
+        "Bid item": bid,
+        "Rounding": _esc_col(rep, "rounding_note"),
+        "_id": [str(x) for x in rep.get("repair_id", [""] * len(rep))],
+    }
+    props = {k: v for k, v in props.items() if any(v)}
+    lv.add("repairs", word("repair_outlines"), "repairs", {"type": "geojson",
+           "fc": _fc(rep, props), "style": {"color": OVERLAY["repair"], "weight": 2.5,
+                                            "fill": True, "fillOpacity": 0},
+           "popup": True},
+           _swatch_legend("Repairs (estimates for bidding)",
+                          [(OVERLAY["repair"], "saw-cut outline; click for details")], "line"),
+           [OVERLAY["repair"]], on=True)
+
+
+def _bid_items(g: gpd.GeoDataFrame) -> list[str]:
+    """Return each row's bid item as its code and words (``REP-FD (Full-depth repair)``)."""
+    if "bid_item" not in g.columns:
+        return [""] * len(g)
+    out = []
+    for c in g["bid_item"]:
+        c = "" if c is None or c != c else str(c)
+        out.append(_e(f"{c} ({term(c, c)})" if c and term(c, c) != c else c))
+    return out
+
+
+def _class_names(cls: gpd.GeoDataFrame) -> list[str]:
+    """Return the owner's name of each class (its class set's key through the vocabulary)."""
+    from geo_corrosion.condition.classes import CLASS_SETS
+
+    if "class_key" in cls.columns:  # combined condition
+        return [_e(term(str(k), str(t))) for k, t in zip(cls["class_key"], cls["class"],
+                                                        strict=True)]
+    name = str(cls["class_set"].iloc[0]) if "class_set" in cls.columns else ""
+    cs = CLASS_SETS.get(name)
+    out = []
+    for code, text in zip(cls.get("class_code", [None] * len(cls)), cls["class"], strict=True):
+        key = (cs.keys[int(code)] if cs is not None and code is not None
+               and 0 <= int(code) < len(cs.keys) else None)
+        out.append(_e(class_label(name, key, str(text)) if key else str(text)))
+    return out
 
 
 def _zone_of(rep: gpd.GeoDataFrame, zones: gpd.GeoDataFrame | None) -> list[str]:
@@ -488,48 +741,6 @@ def _value_column(kind: str) -> str | None:
     return (str(k.value_column) or None) if k is not None else None
 
 
-def _readings(b: _Builder, lid: str, lname: str, layers: RunLayers,
-              kinds: dict[str, KindRecord]) -> None:
-    """One circle-marker layer per kind: value, unit and QA flags; flagged readings outlined."""
-    import folium
-
-    for kind, kv in kinds.items():
-        g = layers.get(f"readings_{kind}")
-        if g is None or "level_id" not in g.columns:
-            continue
-        g = g[g["level_id"].astype(str) == lid]
-        unit = kv.unit
-        col = _value_column(kind)
-        if col is None or col not in g.columns or not len(g):
-            continue
-        g = g.copy()
-        v = g[col].to_numpy(float)
-        ok = np.isfinite(v)
-        lo, hi = (np.percentile(v[ok], [2, 98]) if ok.any() else (0.0, 1.0))
-        mk = _kind(kind)
-        d = mk.severity_direction if mk is not None else 1
-        t = np.clip((np.nan_to_num(v, nan=lo) - lo) / max(hi - lo, 1e-9), 0, 1)
-        t = np.round((1 - t if d < 0 else t) * 8) / 8  # 9 colours: compact page
-        g["_c"] = [_hex(c) for c in ramp_colors(t)]
-        g["value"] = [f"{_num(x)} {unit}" if np.isfinite(x) else "no value" for x in v]
-        flags = g["qa_flags"].fillna("").astype(str) if "qa_flags" in g else [""] * len(g)
-        g["qa"] = list(flags)
-        g["_f"] = ["1" if f else "" for f in flags]
-        keep = {"point_id": "point", "value": "value", "qa": "QA flags", "where": "where"}
-        layer = _geojson(
-            g, f"{lname}: {_e(kind.replace('_', ' '))} readings",
-            lambda f: {"color": COLORS["flag"] if f["properties"].get("qa") else
-                       f["properties"]["_c"], "weight": 2 if f["properties"].get("qa") else 0,
-                       "fillColor": f["properties"]["_c"], "fillOpacity": 0.9,
-                       "radius": 5 if f["properties"].get("qa") else 3},
-            keep, show=False, popup=True, style_columns=("_c",),
-            marker=folium.CircleMarker(radius=3, fill=True))
-        b.add(lid, layer, False, _gradient_legend(
-            f"{lname}: {_e(kind.replace('_', ' '))} readings", float(lo), float(hi), unit, d)
-            + '<div><span class="gc-sw" style="border:2px solid #000"></span>'
-              "black ring: reading with a QA flag</div>")
-
-
 def build_webmap(run_dir: str | Path, manifest: Manifest | None = None) -> str:
     """Build the web map of an output folder; return the HTML text of the page.
 
@@ -552,46 +763,26 @@ def build_webmap(run_dir: str | Path, manifest: Manifest | None = None) -> str:
 
     run_dir = Path(run_dir)
     man = manifest if manifest is not None else read_run(run_dir)
-    levels = man.levels
-    if not levels:
+    if not man.levels:
         raise ExportError(f"{run_dir}: run.json lists no levels; nothing to map")
     site = man.site
     units = report_units(site.report_units)
     layers = RunLayers(run_dir)
     fmap = folium.Map(location=[0, 0], zoom_start=19, max_zoom=23, tiles=None,
-                      control_scale=True, prefer_canvas=True)
+                      control_scale=False, zoom_control=False, prefer_canvas=False)
     fmap.default_js = []
     fmap.default_css = []
     js, css, licence = leaflet_assets()
     root = _page(fmap)
-    root.header.add_child(folium.Element(f"<style>{css}</style><style>{_CSS}</style>"),
+    root.header.add_child(folium.Element(f"<style>{css}</style><style>{APP_CSS}</style>"),
                           name="leaflet_css")
     root.header.add_child(folium.Element(f"<script>{js}</script>"), name="leaflet_js")
     root.header.add_child(folium.Element(
         f"<!-- Leaflet {LEAFLET_VERSION}, inlined from its release files. Its licence:\n"
         f"{licence}\n-->"), name="leaflet_licence")
     root.title = _e(site.name)
-    tile_url = man.parameters.basemap_url
-    if isinstance(tile_url, str) and tile_url.startswith("https://"):
-        # optional street tiles: off by default; offline, the tiles fail quietly
-        # max_native_zoom: street tiles stop near zoom 19; the deck is drawn closer
-        folium.TileLayer(tiles=tile_url, name="street basemap (online only)", overlay=True,
-                         show=False, max_zoom=23, max_native_zoom=19,
-                         attr=_e(man.parameters.basemap_attribution),
-                         error_tile_url="data:image/gif;base64,R0lGODlhAQABAAAAACw=").add_to(fmap)
-    b = _Builder(fmap)
-    bounds = None
-    for i, (lid, info) in enumerate(levels.items()):
-        _level(b, run_dir, str(lid), info, layers, units, first=i == 0)
-        slab = layers.get(f"{lid}_slab")
-        if bounds is None and slab is not None:
-            x0, y0, x1, y1 = slab.to_crs(WGS84).total_bounds
-            bounds = [[float(y0), float(x0)], [float(y1), float(x1)]]
-    if bounds is not None:
-        fmap.fit_bounds(bounds)
-    control = folium.LayerControl(collapsed=False)
-    control.add_to(fmap)
-    _panels(fmap, b, site, man, control.get_name())
+    levels = [_level(run_dir, str(lid), info, layers, units) for lid, info in man.levels.items()]
+    _panels(fmap, levels, site, man)
     return root.render()
 
 
@@ -607,84 +798,40 @@ def _page(fmap: folium.Map) -> folium.Figure:
 
 
 def _js(obj: Any) -> str:
-    """JSON for an inline script: ``</`` escaped so no text can close the script element."""
-    return json.dumps(obj).replace("</", "<\\/").replace("<!--", "<\\!--")
+    """JSON for an inline script: every ``<`` escaped so no text can close the element."""
+    # "<" only occurs inside JSON strings: \u003c is the same string to JSON and to JS
+    return json.dumps(obj, separators=(",", ":")).replace("<", "\\u003c")
 
 
-def _panels(fmap: folium.Map, b: _Builder, site: SiteRecord, man: Manifest,
-            control: str) -> None:
-    """Title, cautions and legend panels, and the script that keeps them in step."""
+def _panels(fmap: folium.Map, levels: list[_Level], site: SiteRecord, man: Manifest) -> None:
+    """Side panel (title, cautions, legend), each level's data and the page's script."""
     import folium
 
     cautions = man.cautions or list(CAUTIONS)
     items = "".join(f"<li>{_e(c)}</li>" for c in cautions)
     owner = f" &middot; {_e(site.owner)}" if site.owner else ""
+    blocks = "".join(f'<script type="application/json" id="gc-level-{i}">{_js(lv.data())}'
+                     "</script>" for i, lv in enumerate(levels))
+    tile_url = man.parameters.basemap_url
+    config = {"levels": [{"id": lv.lid, "name": lv.name, "bounds": lv.bounds}
+                         for lv in levels],
+              "groups": {g: word(g) for g in ("maps", "survey", "repairs")},
+              "basemap": ({"url": tile_url, "attribution": _e(man.parameters.basemap_attribution)}
+                          if isinstance(tile_url, str) and tile_url.startswith("https://")
+                          else None)}
     _page(fmap).html.add_child(folium.Element(
-        f'<div id="gc-title" class="gc-panel">{_e(site.name)}{owner}</div>'
-        f'<div id="gc-cautions" class="gc-panel"><details open><summary><b>Cautions</b> '
+        '<div id="gc-side" class="gc-panel">'
+        f'<div id="gc-title">{_e(site.name)}{owner}</div>'
+        '<div id="gc-cautions"><details><summary><b>Cautions</b> '
         f"(survey data, not a structural assessment)</summary><ul>{items}</ul></details></div>"
-        '<div id="gc-legend" class="gc-panel"><b>Legend</b><div id="gc-legend-body"></div>'
-        '<div class="gc-note">Colours: our own palette, chosen to read in grey scale and for '
-        "colour-blind viewers (hues after Okabe &amp; Ito 2008).</div></div>"))
-    legends = _js(b.legends)
-    levels = _js(b.levels)
-    labels = _js(b.labels)
-    names = sorted({n for lv in b.levels.values() for n in lv["overlays"]} |
-                   {lv["base"] for lv in b.levels.values()})
-    refs = ",".join(f"{json.dumps(n)}:{n}" for n in names)  # JS identifiers made by folium
-    # in the script, a line ending in a backslash goes on in the next: one line on the page
-    script = f"""
-document.addEventListener('DOMContentLoaded', function(){{
-  var map = {fmap.get_name()};
-  var L_ = {{{refs}}};
-  var legends = {legends};
-  var levels = {levels};
-  var labels = {labels};
-  // for tests and scripts: layers by JS name, their labels, and the levels
-  window.gcLayers = L_; window.gcLevels = levels; window.gcMap = map; window.gcLabels = labels;
-  window.gcLegends = legends;
-  function legendUpdate(){{
-    var body = document.getElementById('gc-legend-body'); var out = '';
-    for (var k in legends) {{ if (map.hasLayer(L_[k])) out += legends[k]; }}
-    body.innerHTML = out;
-  }}
-  var current = null;
-  function filterRows(){{
-    // list only the current level's overlays in the layer control
-    if (current === null) return;
-    var other = {{}};
-    for (var id in levels) {{ if (id !== current) levels[id].overlays.forEach(function(n){{
-      other[L.stamp(L_[n])] = true; }}); }}
-    document.querySelectorAll('.leaflet-control-layers-overlays label').forEach(function(lab){{
-      var inp = lab.querySelector('input');
-      lab.style.display = (inp && other[inp.layerId]) ? 'none' : '';
-    }});
-  }}
-  var ctl = {control};
-  var upd = ctl._update;
-  ctl._update = function(){{ var r = upd.apply(this, arguments); filterRows(); return r; }};
-  function showLevel(lid){{
-    for (var id in levels) {{
-      var lv = levels[id];
-      lv.overlays.forEach(function(n){{ if (id !== lid && map.hasLayer(L_[n])) \
-map.removeLayer(L_[n]); }});
-    }}
-    levels[lid].shown.forEach(function(n){{ if (!map.hasLayer(L_[n])) map.addLayer(L_[n]); }});
-    current = lid; filterRows();
-    legendUpdate();
-  }}
-  map.on('baselayerchange', function(e){{
-    for (var id in levels) {{ if (L_[levels[id].base] === e.layer) showLevel(id); }}
-  }});
-  map.on('overlayadd overlayremove', legendUpdate);
-  var first = Object.keys(levels)[0];
-  for (var id in levels) {{ if (id !== first && map.hasLayer(L_[levels[id].base]))
-    map.removeLayer(L_[levels[id].base]); }}
-  if (!map.hasLayer(L_[levels[first].base])) map.addLayer(L_[levels[first].base]);
-  showLevel(first);
-}});
-"""
-    _page(fmap).script.add_child(folium.Element(script))
+        '<div id="gc-legend"><b>Legend</b><div id="gc-legend-body"></div>'
+        '<div class="gc-note">Colours: one ramp for every map (light = least severe), '
+        "readable in grey scale and by colour-blind viewers (hues after Okabe &amp; Ito "
+        "2008 and Tol 2021); outlines and hatching for what lies over it.</div></div></div>"
+        + blocks))
+    script = (f"document.addEventListener('DOMContentLoaded', function(){{\n"
+              f"  gcStart({fmap.get_name()}, {_js(config)});\n}});\n")
+    _page(fmap).script.add_child(folium.Element(APP_JS + script))
 
 
 def write_webmap(run_dir: str | Path, manifest: Manifest | None = None) -> Path:
