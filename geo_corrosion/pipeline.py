@@ -61,6 +61,7 @@ from geo_corrosion.stages.read_site import read_site
 from geo_corrosion.stages.reprice import (
     LevelEdits,
     precheck_edits,
+    read_dxf_edits,
     read_gpkg_edits,
     repair_editor,
 )
@@ -259,8 +260,8 @@ def _run_locked(site: str | Path | SiteConfig, out: Path, *, overwrite: bool,
     return result
 
 
-def reprice(run_dir: str | Path, *, site: str | Path | None = None,
-            progress: Progress | None = None) -> RunResult:
+def reprice(run_dir: str | Path, *, source: str | Path | None = None,
+            site: str | Path | None = None, progress: Progress | None = None) -> RunResult:
     """Re-price a run from repair outlines edited in its GeoPackage, and rebuild it whole.
 
     The run's ``survey.gpkg`` ``<level>_repairs`` layers (edited in a GIS) are read back
@@ -274,6 +275,10 @@ def reprice(run_dir: str | Path, *, site: str | Path | None = None,
     ----------
     run_dir : str or Path
         The output folder of ``geo-corrosion run``.
+    source : str or Path, optional
+        Where the edits are: a GeoPackage (default the run's ``survey.gpkg``) or a level's
+        drawing sheet ``<level>_repairs.dxf`` (its ``GC-REPAIR-*`` outlines; the other levels
+        then from the run's GeoPackage).  A relative path is taken in the run folder first.
     site : str or Path, optional
         The site file or folder; by default the folder recorded in ``run.json``.
 
@@ -307,7 +312,17 @@ def reprice(run_dir: str | Path, *, site: str | Path | None = None,
             warnings.simplefilter("always", GeoCorrosionWarning)
             s, flags = check(cfg, progress=progress)
             refuse_unrunnable(flags)
-            edits = read_gpkg_edits(out / GPKG_NAME, s)
+            src = None if source is None else Path(source)
+            if src is not None and not src.is_absolute() and (out / src).exists():
+                src = out / src
+            if src is not None and not src.is_file():
+                raise ExportError(f"{src}: no such file; give the edited GeoPackage or a "
+                                  "level's drawings/<level>_repairs.dxf")
+            is_dxf = src is not None and src.suffix.lower() == ".dxf"
+            gpkg = src if src is not None and not is_dxf else out / GPKG_NAME
+            edits = read_gpkg_edits(gpkg, s)
+            if is_dxf and src is not None:
+                edits.update(read_dxf_edits(src, s))
             precheck_edits(s, edits, {lid: [r.repair_id for r in lr.repair_list]
                                       for lid, lr in man.levels.items()})
             result = process(s, flags, progress=progress, edits=edits)

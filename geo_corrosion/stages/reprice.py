@@ -6,6 +6,7 @@ tie; :func:`repair_editor` gives :func:`~geo_corrosion.stages.plan_repairs.plan_
 function that checks them against the laid-out repairs
 (:func:`geo_corrosion.repair.edits.check_edits`) and puts them in place
 (:func:`geo_corrosion.repair.edits.apply_edits`, then the tender's columns again).
+:func:`read_dxf_edits` reads the outlines of a level edited in CAD on its drawing sheet.
 """
 
 from __future__ import annotations
@@ -17,14 +18,18 @@ from typing import Any
 
 import geopandas as gpd
 import pyogrio
+import shapely
+from shapely.geometry.base import BaseGeometry
 
 from geo_corrosion.errors import ExportError, GeometryWarning
+from geo_corrosion.exporters.dxf import XDATA_APP
 from geo_corrosion.model.site import Level, Site
 from geo_corrosion.repair.edits import EditedOutline, apply_edits, check_edits
 from geo_corrosion.repair.tender import tender_columns
 from geo_corrosion.stages.plan_repairs import PlanningParams, sounding_numbers
 
-__all__ = ["LevelEdits", "precheck_edits", "read_gpkg_edits", "repair_editor"]
+__all__ = ["LevelEdits", "precheck_edits", "read_dxf_edits", "read_gpkg_edits",
+           "repair_editor"]
 
 #: Columns :func:`~geo_corrosion.repair.tender.tender_columns` adds (recomputed after an edit).
 _TENDER = ("dimensions", "location", "joint_edge_m", "anodes", "bar_replacement_m")
@@ -68,6 +73,62 @@ def read_gpkg_edits(gpkg: str | Path, site: Site) -> dict[str, LevelEdits]:
                                        None if rid is None or rid != rid else str(rid), local))
         out[lid] = (source, edits)
     return out
+
+
+def read_dxf_edits(dxf: str | Path, site: Site, *, level_id: str | None = None
+                   ) -> dict[str, LevelEdits]:
+    """Read a level's repair outlines from its drawing sheet (``<level>_repairs.dxf``).
+
+    Closed LWPOLYLINEs of model space on the ``GC-REPAIR-*`` layers are the outlines; each
+    carries its repair id as XDATA of :data:`XDATA_APP` (kept by CAD when its vertices are
+    moved).  Model space is the survey grid unless ``[drawings].coords = "site"``, when the
+    outline is brought back with the level's grid tie.  The level is ``level_id`` or the
+    file name's prefix.
+
+    Raises
+    ------
+    ExportError
+        If the file cannot be read or names no level of the site.
+    """
+    from ezdxf import recover
+    from ezdxf.entities.lwpolyline import LWPolyline
+    from ezdxf.lldxf.const import DXFStructureError
+
+    path = Path(dxf)
+    lid = level_id or path.stem.removesuffix("_repairs")
+    if lid not in site.levels:
+        raise ExportError(f"{path}: names no level of the site ({', '.join(site.levels)}); "
+                          "give the sheet of a level, drawings/<level>_repairs.dxf")
+    lv = site.levels[lid]
+    try:
+        doc, _auditor = recover.readfile(str(path))
+    except (OSError, DXFStructureError) as err:
+        raise ExportError(f"{path}: cannot be read as DXF ({err})") from err
+    in_site = site.config.drawings.coords == "site"
+    edits = []
+    for e in doc.modelspace():
+        layer = str(e.dxf.get("layer", ""))
+        if not layer.upper().startswith("GC-REPAIR-") or e.dxftype() == "HATCH":
+            continue
+        where = f"{path} layer {layer} entity handle {e.dxf.handle}"
+        rid = None
+        if e.has_xdata(XDATA_APP):
+            vals = [v for code, v in e.get_xdata(XDATA_APP) if code == 1000]
+            rid = str(vals[0]) if vals else None
+        if not isinstance(e, LWPolyline):  # not an outline: refused as having none
+            edits.append(EditedOutline(f"{where} (a {e.dxftype()}, not a closed polyline)",
+                                       rid, None))
+            continue
+        pts = [(float(x), float(y)) for x, y in e.get_points("xy")]
+        geom: BaseGeometry | None = None
+        if e.closed and len(pts) >= 3:
+            geom = shapely.Polygon(pts)
+        elif len(pts) >= 2:
+            geom = shapely.LineString(pts)
+        if geom is not None and in_site:
+            geom = lv.grid.geom_to_local(geom)
+        edits.append(EditedOutline(where, rid, geom))
+    return {lid: (f"{path} (GC-REPAIR-* layers)", edits)}
 
 
 def precheck_edits(site: Site, edits: dict[str, LevelEdits],

@@ -192,3 +192,50 @@ def test_uncovered_sounding_and_slanted_side_warned() -> None:
                               soundings={"D1": shapely.box(5, 5, 6, 6)}, source="f.gpkg")
     assert any("fid 1: repair L1-R001 has a side not along the survey grid" in n for n in notes)
     assert any("sounded area D1 is not fully covered" in n for n in notes)
+
+
+def _edit_dxf(run: Path, change) -> None:
+    """Edit the repair outline of the sheet's model space as CAD would (ezdxf)."""
+    path = run / "drawings" / "D1_repairs.dxf"
+    doc = ezdxf.readfile(path)
+    (pl,) = [e for e in doc.modelspace().query("LWPOLYLINE")
+             if e.dxf.layer.startswith("GC-REPAIR-") and e.has_xdata("GEO_CORROSION")]
+    change(pl)
+    doc.saveas(path)
+
+
+def test_round_trip_from_dxf_sheet(base: tuple[Path, Path], tmp_path: Path) -> None:
+    run = _copy(base, tmp_path)
+    x0, y0, x1, y1 = NEW_BOX  # model space is the survey grid by default ([drawings].coords)
+    _edit_dxf(run, lambda pl: pl.set_points([(x0, y0), (x1, y0), (x1, y1), (x0, y1)],
+                                            format="xy"))
+    res = CliRunner().invoke(cli, ["reprice", str(run), "--from", "drawings/D1_repairs.dxf",
+                                   "-q"])
+    assert res.exit_code == 0, res.output
+    man = json.loads((run / "run.json").read_text())
+    (edit,) = man["edits"]
+    assert edit["new_area_m2"] == pytest.approx(NEW_FT2 * FT2_M2, rel=1e-6)  # hand: 63 ft2
+    assert "D1_repairs.dxf" in edit["source"]
+    q = pd.read_csv(run / "quantities.csv")
+    line = q[(q["level_id"] == "D1") & (q["item"] == "REP-PD-BARS") & (q["line"] == "base")]
+    assert float(line["quantity"].iloc[0]) == NEW_FT2
+    # the GeoPackage now holds the edited outline too: the report rebuilds without refusal
+    res = CliRunner().invoke(cli, ["report", str(run), "--no-pdf"])
+    assert res.exit_code == 0, res.output
+
+
+def test_dxf_outline_without_id_refused(base: tuple[Path, Path], tmp_path: Path) -> None:
+    run = _copy(base, tmp_path)
+    handle: list[str] = []
+
+    def drop_id(pl) -> None:
+        handle.append(pl.dxf.handle)
+        pl.discard_xdata("GEO_CORROSION")  # a CAD user redrew the outline as a new polyline
+
+    _edit_dxf(run, drop_id)
+    before = _hash(run)
+    res = CliRunner().invoke(cli, ["reprice", str(run), "--from", "drawings/D1_repairs.dxf",
+                                   "-q"])
+    assert res.exit_code == 1
+    assert f"entity handle {handle[0]}: has no repair_id" in res.output
+    assert _hash(run) == before
