@@ -16,6 +16,7 @@ from __future__ import annotations
 import dataclasses
 import json
 import logging
+import os
 import shutil
 import tempfile
 import time
@@ -299,6 +300,9 @@ def reprice(run_dir: str | Path, *, source: str | Path | None = None,
         if where is None:
             raise ExportError(f"{out / MANIFEST_NAME}: records no site folder; give it with "
                               "--site")
+        if site is None:  # as a run from here names it, so the files' texts stay the same
+            rel = os.path.relpath(where)
+            where = where if rel.startswith("..") else rel
         cfg = read_site(where)
         recorded = {i.path: i.sha256 for i in man.inputs}
         now = {d["path"]: d["sha256"] for d in input_files(cfg)}
