@@ -16,11 +16,12 @@ from __future__ import annotations
 import dataclasses
 import json
 import logging
+import os
 import shutil
 import tempfile
 import time
 import warnings
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from pathlib import Path
 
 import pandas as pd
@@ -29,8 +30,15 @@ from geo_corrosion._io import atomic_write, output_lock, recover_output, swap_in
 from geo_corrosion.config import SiteConfig
 from geo_corrosion.errors import ExportError, GeoCorrosionWarning
 from geo_corrosion.exporters import EXPORTERS
+from geo_corrosion.exporters.built_from import DOCUMENTS, GPKG_NAME, repair_checksums
 from geo_corrosion.measurements import Role
-from geo_corrosion.model.manifest import MANIFEST_NAME, json_default, manifest
+from geo_corrosion.model.manifest import (
+    MANIFEST_NAME,
+    input_files,
+    json_default,
+    manifest,
+    read_run,
+)
 from geo_corrosion.model.results import LevelResult, RunResult
 from geo_corrosion.model.site import Site
 from geo_corrosion.model.surface import with_role
@@ -51,9 +59,16 @@ from geo_corrosion.stages.plan_repairs import (
     schedule_quantities,
 )
 from geo_corrosion.stages.read_site import read_site
+from geo_corrosion.stages.reprice import (
+    LevelEdits,
+    precheck_edits,
+    read_dxf_edits,
+    read_gpkg_edits,
+    repair_editor,
+)
 from geo_corrosion.units import report_units
 
-__all__ = ["check", "run", "process", "write_outputs", "default_exporters"]
+__all__ = ["check", "run", "process", "write_outputs", "default_exporters", "reprice"]
 
 log = logging.getLogger(__name__)
 Progress = Callable[[str], None]
@@ -83,8 +98,12 @@ def check(site: str | Path | SiteConfig, *, progress: Progress | None = None
     return opened, check_site(opened)
 
 
-def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None) -> RunResult:
+def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None,
+            edits: Mapping[str, LevelEdits] | None = None) -> RunResult:
     """Chain the computing stages over every level of an opened, checked site.
+
+    ``edits`` (re-pricing, :func:`reprice`): repair outlines edited by hand, by level, put in
+    place of the layout's before zoning; the edited repairs are listed in ``result.edits``.
 
     Per level: surfaces (:func:`~geo_corrosion.stages.map_surfaces.map_level`), condition
     (:func:`~geo_corrosion.stages.assess_condition.assess_condition`), repairs and zones
@@ -98,6 +117,7 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
     planning = planning_params(site.config)
     levels: dict[str, LevelResult] = {}
     frames: dict[str, pd.DataFrame] = {}
+    records: list[dict[str, object]] = []
     for lid, lv in site.levels.items():
         mapped = map_level(lv, site.surveys_of(lid), flags, params, units=units, progress=say)
         low_cover = low_cover_mask(lv, with_role(mapped.surfaces, Role.COVER))
@@ -112,7 +132,10 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
                 kinds=params.kinds)
             frames.update(life_frames)
         say(f"level {lid}: laying out repairs and zones")
-        repairs, zones, notes = plan_level(lv, mapped.surfaces, planning, low_cover=low_cover)
+        editor = (repair_editor(lv, planning, edits[lid], records)
+                  if edits is not None and lid in edits else None)
+        repairs, zones, notes = plan_level(lv, mapped.surfaces, planning, low_cover=low_cover,
+                                           edit=editor)
         stats = dict(mapped.kinds)
         if condition is not None:
             stats["condition"] = condition.stats
@@ -126,7 +149,8 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
     schedule = schedule_quantities(levels.values(), units=units, contingency=params.contingency,
                                    anode_spacing_mm=params.anode_spacing_mm,
                                    prices=site.prices)
-    return RunResult(dataclasses.replace(site, surveys=surveys), flags, levels, schedule)
+    return RunResult(dataclasses.replace(site, surveys=surveys), flags, levels, schedule,
+                     edits=list(records))
 
 
 def write_outputs(result: RunResult, out_dir: Path, *, exporters: Sequence[str] | None = None,
@@ -140,6 +164,9 @@ def write_outputs(result: RunResult, out_dir: Path, *, exporters: Sequence[str] 
         inst = exp() if isinstance(exp, type) else exp
         for p in inst.export(result, out_dir):
             result.files.append(str(Path(p).relative_to(out_dir)))
+    if (out_dir / GPKG_NAME).is_file():  # what the documents were built from (#13)
+        sums = repair_checksums(out_dir / GPKG_NAME)
+        result.built_from = {d: dict(sums) for d in DOCUMENTS} if sums else {}
     result.manifest = manifest(result, t0).to_json()
     text = json.dumps(result.manifest, indent=2, default=json_default)
     atomic_write(out_dir / MANIFEST_NAME, lambda tmp: tmp.write_text(text, encoding="utf-8"),
@@ -232,3 +259,88 @@ def _run_locked(site: str | Path | SiteConfig, out: Path, *, overwrite: bool,
         for n in result.warnings[before:]:
             progress(f"note: {n}")
     return result
+
+
+def reprice(run_dir: str | Path, *, source: str | Path | None = None,
+            site: str | Path | None = None, progress: Progress | None = None) -> RunResult:
+    """Re-price a run from repair outlines edited in its GeoPackage, and rebuild it whole.
+
+    The run's ``survey.gpkg`` ``<level>_repairs`` layers (edited in a GIS) are read back
+    into each level's grid (:func:`geo_corrosion.stages.reprice.read_gpkg_edits`), the site
+    is run again with those outlines in place of the layout's (checked by
+    :func:`geo_corrosion.repair.edits.check_edits`), and every document (schedule, sheets,
+    report, web map, ``run.json`` with ``edits`` and ``built_from``) is written into a new
+    folder swapped in for the run folder under its lock: nothing is half-written.
+
+    Parameters
+    ----------
+    run_dir : str or Path
+        The output folder of ``geo-corrosion run``.
+    source : str or Path, optional
+        Where the edits are: a GeoPackage (default the run's ``survey.gpkg``) or a level's
+        drawing sheet ``<level>_repairs.dxf`` (its ``GC-REPAIR-*`` outlines; the other levels
+        then from the run's GeoPackage).  A relative path is taken in the run folder first.
+    site : str or Path, optional
+        The site file or folder; by default the folder recorded in ``run.json``.
+
+    Raises
+    ------
+    GeoCorrosionError
+        A bad edit (naming the file, the layer and the feature), a site whose inputs
+        changed since the run, or a run folder that cannot be read; nothing is written.
+    """
+    started = time.perf_counter()
+    out = Path(run_dir).resolve()
+    with output_lock(out):
+        for n in recover_output(out):
+            if progress:
+                progress(f"note: {n}")
+        man = read_run(out)
+        where = site if site is not None else man.site.folder
+        if where is None:
+            raise ExportError(f"{out / MANIFEST_NAME}: records no site folder; give it with "
+                              "--site")
+        if site is None:  # as a run from here names it, so the files' texts stay the same
+            rel = os.path.relpath(where)
+            where = where if rel.startswith("..") else rel
+        cfg = read_site(where)
+        recorded = {i.path: i.sha256 for i in man.inputs}
+        now = {d["path"]: d["sha256"] for d in input_files(cfg)}
+        moved = sorted(p for p in set(recorded) | set(now) if recorded.get(p) != now.get(p))
+        if moved:
+            raise ExportError(
+                f"{cfg.path}: the site's inputs changed since the run in {out} "
+                f"({', '.join(moved)}); re-pricing would mix them. Run `geo-corrosion run` "
+                "again (edits are then lost) or restore the inputs")
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always", GeoCorrosionWarning)
+            s, flags = check(cfg, progress=progress)
+            refuse_unrunnable(flags)
+            src = None if source is None else Path(source)
+            if src is not None and not src.is_absolute() and (out / src).exists():
+                src = out / src
+            if src is not None and not src.is_file():
+                raise ExportError(f"{src}: no such file; give the edited GeoPackage or a "
+                                  "level's drawings/<level>_repairs.dxf")
+            is_dxf = src is not None and src.suffix.lower() == ".dxf"
+            gpkg = src if src is not None and not is_dxf else out / GPKG_NAME
+            edits = read_gpkg_edits(gpkg, s)
+            if is_dxf and src is not None:
+                edits.update(read_dxf_edits(src, s))
+            precheck_edits(s, edits, {lid: [r.repair_id for r in lr.repair_list]
+                                      for lid, lr in man.levels.items()})
+            result = process(s, flags, progress=progress, edits=edits)
+        notes = sorted({f"{w.category.__name__}: {w.message}" for w in caught
+                        if issubclass(w.category, GeoCorrosionWarning)})
+        result.warnings.extend(notes)
+        if progress:
+            for n in notes:
+                progress(f"note: {n}")
+        tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=out.parent))
+        try:
+            write_outputs(result, tmp, progress=progress, started=started)
+            swap_in(tmp, out)
+        except BaseException:
+            shutil.rmtree(tmp, ignore_errors=True)
+            raise
+        return result

@@ -9,6 +9,7 @@ from geo_corrosion.cli.commands.init import init
 from geo_corrosion.cli.commands.plugins import plugins
 from geo_corrosion.cli.commands.quantities import quantities
 from geo_corrosion.cli.commands.rebuild import map_cmd, report_cmd
+from geo_corrosion.cli.commands.reprice import reprice
 from geo_corrosion.cli.commands.run import run
 
 __all__ = ["cli", "main"]
@@ -36,7 +37,7 @@ def _show_versions(ctx: click.Context) -> None:
     ctx.exit(0)
 
 
-for _command in (init, check, run, quantities, plugins, map_cmd, report_cmd):
+for _command in (init, check, run, quantities, plugins, map_cmd, report_cmd, reprice):
     cli.add_command(_command)
 
 

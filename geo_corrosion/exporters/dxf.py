@@ -52,7 +52,7 @@ from geo_corrosion.units import LENGTH_TO_M, ReportUnits, report_units
 
 __all__ = ["LAYER_SLAB", "LAYER_EXCLUSION", "LAYER_JOINT", "LAYER_JOINT_BREAK", "LAYER_DELAM",
            "LAYER_TEXT", "LAYER_SPALL", "LAYER_LABEL", "LAYER_COLUMN_GRID", "LAYER_STATION",
-           "DEPTH_HATCH", "layer_name", "repair_dimensions", "write_level_dxf"]
+           "DEPTH_HATCH", "XDATA_APP", "layer_name", "repair_dimensions", "write_level_dxf"]
 
 LAYER_SLAB = "GC-SLAB"
 LAYER_EXCLUSION = "GC-EXCLUSION"
@@ -63,6 +63,9 @@ LAYER_JOINT_BREAK = "GC-JOINT-BREAK"
 LAYER_DELAM = "GC-DELAM"
 LAYER_TEXT = "GC-TEXT"
 LAYER_SPALL = "GC-SPALL"
+#: DXF application name of the XDATA that gives a repair outline its repair id, so that
+#: ``geo-corrosion reprice --from`` the sheet can read an outline edited in CAD back.
+XDATA_APP = "GEO_CORROSION"
 LAYER_LABEL = "GC-LABEL"
 LAYER_COLUMN_GRID = "GC-COLUMN-GRID"
 LAYER_STATION = "GC-STATION"
@@ -266,10 +269,14 @@ def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
                 legend.append(LegendRow(name, colour, meaning, pattern))
         return name
 
-    def outline(geom: BaseGeometry, lay: str) -> None:
-        for ring in _rings(T(geom)):
+    def outline(geom: BaseGeometry, lay: str, repair_id: str | None = None) -> None:
+        for i, ring in enumerate(_rings(T(geom))):
             if len(ring) >= 2:
-                msp.add_lwpolyline(ring, close=True, dxfattribs={"layer": lay})
+                pl = msp.add_lwpolyline(ring, close=True, dxfattribs={"layer": lay})
+                if repair_id is not None and i == 0:  # read back by `reprice` (#13)
+                    if XDATA_APP not in doc.appids:
+                        doc.appids.new(XDATA_APP)
+                    pl.set_xdata(XDATA_APP, [(1000, repair_id)])
 
     def text(s: str, x: float, y: float, lay: str, height: float,
              align: TextEntityAlignment = TextEntityAlignment.LEFT) -> None:
@@ -326,7 +333,7 @@ def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
                                                      _OTHER_HATCH)
             layer(lay, _REPAIR_COLOURS.get(lay.removeprefix("GC-REPAIR-"), 2),
                   f"{meaning} ({code})", pattern)
-            outline(r.geometry, lay)
+            outline(r.geometry, lay, str(r.repair_id))
             gm = T(r.geometry)
             repair_shapes.append(gm)
             hatch = msp.add_hatch(color=256, dxfattribs={"layer": lay})

@@ -420,6 +420,7 @@ class SiteRecord(_Record):
     report_units: str
     site_file: str
     project: ProjectRecord | None = field(default=None, metadata=_meta(optional=True))
+    folder: str | None = field(default=None, metadata=_meta(optional=True))
 
 
 @dataclass(frozen=True)
@@ -1123,6 +1124,21 @@ class ScheduleRow(_Record):
 
 
 @dataclass(frozen=True)
+class RepairEditRecord(_Record):
+    """``edits[]``: a repair whose outline was edited by hand and re-priced (#13).
+
+    ``old_area_m2`` is the area laid out by the run, ``new_area_m2`` the edited one;
+    ``source`` the file and layer the edit was read from.
+    """
+
+    level_id: str
+    repair_id: str
+    old_area_m2: float
+    new_area_m2: float
+    source: str
+
+
+@dataclass(frozen=True)
 class Manifest(_Record):
     """The run manifest, ``run.json``, typed.
 
@@ -1140,6 +1156,12 @@ class Manifest(_Record):
         By level id, in the site file's order.
     warnings, files, cautions : tuple of str
         Notes of the run, every file written, the cautions printed on every product.
+    built_from : mapping of str to mapping of str to str, optional
+        Per document (``quantities``, ``drawings``, ``report``, ``webmap``), the SHA-256 of
+        each ``<level>_repairs`` layer of ``survey.gpkg`` it was built from
+        (:mod:`geo_corrosion.exporters.built_from`).
+    edits : tuple of RepairEditRecord, optional
+        Repairs edited by hand and re-priced (``geo-corrosion reprice``).
     """
 
     geo_corrosion_run: int
@@ -1156,6 +1178,10 @@ class Manifest(_Record):
     warnings: tuple[str, ...]
     files: tuple[str, ...]
     cautions: tuple[str, ...]
+    built_from: Mapping[str, Mapping[str, str]] | None = field(
+        default=None, metadata=_meta(optional=True))
+    edits: tuple[RepairEditRecord, ...] | None = field(default=None,
+                                                       metadata=_meta(optional=True))
 
     @classmethod
     def from_json(cls, data: Any, *, where: str | Path = MANIFEST_NAME) -> Manifest:
@@ -1210,6 +1236,7 @@ def _manifest_dict(result: RunResult, started: float) -> dict[str, Any]:
         "geo_corrosion_run": FORMAT_VERSION,
         "site": {"name": cfg.name, "owner": cfg.owner, "crs": cfg.crs.to_string(),
                  "crs_unit": cfg.crs_unit, "report_units": cfg.units, "site_file": cfg.path.name,
+                 "folder": str(cfg.root),
                  **({"project": _given(dataclasses.asdict(cfg.project))}
                     if any(v is not None for v in dataclasses.asdict(cfg.project).values())
                     else {})},
@@ -1247,6 +1274,8 @@ def _manifest_dict(result: RunResult, started: float) -> dict[str, Any]:
         "warnings": list(result.warnings),
         "files": sorted(result.files),
         "cautions": list(CAUTIONS),
+        **({"built_from": result.built_from} if result.built_from else {}),
+        **({"edits": result.edits} if result.edits else {}),
     }
 
 

@@ -66,3 +66,7 @@ class RunResult:
     manifest: dict[str, Any] = field(default_factory=dict)
     files: list[str] = field(default_factory=list)
     warnings: list[str] = field(default_factory=list)
+    #: per document, the SHA-256 of each repair layer it was built from (run.json built_from)
+    built_from: dict[str, dict[str, str]] = field(default_factory=dict)
+    #: repairs edited by hand and re-priced (run.json edits)
+    edits: list[dict[str, Any]] = field(default_factory=list)

@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import dataclasses
 import warnings
-from collections.abc import Iterable
+from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 from typing import Any
 
@@ -128,11 +128,14 @@ def _cover_at(geoms: list[BaseGeometry], cover: KindSurface | None) -> list[floa
 
 
 def plan_level(level: Level, surfaces: dict[str, KindSurface], params: PlanningParams,
-               *, low_cover: NDArray[np.bool_] | None = None
+               *, low_cover: NDArray[np.bool_] | None = None,
+               edit: Callable[[gpd.GeoDataFrame], gpd.GeoDataFrame] | None = None
                ) -> tuple[gpd.GeoDataFrame | None, gpd.GeoDataFrame, dict[str, Any]]:
     """Repairs, zones and their notes for one level.
 
     ``low_cover`` is :func:`low_cover_mask` of the level (computed here when not given).
+    ``edit`` (re-pricing, :mod:`geo_corrosion.stages.reprice`) receives the laid-out repairs
+    and returns them with outlines edited by hand; the zoning then works on those.
 
     Returns
     -------
@@ -182,6 +185,9 @@ def plan_level(level: Level, surfaces: dict[str, KindSurface], params: PlanningP
         oh["face"] = "soffit"
         repairs = oh if repairs is None or not len(repairs) else gpd.GeoDataFrame(
             pd.concat([repairs, oh], ignore_index=True), geometry="geometry")
+    if edit is not None and repairs is not None and len(repairs):
+        repairs = edit(repairs)
+        top = repairs[repairs["face"] == "top"]
     thr, thr_src = low_cover_threshold_mm(level)
     if low_cover is None:
         low_cover = low_cover_mask(level, cover)

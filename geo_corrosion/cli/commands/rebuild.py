@@ -21,9 +21,13 @@ __all__ = ["map_cmd", "report_cmd"]
 @errors_handler
 def map_cmd(run_dir: Path) -> None:
     """Rebuild webmap.html of an existing run (RUN_DIR) from its files."""
+    from geo_corrosion.exporters.built_from import refuse_edited_repairs
     from geo_corrosion.exporters.webmap import write_webmap
+    from geo_corrosion.model.manifest import read_run
 
-    click.echo(f"wrote {write_webmap(resolve_run_dir(run_dir))}")
+    folder = resolve_run_dir(run_dir)
+    refuse_edited_repairs(folder, read_run(folder), "webmap")
+    click.echo(f"wrote {write_webmap(folder)}")
 
 
 @click.command("report")
@@ -32,9 +36,12 @@ def map_cmd(run_dir: Path) -> None:
 @errors_handler
 def report_cmd(run_dir: Path, no_pdf: bool) -> None:
     """Rebuild report.html and report.pdf of an existing run (RUN_DIR) from its files."""
+    from geo_corrosion.exporters.built_from import refuse_edited_repairs
     from geo_corrosion.exporters.report import write_report
+    from geo_corrosion.model.manifest import read_run
 
     folder = resolve_run_dir(run_dir)
+    refuse_edited_repairs(folder, read_run(folder), "report")
     for p in write_report(folder, pdf=not no_pdf):
         click.echo(f"wrote {p}")
     if no_pdf and (folder / "report.pdf").is_file():
