@@ -1102,7 +1102,7 @@ TABLES: dict[str, TableSpec] = {t.name: t for t in (
             doc="Overrides `[run] max_distance` for this kind. Derived: max(2.5 x median "
                 "nearest-neighbour spacing, min(fitted practical range, 5 x spacing)). The "
                 "search radius is the larger of this and the fitted practical range."),
-        Key("threshold", "number", None, unit="the kind's unit", example="-300.0",
+        Key("threshold", "number", None, unit="the kind's unit", example="2.0",
             default_doc="the kind's published threshold",
             help="Threshold of the kind's area-beyond-threshold statement and probability map",
             doc="In the kind's unit (mV vs CSE, kOhm.cm, uA/cm2), for a kind that has such a "

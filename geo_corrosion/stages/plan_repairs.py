@@ -294,7 +294,7 @@ def pay_area_frame(level: Level, zones: gpd.GeoDataFrame | None, params: Plannin
             u = report_units(params.units)
             warnings.warn(
                 f"level {level.id}: the {item} zone ({float(u.area_from_m2(zone.area * f2)):.0f}"
-                f" {u.area}) covers no bay by more than pay_area_share = "
+                f" {u.area}) covers no bay by more than the pay-area share of "
                 f"{params.pay_area_share:g}, so {item} is not priced on this level; lower "
                 "[run].pay_area_share or set pay_area = \"zone\" to price it",
                 GeometryWarning, stacklevel=2)

@@ -119,8 +119,9 @@ def test_round_trip_new_area_everywhere(base: tuple[Path, Path], tmp_path: Path)
     # the report's repair list and the web map's popup data
     html = (run / "report.html").read_text()
     assert '<td class="c-repair_id">D1-R001</td>' in html
-    assert f'<td class="c-area num">{NEW_FT2:.2f}</td>' in html
-    assert f'<td class="c-area num">{OLD_FT2:.2f}</td>' not in html
+    # the report gives areas in whole ft2 (issue 14's owner precision)
+    assert f'<td class="c-area num">{NEW_FT2:,.0f}</td>' in html
+    assert f'<td class="c-area num">{OLD_FT2:,.0f}</td>' not in html
     web = (run / "webmap.html").read_text()
     assert f'"area_rep": "{NEW_FT2:.1f} ft2"' in web and f'"{OLD_FT2:.1f} ft2"' not in web
     # and once re-priced, the report can be rebuilt again

@@ -306,7 +306,10 @@ def test_bid_quantities_are_sums_over_repairs_and_zones(out: RunOutputs) -> None
             if units[item] == "CY":
                 want /= 27.0  # 1 yd3 = 27 ft3 [NIST-SP811-2008 App. B]
             got = exact[(lid, item, "base")]
-            assert got == pytest.approx(want, abs=1e-6, rel=1e-6), (
+            # the joint length is recomputed through a buffer of the joint lines (a tolerance
+            # band), so it agrees to about 1e-6 of the plan unit per vertex, not exactly
+            r = 2e-6 if item == "JOINT-RPR" else 1e-6
+            assert got == pytest.approx(want, abs=1e-6, rel=r), (
                 f"{out.name}: {lid} {item}: {got} in run.json, {want:.4f} from the "
                 "repairs and zones")
         for item in base.index:  # contingency line = fraction x base (common practice)

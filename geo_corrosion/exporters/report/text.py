@@ -119,6 +119,9 @@ def owner_text(text: Any) -> str:
     # a clause telling the engineer which site-file key to change is for the engineer, not
     # the owner: dropped (the run's own messages keep it)
     t = "; ".join(c for c in t.split("; ") if not _SITE_KEY.search(c)) or t
+    # a module path with the constants after it (``condition/corrosion_rate.py B_ACTIVE_MV``)
+    t = re.sub(r"\s*[\w/]+\.py\b(?:\s+[A-Z][A-Z0-9_]+,?)*", "", t)
+    t = t.replace("(; ", "(")
 
     def aside(m: re.Match[str]) -> str:
         inner = m.group(1)
