@@ -123,7 +123,17 @@ def test_round_trip_new_area_everywhere(base: tuple[Path, Path], tmp_path: Path)
     assert f'<td class="c-area num">{NEW_FT2:,.0f}</td>' in html
     assert f'<td class="c-area num">{OLD_FT2:,.0f}</td>' not in html
     web = (run / "webmap.html").read_text()
-    assert f'"area_rep": "{NEW_FT2:.1f} ft2"' in web and f'"{OLD_FT2:.1f} ft2"' not in web
+    # the web map's repair popup gives the area as the report does (vocabulary.fmt_area,
+    # whole ft2), JSON-encoded in the level's data block
+    import json as _json
+
+    from geo_corrosion.vocabulary import fmt_area
+
+    def shown(ft2: float) -> bool:
+        txt = fmt_area(ft2 * 0.09290304, "us")  # 1 ft2 = 0.09290304 m2 [NIST-SP811-2008]
+        return _json.dumps(txt) in web or _json.dumps(txt, ensure_ascii=False) in web
+
+    assert shown(NEW_FT2) and not shown(OLD_FT2)
     # and once re-priced, the report can be rebuilt again
     res = CliRunner().invoke(cli, ["report", str(run), "--no-pdf"])
     assert res.exit_code == 0, res.output
