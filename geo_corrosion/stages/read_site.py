@@ -349,9 +349,6 @@ def _survey_options(t: Table, kind: str, root: Path, allow_outside: bool) -> dic
 
 def _variogram(t: Table) -> dict[str, dict[str, Any]]:
     """Read the [run.variogram.<kind>] tables; the kinds are those of the kind registry."""
-    from geo_corrosion.errors import PluginError
-    from geo_corrosion.measurements import MEASUREMENTS
-
     vt = t.data.get("variogram", {})
     if not isinstance(vt, dict):
         raise SiteFileError(f"{t.key('variogram')}: expected tables such as "
@@ -360,17 +357,7 @@ def _variogram(t: Table) -> dict[str, dict[str, Any]]:
     fixed: dict[str, dict[str, Any]] = {}
     for kind, spec in vt.items():
         w = f"{file}: [run.variogram.{kind}]"
-        if kind not in MEASUREMENTS.load():
-            known = MEASUREMENTS.names()
-            close = difflib.get_close_matches(kind, known, n=1)
-            hint = f"; did you mean {close[0]!r}?" if close else ""
-            raise SiteFileError(
-                f"{w}: unknown measurement kind {kind!r}{hint} Known kinds: {', '.join(known)}. "
-                "Name the table [run.variogram.<kind>] after one of them")
-        try:
-            MEASUREMENTS.get(kind)  # a plugin kind that failed to load raises here
-        except PluginError as err:
-            raise SiteFileError(f"{w}: {err}") from err
+        _check_kind_table(kind, w, "variogram")
         kt = _table(spec, w, "run.variogram.<kind>")
         fx: dict[str, Any] = {k.field: _read(kt, k) for k in TABLES["run.variogram.<kind>"].keys
                               if kt.has(str(k.name))}
@@ -391,9 +378,26 @@ def _variogram(t: Table) -> dict[str, dict[str, Any]]:
     return fixed
 
 
+def _check_kind_table(kind: str, where: str, table: str) -> None:
+    """Refuse a ``[run.<table>.<kind>]`` table whose kind is unknown or failed to load."""
+    from geo_corrosion.errors import PluginError
+    from geo_corrosion.measurements import MEASUREMENTS
+
+    if kind not in MEASUREMENTS.load():
+        known = MEASUREMENTS.names()
+        close = difflib.get_close_matches(kind, known, n=1)
+        hint = f"; did you mean {close[0]!r}?" if close else ""
+        raise SiteFileError(
+            f"{where}: unknown measurement kind {kind!r}{hint} Known kinds: {', '.join(known)}. "
+            f"Name the table [run.{table}.<kind>] after one of them")
+    try:
+        MEASUREMENTS.get(kind)  # a plugin kind that failed to load raises here
+    except PluginError as err:
+        raise SiteFileError(f"{where}: {err}") from err
+
+
 def _kinds(t: Table) -> dict[str, dict[str, Any]]:
     """Read the [run.kinds.<kind>] tables (surface rule and neighbourhood of a kind)."""
-    from geo_corrosion.errors import PluginError
     from geo_corrosion.measurements import MEASUREMENTS
 
     kt_all = t.data.get("kinds", {})
@@ -403,17 +407,7 @@ def _kinds(t: Table) -> dict[str, dict[str, Any]]:
     out: dict[str, dict[str, Any]] = {}
     for kind, spec in kt_all.items():
         w = f"{file}: [run.kinds.{kind}]"
-        if kind not in MEASUREMENTS.load():
-            known = MEASUREMENTS.names()
-            close = difflib.get_close_matches(kind, known, n=1)
-            hint = f"; did you mean {close[0]!r}?" if close else ""
-            raise SiteFileError(
-                f"{w}: unknown measurement kind {kind!r}{hint} Known kinds: {', '.join(known)}. "
-                "Name the table [run.kinds.<kind>] after one of them")
-        try:
-            MEASUREMENTS.get(kind)
-        except PluginError as err:
-            raise SiteFileError(f"{w}: {err}") from err
+        _check_kind_table(kind, w, "kinds")
         kt = _table(spec, w, "run.kinds.<kind>")
         out[str(kind)] = {k.field: _read(kt, k) for k in TABLES["run.kinds.<kind>"].keys
                           if kt.has(str(k.name))}
