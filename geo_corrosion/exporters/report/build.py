@@ -203,7 +203,6 @@ def _repair_layout_png(gpkg: RunLayers, lid: str, info: LevelRecord) -> str | No
     import matplotlib
 
     matplotlib.use("Agg")
-    import matplotlib.patheffects as pe
     import matplotlib.pyplot as plt
 
     slab = gpkg.get(f"{lid}_slab")
@@ -245,13 +244,9 @@ def _repair_layout_png(gpkg: RunLayers, lid: str, info: LevelRecord) -> str | No
     rl = local(rep)
     if rep is not None and rl is not None:
         rl.boundary.plot(ax=ax, color="#0072B2", linewidth=1.0)
-        halo = [pe.withStroke(linewidth=2.2, foreground="white")]
-        for rid, geom in zip(rep["repair_id"], rl, strict=True):
-            c = geom.representative_point()
-            ax.annotate(str(rid).split("-")[-1].lstrip("R").lstrip("0") or "0", (c.x, c.y),
-                        fontsize=8, color="#003F66", ha="center", va="center",
-                        path_effects=halo)
     ax.set_aspect("equal")
+    if rep is not None and rl is not None:
+        _label_repairs(fig, ax, rep, rl, sl, gpkg, lid, local, joints)
     unit = info.georeference.local_unit
     ax.set_xlabel(f"Survey grid x ({unit})", fontsize=8)
     ax.set_ylabel(f"Survey grid y ({unit})", fontsize=8)
@@ -265,6 +260,50 @@ def _repair_layout_png(gpkg: RunLayers, lid: str, info: LevelRecord) -> str | No
     fig.savefig(buf, format="png", bbox_inches="tight")
     plt.close(fig)
     return png_data_url(buf.getvalue())
+
+
+def _label_repairs(fig: Any, ax: Any, rep: gpd.GeoDataFrame, rl: gpd.GeoSeries,
+                   sl: gpd.GeoSeries, gpkg: RunLayers, lid: str, local: Any,
+                   joints: gpd.GeoSeries | None) -> None:
+    """Write the repair numbers at 8 pt, so that no two touch and none sits on an outline.
+
+    The numbers are placed with the drawing sheets' label search
+    (:func:`geo_corrosion.exporters.sheet.place_labels`), in the plan's units: two repairs
+    split by a joint no longer print "1" and "2" side by side where they read as "12".
+    """
+    import matplotlib.patheffects as pe
+    from shapely.geometry import box
+    from shapely.ops import nearest_points
+
+    from geo_corrosion.exporters.sheet import Label, place_labels
+
+    x0, y0, x1, y1 = (float(v) for v in sl.total_bounds)
+    pad = 0.08 * max(x1 - x0, y1 - y0)
+    ax.set_xlim(x0 - pad, x1 + pad)
+    ax.set_ylim(y0 - pad, y1 + pad)
+    fig.canvas.draw()  # settles the equal-aspect box, so that a point is a known length
+    ppu = abs(ax.transData.transform((1.0, 0.0))[0] - ax.transData.transform((0.0, 0.0))[0])
+    h = 8 / 72 * fig.dpi / ppu if ppu > 0 else (x1 - x0) / 60
+    hard = list(rl)
+    for what in ("delaminations", "spalls"):
+        g = local(gpkg.get(f"{lid}_{what}"))
+        if g is not None:
+            hard.extend(g)
+    soft = list(sl.boundary) + (list(joints) if joints is not None else [])
+    labels = [Label(str(rid), geom,
+                    (str(rid).split("-")[-1].lstrip("R").lstrip("0") or "0",))
+              for rid, geom in zip(rep["repair_id"], rl, strict=True)]
+    halo = [pe.withStroke(linewidth=2.2, foreground="white")]
+    within = box(x0 - pad + h / 2, y0 - pad + h / 2, x1 + pad - h / 2, y1 + pad - h / 2)
+    pl_shape = {lab.key: lab.shape for lab in labels}
+    for pl in place_labels(labels, h=h, hard=hard, soft=soft, within=within):
+        ax.text(pl.x, pl.y, pl.lines[0], fontsize=8, color="#003F66", ha="left",
+                va="baseline", path_effects=halo)
+        # a leader for every number not touching its outline: which small repair a number
+        # belongs to must never be a guess
+        if pl.box.distance(pl_shape[pl.key]) > 0.15 * h:
+            a, b = nearest_points(pl.box, pl_shape[pl.key])
+            ax.plot([a.x, b.x], [a.y, b.y], color="#003F66", linewidth=0.5)
 
 
 def _repair_list(rep: gpd.GeoDataFrame | None, units: ReportUnits) -> str:
