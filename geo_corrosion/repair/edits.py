@@ -48,7 +48,7 @@ class EditedOutline:
 
 @dataclass(frozen=True)
 class RepairEdit:
-    """A repair whose outline was edited: its id and its area before and after, m2."""
+    """A repair whose outline was edited: its id and its area before and after, m2 (0: deleted)."""
 
     repair_id: str
     old_area_m2: float
@@ -105,13 +105,16 @@ def check_edits(
     outlines : dict of str to geometry
         Each repair's outline, by id, snapped to :data:`EDIT_GRID`.
     warnings : list of str
-        A sounded area no repair covers, an outline that is not rectilinear.
+        A deleted repair, a sounded area no repair covers, an outline that is not
+        rectilinear.
 
     Raises
     ------
     RepairError
-        Naming the feature: not a polygon, no repair id, an unknown or duplicated id, a
-        repair of the run missing, outside the slab, in an exclusion, overlapping another.
+        Naming the feature: not a polygon, no repair id, an unknown or duplicated id,
+        outside the slab, in an exclusion, overlapping another.  A repair of the run with no
+        feature at all (every feature keeping a known id) was deleted: it is left out of the
+        outlines returned, with a warning.
     """
     known = {str(r) for r in original["repair_id"]}
     faces = dict(zip(original["repair_id"].astype(str), original.get(
@@ -164,10 +167,11 @@ def check_edits(
                          "saw cuts run along the grid, so square the outline if it is to be "
                          "cut as drawn")
         out[rid] = g
-    lost = sorted(known - set(out))
-    if lost:
-        raise RepairError(_fix(f"{source}: repair {', '.join(lost)} is missing (a feature "
-                               "was deleted or lost its repair_id); restore it with its id"))
+    # every feature carries a known id (checked above), so a repair with no feature was
+    # deleted on purpose: it leaves the schedule, and its sounded areas are checked below
+    for rid in sorted(known - set(out)):
+        notes.append(f"{source}: repair {rid} was deleted; it leaves the schedule and the "
+                     "documents (restore the feature with its repair_id to keep it)")
     top = shapely.union_all([g for r, g in out.items() if faces.get(r, "top") == "top"])
     for label, s in (soundings or {}).items():
         if s.difference(top).area > tol:
@@ -200,12 +204,17 @@ def apply_edits(
     repairs : GeoDataFrame
         A new frame; the input is not changed.
     edits : list of RepairEdit
-        The edited repairs, with their area before and after, m2.
+        The edited repairs, with their area before and after, m2 (a deleted repair, one
+        with no outline in ``outlines``, after 0 and dropped from the frame).
     """
     f = LENGTH_TO_M[unit]
     out = repairs.copy()
     edits: list[RepairEdit] = []
     edge = slab.boundary.buffer(10 * EDIT_GRID)
+    deleted = [i for i, rid in enumerate(out["repair_id"].astype(str)) if rid not in outlines]
+    for i in deleted:
+        edits.append(RepairEdit(str(out["repair_id"].iloc[i]), float(out["area_m2"].iloc[i]),
+                                0.0))
     for i, rid in enumerate(out["repair_id"].astype(str)):
         g = outlines.get(rid)
         old = out.geometry.iloc[i]
@@ -229,4 +238,6 @@ def apply_edits(
             if k in out.columns:
                 out.iloc[i, col(k)] = v
         out.iloc[i, col(out.geometry.name)] = g
+    if deleted:
+        out = out.drop(index=out.index[deleted])
     return out, edits

@@ -32,7 +32,13 @@ from geo_corrosion.model.results import LevelResult
 from geo_corrosion.model.site import Level
 from geo_corrosion.model.surface import KindSurface, with_role
 from geo_corrosion.pricing import PriceList, price_schedule, unpriced_items
-from geo_corrosion.quantities import DEFAULT_BID_ITEMS, DEPTH_CLASS_ITEMS, BidItem, bid_schedule
+from geo_corrosion.quantities import (
+    DEFAULT_BID_ITEMS,
+    DEPTH_CLASS_ITEMS,
+    SCHEDULE_COLUMNS,
+    BidItem,
+    bid_schedule,
+)
 from geo_corrosion.repair import layout_repairs
 from geo_corrosion.repair.tender import (
     SOUNDING_PREFIX,
@@ -337,7 +343,8 @@ def schedule_quantities(levels: Iterable[LevelResult], *, units: ReportUnits, co
     # treatments priced by pay area where the level has them (pay_area_frame), else as zoned
     zones = _cat([lr.zones if lr.pay_areas is None else lr.pay_areas for lr in levels])
     if repairs is None and zones is None:
-        return pd.DataFrame()
+        # no repair and no treatment: an empty schedule that still has its header
+        return pd.DataFrame({c: pd.Series(dtype=object) for c in SCHEDULE_COLUMNS})
     schedule = price_schedule(bid_schedule(repairs, zones, units=units,
                                            contingency=contingency,
                                            anode_spacing_mm=anode_spacing_mm), prices)

@@ -250,3 +250,49 @@ def test_dxf_outline_without_id_refused(base: tuple[Path, Path], tmp_path: Path)
     assert res.exit_code == 1
     assert f"entity handle {handle[0]}: has no repair_id" in res.output
     assert _hash(run) == before
+
+
+def test_deleted_repair_leaves_the_schedule_with_a_warning() -> None:
+    # two repairs laid out, the GIS file holds only the first: the second was deleted on
+    # purpose (every feature keeps a known id), so it leaves the outlines with a warning
+    # naming it; apply_edits drops its row and records its area going to 0 (hand: 2 x 2)
+    from geo_corrosion.repair.edits import apply_edits
+
+    a, b = shapely.box(0, 0, 2, 2), shapely.box(5, 5, 7, 7)
+    frame = gpd.GeoDataFrame({"repair_id": ["L1-R001", "L1-R002"], "face": ["top", "top"],
+                              "area_m2": [4 * FT2_M2, 4 * FT2_M2], "depth_mm": [50.0, 50.0]},
+                             geometry=[a, b])
+    outlines, notes = check_edits(frame, [EditedOutline("f.gpkg fid 1", "L1-R001", a)],
+                                  slab=shapely.box(0, 0, 10, 10), source="f.gpkg L1_repairs")
+    assert set(outlines) == {"L1-R001"}
+    assert any("L1-R002 was deleted" in n and "f.gpkg L1_repairs" in n for n in notes)
+    new, done = apply_edits(frame, outlines, unit="ft", slab=shapely.box(0, 0, 10, 10))
+    assert list(new["repair_id"]) == ["L1-R001"] and len(frame) == 2  # input unchanged
+    (edit,) = done
+    assert (edit.repair_id, edit.new_area_m2) == ("L1-R002", 0.0)
+    assert edit.old_area_m2 == pytest.approx(4 * FT2_M2)
+    # a feature that lost its id is still refused, not read as a deletion
+    with pytest.raises(RepairError, match="has no repair_id"):
+        check_edits(frame, [EditedOutline("f.gpkg fid 1", "L1-R001", a),
+                            EditedOutline("f.gpkg fid 2", None, b)],
+                    slab=shapely.box(0, 0, 10, 10))
+
+
+def test_deleting_the_only_repair_reprices_to_no_repair(base: tuple[Path, Path],
+                                                         tmp_path: Path) -> None:
+    site, run = base[0], _copy(base, tmp_path)
+
+    def delete(df: gpd.GeoDataFrame, lv) -> gpd.GeoDataFrame:
+        return df[df["repair_id"] != "D1-R001"]
+
+    _edit(run, site, delete)
+    res = CliRunner().invoke(cli, ["reprice", str(run)])
+    assert res.exit_code == 0, res.output
+    assert "D1-R001 was deleted" in res.output and "(deleted)" in res.output
+    man = json.loads((run / "run.json").read_text())
+    (edit,) = man["edits"]
+    assert edit["repair_id"] == "D1-R001" and edit["new_area_m2"] == 0
+    assert man["levels"]["D1"]["repair_list"] == []
+    q = pd.read_csv(run / "quantities.csv")
+    assert not ((q["level_id"] == "D1") & (q["item"] == "REP-PD-BARS")
+                & (q["quantity"] > 0)).any()

@@ -36,5 +36,7 @@ def reprice(run_dir: Path, source: Path | None, site: Path | None, quiet: bool) 
     if not result.edits:
         click.echo("no repair outline was edited; the run was rebuilt as laid out")
     for e in result.edits:
-        click.echo(f"{e['repair_id']}: {e['old_area_m2']:.2f} m2 -> {e['new_area_m2']:.2f} m2")
+        gone = " (deleted)" if e["new_area_m2"] == 0 else ""
+        click.echo(f"{e['repair_id']}: {e['old_area_m2']:.2f} m2 -> {e['new_area_m2']:.2f} m2"
+                   f"{gone}")
     click.echo(f"wrote {folder}")
