@@ -29,6 +29,7 @@ class DrawingsExporter(Exporter):
         from geo_corrosion.exporters.dxf import write_level_dxf
         from geo_corrosion.exporters.sheet_dxf import SheetInfo
         from geo_corrosion.exporters.sheet_pdf import write_sheet_pdf
+        from geo_corrosion.repair.tender import SOUNDING_PREFIX, sounding_labels
         from geo_corrosion.units import LENGTH_TO_M, report_units
 
         cfg = result.site.config
@@ -60,6 +61,11 @@ class DrawingsExporter(Exporter):
                 breaking_joints=lv.breaking_joints, repairs=lr.repairs, zones=lr.zones,
                 delaminations=[f.geometry for f in lv.overlays.get("delamination", ())],
                 spalls=[f.geometry for f in lv.overlays.get("spall", ())],
+                sounding_numbers=[
+                    *sounding_labels([f.geometry for f in lv.overlays.get("delamination", ())],
+                                     SOUNDING_PREFIX["delamination"]),
+                    *sounding_labels([f.geometry for f in lv.overlays.get("spall", ())],
+                                     SOUNDING_PREFIX["spall"])],
                 column_grid=tuple(getattr(lv, "column_grid", None) or ()),
                 unit=lv.unit, title=info.title, cautions=list(CAUTIONS),
                 units=report_units(cfg.units), sheet=info,

@@ -6,10 +6,12 @@ Model space holds the plan.  Layers, with names of this project's own: ``GC-SLAB
 one), ``GC-DELAM`` (sounded delaminations), ``GC-SPALL``
 (spalls), ``GC-REPAIR-<DEPTH CLASS>`` (one per depth class, outline and hatch),
 ``GC-ZONE-<ZONE NAME>`` (one per zone, outlines cleaned of the raster's staircase),
-``GC-LABEL`` (repair labels and their leaders), ``GC-COLUMN-GRID`` (column lines and
-their bubbles, when the plans carry them) and ``GC-STATION`` (stations and offsets along
-the survey grid).  Coordinates are the level's local grid in its plan unit by default, or
-the site CRS (``[drawings].coords = "site"``); ``$INSUNITS`` says which unit.
+``GC-LABEL`` (repair labels and their leaders), ``GC-SOUNDING-LABEL`` (the numbers of the
+sounded areas, D1, S1, ..., as the per-repair schedule lists them), ``GC-COLUMN-GRID``
+(column lines and their bubbles, when the plans carry them) and ``GC-STATION`` (stations
+and offsets along the survey grid).  Coordinates are the level's local grid in its plan
+unit by default, or the site CRS (``[drawings].coords = "site"``); ``$INSUNITS`` says which
+unit.
 
 Paper space (layout ``<level> sheet``) holds the sheet of
 :mod:`geo_corrosion.exporters.sheet_dxf`: border, title block, a viewport at a standard
@@ -51,7 +53,8 @@ from geo_corrosion.repair import polygon_parts
 from geo_corrosion.units import LENGTH_TO_M, ReportUnits, report_units
 
 __all__ = ["LAYER_SLAB", "LAYER_EXCLUSION", "LAYER_JOINT", "LAYER_JOINT_BREAK", "LAYER_DELAM",
-           "LAYER_TEXT", "LAYER_SPALL", "LAYER_LABEL", "LAYER_COLUMN_GRID", "LAYER_STATION",
+           "LAYER_TEXT", "LAYER_SPALL", "LAYER_LABEL", "LAYER_SOUNDING_LABEL",
+           "LAYER_COLUMN_GRID", "LAYER_STATION",
            "DEPTH_HATCH", "XDATA_APP", "layer_name", "repair_dimensions", "write_level_dxf"]
 
 LAYER_SLAB = "GC-SLAB"
@@ -67,6 +70,8 @@ LAYER_SPALL = "GC-SPALL"
 #: ``geo-corrosion reprice --from`` the sheet can read an outline edited in CAD back.
 XDATA_APP = "GEO_CORROSION"
 LAYER_LABEL = "GC-LABEL"
+#: Numbers of the sounded areas (D1, S1, ...), as the per-repair schedule lists them.
+LAYER_SOUNDING_LABEL = "GC-SOUNDING-LABEL"
 LAYER_COLUMN_GRID = "GC-COLUMN-GRID"
 LAYER_STATION = "GC-STATION"
 
@@ -172,7 +177,8 @@ def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
                     to_model: Callable[[BaseGeometry], BaseGeometry] | None = None,
                     model_unit: str | None = None,
                     zone_tolerance: float | None = None,
-                    breaking_joints: Sequence[BaseGeometry] = ()) -> Path:
+                    breaking_joints: Sequence[BaseGeometry] = (),
+                    sounding_numbers: Sequence[str] = ()) -> Path:
     """Write the DXF drawing sheet of one level.
 
     Parameters
@@ -215,6 +221,10 @@ def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
     breaking_joints : sequence of geometry
         Joint lines that break the mat's electrical continuity (expansion, isolation), drawn
         on :data:`LAYER_JOINT_BREAK`; ``joints`` holds the others.
+    sounding_numbers : sequence of str
+        The numbers of the sounded areas (D1, ..., then S1, ...), one per delamination then
+        one per spall, in their order; placed beside each area on
+        :data:`LAYER_SOUNDING_LABEL` after the repair labels (empty: none).
 
     Returns
     -------
@@ -411,6 +421,21 @@ def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
         layer(LAYER_LABEL, 7, "Repair label: id, depth class, sides")
         for pl in place_labels(labels, h=h, hard=hard, soft=soft, within=within):
             _draw_label(msp, pl, h)
+            hard.append(pl.box)
+            if pl.leader is not None:
+                hard.append(pl.leader)
+    sounded = [*delaminations, *spalls]
+    if sounding_numbers and len(sounding_numbers) != len(sounded):
+        raise ExportError(f"DXF: {len(sounding_numbers)} sounding numbers for "
+                          f"{len(sounded)} sounded areas")
+    if sounding_numbers:
+        # smaller than the repair labels, placed after them so that they never take a
+        # repair label's place
+        sh = 0.8 * h
+        layer(LAYER_SOUNDING_LABEL, 1, "Sounded area number (D delamination, S spall)")
+        slabels = [Label(n, T(g), (n,)) for n, g in zip(sounding_numbers, sounded, strict=True)]
+        for pl in place_labels(slabels, h=sh, hard=hard, soft=soft, within=within):
+            _draw_label(msp, pl, sh, LAYER_SOUNDING_LABEL)
 
     unit_name = {"m": "m", "ft": "ft", "us-ft": "US survey ft"}[unit]
     coords = ("Coordinates: site CRS" if to_model is not None else
@@ -443,12 +468,12 @@ def _xy(p: BaseGeometry) -> tuple[float, float]:
     return float(x), float(y)
 
 
-def _draw_label(msp: Any, pl: Placed, h: float) -> None:
+def _draw_label(msp: Any, pl: Placed, h: float, lay: str = LAYER_LABEL) -> None:
     """Draw a placed label: its lines, left aligned, and its leader."""
     from ezdxf.enums import TextEntityAlignment
 
     for i, s in enumerate(pl.lines):
-        msp.add_text(s, height=h, dxfattribs={"layer": LAYER_LABEL}).set_placement(
+        msp.add_text(s, height=h, dxfattribs={"layer": lay}).set_placement(
             (pl.x, pl.y - i * LINE_SPACING * h), align=TextEntityAlignment.LEFT)
     if pl.leader is not None:
-        msp.add_lwpolyline(list(pl.leader.coords), dxfattribs={"layer": LAYER_LABEL})
+        msp.add_lwpolyline(list(pl.leader.coords), dxfattribs={"layer": lay})

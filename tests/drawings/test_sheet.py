@@ -183,6 +183,34 @@ def test_labels_overlap_neither_each_other_nor_outlines(sheet, level) -> None:
         assert end.distance(repairs) < 1e-6
 
 
+def test_sounded_areas_numbered_as_the_schedule_lists_them(tmp_path, level) -> None:
+    # issue 13: the per-repair schedule names the sounded areas it covers (D1, S1, ...), so
+    # the sheet carries those numbers beside each area; the numbering is the library's own
+    # (repair.tender.sounding_labels: top of the plan down, then left to right)
+    from geo_corrosion.repair.tender import sounding_labels
+
+    numbers = [*sounding_labels(DELAMS, "D"), *sounding_labels(SPALLS, "S")]
+    doc = ezdxf.readfile(_write(tmp_path / "P1.dxf", level, sounding_numbers=numbers))
+    msp = doc.modelspace()
+    texts = list(msp.query('TEXT[layer=="GC-SOUNDING-LABEL"]'))
+    assert sorted(t.dxf.text for t in texts) == sorted(numbers)
+    # hand: the top-most delamination (box 50-51 x 30-31.5) is D1, the spall S1
+    assert numbers[DELAMS.index(DELAMS[5])] == "D1" and numbers[-1] == "S1"
+    by_text = {t.dxf.text: t for t in texts}
+    others = [_box(t) for t in msp.query('TEXT[layer=="GC-LABEL"]')]
+    outlines = unary_union([g.boundary for g in [*level[0].geometry, *DELAMS, *SPALLS]])
+    leaders = list(msp.query('LWPOLYLINE[layer=="GC-SOUNDING-LABEL"]'))
+    for n, g in zip(numbers, [*DELAMS, *SPALLS], strict=True):
+        b = _box(by_text[n])
+        # beside its own area (within a few text heights, or joined to it by a leader),
+        # on no repair label and no outline
+        near = b.distance(g) < 4 * by_text[n].dxf.height or any(
+            Point(ld.get_points("xy")[-1]).distance(g) < 1e-6 for ld in leaders)
+        assert near, n
+        assert not any(b.intersection(o).area > 1e-9 for o in others), n
+        assert not b.intersects(outlines), n
+
+
 def test_a_hatch_per_repair_by_depth_class(sheet, level) -> None:
     rep, _ = level
     _, doc = sheet
