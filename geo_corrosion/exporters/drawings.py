@@ -38,17 +38,26 @@ class DrawingsExporter(Exporter):
         ddir.mkdir(exist_ok=True)
         paths = []
         today = dt.date.today().isoformat()
+        # the title block says what the report's does: [project] first ([drawings].engineer
+        # kept for sites written before [project] existed)
+        proj = cfg.project
+        engineer = params.engineer
+        if proj.engineer and engineer == "(engineer not given)":
+            engineer = proj.engineer + (f", {proj.firm}" if proj.firm else "")
+        issued = str(proj.date) if proj.date else today
+        rev = proj.revision or "0"
+        project = cfg.name + (f" (project {proj.number})" if proj.number else "")
         n = len(result.levels)
         for i, (lid, lr) in enumerate(result.levels.items(), 1):
             lv = lr.level
             grid = lv.grid
             site = params.coords == "site"
             info = SheetInfo(
-                project=cfg.name, owner=cfg.owner, engineer=params.engineer,
+                project=project, owner=cfg.owner, engineer=engineer,
                 title=lv.config.name, number=f"R-{i}", of=n,
-                date=today, sheet="" if params.sheet == "auto" else params.sheet,
+                date=issued, sheet="" if params.sheet == "auto" else params.sheet,
                 north_deg=90.0 if site else 90.0 - grid.rotation_deg,
-                revisions=(("0", today, "Issued for review: survey findings"),),
+                revisions=((rev, issued, "Issued for review: survey findings"),),
                 where=f"{cfg.path}: [drawings].sheet")
 
             def to_site(g: BaseGeometry, grid: LocalGrid = grid) -> BaseGeometry:

@@ -48,6 +48,16 @@ def test_run_sample_site(tmp_path: Path) -> None:
         assert (out / f"drawings/{lid}_repairs.dxf").is_file()
         assert (out / f"rasters/{lid}_potential.tif").is_file()
     assert not any(p.name.endswith(".tmp") for p in out.rglob("*"))
+    # the sheets' title block says what the report's does: the [project] table of the
+    # sample's site file (engineer and firm, number, revision and date)
+    import ezdxf
+
+    doc = ezdxf.readfile(out / "drawings" / "L2_repairs.dxf")
+    paper = [e.dxf.text for name in doc.layout_names() if name != "Model"
+             for e in doc.layouts.get(name).query("TEXT")]
+    assert any("Sample Engineer, P.E." in t for t in paper), paper
+    assert any("MB-2026-014" in t for t in paper)
+    assert "2026-11-20" in paper and "(engineer not given)" not in paper
 
 
 def test_broken_copy_fails_cleanly(tmp_path: Path) -> None:
