@@ -119,7 +119,7 @@ def pg_server() -> Iterator[Server]:
             conn.execute("CREATE EXTENSION postgis")
         yield server
     finally:
-        subprocess.run(_as_server_user([str(bindir / "pg_ctl"), "-D", str(data), "-m", "fast",
+        subprocess.run(_as_server_user([str(bindir / "pg_ctl"), "-D", str(data), "-m", "immediate",
                                         "-w", "stop"]),
                        capture_output=True, check=False)
         shutil.rmtree(folder, ignore_errors=True)

@@ -86,6 +86,14 @@ def test_round_trip_every_layer(run_dir: Path, database: str) -> None:
                                     tolerance=0).all(), layer
         _frame_equal(pd.DataFrame(db.drop(columns="geom")),
                      pd.DataFrame(ref.drop(columns="geometry")), layer)
+        # SQL types: integers stay integers, booleans booleans (pandas dtype kinds)
+        sql_types = dict(_query(database, "SELECT column_name, data_type FROM "
+                                          "information_schema.columns WHERE table_schema = %s "
+                                          "AND table_name = %s", (SCHEMA, table)))
+        kinds = {"i": "bigint", "f": "double precision", "b": "boolean", "O": "text"}
+        for c in ref.columns.drop("geometry"):
+            expected = kinds.get(ref[c].dtype.kind, "text")
+            assert sql_types[c] == expected, f"{layer} column {c}"
     engine.dispose()
 
 
