@@ -46,8 +46,8 @@ if TYPE_CHECKING:
 
     from geo_corrosion.model.results import RunResult
 
-__all__ = ["DSN_ENV", "PostgisExporter", "PublishedRun", "safe_dsn", "schema_name",
-           "write_runs_to_postgis"]
+__all__ = ["DSN_ENV", "PostgisExporter", "PublishedRun", "expand_run_dirs", "safe_dsn",
+           "schema_name", "write_runs_to_postgis"]
 
 #: Environment variable the CLI and the exporter read the DSN from.
 DSN_ENV = "GEO_CORROSION_DSN"
@@ -55,6 +55,8 @@ GPKG_NAME = "survey.gpkg"
 MANIFEST_TABLE = "run_manifest"
 #: The run's non-spatial tables: file -> table.
 CSV_TABLES = {"quantities.csv": "quantities", "condition_areas.csv": "condition_areas"}
+#: A portfolio writes each site's run to ``<out>/sites/<id>/``: published as ``<id>``.
+PORTFOLIO_SITES = "sites"
 #: The schema comment that marks a schema as written here (and so ours to replace).
 SCHEMA_MARK = "geo_corrosion site export"
 GEOM = "geom"
@@ -139,14 +141,20 @@ def schema_name(site_id: str) -> str:
 
 
 def _site_id(manifest: Mapping[str, Any], run_dir: Path) -> str:
-    """Return the site id: run.json's site.id, else the site folder's name, else the run's."""
-    site = manifest.get("site")
-    if isinstance(site, Mapping):
-        if isinstance(site.get("id"), str) and site["id"]:
-            return str(site["id"])
-        if isinstance(site.get("folder"), str) and site["folder"]:
-            return Path(site["folder"]).name
-    return run_dir.resolve().name
+    """Return the site id of a run folder.
+
+    run.json's ``site.id``; else, for a portfolio's ``sites/<id>/``, that ``<id>``; else the
+    site folder's name (``site.folder``); else the run folder's name.
+    """
+    site = _mapping(manifest.get("site"))
+    if isinstance(site.get("id"), str) and site["id"]:
+        return str(site["id"])
+    here = run_dir.resolve()
+    if here.parent.name == PORTFOLIO_SITES:
+        return here.name
+    if isinstance(site.get("folder"), str) and site["folder"]:
+        return Path(site["folder"]).name
+    return here.name
 
 
 def column_unit(name: str) -> str | None:
@@ -494,6 +502,28 @@ def connect(dsn: str, *, connect_timeout: int = 10) -> psycopg.Connection[Any]:
     return conn
 
 
+def expand_run_dirs(paths: Iterable[str | Path],
+                    progress: Callable[[str], None] | None = None) -> list[Path]:
+    """Return the run folders named: each path itself, or a portfolio's ``sites/*/`` runs.
+
+    A folder without ``run.json`` that holds ``sites/`` (a portfolio's output) stands for
+    every ``sites/<id>/`` with a ``run.json``; a site there without one (its run failed) is
+    left out and named through ``progress``.
+    """
+    out: list[Path] = []
+    for p in map(Path, paths):
+        sites = p / PORTFOLIO_SITES
+        if (p / "run.json").is_file() or not sites.is_dir():
+            out.append(p)
+            continue
+        for d in sorted(x for x in sites.iterdir() if x.is_dir()):
+            if (d / "run.json").is_file():
+                out.append(d)
+            elif progress:
+                progress(f"skipped {d}: no run.json (its run did not finish)")
+    return out
+
+
 def write_runs_to_postgis(
     run_dirs: str | Path | Iterable[str | Path],
     dsn: str | None = None,
@@ -512,11 +542,13 @@ def write_runs_to_postgis(
     Parameters
     ----------
     run_dirs : path or iterable of paths
-        Output folders of ``geo-corrosion run`` (or a portfolio's ``sites/<id>/``).
+        Output folders of ``geo-corrosion run``, a portfolio's ``sites/<id>/``, or a
+        portfolio's output folder (all its finished sites, :func:`expand_run_dirs`).
     dsn : str, optional
         libpq connection string or URI; default the ``GEO_CORROSION_DSN`` variable.
     site_ids : sequence of str, optional
-        One id per run folder; default run.json's ``site.id``, else the site folder's name.
+        One id per run folder; default run.json's ``site.id``, else ``<id>`` of a
+        portfolio's ``sites/<id>/``, else the site folder's name.
     connect_timeout : int
         Seconds.
     progress : callable, optional
@@ -533,8 +565,8 @@ def write_runs_to_postgis(
         no permission, or a failed write (named, with the DSN without its password; the
         runs published before it stay published, each whole).
     """
-    dirs = [Path(run_dirs)] if isinstance(run_dirs, str | os.PathLike) else \
-        [Path(p) for p in run_dirs]
+    dirs = expand_run_dirs([run_dirs] if isinstance(run_dirs, str | os.PathLike) else
+                           run_dirs, progress)
     if site_ids is not None and len(site_ids) != len(dirs):
         raise ExportError(f"{len(site_ids)} site ids for {len(dirs)} run folders; give one "
                           "per folder or none")

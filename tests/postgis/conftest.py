@@ -87,7 +87,8 @@ def pg_server() -> Iterator[Server]:
         pytest.skip(f"PostGIS tests need psycopg 3 and SQLAlchemy: {err} "
                     "(pip install 'geo_corrosion[scale]')")
     bindir, _version = found
-    folder = Path(tempfile.mkdtemp(prefix="gc_pg_"))
+    # as root the server user must reach the folder: /tmp, not a private TMPDIR
+    folder = Path(tempfile.mkdtemp(prefix="gc_pg_", dir="/tmp" if os.geteuid() == 0 else None))
     if os.geteuid() == 0:
         import pwd
 

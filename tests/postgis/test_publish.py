@@ -9,6 +9,7 @@ pyproj (through geopandas).  The manifest table is compared with ``run.json`` re
 from __future__ import annotations
 
 import json
+import shutil
 from pathlib import Path
 from typing import Any
 
@@ -208,6 +209,19 @@ def test_two_sites_do_not_collide(run_dir: Path, database: str) -> None:
     assert _tables(database, "north_deck") == _tables(database, "south")
     with pytest.raises(ExportError, match="both be published as schema 'north_deck'"):
         write_runs_to_postgis([run_dir, run_dir], database, site_ids=["north deck", "North-Deck"])
+
+
+def test_a_portfolio_folder(run_dir: Path, database: str, tmp_path: Path) -> None:
+    """A portfolio's output: each finished sites/<id>/ as schema <id>; a failed one named."""
+    sites = tmp_path / "portfolio" / "sites"
+    for sid in ("garage_a", "garage_b"):
+        shutil.copytree(run_dir, sites / sid)
+    (sites / "garage_c").mkdir()  # a site whose run failed: no run.json
+    said: list[str] = []
+    pubs = write_runs_to_postgis(tmp_path / "portfolio", database, progress=said.append)
+    assert [p.schema for p in pubs] == ["garage_a", "garage_b"]
+    assert any("garage_c: no run.json" in line for line in said)
+    assert _tables(database, "garage_a") == _tables(database, "garage_b") != set()
 
 
 def test_schema_names() -> None:

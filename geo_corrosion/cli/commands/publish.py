@@ -29,13 +29,16 @@ def publish(run_dirs: tuple[Path, ...], dsn: str | None, site_ids: tuple[str, ..
     """Write every layer of RUN_DIR(s) to PostgreSQL/PostGIS, one schema per site.
 
     Each run replaces the previous export of its site in one transaction; a failure
-    leaves the previous export as it was. RUN_DIR is a run's output folder, or a site
-    folder whose run went to SITE/out.
+    leaves the previous export as it was. RUN_DIR is a run's output folder, a site
+    folder whose run went to SITE/out, or a portfolio's output folder (each finished
+    site under sites/<id>/, published as <id>).
     """
     from geo_corrosion.exporters.postgis import DSN_ENV, write_runs_to_postgis
 
     if not dsn:
         raise click.ClickException(f"give the database: --dsn postgresql://user@host/db or "
                                    f"set {DSN_ENV}")
-    write_runs_to_postgis([resolve_run_dir(d) for d in run_dirs], dsn,
+    dirs = [d if (d / "sites").is_dir() and not (d / "run.json").is_file()
+            else resolve_run_dir(d) for d in run_dirs]
+    write_runs_to_postgis(dirs, dsn,
                           site_ids=list(site_ids) or None, progress=click.echo)
