@@ -466,6 +466,29 @@ def _publish(conn: psycopg.Connection[Any], run: _Run) -> PublishedRun:
     return PublishedRun(run.run_dir, run.site_id, run.schema, counts)
 
 
+def check_dsn(dsn: str) -> None:
+    """Check that a DSN can be read (before any folder is read or server asked).
+
+    Raises
+    ------
+    ExportError
+        It cannot (libpq's message is not shown: it may quote part of the password).
+    """
+    try:
+        import psycopg
+        from psycopg.conninfo import conninfo_to_dict
+    except ImportError as err:
+        raise ExportError("publishing to PostGIS needs psycopg 3: pip install "
+                          "'geo_corrosion[scale]'") from err
+    try:
+        conninfo_to_dict(dsn)
+    except psycopg.Error:
+        raise ExportError(
+            "the DSN cannot be read as a PostgreSQL connection string; give "
+            "postgresql://user@host:port/dbname or key=value pairs such as "
+            "'host=... port=... dbname=... user=...'") from None
+
+
 def connect(dsn: str, *, connect_timeout: int = 10) -> psycopg.Connection[Any]:
     """Open a connection and check that the database has PostGIS.
 
@@ -480,6 +503,7 @@ def connect(dsn: str, *, connect_timeout: int = 10) -> psycopg.Connection[Any]:
     except ImportError as err:
         raise ExportError("publishing to PostGIS needs psycopg 3: pip install "
                           "'geo_corrosion[scale]'") from err
+    check_dsn(dsn)
     where = safe_dsn(dsn)
     try:
         conn = psycopg.connect(dsn, connect_timeout=connect_timeout)
@@ -574,6 +598,7 @@ def write_runs_to_postgis(
     if not dsn:
         raise ExportError(f"no database given: pass a DSN (--dsn postgresql://user@host/db) "
                           f"or set {DSN_ENV}")
+    check_dsn(dsn)
     runs = [read_run_folder(d, site_id=site_ids[i] if site_ids else None)
             for i, d in enumerate(dirs)]
     by_schema: dict[str, Path] = {}

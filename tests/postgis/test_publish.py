@@ -256,6 +256,9 @@ def test_errors_name_the_dsn_without_password(run_dir: Path, pg_server: Any,
     text = str(err.value)
     assert "s3cret-pw" not in text
     assert "cannot connect to PostgreSQL at postgresql://someone@127.0.0.1:" in text
+    with pytest.raises(ExportError, match="cannot be read as a PostgreSQL connection") as err:
+        write_runs_to_postgis(run_dir, "nonsense password=s3cret-pw")
+    assert "s3cret-pw" not in str(err.value)
     with psycopg.connect(pg_server.dsn("postgres"), autocommit=True) as conn:
         conn.execute("CREATE DATABASE gc_plain")
         conn.execute("CREATE ROLE reader LOGIN PASSWORD 'pw-of-reader'")
