@@ -127,14 +127,20 @@ def pg_server() -> Iterator[Server]:
 
 
 @pytest.fixture
-def database(pg_server: Server) -> str:
-    """DSN of a fresh database with PostGIS (a copy of the session's template)."""
+def database(pg_server: Server) -> Iterator[str]:
+    """DSN of a fresh database with PostGIS (a copy of the session's template), dropped after.
+
+    ``STRATEGY FILE_COPY`` copies the template's files instead of writing them all to the
+    WAL (PostgreSQL 15 manual, CREATE DATABASE): half the disk traffic per test.
+    """
     import psycopg
 
     name = f"gc_test_{next(_names)}"
     with psycopg.connect(pg_server.dsn("postgres"), autocommit=True) as conn:
-        conn.execute(f"CREATE DATABASE {name} TEMPLATE {TEMPLATE}")
-    return pg_server.dsn(name)
+        conn.execute(f"CREATE DATABASE {name} TEMPLATE {TEMPLATE} STRATEGY FILE_COPY")
+    yield pg_server.dsn(name)
+    with psycopg.connect(pg_server.dsn("postgres"), autocommit=True) as conn:
+        conn.execute(f"DROP DATABASE IF EXISTS {name} WITH (FORCE)")
 
 
 @pytest.fixture(scope="session")
