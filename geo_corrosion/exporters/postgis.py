@@ -644,6 +644,10 @@ def _failure(err: Exception, run: _Run, where: str, dsn: str,
         msg = (f"cannot publish {run.run_dir} at {where}: permission denied ({text}); grant "
                "the user CREATE on the database (GRANT CREATE ON DATABASE ... TO ...), or "
                f"ownership of schema {run.schema!r}, or publish as a user who may")
+    elif isinstance(err, psycopg.errors.DependentObjectsStillExist):
+        msg = (f"cannot publish {run.run_dir} at {where}: {text}; a view or constraint of "
+               f"your own uses a table of schema {run.schema!r}, which publishing replaces: "
+               "drop it, publish, then create it again")
     else:
         msg = f"cannot publish {run.run_dir} at {where}: {text}"
     msg += f"; the previous export of site {run.site_id!r} is unchanged"

@@ -245,6 +245,20 @@ def test_refuses_a_schema_it_did_not_make(run_dir: Path, database: str) -> None:
     assert _tables(database, SCHEMA) == {"mine"}
 
 
+def test_a_view_on_a_table_blocks_the_replacement_cleanly(run_dir: Path,
+                                                          database: str) -> None:
+    """A user's view on a published table: refused with what to do, the export kept whole."""
+    import psycopg
+
+    [first] = write_runs_to_postgis(run_dir, database)
+    with psycopg.connect(database, autocommit=True) as conn:
+        conn.execute('CREATE VIEW public.slab_area AS SELECT area_m2 FROM deck_north.d1_slab')
+    with pytest.raises(ExportError, match="a view or constraint of your own.*drop it, publish"):
+        write_runs_to_postgis(run_dir, database)
+    assert _query(database, "SELECT count(*) FROM public.slab_area")[0][0] == 1
+    assert _tables(database, SCHEMA) == set(first.tables)
+
+
 def test_errors_name_the_dsn_without_password(run_dir: Path, pg_server: Any,
                                               database: str) -> None:
     """Cannot connect, no PostGIS, no permission: one message each, never the password."""
