@@ -236,10 +236,12 @@ class RunSite(_Loads):
              "into the output folder, which is then opened in the current project with the "
              "run's own styles, a group per level.</p>"
              "<p><b>Site folder</b>: the folder holding <tt>site.toml</tt>.<br>"
-             "<b>Output folder</b>: where the run is written; an existing run there is "
-             "replaced only with <i>Replace an existing output folder</i>.<br>"
-             "<b>Open the run's layers</b>: add the run's project (or its GeoPackage's "
-             "layers) to the current project.</p>")
+             "<b>Output folder</b>: where the run is written.<br>"
+             "<b>Replace an existing output folder</b>: replace a run already there (the new "
+             "one is swapped in only once complete); without it an existing run is kept and "
+             "the algorithm stops.<br>"
+             "<b>Open the run's layers in the current project</b>: add the run's project "
+             "(or its GeoPackage's layers) to the current project, in one group.</p>")
 
     def initAlgorithm(self, config: Any = None) -> None:  # noqa: D102
         self.addParameter(QgsProcessingParameterFile(
@@ -284,7 +286,8 @@ class RepriceRun(_Loads):
              "<b>Edited file</b>: optional; a GeoPackage, or a level's drawing sheet "
              "<tt>drawings/&lt;level&gt;_repairs.dxf</tt> edited in CAD.<br>"
              "<b>Site folder</b>: optional; where the site is now, when it moved since the "
-             "run.</p>")
+             "run.<br><b>Open the run's layers in the current project</b>: reopen the run's "
+             "layers and the schedule once re-priced.</p>")
 
     def initAlgorithm(self, config: Any = None) -> None:  # noqa: D102
         self.addParameter(QgsProcessingParameterFile(
@@ -396,11 +399,13 @@ class SetPython(_Base):
              "(e.g. <tt>.venv/bin/python</tt> or <tt>.venv\\Scripts\\python.exe</tt>) in the "
              "plugin's settings and checks that it runs geo_corrosion. Leave it empty to find "
              f"it automatically ({ENV_PYTHON}, then the <tt>geo-corrosion</tt> command on "
-             "PATH) and store what was found.</p>")
+             "PATH) and store what was found.</p>"
+             "<p><b>Python of geo_corrosion's environment</b>: the python executable.</p>")
 
     def initAlgorithm(self, config: Any = None) -> None:  # noqa: D102
         self.addParameter(QgsProcessingParameterFile(
-            "PYTHON", "Python of geo_corrosion's environment", optional=True))
+            "PYTHON", "Python of geo_corrosion's environment", optional=True,
+            fileFilter="All files (*)"))  # python has no extension outside Windows
         self.addOutput(QgsProcessingOutputString("PYTHON_PATH", "Python"))
         self.addOutput(QgsProcessingOutputString("VERSION", "geo_corrosion version"))
         self.addOutput(QgsProcessingOutputFolder("ENVIRONMENT", "Environment"))
