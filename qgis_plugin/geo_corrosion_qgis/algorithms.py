@@ -186,6 +186,7 @@ class _Loads(_Base):
         super().__init__()
         self._run_dir: Path | None = None
         self._load = False
+        self._results: dict[str, Any] = {}
 
     def add_load_parameter(self) -> None:
         """Add the parameter that says whether to load the run's layers."""
@@ -223,7 +224,8 @@ class _Loads(_Base):
         feedback.pushInfo(f"loaded {n} layers from {how}"
                           + (f"; reopened {reloaded} layers on the new files" if reloaded
                              else ""))
-        return {"LOADED_LAYERS": n}
+        # QGIS replaces the results of processAlgorithm by these when they are not empty
+        return {**self._results, "LOADED_LAYERS": n}
 
 
 class RunSite(_Loads):
@@ -267,7 +269,8 @@ class RunSite(_Loads):
             feedback.pushInfo(f"QA: {summary}")
         self._run_dir = out
         self._load = self.parameterAsBool(parameters, "LOAD", context)
-        return {"OUTPUT": str(out), "QA_SUMMARY": summary, **self.run_files(out)}
+        self._results = {"OUTPUT": str(out), "QA_SUMMARY": summary, **self.run_files(out)}
+        return self._results
 
 
 class RepriceRun(_Loads):
@@ -343,8 +346,9 @@ class RepriceRun(_Loads):
             feedback.pushInfo(line)
         self._run_dir = run_dir
         self._load = self.parameterAsBool(parameters, "LOAD", context)
-        return {"CHANGES": "\n".join(changes), "QA_SUMMARY": self.qa_summary(result),
-                **self.run_files(run_dir)}
+        self._results = {"CHANGES": "\n".join(changes), "QA_SUMMARY": self.qa_summary(result),
+                         **self.run_files(run_dir)}
+        return self._results
 
 
 class RebuildDocuments(_Base):
