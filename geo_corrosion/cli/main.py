@@ -8,6 +8,7 @@ from geo_corrosion.cli.commands.check import check
 from geo_corrosion.cli.commands.init import init
 from geo_corrosion.cli.commands.plugins import plugins
 from geo_corrosion.cli.commands.publish import publish
+from geo_corrosion.cli.commands.qgis_plugin import qgis_plugin
 from geo_corrosion.cli.commands.quantities import quantities
 from geo_corrosion.cli.commands.rebuild import map_cmd, report_cmd
 from geo_corrosion.cli.commands.reprice import reprice
@@ -39,7 +40,7 @@ def _show_versions(ctx: click.Context) -> None:
 
 
 for _command in (init, check, run, quantities, plugins, map_cmd, report_cmd, reprice,
-                 publish):
+                 publish, qgis_plugin):
     cli.add_command(_command)
 
 
