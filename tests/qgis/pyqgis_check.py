@@ -1,0 +1,171 @@
+"""Open a run folder with PyQGIS as a user would, and report what QGIS sees, as JSON.
+
+Run by Debian's ``/usr/bin/python3`` (PyQGIS), not by our venv:
+``python3 pyqgis_check.py RUN_DIR OUT_JSON [PNG LEVEL_ID]``.  It
+
+* opens every feature layer of ``survey.gpkg`` and loads its default style from the
+  ``layer_styles`` table, recording the renderer, its categories/ranges and the labels;
+* renders every layer alone to a small image and counts its colours;
+* reads ``survey.qgs``: groups, layers in order, validity, sources, snapping, editability;
+* with ``PNG LEVEL_ID``, renders the ticked layers of that level's group to ``PNG``.
+
+The verdicts are the test's (``test_qgis_styles.py``); this script only observes.
+"""
+
+from __future__ import annotations
+
+import json
+import sys
+from pathlib import Path
+
+from qgis.core import (  # type: ignore[import-not-found]
+    QgsApplication,
+    QgsCategorizedSymbolRenderer,
+    QgsGraduatedSymbolRenderer,
+    QgsLayerTreeGroup,
+    QgsLayerTreeLayer,
+    QgsMapRendererParallelJob,
+    QgsMapSettings,
+    QgsProject,
+    QgsProviderRegistry,
+    QgsRasterLayer,
+    QgsRectangle,
+    QgsSnappingConfig,
+    QgsVectorLayer,
+)
+from qgis.PyQt.QtCore import QSize  # type: ignore[import-not-found]
+from qgis.PyQt.QtGui import QColor, QImage  # type: ignore[import-not-found]
+
+
+def colours(img: QImage, step: int = 2) -> int:
+    """Return the number of distinct colours of an image (every ``step`` pixel)."""
+    seen = set()
+    for y in range(0, img.height(), step):
+        for x in range(0, img.width(), step):
+            seen.add(img.pixel(x, y))
+    return len(seen)
+
+
+def render(layers: list, extent: QgsRectangle, crs, size: tuple[int, int]) -> QImage:
+    """Render layers (top first) over white and return the image."""
+    ms = QgsMapSettings()
+    ms.setLayers(layers)
+    ms.setDestinationCrs(crs)
+    ms.setExtent(extent)
+    ms.setOutputSize(QSize(*size))
+    ms.setOutputDpi(110)
+    ms.setBackgroundColor(QColor(255, 255, 255))
+    ms.setFlag(QgsMapSettings.Antialiasing, True)
+    ms.setFlag(QgsMapSettings.DrawLabeling, True)
+    job = QgsMapRendererParallelJob(ms)
+    job.start()
+    job.waitForFinished()
+    return job.renderedImage()
+
+
+def gpkg_report(gpkg: Path) -> dict:
+    """Open each feature layer with its default style; render it alone."""
+    out: dict = {}
+    meta = QgsProviderRegistry.instance().providerMetadata("ogr")
+    for sub in meta.querySublayers(str(gpkg)):
+        name = sub.name()
+        lay = QgsVectorLayer(f"{gpkg}|layername={name}", name, "ogr")
+        if not lay.isValid() or not lay.isSpatial():
+            continue
+        msg, ok = lay.loadDefaultStyle()
+        r = lay.renderer()
+        rec: dict = {"style_loaded": bool(ok), "message": msg, "renderer": r.type(),
+                     "labels": bool(lay.labelsEnabled()), "features": lay.featureCount()}
+        if isinstance(r, QgsCategorizedSymbolRenderer):
+            rec["attr"] = r.classAttribute()
+            rec["categories"] = [[str(c.value()), c.label(), c.symbol().color().name().upper()]
+                                 for c in r.categories()]
+        if isinstance(r, QgsGraduatedSymbolRenderer):
+            rec["attr"] = r.classAttribute()
+            rec["ranges"] = [[x.lowerValue(), x.upperValue(), x.label(),
+                              x.symbol().color().name().upper()] for x in r.ranges()]
+        ext = lay.extent()
+        if not ext.isEmpty() or ext.width() > 0 or ext.height() > 0:
+            ext = QgsRectangle(ext)
+            ext.grow(max(ext.width(), ext.height(), 1.0) * 0.05)
+            img = render([lay], ext, lay.crs(), (240, 180))
+            rec["colours"] = colours(img, 1)
+        out[name] = rec
+    return out
+
+
+def tree_report(group: QgsLayerTreeGroup) -> list:
+    """Return the groups of a layer tree with their layers in order."""
+    out = []
+    for child in group.children():
+        if isinstance(child, QgsLayerTreeGroup):
+            layers = []
+            for node in child.children():
+                if isinstance(node, QgsLayerTreeLayer):
+                    lay = node.layer()
+                    layers.append({"id": node.layerId(), "name": node.name(),
+                                   "valid": bool(lay is not None and lay.isValid()),
+                                   "checked": node.isVisible(),
+                                   "source": lay.source() if lay is not None else "",
+                                   "type": "raster" if isinstance(lay, QgsRasterLayer)
+                                   else "vector",
+                                   "renderer": (lay.renderer().type() if isinstance(
+                                       lay, QgsVectorLayer) else lay.renderer().type())
+                                   if lay is not None else "",
+                                   "read_only": bool(lay.readOnly()) if lay else None})
+            out.append({"name": child.name(), "checked": child.isVisible(),
+                        "level": child.customProperty("geo_corrosion/level"),
+                        "layers": layers})
+    return out
+
+
+def main() -> None:
+    """Observe a run folder with PyQGIS and write the JSON report."""
+    run, dest = Path(sys.argv[1]), Path(sys.argv[2])
+    QgsApplication.setPrefixPath("/usr", True)
+    app = QgsApplication([], False)
+    app.initQgis()
+    rep: dict = {"gpkg": gpkg_report(run / "survey.gpkg")}
+    proj = QgsProject.instance()
+    rep["project_read"] = bool(proj.read(str(run / "survey.qgs")))
+    rep["crs"] = proj.crs().authid()
+    rep["groups"] = tree_report(proj.layerTreeRoot())
+    snap = proj.snappingConfig()
+    rep["snapping"] = {"enabled": snap.enabled(),
+                       "mode": int(snap.mode()),
+                       "layers": {lay.id(): {"enabled": s.enabled(),
+                                             "tolerance": s.tolerance(),
+                                             "units": int(s.units()),
+                                             "vertex": bool(int(s.typeFlag())
+                                                            & int(QgsSnappingConfig.VertexFlag))}
+                                  for lay, s in snap.individualLayerSettings().items()
+                                  if s.enabled()}}
+    editable = {}
+    for lay in proj.mapLayers().values():
+        if isinstance(lay, QgsVectorLayer):
+            editable[lay.id()] = bool(lay.startEditing())
+            lay.rollBack()
+    rep["editable"] = editable
+    dest.write_text(json.dumps(rep, indent=1), encoding="utf-8")
+    if len(sys.argv) > 4:
+        png, lid = sys.argv[3], sys.argv[4]
+        group = next(g for g in proj.layerTreeRoot().children()
+                     if isinstance(g, QgsLayerTreeGroup)
+                     and g.customProperty("geo_corrosion/level") == lid)
+        layers = [n.layer() for n in group.findLayers()
+                  if n.itemVisibilityChecked() and n.layer() is not None]
+        slab = next(lay for lay in layers if lay.id() == f"gclayer_{lid}_slab")
+        ext = QgsRectangle(slab.extent())
+        ext.grow(max(ext.width(), ext.height()) * 0.03)
+        w = 1800
+        h = int(w * ext.height() / ext.width()) if ext.width() > 0 else w
+        img = render(layers, ext, proj.crs(), (w, max(min(h, 2400), 400)))
+        img.save(png)
+        rep["render"] = {"png": png, "layers": [lay.name() for lay in layers],
+                         "colours": colours(img), "size": [img.width(), img.height()]}
+    dest.write_text(json.dumps(rep, indent=1), encoding="utf-8")
+    app.exitQgis()
+
+
+if __name__ == "__main__":
+    main()
