@@ -246,6 +246,9 @@ def project_xml(result: RunResult, out_dir: Path,
     props = ET.SubElement(root, "properties")
     paths = ET.SubElement(props, "Paths")
     ET.SubElement(paths, "Absolute", type="bool").text = "false"
+    if crs is not None:  # QGIS 3.22 reads <projectCrs> only with this entry set
+        srs = ET.SubElement(props, "SpatialRefSys")
+        ET.SubElement(srs, "ProjectionsEnabled", type="int").text = "1"
     ET.indent(root)
     return ("<!DOCTYPE qgis PUBLIC 'http://mrcc.com/qgis.dtd' 'SYSTEM'>\n"
             + ET.tostring(root, encoding="unicode"))
