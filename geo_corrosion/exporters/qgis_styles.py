@@ -154,6 +154,8 @@ class Labels:
     size_pt: float = 8.0
     color: str = "#000000"
     buffer: str = "#FFFFFF"
+    priority: int = 5  # 0 (lowest) to 10: which labels QGIS places first where they collide
+    bold: bool = False
 
 
 @dataclass
@@ -274,7 +276,8 @@ def _qml_labeling(lab: Labels) -> ET.Element:
     s = ET.SubElement(el, "settings", calloutType="simple")
     ts = ET.SubElement(s, "text-style", {
         "fieldName": lab.expression, "isExpression": "1", "fontSize": _num(lab.size_pt),
-        "fontSizeUnit": "Point", "textColor": _rgba(lab.color), "fontWeight": "50",
+        "fontSizeUnit": "Point", "textColor": _rgba(lab.color),
+        "fontWeight": "75" if lab.bold else "50",
         "textOpacity": "1", "multilineHeight": "1", "namedStyle": "", "fontItalic": "0"})
     ET.SubElement(ts, "text-buffer", {"bufferDraw": "1", "bufferSize": "0.8",
                                       "bufferSizeUnits": "MM",
@@ -288,14 +291,15 @@ def _qml_labeling(lab: Labels) -> ET.Element:
                                        "maxCurvedCharAngleIn": "25",
                                        "maxCurvedCharAngleOut": "-25",
                                        "overrunDistance": "0", "dist": "0",
-                                       "distUnits": "MM", "priority": "5"})
+                                       "distUnits": "MM", "priority": str(lab.priority)})
     elif lab.placement == "polygon":  # horizontal, inside the polygon
         ET.SubElement(s, "placement", {"placement": "1", "centroidInside": "1",
                                        "centroidWhole": "0", "fitInPolygonOnly": "0",
-                                       "priority": "6", "dist": "0", "distUnits": "MM"})
+                                       "priority": str(lab.priority), "dist": "0",
+                                       "distUnits": "MM"})
     else:  # around the point
         ET.SubElement(s, "placement", {"placement": "0", "dist": "1", "distUnits": "MM",
-                                       "priority": "5"})
+                                       "priority": str(lab.priority)})
     ET.SubElement(s, "rendering", {"drawLabels": "1", "obstacle": "1",
                                    "upsidedownLabels": "0", "displayAll": "0",
                                    "labelPerPart": "0", "mergeLines": "0",
@@ -689,7 +693,7 @@ def _spec(lay: _Layer, level: str, what: str, level_titles: dict[str, str],
                             else OVERLAY["exclusion"])
         brush = {"spall": "f_diagonal", "patch": "horizontal"}.get(kind, "b_diagonal")
         sym = _line(color, 0.5) if geom == "line" else _hatch(color, brush, 0.4)
-        labels = (Labels('"number"', "number", "polygon", 7.0, color)
+        labels = (Labels('"number"', "number", "polygon", 6.5, color, priority=3)
                   if "number" in lay.columns else None)
         return StyleSpec(name, t(f"{term(kind)} (sounding)"), geom, symbol=sym, labels=labels)
     if what.startswith("contours_"):
@@ -732,8 +736,8 @@ def _spec(lay: _Layer, level: str, what: str, level_titles: dict[str, str],
             title = term(cs_name, title)
         return StyleSpec(name, t(title), geom, "categorized", attr="class_code",
                          sld_attr="class_code",
-                         categories=[Category(str(c), lab, _fill(col, "#FFFFFF" if thiessen
-                                                                   else col, 0.1))
+                         categories=[Category(str(c), lab, _fill(col, "#FFFFFF", 0.1 if thiessen
+                                                                   else 0.0))
                                      for c, lab, col in ccats], opacity=0.9)
     if what.startswith("points_"):
         kind = what[len("points_"):]
@@ -783,7 +787,7 @@ def _spec(lay: _Layer, level: str, what: str, level_titles: dict[str, str],
                         for r in krow), key=lambda r: -order.index(r[2]))
         return StyleSpec(name, t("Combined condition"), geom, "categorized", attr="class_key",
                          sld_attr="class_key",
-                         categories=[Category(k, lab, _fill(col, col, 0.1))
+                         categories=[Category(k, lab, _fill(col))
                                      for k, lab, col in kcats], opacity=0.9)
     if what == "zones":
         zrow = sorted(lay.distinct("order", "zone"), key=lambda r: (r[0] is None, r[0] or 0))
@@ -796,7 +800,7 @@ def _spec(lay: _Layer, level: str, what: str, level_titles: dict[str, str],
                 col = ZONE_COLORS[i % len(ZONE_COLORS)]
                 i += 1
             zcats.append(Category(str(z), term(str(z), str(z)),
-                                 _hatch(col, "no", 0.8 if col != NO_ACTION_COLOR else 0.4,
+                                 _hatch(col, "no", 0.5 if col != NO_ACTION_COLOR else 0.3,
                                         "dash")))
         return StyleSpec(name, t("Zones"), geom, "categorized", attr="zone", sld_attr="zone",
                          categories=zcats)
@@ -808,7 +812,7 @@ def _spec(lay: _Layer, level: str, what: str, level_titles: dict[str, str],
         keys = [k for k in depth if k in present] + [k for k in present if k not in depth]
         expr = ('"repair_id"' if "dimensions" not in lay.columns
                 else '"repair_id" || \'\\n\' || coalesce("dimensions", \'\')')
-        labels = Labels(expr, "repair_id", "polygon", 7.0, OVERLAY["repair"])
+        labels = Labels(expr, "repair_id", "polygon", 7.5, "#004D38", priority=10, bold=True)
         if not keys:
             return StyleSpec(name, t("Repairs"), geom,
                              symbol=_hatch(OVERLAY["repair"], "b_diagonal", 0.6), labels=labels)
@@ -818,7 +822,7 @@ def _spec(lay: _Layer, level: str, what: str, level_titles: dict[str, str],
                                               _hatch(OVERLAY["repair"], depth.get(k, "cross"),
                                                      0.6)) for k in keys], labels=labels)
     if what == "pay_areas":
-        lab = Labels('"bay"', "bay", "polygon", 6.5, OVERLAY["repair"]) if (
+        lab = Labels('"bay"', "bay", "polygon", 6.0, OVERLAY["repair"], priority=1) if (
             "bay" in lay.columns) else None
         return StyleSpec(name, t("Pay areas (bays treated)"), geom,
                          symbol=_hatch(OVERLAY["repair"], "no", 0.5, "dash"), labels=lab)
@@ -979,8 +983,9 @@ def write_layer_styles(gpkg: str | Path, result: RunResult) -> dict[str, StyleSp
 
     path = Path(gpkg)
     try:
+        have = {str(n) for n, _t in pyogrio.list_layers(path)} if path.exists() else set()
         for name, gdf in grid_layers(result).items():
-            if len(gdf):
+            if len(gdf) and name not in have:  # written once (a second call keeps it)
                 pyogrio.write_dataframe(gdf, path, layer=name, driver="GPKG",
                                         append=path.exists())
         specs = layer_specs(path, result)

@@ -15,6 +15,7 @@ The verdicts are the test's (``test_qgis_styles.py``); this script only observes
 from __future__ import annotations
 
 import json
+import shutil
 import sys
 from pathlib import Path
 
@@ -26,11 +27,13 @@ from qgis.core import (  # type: ignore[import-not-found]
     QgsLayerTreeLayer,
     QgsMapRendererParallelJob,
     QgsMapSettings,
+    QgsPointXY,
     QgsProject,
     QgsProviderRegistry,
     QgsRasterLayer,
     QgsRectangle,
     QgsSnappingConfig,
+    QgsSnappingUtils,
     QgsVectorLayer,
 )
 from qgis.PyQt.QtCore import QSize  # type: ignore[import-not-found]
@@ -119,6 +122,77 @@ def tree_report(group: QgsLayerTreeGroup) -> list:
     return out
 
 
+def snap_probe(proj: QgsProject) -> dict:
+    """Snap a point a little off a survey-grid node, as the vertex tool does when editing.
+
+    The map shows the first level's ticked layers at 1:200; the point is 0.3 x the snapping
+    tolerance off a node of its ``<level>_grid`` layer, away from every repair.
+    """
+    grids = [lay for lay in proj.mapLayers().values() if lay.id().endswith("_grid")]
+    if not grids:
+        return {}
+    grid = sorted(grids, key=lambda lay: lay.id())[0]
+    tol = proj.snappingConfig().individualLayerSettings()[grid].tolerance()
+    repairs = [lay for lay in proj.mapLayers().values() if lay.id().endswith("_repairs")]
+    group = proj.layerTreeRoot().findLayer(grid.id()).parent()
+    outlines = [rf.geometry() for rl in repairs for rf in rl.getFeatures()]
+    node = None
+    for f in grid.getFeatures():
+        if all(g.distance(f.geometry()) >= 3 * tol for g in outlines):
+            node = f.geometry().asPoint()
+            break
+    if node is None:
+        return {}
+    ms = QgsMapSettings()
+    ms.setLayers([n.layer() for n in group.findLayers() if n.itemVisibilityChecked()])
+    ms.setDestinationCrs(proj.crs())
+    ext = QgsRectangle(node.x() - 10, node.y() - 10, node.x() + 10, node.y() + 10)
+    ms.setExtent(ext)
+    ms.setOutputSize(QSize(800, 800))
+    utils = QgsSnappingUtils()
+    utils.setMapSettings(ms)
+    utils.setConfig(proj.snappingConfig())
+    utils.setEnableSnappingForInvisibleFeature(True)
+    probe = QgsPointXY(node.x() + 0.3 * tol * 0.6, node.y() + 0.3 * tol * 0.8)
+    m = utils.snapToMap(probe)
+    return {"node": [node.x(), node.y()], "probe": [probe.x(), probe.y()],
+            "tolerance": tol, "valid": m.isValid(),
+            "layer": m.layer().id() if m.isValid() and m.layer() else "",
+            "snapped": [m.point().x(), m.point().y()] if m.isValid() else None}
+
+
+def edit_probe(run: Path, work: Path) -> dict:
+    """Edit a copy of the run as a user would: move a repair corner by one grid spacing.
+
+    Copies ``survey.gpkg`` and ``survey.qgs`` to ``work``, opens the project, moves the first
+    vertex of the first repair of the first level one survey-grid spacing east (the distance
+    between two ``<level>_grid`` nodes) and saves the layer edits.
+    """
+    work.mkdir(parents=True, exist_ok=True)
+    for name in ("survey.gpkg", "survey.qgs"):
+        shutil.copyfile(run / name, work / name)
+    proj = QgsProject()
+    proj.read(str(work / "survey.qgs"))
+    repairs = sorted((lay for lay in proj.mapLayers().values()
+                      if lay.id().endswith("_repairs")), key=lambda lay: lay.id())
+    grids = sorted((lay for lay in proj.mapLayers().values() if lay.id().endswith("_grid")),
+                   key=lambda lay: lay.id())
+    if not repairs or not grids:
+        return {}
+    lay = repairs[0]
+    pts = [f.geometry().asPoint() for f in grids[0].getFeatures()]
+    step = min(p.distance(pts[0]) for p in pts[1:] if p.distance(pts[0]) > 1e-6)
+    started = lay.startEditing()
+    f = next(lay.getFeatures())
+    v = f.geometry().vertexAt(0)
+    moved = lay.moveVertex(v.x() + step, v.y(), f.id(), 0)
+    committed = lay.commitChanges()
+    return {"layer": lay.id(), "gpkg": str(work / "survey.gpkg"),
+            "repair_id": f["repair_id"], "started": started, "moved": moved,
+            "committed": committed, "errors": lay.commitErrors(),
+            "from": [v.x(), v.y()], "to": [v.x() + step, v.y()], "step": step}
+
+
 def main() -> None:
     """Observe a run folder with PyQGIS and write the JSON report."""
     run, dest = Path(sys.argv[1]), Path(sys.argv[2])
@@ -140,12 +214,10 @@ def main() -> None:
                                                             & int(QgsSnappingConfig.VertexFlag))}
                                   for lay, s in snap.individualLayerSettings().items()
                                   if s.enabled()}}
-    editable = {}
-    for lay in proj.mapLayers().values():
-        if isinstance(lay, QgsVectorLayer):
-            editable[lay.id()] = bool(lay.startEditing())
-            lay.rollBack()
-    rep["editable"] = editable
+    rep["editable"] = {lay.id(): not lay.readOnly() for lay in proj.mapLayers().values()
+                       if isinstance(lay, QgsVectorLayer)}
+    rep["snap_probe"] = snap_probe(proj)
+    rep["edit"] = edit_probe(run, dest.parent / "edited")
     dest.write_text(json.dumps(rep, indent=1), encoding="utf-8")
     if len(sys.argv) > 4:
         png, lid = sys.argv[3], sys.argv[4]

@@ -124,3 +124,39 @@ def test_sample_site_level_l2(sample_run: Path, has_qgis: bool, tmp_path: Path) 
     dest = REPO / "docs" / "images" / "qgis_level_L2.png"
     dest.parent.mkdir(parents=True, exist_ok=True)
     shutil.copyfile(png, dest)
+
+
+def test_snapping_to_the_survey_grid(synthetic_qgis: dict[str, Any]) -> None:
+    """QGIS's snapping (QgsSnappingUtils, the project's config) pulls a point to a grid node."""
+    s = synthetic_qgis["snap_probe"]
+    assert s["valid"] and s["layer"] == "gclayer_D1_grid"
+    assert s["snapped"] == pytest.approx(s["node"], abs=1e-6)
+    assert s["probe"] != pytest.approx(s["node"], abs=1e-3)  # it did move the point
+
+
+def test_a_repair_edited_in_qgis_is_read_back(synthetic_qgis: dict[str, Any],
+                                              synthetic_run: Path) -> None:
+    """A repair corner moved and saved in QGIS: the GeoPackage holds it, styles kept."""
+    import pyogrio
+    import shapely
+
+    from geo_corrosion.exporters.built_from import repair_checksums
+
+    e = synthetic_qgis["edit"]
+    assert e["started"] and e["moved"] and e["committed"], e["errors"]
+    # one survey-grid spacing: 2 ft of the synthetic site, in metres (hand computation)
+    assert e["step"] == pytest.approx(2 * 0.3048, abs=1e-6)
+    edited = Path(e["gpkg"])
+    df = pyogrio.read_dataframe(edited, layer="D1_repairs")
+    row = df[df["repair_id"] == e["repair_id"]].iloc[0]
+    xy = shapely.get_coordinates(row.geometry)
+    assert min(abs(x - e["to"][0]) + abs(y - e["to"][1]) for x, y in xy) < 1e-6
+    con = sqlite3.connect(edited)
+    try:
+        n = con.execute("SELECT count(*) FROM layer_styles WHERE styleName = ?",
+                        (STYLE_NAME,)).fetchone()[0]
+    finally:
+        con.close()
+    assert n == len(synthetic_qgis["gpkg"])
+    # the run's record of what the documents were built from sees the edit (built_from.py)
+    assert repair_checksums(edited) != repair_checksums(synthetic_run / "survey.gpkg")
