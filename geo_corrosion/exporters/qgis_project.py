@@ -265,9 +265,9 @@ def _maplayer(e: _Entry, crs: Any) -> ET.Element:
         ml = ET.Element("maplayer", {"type": "vector", "geometry": geom,
                                      **qml_root_attrs(e.spec)})
         ml.set("readOnly", "0" if e.editable else "1")
-        if e.grid_tolerance > 0:  # the grid nodes show when zoomed in (1:500 and closer)
+        if e.grid_tolerance > 0:  # the grid nodes show when zoomed in (1:150 and closer)
             ml.set("hasScaleBasedVisibilityFlag", "1")
-            ml.set("minScale", "500")
+            ml.set("minScale", "150")
     ET.SubElement(ml, "id").text = e.id
     ET.SubElement(ml, "datasource").text = e.source
     ET.SubElement(ml, "layername").text = e.name

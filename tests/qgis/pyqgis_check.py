@@ -15,6 +15,7 @@ The verdicts are the test's (``test_qgis_styles.py``); this script only observes
 from __future__ import annotations
 
 import json
+import os
 import shutil
 import sys
 from pathlib import Path
@@ -93,6 +94,8 @@ def gpkg_report(gpkg: Path) -> dict:
             ext.grow(max(ext.width(), ext.height(), 1.0) * 0.05)
             img = render([lay], ext, lay.crs(), (240, 180))
             rec["colours"] = colours(img, 1)
+            if os.environ.get("GC_QGIS_LAYER_PNGS"):  # for a person to look at
+                img.save(str(Path(os.environ["GC_QGIS_LAYER_PNGS"]) / f"{name}.png"))
         out[name] = rec
     return out
 
