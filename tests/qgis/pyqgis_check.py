@@ -17,6 +17,7 @@ from __future__ import annotations
 import json
 import os
 import shutil
+import sqlite3
 import sys
 from pathlib import Path
 
@@ -70,6 +71,10 @@ def render(layers: list, extent: QgsRectangle, crs, size: tuple[int, int]) -> QI
 def gpkg_report(gpkg: Path) -> dict:
     """Open each feature layer with its default style; render it alone."""
     out: dict = {}
+    con = sqlite3.connect(gpkg)
+    sld_styles = dict(con.execute("SELECT f_table_name, styleSLD FROM layer_styles "
+                                  "WHERE useAsDefault").fetchall())
+    con.close()
     meta = QgsProviderRegistry.instance().providerMetadata("ogr")
     for sub in meta.querySublayers(str(gpkg)):
         name = sub.name()
@@ -88,6 +93,18 @@ def gpkg_report(gpkg: Path) -> dict:
             rec["attr"] = r.classAttribute()
             rec["ranges"] = [[x.lowerValue(), x.upperValue(), x.label(),
                               x.symbol().color().name().upper()] for x in r.ranges()]
+        sld = sld_styles.get(name)
+        if sld:  # QGIS as a reader of our SLD: a fresh layer styled from it alone
+            path = Path(os.environ.get("HOME", "/tmp")) / f"gc_sld_{name}.sld"
+            path.write_text(sld, encoding="utf-8")
+            other = QgsVectorLayer(f"{gpkg}|layername={name}", name, "ogr")
+            smsg, sok = other.loadSldStyle(str(path))
+            path.unlink()
+            rules = (other.renderer().rootRule().children()
+                     if other.renderer().type() == "RuleRenderer" else [])
+            rec["sld"] = {"loaded": bool(sok), "message": smsg,
+                          "renderer": other.renderer().type(), "rules": len(rules),
+                          "labels": bool(other.labelsEnabled())}
         ext = lay.extent()
         if not ext.isEmpty() or ext.width() > 0 or ext.height() > 0:
             ext = QgsRectangle(ext)

@@ -57,6 +57,22 @@ def test_every_layer_opens_with_its_default_style(synthetic_qgis: dict[str, Any]
         assert seen[name]["labels"], name
 
 
+def test_qgis_reads_our_sld(synthetic_qgis: dict[str, Any]) -> None:
+    """QGIS as an SLD reader: a layer styled from the SLD alone has a rule per class/range.
+
+    QGIS turns SLD rules into its rule-based renderer and a ``TextSymbolizer`` into labels;
+    so every categorised or graduated style gives as many rules as it has classes, and the
+    layers labelled by the QML are labelled by the SLD too.
+    """
+    for name, rec in synthetic_qgis["gpkg"].items():
+        sld = rec["sld"]
+        assert sld["loaded"], (name, sld["message"])
+        n = len(rec.get("categories", rec.get("ranges", [])))
+        if n:
+            assert (sld["renderer"], sld["rules"]) == ("RuleRenderer", n), name
+        assert sld["labels"] == rec["labels"], name
+
+
 def test_class_categories_match_the_report(synthetic_qgis: dict[str, Any]) -> None:
     """The class layer's categories in QGIS: codes, report labels, web-map colours."""
     for layer, cs_name in (("D1_classes_potential", "c876"),
