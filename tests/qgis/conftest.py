@@ -100,3 +100,16 @@ def synthetic_qgis(synthetic_run: Path, has_qgis: bool,
         pytest.skip(NO_QGIS)
     tmp = tmp_path_factory.mktemp("qgis_profile")
     return observe(synthetic_run, tmp, tmp / "level.png", "D1")
+
+
+@pytest.fixture(scope="session")
+def sparse_run(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    """The synthetic site with a sparse corrosion-rate survey and an expansion joint."""
+    from geo_corrosion import pipeline
+    from geo_corrosion.testing import make_synthetic_site
+
+    root = tmp_path_factory.mktemp("qgis_sparse")
+    site = make_synthetic_site(root / "site", sparse_readings=18, joint_type="expansion")
+    out = root / "run"
+    pipeline.run(site, out, exporters=GIS_EXPORTERS)
+    return out

@@ -169,3 +169,28 @@ def test_raster_styles_beside_the_rasters(synthetic_run: Path) -> None:
         cols = [i.get("color") for i in rr.iter("item")]
         if tif.stem == "D1_potential":  # more negative is worse: dark at the low end
             assert cols == [c.lower() for c in SEVERITY_RAMP[::-1]]
+
+
+def test_sparse_points_cells_and_joints(sparse_run: Path) -> None:
+    """Classed points, their cells and joints: categories from the palette and class set."""
+    from geo_corrosion.exporters.webmap.palette import OVERLAY, point_class_colors
+
+    styles = _styles(sparse_run)
+    cs = CLASS_SETS["rilem_rate"]  # the corrosion-rate kind's class set
+    sld = ET.fromstring(styles["D1_points_corrosion_rate"][1].split("\n", 1)[1])
+    got = [(r.findtext(f"{OGC}Filter/{OGC}PropertyIsEqualTo/{OGC}Literal"),
+            r.findtext(f"{SE}Description/{SE}Title"),
+            r.findtext(f".//{SE}Mark/{SE}Fill/{SE}SvgParameter"))
+           for r in sld.iter(f"{SE}Rule")]
+    # the web map's point colours (palette.point_class_colors), one per class of the set
+    assert got == [(str(i), class_label("rilem_rate", k), c)
+                   for i, (k, c) in enumerate(zip(cs.keys, point_class_colors(len(cs.keys)),
+                                                  strict=True))]
+    cells = ET.fromstring(styles["D1_thiessen_corrosion_rate"][1].split("\n", 1)[1])
+    assert [r.findtext(f"{SE}Description/{SE}Title") for r in cells.iter(f"{SE}Rule")] == [
+        class_label("rilem_rate", k) for k in cs.keys]
+    joints = ET.fromstring(styles["D1_joints"][1].split("\n", 1)[1])
+    strokes = {r.findtext(f"{OGC}Filter/{OGC}PropertyIsEqualTo/{OGC}Literal"):
+               r.findtext(f".//{SE}Stroke/{SE}SvgParameter[@name='stroke']")
+               for r in joints.iter(f"{SE}Rule")}
+    assert strokes == {"1": OVERLAY["joint_break"], "0": OVERLAY["joint"]}  # palette.OVERLAY
