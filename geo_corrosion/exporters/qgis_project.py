@@ -165,7 +165,8 @@ def _entries(result: RunResult, out_dir: Path,
                 e.grid_tolerance = 0.45 * grid_spacing_m(result, lid) / m_per_unit
             ents.append(e)
         for name, spec in site_wide.items():  # readings and QA findings of this level
-            sub = f"\"level_id\" = '{lid}'"
+            quoted = lid.replace("'", "''")
+            sub = f"\"level_id\" = '{quoted}'"
             ents.append(_Entry(f"gclayer_{lid}_{name}", spec.title, "vector",
                                f"./{GPKG_NAME}|layername={name}|subset={sub}", "ogr",
                                layer_section(name), _checked(name, first_kind), spec))

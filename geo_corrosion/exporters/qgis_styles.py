@@ -986,8 +986,11 @@ def write_layer_styles(gpkg: str | Path, result: RunResult) -> dict[str, StyleSp
         have = {str(n) for n, _t in pyogrio.list_layers(path)} if path.exists() else set()
         for name, gdf in grid_layers(result).items():
             if len(gdf) and name not in have:  # written once (a second call keeps it)
-                pyogrio.write_dataframe(gdf, path, layer=name, driver="GPKG",
-                                        append=path.exists())
+                try:
+                    pyogrio.write_dataframe(gdf, path, layer=name, driver="GPKG",
+                                            append=path.exists())
+                except Exception as err:  # pyogrio raises its own errors
+                    raise ExportError(f"cannot write layer {name!r} to {path}: {err}") from err
         specs = layer_specs(path, result)
         con = sqlite3.connect(path)
         try:
@@ -1085,9 +1088,13 @@ def raster_styles(result: RunResult, rasters: Iterable[Path]) -> dict[Path, tupl
         lid, what = split_level(tif.stem, levels)
         if not lid:
             continue
-        with rasterio.open(tif) as src:
-            a = src.read(1, masked=True).filled(np.nan).astype(float)
-            unit = (src.units or ("",))[0] or ""
+        try:
+            with rasterio.open(tif) as src:
+                a = src.read(1, masked=True).astype(float).filled(np.nan)
+                unit = (src.units or ("",))[0] or ""
+        except rasterio.errors.RasterioError as err:
+            raise ExportError(f"{tif}: cannot be read for its style ({err}); run the "
+                              "geotiff exporter again") from err
         if what.endswith("_variance"):
             kind = what[:-len("_variance")]
             title = f"{_kind_label(kind)}: kriging variance ({unit_label(unit)})"
