@@ -10,6 +10,7 @@ import pyogrio
 from geo_corrosion.errors import ExportError
 from geo_corrosion.exporters.base import Exporter
 from geo_corrosion.exporters.layers import site_layers
+from geo_corrosion.exporters.qgis_styles import write_layer_styles
 
 if TYPE_CHECKING:
     from geo_corrosion.model.results import RunResult
@@ -40,4 +41,6 @@ class GeoPackageExporter(Exporter):
                                         append=path.exists())
             except Exception as err:
                 raise ExportError(f"cannot write layer {name!r} to {path}: {err}") from err
+        if path.exists():  # the survey grid and a default style of every layer (#15)
+            write_layer_styles(path, result)
         return [path]

@@ -40,12 +40,11 @@ from geo_corrosion.exporters.webmap.app import APP_CSS, APP_JS
 from geo_corrosion.exporters.webmap.assets import LEAFLET_VERSION, leaflet_assets
 from geo_corrosion.exporters.webmap.labels import term, unit_label, word
 from geo_corrosion.exporters.webmap.palette import (
-    CLASS_RANK,
     NO_ACTION_COLOR,
     OVERLAY,
     SEVERITY_RAMP,
     ZONE_COLORS,
-    class_colors,
+    class_ramp,
     hex_color,
     point_class_colors,
     ramp_colors,
@@ -339,18 +338,10 @@ def _class_palette(cls: gpd.GeoDataFrame) -> dict[str, str]:
     vermilion and purple (severe); their rank gives the order.  A class set the map does
     not know keeps the order of its class codes.
     """
-    from geo_corrosion.condition.classes import CLASS_SETS
-
     name = str(cls["class_set"].iloc[0]) if "class_set" in cls.columns else ""
-    cs = CLASS_SETS.get(name)
     present = [str(c).upper() for c in cls.get("color", [])]
-    colours = [c.upper() for c in cs.colors] if cs is not None else present
-    if "class_code" in cls.columns and cs is None:
-        order = dict(zip(present, cls["class_code"], strict=True))
-        colours = sorted(dict.fromkeys(present), key=lambda c: order[c])
-    uniq = list(dict.fromkeys(colours))
-    ranked = sorted(uniq, key=lambda c: (CLASS_RANK.get(c, 99), uniq.index(c)))
-    return dict(zip(ranked, class_colors(len(ranked)), strict=True))
+    codes = list(cls["class_code"]) if "class_code" in cls.columns else None
+    return class_ramp(name, present, codes)
 
 
 

@@ -16,7 +16,7 @@ from __future__ import annotations
 import numpy as np
 
 __all__ = ["CLASS_RANK", "NO_ACTION_COLOR", "OVERLAY", "READING_COLORS", "SEVERITY_RAMP",
-           "POINT_CLASS_COLORS", "ZONE_COLORS", "class_colors", "hex_color",
+           "POINT_CLASS_COLORS", "ZONE_COLORS", "class_colors", "class_ramp", "hex_color",
            "point_class_colors", "ramp_colors", "reading_color"]
 
 #: Our sequential palette, light (least severe) to dark (most severe).
@@ -76,3 +76,39 @@ def point_class_colors(n: int) -> list[str]:
     if n == 1:
         idx = np.array([2])
     return [POINT_CLASS_COLORS[min(i, len(POINT_CLASS_COLORS) - 1)] for i in idx]
+
+
+def class_ramp(class_set: str, present: list[str],
+               codes: list[int] | None = None) -> dict[str, str]:
+    """Map a class layer's colours onto the ramp, least severe to most severe.
+
+    The class set's own colours (``condition/classes.py``) run from blue (benign) to
+    vermilion and purple (severe); their rank gives the order.  A class set not in
+    ``CLASS_SETS`` (a combined-condition table, a user's set) keeps the order of its class
+    ``codes`` where given, else of :data:`CLASS_RANK`.
+
+    Parameters
+    ----------
+    class_set : str
+        Name of the class set (``""`` for none).
+    present : list of str
+        The colours of the layer's classes (``#RRGGBB``, one per feature).
+    codes : list of int, optional
+        The class code of each feature (same order as ``present``).
+
+    Returns
+    -------
+    dict of str to str
+        Class-set colour (upper case) -> map colour.
+    """
+    from geo_corrosion.condition.classes import CLASS_SETS
+
+    cs = CLASS_SETS.get(class_set)
+    present = [str(c).upper() for c in present]
+    colours = [c.upper() for c in cs.colors] if cs is not None else present
+    if codes is not None and cs is None:
+        order = dict(zip(present, codes, strict=True))
+        colours = sorted(dict.fromkeys(present), key=lambda c: order[c])
+    uniq = list(dict.fromkeys(colours))
+    ranked = sorted(uniq, key=lambda c: (CLASS_RANK.get(c, 99), uniq.index(c)))
+    return dict(zip(ranked, class_colors(len(ranked)), strict=True))
