@@ -289,7 +289,8 @@ def _one_blas_thread() -> AbstractContextManager[object]:
     """Limit BLAS to one thread in a block (threadpoolctl), or do nothing without it.
 
     The eigendecomposition of :func:`_sqrt_corr` ran about 19 times slower with two BLAS
-    threads than with one on a loaded two-core machine (issue 16).
+    threads than with one on a loaded two-core machine (issue 16), and the draws' matrix
+    products gave the same bits, faster, on one thread (``benchmarks/README.md``).
     """
     try:
         from threadpoolctl import threadpool_limits
@@ -403,14 +404,15 @@ def area_interval(
     rng = np.random.default_rng(seed)
     areas = np.empty(n_draws)
     done = 0
-    while done < n_draws:
-        k = min(batch, n_draws - done)
-        eps = correlated_unit_field(m.shape, (float(dx), float(dy)), correlation_length,
-                                    model=model, n_draws=k, rng=rng)
-        z = mm[None] + sd[None] * eps
-        hit = (z < t) if direction == "below" else (z > t)
-        areas[done:done + k] = np.sum(hit & valid[None], axis=(1, 2)) * cell_area
-        done += k
+    with _one_blas_thread():  # the products A_y E A_x^T too: faster on one thread, same bits
+        while done < n_draws:
+            k = min(batch, n_draws - done)
+            eps = correlated_unit_field(m.shape, (float(dx), float(dy)), correlation_length,
+                                        model=model, n_draws=k, rng=rng)
+            z = mm[None] + sd[None] * eps
+            hit = (z < t) if direction == "below" else (z > t)
+            areas[done:done + k] = np.sum(hit & valid[None], axis=(1, 2)) * cell_area
+            done += k
     a = (1.0 - level) / 2.0
     lo, hi = np.quantile(areas, [a, 1.0 - a])
     method = (
