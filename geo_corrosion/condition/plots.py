@@ -60,6 +60,9 @@ def _figure(width_in: float = 7.0, height_in: float = 5.0) -> Figure:
 def _finish(fig: Figure, path: str | os.PathLike[str], dpi: int, bottom: float = 0.03) -> Path:
     fig.text(0.01, 0.005, CAUTION, fontsize=7, color="#444444", ha="left", va="bottom")
     fig.tight_layout(rect=(0.0, bottom, 1.0, 1.0))
+    # the layout is fixed now: without this, tight_layout leaves a placeholder layout engine
+    # and savefig lays out every text once more before drawing (a third pass; same pixels)
+    fig.set_layout_engine(None)
     out = Path(path)
     if out.suffix.lower() != ".png":
         raise ExportError(f"{out}: figures are written as PNG; give a path ending in .png")

@@ -38,7 +38,6 @@ from dataclasses import dataclass
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy import stats
 
 from geo_corrosion.errors import ConditionError
 
@@ -112,6 +111,8 @@ def cumulative_frequency(potential_mv: ArrayLike) -> CumulativeFrequency:
     n = v.size
     if n == 0:
         raise ConditionError("no finite potential readings to build a cumulative frequency from")
+    from scipy import stats  # here, not at the top: `geo-corrosion check` starts faster
+
     rank = np.arange(1, n + 1, dtype=np.int64)
     frac = rank / (n + 1.0)
     return CumulativeFrequency(v, rank, frac, stats.norm.ppf(frac))
@@ -180,6 +181,8 @@ class MixtureThreshold:
 
     def density(self, x_mv: ArrayLike) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
         """Weighted component densities (active, passive) at ``x_mv``, per mV."""
+        from scipy import stats
+
         x = np.asarray(x_mv, dtype=float)
         da = self.active_weight * stats.norm.pdf(x, self.active_mean_mv, self.active_std_mv)
         dp = self.passive_weight * stats.norm.pdf(x, self.passive_mean_mv, self.passive_std_mv)

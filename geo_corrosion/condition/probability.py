@@ -63,11 +63,12 @@ Intervals by conditional simulation (the default)
 
 from __future__ import annotations
 
+from contextlib import AbstractContextManager, nullcontext
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy import stats
 
 from geo_corrosion.condition.classes import ClassSet
 from geo_corrosion.errors import ConditionError
@@ -157,6 +158,8 @@ def exceedance_probability(
     """
     if direction not in ("below", "above"):
         raise ConditionError(f"direction must be 'below' or 'above', got {direction!r}")
+    from scipy import stats  # here, not at the top: `geo-corrosion check` starts faster
+
     m, v = _prep(mean, variance)
     t = _transform(threshold, log_space, log_base)
     sd = np.sqrt(v)
@@ -262,13 +265,39 @@ def _cell_xy(cell_size: float | tuple[float, float]) -> tuple[float, float]:
     return dx, dy
 
 
+@lru_cache(maxsize=8)
 def _sqrt_corr(n: int, step: float, length: float, model: str) -> NDArray[np.float64]:
+    """Return the eigen square root of the 1-D correlation matrix (cached, read-only).
+
+    The same matrix serves every batch of draws of a field, and every kind and threshold
+    mapped on the same grid, so it is decomposed once per (n, step, length, model); the
+    decomposition runs with one BLAS thread (:func:`_one_blas_thread`).
+    """
     if length <= 0 or n == 1:
-        return np.eye(n)
-    d = np.abs(np.arange(n)[:, None] - np.arange(n)[None, :]) * step / length
-    r = np.exp(-(d**2)) if model == "gaussian" else np.exp(-d)
-    w, q = np.linalg.eigh(r)
-    return np.asarray(q * np.sqrt(np.clip(w, 0.0, None))[None, :], dtype=float)
+        out = np.eye(n)
+    else:
+        d = np.abs(np.arange(n)[:, None] - np.arange(n)[None, :]) * step / length
+        r = np.exp(-(d**2)) if model == "gaussian" else np.exp(-d)
+        with _one_blas_thread():
+            w, q = np.linalg.eigh(r)
+        out = np.asarray(q * np.sqrt(np.clip(w, 0.0, None))[None, :], dtype=float)
+    out.flags.writeable = False
+    return out
+
+
+def _one_blas_thread() -> AbstractContextManager[object]:
+    """Limit BLAS to one thread in a block (threadpoolctl), or do nothing without it.
+
+    The eigendecomposition of :func:`_sqrt_corr` ran about 19 times slower with two BLAS
+    threads than with one on a loaded two-core machine (issue 16), and the draws' matrix
+    products gave the same bits, faster, on one thread (``benchmarks/README.md``).
+    """
+    try:
+        from threadpoolctl import threadpool_limits
+    except ImportError:  # pragma: no cover - threadpoolctl is a dependency
+        return nullcontext()
+    limits: AbstractContextManager[object] = threadpool_limits(limits=1, user_api="blas")
+    return limits
 
 
 def correlated_unit_field(
@@ -375,14 +404,15 @@ def area_interval(
     rng = np.random.default_rng(seed)
     areas = np.empty(n_draws)
     done = 0
-    while done < n_draws:
-        k = min(batch, n_draws - done)
-        eps = correlated_unit_field(m.shape, (float(dx), float(dy)), correlation_length,
-                                    model=model, n_draws=k, rng=rng)
-        z = mm[None] + sd[None] * eps
-        hit = (z < t) if direction == "below" else (z > t)
-        areas[done:done + k] = np.sum(hit & valid[None], axis=(1, 2)) * cell_area
-        done += k
+    with _one_blas_thread():  # the products A_y E A_x^T too: faster on one thread, same bits
+        while done < n_draws:
+            k = min(batch, n_draws - done)
+            eps = correlated_unit_field(m.shape, (float(dx), float(dy)), correlation_length,
+                                        model=model, n_draws=k, rng=rng)
+            z = mm[None] + sd[None] * eps
+            hit = (z < t) if direction == "below" else (z > t)
+            areas[done:done + k] = np.sum(hit & valid[None], axis=(1, 2)) * cell_area
+            done += k
     a = (1.0 - level) / 2.0
     lo, hi = np.quantile(areas, [a, 1.0 - a])
     method = (

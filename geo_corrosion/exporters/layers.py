@@ -13,6 +13,7 @@ from typing import Any, cast
 import geopandas as gpd
 import numpy as np
 import pandas as pd
+import shapely
 from numpy.typing import NDArray
 from shapely.geometry.base import BaseGeometry
 
@@ -32,7 +33,12 @@ def to_site_frame(
     if not rows:
         return gpd.GeoDataFrame({"level_id": []}, geometry=[], crs=crs)
     df = pd.DataFrame(rows)
-    geoms = [lr.level.grid.geom_to_site(g) for g in df.pop("geometry")]
+    local = np.empty(len(df), dtype=object)
+    local[:] = list(df.pop("geometry"))
+    # all the geometries in one call, as LocalGrid.geom_to_site does one by one (the same
+    # arithmetic per vertex)
+    grid = lr.level.grid
+    geoms = shapely.transform(local, lambda xy: np.column_stack(grid.to_site(xy[:, 0], xy[:, 1])))
     df.insert(0, "level_id", lr.level.id)
     return gpd.GeoDataFrame(df, geometry=geoms, crs=crs)
 

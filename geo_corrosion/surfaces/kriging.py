@@ -60,7 +60,6 @@ from scipy.sparse.csgraph import connected_components
 from scipy.spatial import cKDTree
 
 from geo_corrosion.errors import KrigingError, KrigingWarning
-from geo_corrosion.surfaces._kernel import kernel_for, solve_points
 from geo_corrosion.surfaces.variogram import VariogramModel, as_xyz
 
 __all__ = ["krige", "cross_validate", "cross_validate_groups", "CrossValidation", "KrigingEngine",
@@ -199,6 +198,10 @@ class KrigingEngine:
         self._border = np.concatenate([np.arange(k) * kk + k, k * kk + np.arange(k)])
         self.singular_fallbacks = 0
         #: kernel code of the model (compiled path), or None for the numpy path
+        # the compiled kernel (numba) is imported when an engine is made, not with this
+        # module: `geo-corrosion check` and `--help` start without loading numba
+        from geo_corrosion.surfaces._kernel import kernel_for
+
         self._kernel = kernel_for(model) if use_kernel else None
 
     # ------------------------------------------------------------------ neighbours
@@ -230,6 +233,8 @@ class KrigingEngine:
             return mean, var, nu
         n = self.n
         if self._kernel is not None:
+            from geo_corrosion.surfaces._kernel import solve_points
+
             mean, var, nu, bad = solve_points(self.px, self.py, self.z, idx, dist, n=n,
                                               code=self._kernel, model=self.model,
                                               eps=EXACT_EPS)

@@ -82,7 +82,6 @@ from numpy.typing import ArrayLike, NDArray
 from scipy import ndimage
 
 from geo_corrosion.errors import KrigingError, KrigingWarning
-from geo_corrosion.surfaces._simkernel import condition_lattice, excursion, filtered_weights
 from geo_corrosion.surfaces.density import binding_radius
 from geo_corrosion.surfaces.grid import GridSpec
 from geo_corrosion.surfaces.kriging import KrigingEngine, merge_coincident
@@ -299,6 +298,9 @@ class ConditionalSimulator:
                                                   return_indices=True)
             owner = creg[near[0], near[1]][rows, cols] if (creg >= 0).any() else \
                 np.full(m, -1, dtype=np.intp)
+        # the compiled kernels (numba) load with the first simulator, not with this module
+        from geo_corrosion.surfaces._simkernel import filtered_weights
+
         for reg, start, eng in engines:
             todo = np.flatnonzero(owner == reg)
             for a in range(0, todo.size, chunk_size):
@@ -358,6 +360,8 @@ class ConditionalSimulator:
         Cells not simulated (beyond the mask's ring, or with no reading in the
         neighbourhood) are NaN.  Values are in the kriged space.
         """
+        from geo_corrosion.surfaces._simkernel import condition_lattice
+
         zlat = self.unconditional(count, rng)
         n = self.rz.size
         su = np.einsum("ij,rij->ri", self.node_w, zlat[:, self.node])
@@ -411,6 +415,8 @@ class ConditionalSimulator:
         sizes = [min(batch, count - a) for a in range(0, count, batch)]
         # one seed per batch, so the result does not depend on the threads
         rngs = [np.random.default_rng(s) for s in np.random.SeedSequence(seed).spawn(len(sizes))]
+
+        from geo_corrosion.surfaces._simkernel import excursion
 
         def one(b: int) -> list[tuple[NDArray[np.float64], NDArray[np.float64]]]:
             zlat = self.draw(sizes[b], rngs[b])

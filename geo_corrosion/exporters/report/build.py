@@ -220,6 +220,9 @@ def _repair_layout_png(gpkg: RunLayers, lid: str, info: LevelRecord) -> str | No
     sl = local(slab)
     assert sl is not None
     fig, ax = plt.subplots(figsize=_plan_size(tuple(sl.total_bounds)), dpi=150)
+    # geopandas' GeoSeries.plot ends with pyplot.draw(), a whole draw of the figure per
+    # layer; the figure is drawn once, by savefig below (same pixels)
+    fig.canvas.draw_idle = lambda *_a, **_k: None  # type: ignore[method-assign]
     sl.boundary.plot(ax=ax, color="#303030", linewidth=1.2)
     for what, kw in (("exclusions", {"color": "#BBBBBB"}),
                      ("delaminations", {"color": "#D55E00", "alpha": 0.6}),
