@@ -73,6 +73,10 @@ VOLATILE_JSON_PATHS = frozenset({
     "$.files[].size",
 })
 
+#: GeoPackage columns that hold the time a row was written (layer, column): the standard
+#: ``layer_styles`` table's ``update_time``.
+VOLATILE_GPKG_COLUMNS = frozenset({("layer_styles", "update_time")})
+
 #: DXF header variables that hold dates, timers, GUIDs or the handle seed.
 VOLATILE_DXF_HEADER = frozenset({
     "$TDCREATE", "$TDUCREATE", "$TDUPDATE", "$TDUUPDATE", "$TDINDWG", "$TDUSRTIMER",
@@ -624,6 +628,8 @@ def compare_gpkg(before: Path, after: Path, opts: Options) -> Result:
             continue
         geom_col = da.geometry.name if hasattr(da, "geometry") else None
         for col in da.columns:
+            if (name, col) in VOLATILE_GPKG_COLUMNS:
+                continue
             if col == geom_col:
                 ga, gb = da[col].to_numpy(), db[col].to_numpy()
                 both_none = shapely.is_missing(ga) & shapely.is_missing(gb)
