@@ -70,7 +70,6 @@ model) and back-transformed per realisation; a threshold is compared in the same
 from __future__ import annotations
 
 import math
-import os
 import warnings
 from collections.abc import Iterator
 from concurrent.futures import ThreadPoolExecutor
@@ -82,6 +81,7 @@ from numpy.typing import ArrayLike, NDArray
 from scipy import ndimage
 
 from geo_corrosion.errors import KrigingError, KrigingWarning
+from geo_corrosion.surfaces import _kernel
 from geo_corrosion.surfaces._simkernel import condition_lattice, excursion, filtered_weights
 from geo_corrosion.surfaces.density import binding_radius
 from geo_corrosion.surfaces.grid import GridSpec
@@ -417,7 +417,7 @@ class ConditionalSimulator:
             return [excursion(zlat, self.target_rows, self.target_cols, t, below=d == "below",
                               q=q, use_kernel=self.use_kernel) for t, d in thresholds]
 
-        with ThreadPoolExecutor(max_workers=max(1, min(2, os.cpu_count() or 1))) as pool:
+        with ThreadPoolExecutor(max_workers=max(1, min(2, _kernel.threads()))) as pool:
             for res in pool.map(one, range(len(sizes))):
                 for j, (f, a) in enumerate(res):
                     fracs[j] += f
