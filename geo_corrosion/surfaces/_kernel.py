@@ -249,4 +249,10 @@ def solve_points(px: NDArray[np.float64], py: NDArray[np.float64], z: NDArray[np
     if t <= 1 or idx.shape[0] <= BLOCK:
         return _solve_points(*args)
     _nb.set_num_threads(t)  # thread-local in numba: set in the calling thread
-    return _solve_points_par(*args, BLOCK)
+    # blocks handed out one at a time (not in equal shares): on a shared machine a thread
+    # held up by another program then takes fewer blocks
+    old = _nb.set_parallel_chunksize(1)
+    try:
+        return _solve_points_par(*args, BLOCK)
+    finally:
+        _nb.set_parallel_chunksize(old)
