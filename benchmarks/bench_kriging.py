@@ -81,7 +81,7 @@ def threads_table(ours: Callable[[], Any], n: int, repeat: int, ref: Any) -> Non
         same = all(np.array_equal(u, v, equal_nan=True) for u, v in zip(out, ref, strict=True))
         rows.append((label, statistics.median(walls), statistics.median(cpus), same))
     _kernel.set_threads(None)
-    KrigingEngine._prange = True
+    KrigingEngine._prange = False
     print(f"{'threads':<22}{'wall_s':>9}{'cpu_s':>9}{'speed-up':>10}  identical")
     for r in rows:
         print(f"{r[0]:<22}{r[1]:>9.3f}{r[2]:>9.3f}{rows[0][1] / r[1]:>10.2f}  {r[3]}")

@@ -202,8 +202,9 @@ class KrigingEngine:
         self._kernel = kernel_for(model) if use_kernel else None
 
     #: with the kernel and several threads: prange inside the kernel (True) or a thread
-    #: pool over chunks of the serial kernel (False; compared in benchmarks/bench_kriging.py)
-    _prange: bool = True
+    #: pool over chunks of the serial kernel (False, the default: faster on the project's
+    #: loaded 2-core machine, benchmarks/README.md "Both cores"); the same results
+    _prange: bool = False
 
     # ------------------------------------------------------------------ neighbours
     def query(
@@ -338,11 +339,11 @@ class KrigingEngine:
     ) -> tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.float64]]:
         """Krige points given in plan coordinates (chunked, multi-threaded).
 
-        Threads: :func:`geo_corrosion.surfaces._kernel.threads` (``--jobs``).  With the
-        compiled kernel, the chunks are taken one after another, each with its neighbour
-        search (``cKDTree.query(workers=...)``) and its kernel (``prange``) on every
-        thread; on the numpy path, chunks go to a thread pool.  The results do not depend
-        on the thread count.
+        Threads: :func:`geo_corrosion.surfaces._kernel.threads` (``--jobs``): chunks go to
+        a thread pool of that size (the kernel, the k-d tree and LAPACK release the GIL).
+        With ``_prange`` set, the chunks are taken one after another instead, each with
+        its neighbour search (``cKDTree.query(workers=...)``) and the compiled kernel
+        (``prange``) on every thread.  The results do not depend on the thread count.
         """
         qx, qy = self.model.transform_coords(xq, yq)
         m = qx.size

@@ -55,8 +55,9 @@ def test_predict_is_the_same_with_any_thread_count() -> None:
         _kernel.set_threads(1)
         one = eng.predict(qx, qy, chunk_size=3000)
         _kernel.set_threads(2)
+        eng._prange = True  # chunks one after another, prange inside the kernel
         two = eng.predict(qx, qy, chunk_size=3000)
-        eng._prange = False  # a thread pool over chunks of the serial kernel
+        eng._prange = False  # a thread pool over chunks of the serial kernel (the default)
         pool = eng.predict(qx, qy, chunk_size=3000)
     finally:
         _kernel.set_threads(None)
