@@ -113,6 +113,15 @@ def _numba_started() -> bool:
     return True
 
 
+def _worker_threads(jobs: int, workers: int) -> int:
+    """Return the kriging threads of each of ``workers`` forked workers sharing ``jobs``.
+
+    One when this process already started numba's threading layer: GNU OpenMP aborts a
+    forked child that uses it ("fork() called from a process already using GNU OpenMP").
+    """
+    return 1 if _numba_started() else max(1, jobs // workers)
+
+
 def _pool(workers: int) -> ProcessPoolExecutor:
     """Return a pool of forked processes (they inherit the imports and :data:`_SHARED`)."""
     return ProcessPoolExecutor(max_workers=workers,
@@ -236,8 +245,7 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
     lids = list(site.levels)
     if n > 1 and len(lids) > 1:
         workers = min(n, len(lids))
-        # a forked child must not use numba's threads if this process already did
-        threads = 1 if _numba_started() else max(1, n // workers)
+        threads = _worker_threads(n, workers)
         _SHARED["level"] = (site, flags, edits)
         try:
             with _pool(workers) as pool:

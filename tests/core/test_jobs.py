@@ -168,3 +168,37 @@ def test_an_error_in_an_exporter_worker_reads_as_in_one_job(
     assert out2 == out1
     assert "a made-up failure to draw" in out2 and "Traceback" not in out2
     assert not (tmp_path / "two").exists()
+
+
+def test_level_workers_share_the_threads_and_never_reuse_numbas_after_a_fork(
+        monkeypatch: pytest.MonkeyPatch) -> None:
+    # common practice: workers x threads <= jobs; and numba's OpenMP layer aborts a forked
+    # child that uses it once the parent did (seen on this machine: "Terminating: fork()
+    # called from a process already using GNU OpenMP, this is unsafe.")
+    monkeypatch.setattr(pipeline, "_numba_started", lambda: False)
+    assert pipeline._worker_threads(2, 2) == 1
+    assert pipeline._worker_threads(4, 2) == 2
+    assert pipeline._worker_threads(3, 2) == 1
+    monkeypatch.setattr(pipeline, "_numba_started", lambda: True)
+    assert pipeline._worker_threads(4, 2) == 1
+
+
+def test_numba_started_sees_the_parallel_kernel() -> None:
+    import numpy as np
+
+    from geo_corrosion.surfaces import _kernel
+    from geo_corrosion.surfaces.kriging import KrigingEngine
+    from geo_corrosion.surfaces.variogram import VariogramModel
+
+    rng = np.random.default_rng(0)
+    x, y, z = rng.uniform(0, 50, 500), rng.uniform(0, 50, 500), rng.normal(0, 1, 500)
+    eng = KrigingEngine(x, y, z, VariogramModel("spherical", nugget=1.0, psill=9.0,
+                                                range=9.0))
+    import numba
+
+    if eng._kernel is None or numba.config.NUMBA_NUM_THREADS < 2:
+        pytest.skip("numba's kernel is off here (GEO_CORROSION_NO_JIT) or has one thread")
+    d, i = eng.query(rng.uniform(0, 50, 2000), rng.uniform(0, 50, 2000))
+    _kernel.solve_points(eng.px, eng.py, eng.z, i, d, n=eng.n, code=eng._kernel,
+                         model=eng.model, eps=1e-10, threads=2)
+    assert pipeline._numba_started()
