@@ -13,6 +13,8 @@ Run from the repository root, for example::
     python benchmarks/bench_kriging.py                          # quick size
     python benchmarks/bench_kriging.py --n-readings 20000 --n-cells 500000
     python benchmarks/bench_kriging.py --n-readings 100000 --n-cells 2500000 --skip-pykrige
+    python benchmarks/bench_kriging.py --n-readings 20000 --n-cells 500000 --skip-pykrige \
+        --threads 2                       # one thread vs prange vs a thread pool (issue 16)
 
 This is a benchmark, not a test.
 """
@@ -60,6 +62,31 @@ def measure(fn: Callable[[], Any], repeat: int) -> tuple[float, float, Any]:
     return statistics.median(times), peak, out
 
 
+def threads_table(ours: Callable[[], Any], n: int, repeat: int, ref: Any) -> None:
+    """Print wall and CPU time (medians) of our engine on 1 thread and on ``n`` threads."""
+    from geo_corrosion.surfaces import _kernel
+    from geo_corrosion.surfaces.kriging import KrigingEngine
+
+    rows = []
+    for label, t, prange in (("1 thread", 1, True), (f"{n} threads, prange", n, True),
+                             (f"{n} threads, pool", n, False)):
+        _kernel.set_threads(t)
+        KrigingEngine._prange = prange
+        walls, cpus, out = [], [], None
+        for _ in range(repeat):
+            w, c = time.perf_counter(), time.process_time()
+            out = ours()
+            walls.append(time.perf_counter() - w)
+            cpus.append(time.process_time() - c)
+        same = all(np.array_equal(u, v, equal_nan=True) for u, v in zip(out, ref, strict=True))
+        rows.append((label, statistics.median(walls), statistics.median(cpus), same))
+    _kernel.set_threads(None)
+    KrigingEngine._prange = False
+    print(f"{'threads':<22}{'wall_s':>9}{'cpu_s':>9}{'speed-up':>10}  identical")
+    for r in rows:
+        print(f"{r[0]:<22}{r[1]:>9.3f}{r[2]:>9.3f}{rows[0][1] / r[1]:>10.2f}  {r[3]}")
+
+
 def main() -> None:
     """Parse arguments, run both engines, print the table."""
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
@@ -70,6 +97,10 @@ def main() -> None:
     ap.add_argument("--pykrige-repeat", type=int, default=1)
     ap.add_argument("--backend", default="C", choices=["C", "loop"], help="pykrige backend")
     ap.add_argument("--skip-pykrige", action="store_true")
+    ap.add_argument("--threads", type=int, default=0,
+                    help="also time our engine on one thread, then on this many threads with "
+                         "prange in the kernel and with a thread pool over chunks (wall and "
+                         "CPU time, and whether the results are identical)")
     ap.add_argument("--numpy-path", action="store_true",
                     help="use the engine's numpy path, not the compiled kernel")
     a = ap.parse_args()
@@ -94,6 +125,8 @@ def main() -> None:
     t_o, m_o, (zo, so) = measure(ours, a.repeat)
     rss_o = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
     rows = [("geo_corrosion", t_o, m_o, rss_o, "", "")]
+    if a.threads:
+        threads_table(ours, a.threads, a.repeat, (zo, so))
     if not a.skip_pykrige:
         from pykrige.ok import OrdinaryKriging
 

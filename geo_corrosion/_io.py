@@ -35,7 +35,16 @@ if TYPE_CHECKING:
     import pandas as pd
 
 __all__ = ["atomic_write", "formula_like", "safe_cell", "safe_frame", "output_lock",
-           "recover_output", "swap_in"]
+           "recover_output", "swap_in", "held_lock_fds"]
+
+#: File descriptors of the output locks this process holds (a forked worker closes its
+#: copies, so that the lock ends with the run that took it: see ``pipeline``).
+_HELD: set[int] = set()
+
+
+def held_lock_fds() -> frozenset[int]:
+    """Return the file descriptors of the output locks held now (see :func:`output_lock`)."""
+    return frozenset(_HELD)
 
 # OWASP, "CSV Injection" (owasp.org/www-community/attacks/CSV_Injection): a spreadsheet
 # program reads a cell starting with one of these characters as a formula.
@@ -174,8 +183,10 @@ def output_lock(out: str | os.PathLike[str]) -> Iterator[Path]:
     try:
         os.ftruncate(fd, 0)
         os.write(fd, f"{os.getpid()}\n".encode("ascii"))
+        _HELD.add(fd)
         yield lock
     finally:
+        _HELD.discard(fd)
         lock.unlink(missing_ok=True)
         os.close(fd)
         if made_parent:

@@ -16,17 +16,22 @@ from __future__ import annotations
 import dataclasses
 import json
 import logging
+import multiprocessing
 import os
+import pickle
 import shutil
+import sys
 import tempfile
 import time
 import warnings
 from collections.abc import Callable, Mapping, Sequence
+from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, wait
 from pathlib import Path
+from typing import Any
 
 import pandas as pd
 
-from geo_corrosion._io import atomic_write, output_lock, recover_output, swap_in
+from geo_corrosion._io import atomic_write, held_lock_fds, output_lock, recover_output, swap_in
 from geo_corrosion.config import SiteConfig
 from geo_corrosion.errors import ExportError, GeoCorrosionWarning
 from geo_corrosion.exporters import EXPORTERS
@@ -66,12 +71,123 @@ from geo_corrosion.stages.reprice import (
     read_gpkg_edits,
     repair_editor,
 )
+from geo_corrosion.surfaces import _kernel
 from geo_corrosion.units import report_units
 
-__all__ = ["check", "run", "process", "write_outputs", "default_exporters", "reprice"]
+__all__ = ["check", "run", "process", "write_outputs", "default_exporters", "reprice",
+           "default_jobs"]
 
 log = logging.getLogger(__name__)
 Progress = Callable[[str], None]
+
+#: What forked workers read (set just before a pool is made; fork hands it over unpickled).
+_SHARED: dict[str, Any] = {}
+
+
+def default_jobs() -> int:
+    """Return the default ``--jobs``: every core this process may run on."""
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except AttributeError:  # pragma: no cover - platforms without sched_getaffinity
+        return max(1, os.cpu_count() or 1)
+
+
+def _jobs(jobs: int | None) -> int:
+    """Return the number of processes to use: 1 inside a daemon process (no children)."""
+    n = default_jobs() if jobs is None else int(jobs)
+    if n < 1:
+        raise ExportError(f"--jobs must be 1 or more, got {jobs}")
+    if n > 1 and multiprocessing.current_process().daemon:  # e.g. a pool's own worker
+        return 1
+    return n
+
+
+def _numba_started() -> bool:
+    """Whether this process already started numba's threading layer (unsafe to use after fork)."""
+    try:
+        import numba
+
+        numba.threading_layer()  # type: ignore[attr-defined]
+    except (ImportError, ValueError):  # not imported / "threading layer is not initialized"
+        return False
+    return True
+
+
+def _worker_threads(jobs: int, workers: int) -> int:
+    """Return the kriging threads of each of ``workers`` forked workers sharing ``jobs``.
+
+    One when this process already started numba's threading layer: GNU OpenMP aborts a
+    forked child that uses it ("fork() called from a process already using GNU OpenMP").
+    """
+    return 1 if _numba_started() else max(1, jobs // workers)
+
+
+def _pool(workers: int) -> ProcessPoolExecutor:
+    """Return a pool of forked processes (they inherit the imports and :data:`_SHARED`)."""
+    return ProcessPoolExecutor(max_workers=workers,
+                               mp_context=multiprocessing.get_context("fork"),
+                               initializer=_worker_init, initargs=(held_lock_fds(),))
+
+
+def _worker_init(lock_fds: frozenset[int]) -> None:
+    """Set up a forked worker: drop the run's lock, end with the run if it is killed.
+
+    The output lock (``flock``) belongs to every copy of its descriptor: a worker closes its
+    copy, so a run killed with SIGKILL frees the folder at once.  On Linux the worker also
+    asks to be killed when the run's process dies (``PR_SET_PDEATHSIG``), so that no
+    orphan goes on writing.
+    """
+    for fd in lock_fds:
+        try:
+            os.close(fd)
+        except OSError:
+            pass
+    if sys.platform.startswith("linux"):
+        try:
+            import ctypes
+            import signal
+
+            ctypes.CDLL(None, use_errno=True).prctl(1, signal.SIGKILL)  # PR_SET_PDEATHSIG
+        except (OSError, AttributeError):  # pragma: no cover - no prctl: orphans end later
+            pass
+
+
+def _caught(caught: list[warnings.WarningMessage]) -> list[tuple[Any, ...]]:
+    """Return recorded warnings in a picklable form, to be shown again by :func:`_rewarn`."""
+    return [(w.message, w.category, w.filename, w.lineno) for w in caught]
+
+
+def _rewarn(found: Sequence[tuple[Any, ...]]) -> None:
+    """Issue again in this process the warnings a worker recorded."""
+    for message, category, filename, lineno in found:
+        warnings.warn_explicit(message, category, filename, lineno)
+
+
+def _picklable(err: BaseException) -> BaseException:
+    """Return ``err`` if it survives pickling, else a RuntimeError with its text."""
+    try:
+        pickle.loads(pickle.dumps(err))
+    except Exception:  # noqa: BLE001 - any pickling failure
+        return RuntimeError(f"{type(err).__name__}: {err}")
+    return err
+
+
+def _in_worker(fn: Callable[..., Any], threads: int, *args: Any) -> tuple[Any, ...]:
+    """Run ``fn(say, *args)`` in a worker: (outcome or error, progress lines, warnings).
+
+    The progress lines and warnings are shown by the parent in the serial order; an
+    error is handed back as a value, so the parent shows it as the serial path would.
+    """
+    _kernel.set_threads(threads)
+    lines: list[str] = []
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", GeoCorrosionWarning)
+        try:
+            out: Any = fn(lines.append, *args)
+            err: BaseException | None = None
+        except Exception as e:  # noqa: BLE001 - re-raised by the parent
+            out, err = None, _picklable(e)
+    return out, err, lines, _caught(caught)
 
 
 def default_exporters() -> list[str]:
@@ -99,7 +215,8 @@ def check(site: str | Path | SiteConfig, *, progress: Progress | None = None
 
 
 def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None,
-            edits: Mapping[str, LevelEdits] | None = None) -> RunResult:
+            edits: Mapping[str, LevelEdits] | None = None, jobs: int | None = None
+            ) -> RunResult:
     """Chain the computing stages over every level of an opened, checked site.
 
     ``edits`` (re-pricing, :func:`reprice`): repair outlines edited by hand, by level, put in
@@ -110,40 +227,56 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
     (:func:`~geo_corrosion.stages.plan_repairs.plan_level`); then the bid schedule of all
     levels.  The site given is not changed: the returned result holds a site whose surveys
     with life estimates (their kind's ``life_estimates`` hook) carry those columns.
+
+    ``jobs`` (default: every core, :func:`default_jobs`): with more than one and several
+    levels, the levels are computed side by side in forked processes (each level depends
+    only on its own readings and the site's settings), each kriging on ``jobs // levels``
+    threads; their progress lines and warnings are shown in level order, as with one job.
+    The schedule of all levels is made after them, in this process.  One job: one level
+    after another, the kriging on one thread.  The results are the same to the last bit.
     """
     say = progress or (lambda _m: None)
     params = site.config.run
     units = report_units(site.config.units)
-    planning = planning_params(site.config)
+    n = _jobs(jobs)
     levels: dict[str, LevelResult] = {}
     frames: dict[str, pd.DataFrame] = {}
     records: list[dict[str, object]] = []
-    for lid, lv in site.levels.items():
-        mapped = map_level(lv, site.surveys_of(lid), flags, params, units=units, progress=say)
-        low_cover = low_cover_mask(lv, with_role(mapped.surfaces, Role.COVER))
-        condition = None
-        if mapped.surfaces:
-            say(f"level {lid}: condition assessment")
-            condition, life_frames = assess_condition(
-                lv, mapped, site.surveys_of(lid),
-                rules=site.config.combined_rules, bar_diameter_mm=planning.layout.bar_diameter_mm,
-                low_cover=low_cover, interval_method=params.interval_method,
-                realisations=params.realisations, n_neighbors=params.n_neighbors,
-                kinds=params.kinds)
-            frames.update(life_frames)
-        say(f"level {lid}: laying out repairs and zones")
-        editor = (repair_editor(lv, planning, edits[lid], records)
-                  if edits is not None and lid in edits else None)
-        repairs, zones, notes = plan_level(lv, mapped.surfaces, planning, low_cover=low_cover,
-                                           edit=editor)
-        stats = dict(mapped.kinds)
-        if condition is not None:
-            stats["condition"] = condition.stats
-        stats["planning"] = notes
-        levels[lid] = LevelResult(lv, surfaces=mapped.surfaces, repairs=repairs, zones=zones,
-                                  stats=stats, skipped=mapped.skipped, condition=condition,
-                                  readings=mapped.readings, points=mapped.points,
-                                  pay_areas=pay_area_frame(lv, zones, planning))
+    lids = list(site.levels)
+    if n > 1 and len(lids) > 1:
+        workers = min(n, len(lids))
+        threads = _worker_threads(n, workers)
+        _SHARED["level"] = (site, flags, edits)
+        try:
+            with _pool(workers) as pool:
+                futs = [pool.submit(_in_worker, _level_in_worker, threads, lid) for lid in lids]
+                try:
+                    for lid, fut in zip(lids, futs, strict=True):
+                        out, err, lines, found = fut.result()
+                        for line in lines:
+                            say(line)
+                        _rewarn(found)
+                        if err is not None:
+                            raise err
+                        levels[lid], life_frames, recs = out
+                        frames.update(life_frames)
+                        records.extend(recs)
+                except BaseException:
+                    for f in futs:
+                        f.cancel()
+                    raise
+        finally:
+            _SHARED.pop("level", None)
+    else:
+        before = _kernel.threads()
+        _kernel.set_threads(n)
+        try:
+            for lid in lids:
+                levels[lid], life_frames, recs = _process_level(say, site, flags, lid, edits)
+                frames.update(life_frames)
+                records.extend(recs)
+        finally:
+            _kernel.set_threads(before)
     surveys = tuple(dataclasses.replace(s, frame=frames[s.id]) if s.id in frames else s
                     for s in site.surveys)
     schedule = schedule_quantities(levels.values(), units=units, contingency=params.contingency,
@@ -153,17 +286,72 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
                      edits=list(records))
 
 
+def _level_in_worker(say: Progress, lid: str) -> tuple[Any, ...]:
+    """Compute level ``lid`` of the site handed over in :data:`_SHARED` (a forked worker)."""
+    site, flags, edits = _SHARED["level"]
+    return _process_level(say, site, flags, lid, edits)
+
+
+def _process_level(say: Progress, site: Site, flags: pd.DataFrame, lid: str,
+                   edits: Mapping[str, LevelEdits] | None
+                   ) -> tuple[LevelResult, dict[str, pd.DataFrame], list[dict[str, object]]]:
+    """Compute one level: (its result, its surveys' life-estimate frames, edited repairs)."""
+    params = site.config.run
+    units = report_units(site.config.units)
+    planning = planning_params(site.config)
+    lv = site.levels[lid]
+    records: list[dict[str, object]] = []
+    frames: dict[str, pd.DataFrame] = {}
+    mapped = map_level(lv, site.surveys_of(lid), flags, params, units=units, progress=say)
+    low_cover = low_cover_mask(lv, with_role(mapped.surfaces, Role.COVER))
+    condition = None
+    if mapped.surfaces:
+        say(f"level {lid}: condition assessment")
+        condition, life_frames = assess_condition(
+            lv, mapped, site.surveys_of(lid),
+            rules=site.config.combined_rules, bar_diameter_mm=planning.layout.bar_diameter_mm,
+            low_cover=low_cover, interval_method=params.interval_method,
+            realisations=params.realisations, n_neighbors=params.n_neighbors,
+            kinds=params.kinds)
+        frames.update(life_frames)
+    say(f"level {lid}: laying out repairs and zones")
+    editor = (repair_editor(lv, planning, edits[lid], records)
+              if edits is not None and lid in edits else None)
+    repairs, zones, notes = plan_level(lv, mapped.surfaces, planning, low_cover=low_cover,
+                                       edit=editor)
+    stats = dict(mapped.kinds)
+    if condition is not None:
+        stats["condition"] = condition.stats
+    stats["planning"] = notes
+    result = LevelResult(lv, surfaces=mapped.surfaces, repairs=repairs, zones=zones,
+                         stats=stats, skipped=mapped.skipped, condition=condition,
+                         readings=mapped.readings, points=mapped.points,
+                         pay_areas=pay_area_frame(lv, zones, planning))
+    return result, frames, records
+
+
 def write_outputs(result: RunResult, out_dir: Path, *, exporters: Sequence[str] | None = None,
-                  progress: Progress | None = None, started: float | None = None) -> None:
-    """Run the exporters into ``out_dir`` (an empty folder) and write run.json last."""
+                  progress: Progress | None = None, started: float | None = None,
+                  jobs: int | None = None) -> None:
+    """Run the exporters into ``out_dir`` (an empty folder) and write run.json last.
+
+    ``jobs`` (default: every core): with more than one, exporters that do not depend on
+    each other run side by side in forked processes; an exporter waits for those named in
+    its ``needs`` (:class:`~geo_corrosion.exporters.base.Exporter`; a ``run_last`` one
+    without ``needs`` waits for every other).  Files, notes and the first error (in the
+    exporters' order) reach the caller as with one job.
+    """
     say = progress or (lambda _m: None)
     t0 = started or time.perf_counter()
-    for name in default_exporters() if exporters is None else exporters:
-        exp = EXPORTERS.get(name)
-        say(f"writing {name}")
-        inst = exp() if isinstance(exp, type) else exp
-        for p in inst.export(result, out_dir):
-            result.files.append(str(Path(p).relative_to(out_dir)))
+    names = list(default_exporters() if exporters is None else exporters)
+    n = _jobs(jobs)
+    if n > 1 and len(names) > 1:
+        _export_parallel(result, out_dir, names, say, min(n, len(names)))
+    else:
+        for name in names:
+            say(f"writing {name}")
+            for p in _export_one(name, result, out_dir):
+                result.files.append(str(Path(p).relative_to(out_dir)))
     if (out_dir / GPKG_NAME).is_file():  # what the documents were built from (#13)
         sums = repair_checksums(out_dir / GPKG_NAME)
         result.built_from = {d: dict(sums) for d in DOCUMENTS} if sums else {}
@@ -173,6 +361,83 @@ def write_outputs(result: RunResult, out_dir: Path, *, exporters: Sequence[str] 
                  what="run manifest")
 
 
+def _export_one(name: str, result: RunResult, out_dir: Path) -> list[Path]:
+    """Run exporter ``name`` into ``out_dir``; return the paths written."""
+    exp = EXPORTERS.get(name)
+    inst = exp() if isinstance(exp, type) else exp
+    return list(inst.export(result, out_dir))
+
+
+def exporter_needs(names: Sequence[str]) -> dict[str, set[str]]:
+    """Return, for each exporter of ``names``, those of ``names`` it must wait for.
+
+    An exporter's ``needs`` names them; a ``run_last`` exporter without ``needs`` (a
+    plug-in written before ``needs`` existed) waits for every exporter that is not
+    ``run_last``.  Names not among ``names`` are ignored.
+    """
+    out: dict[str, set[str]] = {}
+    for name in names:
+        exp = EXPORTERS.get(name)
+        needs = getattr(exp, "needs", None)
+        if needs is None and getattr(exp, "run_last", False):
+            needs = [m for m in names if not getattr(EXPORTERS.get(m), "run_last", False)]
+        out[name] = {m for m in (needs or ()) if m in names and m != name}
+    return out
+
+
+def _exporter_in_worker(say: Progress, name: str, out_dir: Path) -> tuple[list[Path], list[str]]:
+    """Run an exporter on the result in :data:`_SHARED` (a forked worker): paths, notes."""
+    result: RunResult = _SHARED["result"]
+    before = len(result.warnings)
+    paths = _export_one(name, result, out_dir)
+    return paths, result.warnings[before:]
+
+
+def _export_parallel(result: RunResult, out_dir: Path, names: list[str], say: Progress,
+                     workers: int) -> None:
+    """Run the exporters side by side, each once those it needs are done (see write_outputs)."""
+    needs = exporter_needs(names)
+    done: dict[str, tuple[Any, ...]] = {}
+    running: dict[Future[tuple[Any, ...]], str] = {}
+    failed = False
+    _SHARED["result"] = result
+    try:
+        with _pool(workers) as pool:
+            while len(done) < len(names):
+                if not failed:
+                    for name in names:
+                        if (name not in done and name not in running.values()
+                                and needs[name] <= set(done)):
+                            say(f"writing {name}")
+                            running[pool.submit(_in_worker, _exporter_in_worker, 1, name,
+                                                out_dir)] = name
+                if not running:
+                    break
+                finished, _ = wait(running, return_when=FIRST_COMPLETED)
+                for fut in finished:
+                    name = running.pop(fut)
+                    done[name] = fut.result()
+                    failed = failed or done[name][1] is not None
+    finally:
+        _SHARED.pop("result", None)
+    if not failed and len(done) < len(names):
+        raise ExportError("exporters that wait for each other: " + ", ".join(
+            f"{m} needs {', '.join(sorted(needs[m]))}" for m in names if m not in done))
+    for name in names:  # in the exporters' order, as one after another
+        if name not in done:
+            continue
+        out, err, lines, found = done[name]
+        for line in lines:
+            say(line)
+        _rewarn(found)
+        if err is not None:
+            raise err
+        paths, notes = out
+        result.warnings.extend(notes)
+        for p in paths:
+            result.files.append(str(Path(p).relative_to(out_dir)))
+
+
 def run(
     site: str | Path | SiteConfig,
     out_dir: str | Path,
@@ -180,6 +445,7 @@ def run(
     overwrite: bool = False,
     exporters: Sequence[str] | None = None,
     progress: Progress | None = None,
+    jobs: int | None = None,
 ) -> RunResult:
     """Run the whole job on a site and write the output folder.
 
@@ -196,6 +462,10 @@ def run(
         (:func:`default_exporters`).
     progress : callable, optional
         Receives a line of text at each step.
+    jobs : int, optional
+        Processes and threads to use (default every core, :func:`default_jobs`): levels,
+        then exporters, side by side (:func:`process`, :func:`write_outputs`); 1 runs
+        everything one after another.  The outputs are the same with any number.
 
     Raises
     ------
@@ -215,12 +485,12 @@ def run(
     out = Path(out_dir).resolve()
     with output_lock(out):
         return _run_locked(site, out, overwrite=overwrite, exporters=exporters,
-                           progress=progress, started=started)
+                           progress=progress, started=started, jobs=jobs)
 
 
 def _run_locked(site: str | Path | SiteConfig, out: Path, *, overwrite: bool,
                 exporters: Sequence[str] | None, progress: Progress | None,
-                started: float) -> RunResult:
+                started: float, jobs: int | None = None) -> RunResult:
     """Do :func:`run` while holding the lock on ``out``: repair, compute, write, swap in."""
     for n in recover_output(out):  # what an interrupted run into ``out`` left behind
         if progress:
@@ -236,7 +506,7 @@ def _run_locked(site: str | Path | SiteConfig, out: Path, *, overwrite: bool,
         warnings.simplefilter("always", GeoCorrosionWarning)
         s, flags = check(cfg, progress=progress)  # the same checks as `geo-corrosion check`
         refuse_unrunnable(flags)
-        result = process(s, flags, progress=progress)
+        result = process(s, flags, progress=progress, jobs=jobs)
     notes = sorted({f"{w.category.__name__}: {w.message}" for w in caught
                     if issubclass(w.category, GeoCorrosionWarning)})
     for other in caught:
@@ -250,7 +520,8 @@ def _run_locked(site: str | Path | SiteConfig, out: Path, *, overwrite: bool,
     tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=out.parent))
     before = len(result.warnings)
     try:
-        write_outputs(result, tmp, exporters=exporters, progress=progress, started=started)
+        write_outputs(result, tmp, exporters=exporters, progress=progress, started=started,
+                      jobs=jobs)
         swap_in(tmp, out)
     except BaseException:
         shutil.rmtree(tmp, ignore_errors=True)
@@ -262,7 +533,8 @@ def _run_locked(site: str | Path | SiteConfig, out: Path, *, overwrite: bool,
 
 
 def reprice(run_dir: str | Path, *, source: str | Path | None = None,
-            site: str | Path | None = None, progress: Progress | None = None) -> RunResult:
+            site: str | Path | None = None, progress: Progress | None = None,
+            jobs: int | None = None) -> RunResult:
     """Re-price a run from repair outlines edited in its GeoPackage, and rebuild it whole.
 
     The run's ``survey.gpkg`` ``<level>_repairs`` layers (edited in a GIS) are read back
@@ -282,6 +554,8 @@ def reprice(run_dir: str | Path, *, source: str | Path | None = None,
         then from the run's GeoPackage).  A relative path is taken in the run folder first.
     site : str or Path, optional
         The site file or folder; by default the folder recorded in ``run.json``.
+    jobs : int, optional
+        Processes and threads to use, as in :func:`run`.
 
     Raises
     ------
@@ -329,7 +603,7 @@ def reprice(run_dir: str | Path, *, source: str | Path | None = None,
                 edits.update(read_dxf_edits(src, s))
             precheck_edits(s, edits, {lid: [r.repair_id for r in lr.repair_list]
                                       for lid, lr in man.levels.items()})
-            result = process(s, flags, progress=progress, edits=edits)
+            result = process(s, flags, progress=progress, edits=edits, jobs=jobs)
         notes = sorted({f"{w.category.__name__}: {w.message}" for w in caught
                         if issubclass(w.category, GeoCorrosionWarning)})
         result.warnings.extend(notes)
@@ -338,7 +612,7 @@ def reprice(run_dir: str | Path, *, source: str | Path | None = None,
                 progress(f"note: {n}")
         tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=out.parent))
         try:
-            write_outputs(result, tmp, progress=progress, started=started)
+            write_outputs(result, tmp, progress=progress, started=started, jobs=jobs)
             swap_in(tmp, out)
         except BaseException:
             shutil.rmtree(tmp, ignore_errors=True)

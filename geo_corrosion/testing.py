@@ -57,6 +57,7 @@ def make_synthetic_site(
     ground_connections: Sequence[tuple[float, float, str]] | None = None,
     sparse_readings: int = 0,
     max_distance: str | None = "6 ft",
+    levels: int = 1,
 ) -> Path:
     """Write a one-level synthetic site (GeoJSON plans, DXF sounding, CSV readings).
 
@@ -68,6 +69,9 @@ def make_synthetic_site(
     ``sparse_readings`` (say 18, a normal spot survey) adds a corrosion-rate survey of that
     many readings spread over the deck, too few for a surface; ``max_distance`` is written
     to ``[run]`` (None: each kind's own, derived).
+
+    ``levels`` > 1 adds levels ``D2``, ``D3``, ... with the same plans and readings of their
+    own (seeds ``seed + 1``, ...; files in ``D2/``, ...), so that levels differ.
 
     Returns
     -------
@@ -195,6 +199,19 @@ kind = "corrosion_rate"
 path = "readings/corrosion_rate.csv"
 unit = "uA/cm2"
 '''
+    for i in range(2, levels + 1):  # further levels: a site of their own, re-labelled
+        lid = f"D{i}"
+        sub = make_synthetic_site(root / lid, width_ft=width_ft, depth_ft=depth_ft,
+                                  spacing_ft=spacing_ft, seed=seed + i - 1,
+                                  electrode=electrode, temperature_c=temperature_c,
+                                  sparse_readings=sparse_readings, max_distance=max_distance)
+        more = sub.read_text()
+        more = more[more.index("[[levels]]"):].replace('"D1', f'"{lid}').replace(
+            "name = \"Test deck\"", f"name = \"Test deck {lid}\"")
+        for d in ("plans/", "sounding/", "readings/"):
+            more = more.replace(f'"{d}', f'"{lid}/{d}')
+        text += "\n" + more
+        sub.unlink()
     p = root / "site.toml"
     p.write_text(text)
     return p

@@ -18,6 +18,12 @@ overwrite_opt = click.option(
     "--overwrite", is_flag=True,
     help="Replace an existing output folder once the new one is complete.",
 )
+jobs_opt = click.option(
+    "-j", "--jobs", type=click.IntRange(min=1), default=None, metavar="N",
+    help="Processes and threads to use (default: every core). Levels, exporters and the "
+         "kriging run side by side; 1 runs one thing after another. The outputs are the "
+         "same with any N.",
+)
 quiet_opt = click.option("-q", "--quiet", is_flag=True, help="No progress messages.")
 run_dir_arg = click.argument("run_dir", type=click.Path(exists=False, path_type=Path),
                              metavar="RUN_DIR")

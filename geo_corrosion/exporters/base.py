@@ -30,12 +30,17 @@ class Exporter:
     run_last : bool
         Whether it reads the run folder the other exporters wrote (the web map and the
         report): such exporters run after the others.
+    needs : tuple of str, optional
+        Names of the exporters whose files it reads: with ``--jobs`` above 1 it starts once
+        they are done, and the others run beside it.  None (the default) with ``run_last``:
+        it waits for every exporter that is not ``run_last``.
     """
 
     name: ClassVar[str] = ""
     description: ClassVar[str] = ""
     default: ClassVar[bool] = True
     run_last: ClassVar[bool] = False
+    needs: ClassVar[tuple[str, ...] | None] = None
 
     def export(self, result: RunResult, out_dir: Path) -> list[Path]:
         """Write files into ``out_dir``; return the paths written."""

@@ -25,7 +25,30 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-__all__ = ["KERNEL_MODELS", "kernel_for", "solve_points"]
+__all__ = ["KERNEL_MODELS", "BLOCK", "kernel_for", "solve_points", "set_threads", "threads"]
+
+#: Points per block of the parallel kernel (one block per ``prange`` iteration).
+BLOCK = 256
+
+#: Threads of the kriging (``None``: every core this process may use); ``--jobs`` sets it.
+_THREADS: int | None = None
+
+
+def threads() -> int:
+    """Return how many threads the kriging uses: :func:`set_threads`'s, else every core."""
+    if _THREADS is not None:
+        return _THREADS
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except AttributeError:  # pragma: no cover - platforms without sched_getaffinity
+        return max(1, os.cpu_count() or 1)
+
+
+def set_threads(n: int | None) -> None:
+    """Set how many threads the kriging uses in this process (None: every core)."""
+    global _THREADS
+    _THREADS = None if n is None else max(1, int(n))
+
 
 #: Models the kernel evaluates (codes used inside the kernel).
 KERNEL_MODELS = {"spherical": 0, "exponential": 1, "gaussian": 2, "stable": 3}
@@ -64,6 +87,88 @@ if _nb is not None:
             f = -np.expm1(-3.0 * u ** shape)
         return nug + psill * f
 
+    @_nb.njit(cache=True, nogil=True, inline="always")
+    def _solve_one(p: int, px: NDArray[np.float64], py: NDArray[np.float64],
+                   z: NDArray[np.float64], idx: NDArray[np.intp], dist: NDArray[np.float64],
+                   n: int, code: int, nug: float, psill: float, rng: float, shape: float,
+                   eps: float, A: Any, b: Any, b0: Any, sel: Any, dsel: Any, mean: Any,
+                   var: Any, nu: Any, bad: Any) -> None:  # pragma: no cover - compiled
+        """Build and solve point ``p``'s system in the scratch arrays; write its results."""
+        k = idx.shape[1]
+        kv = 0
+        for i in range(k):
+            if idx[p, i] < n:
+                sel[kv] = idx[p, i]
+                dsel[kv] = dist[p, i]
+                kv += 1
+        if kv == 0:
+            return
+        q = kv + 1
+        for i in range(kv):
+            ii = sel[i]
+            A[i, i] = 0.0
+            for j in range(i + 1, kv):
+                jj = sel[j]
+                dx = px[ii] - px[jj]
+                dy = py[ii] - py[jj]
+                g = _gamma(np.sqrt(dx * dx + dy * dy), code, nug, psill, rng, shape)
+                A[i, j] = g
+                A[j, i] = g
+            A[i, kv] = 1.0
+            A[kv, i] = 1.0
+            d = dsel[i]
+            b[i] = 0.0 if d <= eps else _gamma(d, code, nug, psill, rng, shape)
+            b0[i] = b[i]
+        A[kv, kv] = 0.0
+        b[kv] = 1.0
+        b0[kv] = 1.0
+        singular = False
+        for c in range(q):  # LU with partial pivoting, forward elimination on b
+            piv = c
+            best = abs(A[c, c])
+            for r in range(c + 1, q):
+                v = abs(A[r, c])
+                if v > best:
+                    best = v
+                    piv = r
+            if best == 0.0:
+                singular = True
+                break
+            if piv != c:
+                for t in range(q):
+                    tmp = A[c, t]
+                    A[c, t] = A[piv, t]
+                    A[piv, t] = tmp
+                tmp = b[c]
+                b[c] = b[piv]
+                b[piv] = tmp
+            inv = 1.0 / A[c, c]
+            for r in range(c + 1, q):
+                f = A[r, c] * inv
+                if f != 0.0:
+                    for t in range(c + 1, q):
+                        A[r, t] -= f * A[c, t]
+                    b[r] -= f * b[c]
+        if singular:
+            bad[p] = True
+            return
+        for r in range(q - 1, -1, -1):  # back substitution
+            s = b[r]
+            for t in range(r + 1, q):
+                s -= A[r, t] * b[t]
+            b[r] = s / A[r, r]
+        mu = 0.0
+        vv = b[kv]
+        for i in range(kv):
+            mu += b[i] * z[sel[i]]
+            vv += b[i] * b0[i]
+        if not (np.isfinite(mu) and np.isfinite(vv)):
+            bad[p] = True
+            return
+        mean[p] = mu
+        var[p] = vv if vv > 0.0 else 0.0
+        nu[p] = b[kv]
+
     @_nb.njit(cache=True, nogil=True)
     def _solve_points(px: NDArray[np.float64], py: NDArray[np.float64],
                       z: NDArray[np.float64], idx: NDArray[np.intp],
@@ -82,96 +187,72 @@ if _nb is not None:
         sel = np.empty(k, dtype=np.intp)
         dsel = np.empty(k)
         for p in range(m):
-            kv = 0
-            for i in range(k):
-                if idx[p, i] < n:
-                    sel[kv] = idx[p, i]
-                    dsel[kv] = dist[p, i]
-                    kv += 1
-            if kv == 0:
-                continue
-            q = kv + 1
-            for i in range(kv):
-                ii = sel[i]
-                A[i, i] = 0.0
-                for j in range(i + 1, kv):
-                    jj = sel[j]
-                    dx = px[ii] - px[jj]
-                    dy = py[ii] - py[jj]
-                    g = _gamma(np.sqrt(dx * dx + dy * dy), code, nug, psill, rng, shape)
-                    A[i, j] = g
-                    A[j, i] = g
-                A[i, kv] = 1.0
-                A[kv, i] = 1.0
-                d = dsel[i]
-                b[i] = 0.0 if d <= eps else _gamma(d, code, nug, psill, rng, shape)
-                b0[i] = b[i]
-            A[kv, kv] = 0.0
-            b[kv] = 1.0
-            b0[kv] = 1.0
-            singular = False
-            for c in range(q):  # LU with partial pivoting, forward elimination on b
-                piv = c
-                best = abs(A[c, c])
-                for r in range(c + 1, q):
-                    v = abs(A[r, c])
-                    if v > best:
-                        best = v
-                        piv = r
-                if best == 0.0:
-                    singular = True
-                    break
-                if piv != c:
-                    for t in range(q):
-                        tmp = A[c, t]
-                        A[c, t] = A[piv, t]
-                        A[piv, t] = tmp
-                    tmp = b[c]
-                    b[c] = b[piv]
-                    b[piv] = tmp
-                inv = 1.0 / A[c, c]
-                for r in range(c + 1, q):
-                    f = A[r, c] * inv
-                    if f != 0.0:
-                        for t in range(c + 1, q):
-                            A[r, t] -= f * A[c, t]
-                        b[r] -= f * b[c]
-            if singular:
-                bad[p] = True
-                continue
-            for r in range(q - 1, -1, -1):  # back substitution
-                s = b[r]
-                for t in range(r + 1, q):
-                    s -= A[r, t] * b[t]
-                b[r] = s / A[r, r]
-            mu = 0.0
-            vv = b[kv]
-            for i in range(kv):
-                mu += b[i] * z[sel[i]]
-                vv += b[i] * b0[i]
-            if not (np.isfinite(mu) and np.isfinite(vv)):
-                bad[p] = True
-                continue
-            mean[p] = mu
-            var[p] = vv if vv > 0.0 else 0.0
-            nu[p] = b[kv]
+            _solve_one(p, px, py, z, idx, dist, n, code, nug, psill, rng, shape, eps,
+                       A, b, b0, sel, dsel, mean, var, nu, bad)
+        return mean, var, nu, bad
+
+    @_nb.njit(cache=True, nogil=True, parallel=True)
+    def _solve_points_par(px: NDArray[np.float64], py: NDArray[np.float64],
+                          z: NDArray[np.float64], idx: NDArray[np.intp],
+                          dist: NDArray[np.float64], n: int, code: int, nug: float,
+                          psill: float, rng: float, shape: float, eps: float,
+                          block: int) -> tuple[Any, Any, Any, Any]:  # pragma: no cover
+        # blocks of points over the threads (prange), each with its own scratch arrays;
+        # every point is solved by the same operations, in the same order, as in
+        # _solve_points, so the results are identical to the last bit
+        m, k = idx.shape
+        mean = np.empty(m)
+        var = np.empty(m)
+        nu = np.empty(m)
+        bad = np.empty(m, dtype=np.bool_)
+        kk = k + 1
+        nblocks = (m + block - 1) // block
+        for blk in _nb.prange(nblocks):
+            A = np.empty((kk, kk))
+            b = np.empty(kk)
+            b0 = np.empty(kk)
+            sel = np.empty(k, dtype=np.intp)
+            dsel = np.empty(k)
+            hi = min(m, (blk + 1) * block)
+            for p in range(blk * block, hi):
+                mean[p] = np.nan
+                var[p] = np.nan
+                nu[p] = np.nan
+                bad[p] = False
+                _solve_one(p, px, py, z, idx, dist, n, code, nug, psill, rng, shape, eps,
+                           A, b, b0, sel, dsel, mean, var, nu, bad)
         return mean, var, nu, bad
 
 
 def solve_points(px: NDArray[np.float64], py: NDArray[np.float64], z: NDArray[np.float64],
                  idx: NDArray[np.intp], dist: NDArray[np.float64], *, n: int, code: int,
-                 model: Any, eps: float) -> tuple[NDArray[np.float64], NDArray[np.float64],
-                                                  NDArray[np.float64], NDArray[np.bool_]]:
+                 model: Any, eps: float, threads: int = 1
+                 ) -> tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.float64],
+                            NDArray[np.bool_]]:
     """Solve each point's system from its neighbour indices and distances.
 
     Indices equal to ``n`` mean "no neighbour" (radius search).  Returns the estimate,
     the kriging variance, the Lagrange multiplier ν (NaN where a point has no neighbour)
-    and a ``bad`` mask of points left to the numpy path.
+    and a ``bad`` mask of points left to the numpy path.  With ``threads`` > 1, blocks of
+    :data:`BLOCK` points are shared out over that many numba threads (``prange``); each
+    point's result is the same to the last bit as with one thread.  Call it with
+    ``threads`` > 1 from one thread at a time (the caller's own thread pool, if any, then
+    stays serial).
     """
     if _nb is None:  # pragma: no cover - guarded by kernel_for
         raise RuntimeError("numba is not available")
     shape = float(model.shape) if model.shape is not None else 1.0
-    return _solve_points(px, py, z, np.ascontiguousarray(idx, dtype=np.intp),
-                         np.ascontiguousarray(dist, dtype=np.float64), int(n), int(code),
-                         float(model.nugget), float(model.psill), float(model.range), shape,
-                         float(eps))
+    args = (px, py, z, np.ascontiguousarray(idx, dtype=np.intp),
+            np.ascontiguousarray(dist, dtype=np.float64), int(n), int(code),
+            float(model.nugget), float(model.psill), float(model.range), shape, float(eps))
+    t = min(int(threads), int(_nb.config.NUMBA_NUM_THREADS))  # type: ignore[attr-defined]
+    if t <= 1 or idx.shape[0] <= BLOCK:
+        return _solve_points(*args)
+    _nb.set_num_threads(t)  # thread-local in numba: set in the calling thread
+    # blocks handed out one at a time (not in equal shares): on a shared machine a thread
+    # held up by another program then takes fewer blocks
+    old = _nb.set_parallel_chunksize(1)
+    try:
+        return _solve_points_par(*args, BLOCK)
+    finally:
+        _nb.set_parallel_chunksize(old)

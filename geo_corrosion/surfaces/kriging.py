@@ -46,7 +46,6 @@ from __future__ import annotations
 
 import logging
 import math
-import os
 import warnings
 from collections.abc import Callable
 from concurrent.futures import ThreadPoolExecutor
@@ -74,7 +73,9 @@ _TRANSFORMS = (None, "log")
 
 
 def _n_threads() -> int:
-    return max(1, min(8, os.cpu_count() or 1))
+    from geo_corrosion.surfaces._kernel import threads  # numba loaded where used
+
+    return max(1, min(8, threads()))
 
 
 def _warn(msg: str) -> None:
@@ -204,26 +205,34 @@ class KrigingEngine:
 
         self._kernel = kernel_for(model) if use_kernel else None
 
+    #: with the kernel and several threads: prange inside the kernel (True) or a thread
+    #: pool over chunks of the serial kernel (False, the default: faster on the project's
+    #: loaded 2-core machine, benchmarks/README.md "Both cores"); the same results
+    _prange: bool = False
+
     # ------------------------------------------------------------------ neighbours
     def query(
-        self, qx: NDArray[np.float64], qy: NDArray[np.float64], k: int | None = None
+        self, qx: NDArray[np.float64], qy: NDArray[np.float64], k: int | None = None,
+        *, workers: int = 1
     ) -> tuple[NDArray[np.float64], NDArray[np.intp]]:
         """Nearest readings of points already in isotropic space."""
         kq = self.k if k is None else k
         ub = np.inf if self.radius is None else self.radius * (1 + 1e-12)
-        d, i = self.tree.query(np.column_stack([qx, qy]), k=kq, distance_upper_bound=ub)
+        d, i = self.tree.query(np.column_stack([qx, qy]), k=kq, distance_upper_bound=ub,
+                               workers=workers)
         if kq == 1:
             d, i = d[:, None], i[:, None]
         return d, i
 
     # ------------------------------------------------------------------ solve
     def solve(
-        self, idx: NDArray[np.intp], dist: NDArray[np.float64]
+        self, idx: NDArray[np.intp], dist: NDArray[np.float64], *, threads: int = 1
     ) -> tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.float64]]:
         """Solve the local systems of points given their neighbour indices and distances.
 
         Returns the estimate, the kriging variance and the Lagrange multiplier ν,
-        all in the kriged space; NaN where a point has no neighbour.
+        all in the kriged space; NaN where a point has no neighbour.  ``threads``: of the
+        compiled kernel (``prange``; the same results with any count).
         """
         m = idx.shape[0]
         mean = np.full(m, np.nan)
@@ -237,7 +246,7 @@ class KrigingEngine:
 
             mean, var, nu, bad = solve_points(self.px, self.py, self.z, idx, dist, n=n,
                                               code=self._kernel, model=self.model,
-                                              eps=EXACT_EPS)
+                                              eps=EXACT_EPS, threads=threads)
             if not bad.any():
                 return mean, var, nu
             # singular systems: the numpy path, with its pseudo-inverse fallback
@@ -334,7 +343,14 @@ class KrigingEngine:
         chunk_size: int = 4096,
         progress: Callable[[int, int], None] | None = None,
     ) -> tuple[NDArray[np.float64], NDArray[np.float64], NDArray[np.float64]]:
-        """Krige points given in plan coordinates (chunked, multi-threaded)."""
+        """Krige points given in plan coordinates (chunked, multi-threaded).
+
+        Threads: :func:`geo_corrosion.surfaces._kernel.threads` (``--jobs``): chunks go to
+        a thread pool of that size (the kernel, the k-d tree and LAPACK release the GIL).
+        With ``_prange`` set, the chunks are taken one after another instead, each with
+        its neighbour search (``cKDTree.query(workers=...)``) and the compiled kernel
+        (``prange``) on every thread.  The results do not depend on the thread count.
+        """
         qx, qy = self.model.transform_coords(xq, yq)
         m = qx.size
         mean = np.empty(m)
@@ -344,18 +360,21 @@ class KrigingEngine:
             raise KrigingError(f"chunk_size must be >= 1, got {chunk_size}")
         starts = list(range(0, m, chunk_size))
 
+        nt = _n_threads()
+        inner = nt if self._kernel is not None and self._prange else 1
+
         def task(a: int) -> int:
             b = min(a + chunk_size, m)
-            d, i = self.query(qx[a:b], qy[a:b])
-            mean[a:b], var[a:b], nu[a:b] = self.solve(i, d)
+            d, i = self.query(qx[a:b], qy[a:b], workers=inner)
+            mean[a:b], var[a:b], nu[a:b] = self.solve(i, d, threads=inner)
             return b - a
 
         done = 0
-        if len(starts) <= 1:
+        if len(starts) <= 1 or inner > 1 or nt == 1:
             for a in starts:
                 done += task(a)
         else:
-            with ThreadPoolExecutor(max_workers=_n_threads()) as pool:
+            with ThreadPoolExecutor(max_workers=nt) as pool:
                 for cnt in pool.map(task, starts):
                     done += cnt
                     if progress is not None:

@@ -70,7 +70,6 @@ model) and back-transformed per realisation; a threshold is compared in the same
 from __future__ import annotations
 
 import math
-import os
 import warnings
 from collections.abc import Iterator
 from concurrent.futures import ThreadPoolExecutor
@@ -423,7 +422,9 @@ class ConditionalSimulator:
             return [excursion(zlat, self.target_rows, self.target_cols, t, below=d == "below",
                               q=q, use_kernel=self.use_kernel) for t, d in thresholds]
 
-        with ThreadPoolExecutor(max_workers=max(1, min(2, os.cpu_count() or 1))) as pool:
+        from geo_corrosion.surfaces._kernel import threads
+
+        with ThreadPoolExecutor(max_workers=max(1, min(2, threads()))) as pool:
             for res in pool.map(one, range(len(sizes))):
                 for j, (f, a) in enumerate(res):
                     fracs[j] += f

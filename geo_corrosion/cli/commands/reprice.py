@@ -7,7 +7,13 @@ from pathlib import Path
 import click
 
 from geo_corrosion.cli.handlers import errors_handler
-from geo_corrosion.cli.options import progress_printer, quiet_opt, resolve_run_dir, run_dir_arg
+from geo_corrosion.cli.options import (
+    jobs_opt,
+    progress_printer,
+    quiet_opt,
+    resolve_run_dir,
+    run_dir_arg,
+)
 
 __all__ = ["reprice"]
 
@@ -19,9 +25,11 @@ __all__ = ["reprice"]
                    "drawing sheet, drawings/<level>_repairs.dxf (relative to RUN_DIR).")
 @click.option("--site", "site", type=click.Path(path_type=Path), default=None,
               help="The site file or folder (default: the one recorded in run.json).")
+@jobs_opt
 @quiet_opt
 @errors_handler
-def reprice(run_dir: Path, source: Path | None, site: Path | None, quiet: bool) -> None:
+def reprice(run_dir: Path, source: Path | None, site: Path | None, jobs: int | None,
+            quiet: bool) -> None:
     """Re-price a run (RUN_DIR) from repair outlines edited in its survey.gpkg or a sheet.
 
     Edit the <level>_repairs layers in a GIS (keep each feature's repair_id), or the
@@ -32,7 +40,8 @@ def reprice(run_dir: Path, source: Path | None, site: Path | None, quiet: bool) 
     from geo_corrosion.pipeline import reprice as reprice_run
 
     folder = resolve_run_dir(run_dir)
-    result = reprice_run(folder, source=source, site=site, progress=progress_printer(quiet))
+    result = reprice_run(folder, source=source, site=site, progress=progress_printer(quiet),
+                         jobs=jobs)
     if not result.edits:
         click.echo("no repair outline was edited; the run was rebuilt as laid out")
     for e in result.edits:

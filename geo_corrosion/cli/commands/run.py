@@ -8,7 +8,14 @@ from typing import TYPE_CHECKING
 import click
 
 from geo_corrosion.cli.handlers import errors_handler
-from geo_corrosion.cli.options import out_opt, overwrite_opt, progress_printer, quiet_opt, site_arg
+from geo_corrosion.cli.options import (
+    jobs_opt,
+    out_opt,
+    overwrite_opt,
+    progress_printer,
+    quiet_opt,
+    site_arg,
+)
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -20,16 +27,17 @@ __all__ = ["run", "qa_line"]
 @site_arg
 @out_opt
 @overwrite_opt
+@jobs_opt
 @quiet_opt
 @errors_handler
-def run(site: Path, out: Path | None, overwrite: bool, quiet: bool) -> None:
+def run(site: Path, out: Path | None, overwrite: bool, jobs: int | None, quiet: bool) -> None:
     """Run the whole job on SITE and write the output folder."""
     from geo_corrosion.pipeline import run as run_site
     from geo_corrosion.stages.read_site import read_site
 
     cfg = read_site(site)
     out = out or (cfg.root / "out")
-    result = run_site(cfg, out, overwrite=overwrite, progress=progress_printer(quiet))
+    result = run_site(cfg, out, overwrite=overwrite, progress=progress_printer(quiet), jobs=jobs)
     click.echo(f"wrote {out}")
     for f in sorted(result.files) + ["run.json"]:
         click.echo(f"  {f}")

@@ -652,6 +652,7 @@ class ReportExporter(Exporter):
 
     name: ClassVar[str] = "report"
     run_last: ClassVar[bool] = True
+    needs: ClassVar[tuple[str, ...] | None] = ("geopackage", "plots")
     description: ClassVar[str] = "the survey report as HTML and PDF (report.html, report.pdf)"
 
     def export(self, result: RunResult, out_dir: Path) -> list[Path]:

@@ -838,6 +838,7 @@ class WebMapExporter(Exporter):
 
     name: ClassVar[str] = "webmap"
     run_last: ClassVar[bool] = True
+    needs: ClassVar[tuple[str, ...] | None] = ("geopackage", "geotiff")
     description: ClassVar[str] = "a self-contained HTML web map for the owner (webmap.html)"
 
     def export(self, result: RunResult, out_dir: Path) -> list[Path]:
