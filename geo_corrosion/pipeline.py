@@ -71,7 +71,7 @@ from geo_corrosion.stages.reprice import (
     read_gpkg_edits,
     repair_editor,
 )
-from geo_corrosion.surfaces import _kernel
+from geo_corrosion.surfaces import _threads  # the kriging thread count, without numba
 from geo_corrosion.units import report_units
 
 __all__ = ["check", "run", "process", "write_outputs", "default_exporters", "reprice",
@@ -178,7 +178,7 @@ def _in_worker(fn: Callable[..., Any], threads: int, *args: Any) -> tuple[Any, .
     The progress lines and warnings are shown by the parent in the serial order; an
     error is handed back as a value, so the parent shows it as the serial path would.
     """
-    _kernel.set_threads(threads)
+    _threads.set_threads(threads)
     lines: list[str] = []
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", GeoCorrosionWarning)
@@ -268,15 +268,15 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
         finally:
             _SHARED.pop("level", None)
     else:
-        before = _kernel.threads()
-        _kernel.set_threads(n)
+        before = _threads.threads()
+        _threads.set_threads(n)
         try:
             for lid in lids:
                 levels[lid], life_frames, recs = _process_level(say, site, flags, lid, edits)
                 frames.update(life_frames)
                 records.extend(recs)
         finally:
-            _kernel.set_threads(before)
+            _threads.set_threads(before)
     surveys = tuple(dataclasses.replace(s, frame=frames[s.id]) if s.id in frames else s
                     for s in site.surveys)
     schedule = schedule_quantities(levels.values(), units=units, contingency=params.contingency,

@@ -25,30 +25,13 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
+# the thread count lives apart from numba, so that the pipeline sets it without loading it
+from geo_corrosion.surfaces._threads import set_threads, threads
+
 __all__ = ["KERNEL_MODELS", "BLOCK", "kernel_for", "solve_points", "set_threads", "threads"]
 
 #: Points per block of the parallel kernel (one block per ``prange`` iteration).
 BLOCK = 256
-
-#: Threads of the kriging (``None``: every core this process may use); ``--jobs`` sets it.
-_THREADS: int | None = None
-
-
-def threads() -> int:
-    """Return how many threads the kriging uses: :func:`set_threads`'s, else every core."""
-    if _THREADS is not None:
-        return _THREADS
-    try:
-        return max(1, len(os.sched_getaffinity(0)))
-    except AttributeError:  # pragma: no cover - platforms without sched_getaffinity
-        return max(1, os.cpu_count() or 1)
-
-
-def set_threads(n: int | None) -> None:
-    """Set how many threads the kriging uses in this process (None: every core)."""
-    global _THREADS
-    _THREADS = None if n is None else max(1, int(n))
-
 
 #: Models the kernel evaluates (codes used inside the kernel).
 KERNEL_MODELS = {"spherical": 0, "exponential": 1, "gaussian": 2, "stable": 3}
