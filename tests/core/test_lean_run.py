@@ -147,6 +147,8 @@ def test_geopackage_written_whole_with_sync_off(tmp_path: Path,
                              crs="EPSG:32617")
     layers = {"a": frame, "b": frame.assign(v=[3.0, 4.0])}
     monkeypatch.setattr(gpkg, "site_layers", lambda _r: layers)
+    # the layer styles (#15) are written into the same temporary file; not this test's part
+    monkeypatch.setattr(gpkg, "write_layer_styles", lambda _p, _r: {})
     before = pyogrio.get_gdal_config_option("OGR_SQLITE_SYNCHRONOUS")
     [path] = gpkg.GeoPackageExporter().export(object(), tmp_path)  # type: ignore[arg-type]
     assert [s[1] for s in seen] == [False, False]  # pyogrio reads "OFF" back as False
