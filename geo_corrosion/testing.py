@@ -27,11 +27,13 @@ SYNTHETIC_TIE: _Tie = {"rotation_deg": 17.0, "origin": (583100.0, 4507200.0),
                        "crs": "EPSG:26918"}
 
 
-def _site_xy(x: NDArray[np.float64], y: NDArray[np.float64]
+def _site_xy(x: NDArray[np.float64], y: NDArray[np.float64],
+             offset: tuple[float, float] = (0.0, 0.0)
              ) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
     a = math.radians(SYNTHETIC_TIE["rotation_deg"])
     k = 0.3048
     ox, oy = SYNTHETIC_TIE["origin"]
+    ox, oy = ox + offset[0], oy + offset[1]
     return (ox + k * (math.cos(a) * x - math.sin(a) * y),
             oy + k * (math.sin(a) * x + math.cos(a) * y))
 
@@ -57,6 +59,8 @@ def make_synthetic_site(
     ground_connections: Sequence[tuple[float, float, str]] | None = None,
     sparse_readings: int = 0,
     max_distance: str | None = "6 ft",
+    name: str = "Synthetic test deck",
+    offset_m: tuple[float, float] = (0.0, 0.0),
 ) -> Path:
     """Write a one-level synthetic site (GeoJSON plans, DXF sounding, CSV readings).
 
@@ -68,6 +72,9 @@ def make_synthetic_site(
     ``sparse_readings`` (say 18, a normal spot survey) adds a corrosion-rate survey of that
     many readings spread over the deck, too few for a surface; ``max_distance`` is written
     to ``[run]`` (None: each kind's own, derived).
+
+    ``name`` is the site's name; ``offset_m`` (east, north, metres) moves the site's tie
+    away from :data:`SYNTHETIC_TIE`'s origin (several sites in different places).
 
     Returns
     -------
@@ -143,12 +150,12 @@ def make_synthetic_site(
                                           enumerate(zip(sx, sy, rate, strict=True))]
         (root / "readings" / "corrosion_rate.csv").write_text("\n".join(lines) + "\n")
     cps = [(0.0, 0.0), (width_ft, 0.0), (0.0, depth_ft)]
-    cp_site = [_site_xy(np.array(a), np.array(b)) for a, b in cps]
+    cp_site = [_site_xy(np.array(a), np.array(b), offset_m) for a, b in cps]
     cp_text = ", ".join(
         f'{{ id = "CP{i + 1}", local = [{a}, {b}], site = [{float(sx):.4f}, {float(sy):.4f}] }}'
         for i, ((a, b), (sx, sy)) in enumerate(zip(cps, cp_site, strict=True)))
     text = f'''[site]
-name = "Synthetic test deck"
+name = {json.dumps(name)}
 crs = "{SYNTHETIC_TIE["crs"]}"
 units = "us"
 {extra_site}

@@ -7,6 +7,7 @@ import click
 from geo_corrosion.cli.commands.check import check
 from geo_corrosion.cli.commands.init import init
 from geo_corrosion.cli.commands.plugins import plugins
+from geo_corrosion.cli.commands.portfolio import portfolio
 from geo_corrosion.cli.commands.quantities import quantities
 from geo_corrosion.cli.commands.rebuild import map_cmd, report_cmd
 from geo_corrosion.cli.commands.reprice import reprice
@@ -37,7 +38,8 @@ def _show_versions(ctx: click.Context) -> None:
     ctx.exit(0)
 
 
-for _command in (init, check, run, quantities, plugins, map_cmd, report_cmd, reprice):
+for _command in (init, check, run, quantities, plugins, map_cmd, report_cmd, reprice,
+                 portfolio):
     cli.add_command(_command)
 
 
