@@ -51,7 +51,7 @@ if TYPE_CHECKING:
 
     from geo_corrosion.model.manifest import Manifest
 
-__all__ = ["SiteStatus", "PortfolioTables", "summary_tables", "write_summary",
+__all__ = ["SiteStatus", "PortfolioTables", "summary_tables", "write_tables",
            "SUMMARY_GPKG", "SUMMARY_XLSX", "SUMMARY_CSV", "TABLES"]
 
 log = logging.getLogger(__name__)
@@ -326,22 +326,18 @@ def _write_csv(path: Path, df: pd.DataFrame, name: str) -> Path:
                         what=f"portfolio {name} CSV")
 
 
-def write_summary(out_dir: Path, sites: Sequence[SiteStatus]) -> list[str]:
-    """Write the summary tables, the GeoPackage, the workbook and the web map into ``out_dir``.
+def write_tables(out_dir: Path, t: PortfolioTables) -> list[str]:
+    """Write the tables as CSV files, ``portfolio.gpkg`` and ``portfolio.xlsx`` (atomically).
 
     Returns
     -------
     list of str
         The files written, relative to ``out_dir``.
     """
-    from geo_corrosion.exporters.portfolio.webmap import PORTFOLIO_MAP, write_portfolio_map
-
-    t = summary_tables(out_dir, sites)
     files = []
     for name, fname in SUMMARY_CSV.items():
-        _write_csv(out_dir / fname, safe_frame(t.table(name)), name)
+        _write_csv(out_dir / fname, safe_frame(t.table(name)), name)  # no text as a formula
         files.append(fname)
     _write_gpkg(out_dir / SUMMARY_GPKG, t)
     _write_xlsx(out_dir / SUMMARY_XLSX, t)
-    write_portfolio_map(out_dir, t)
-    return [*files, SUMMARY_GPKG, SUMMARY_XLSX, PORTFOLIO_MAP]
+    return [*files, SUMMARY_GPKG, SUMMARY_XLSX]
