@@ -39,6 +39,7 @@ def _compare_runs() -> ModuleType:
     spec = importlib.util.spec_from_file_location("compare_runs", REPO / ".ci" / "compare_runs.py")
     assert spec is not None and spec.loader is not None
     mod = importlib.util.module_from_spec(spec)
+    sys.modules[spec.name] = mod  # its dataclasses look their module up
     spec.loader.exec_module(mod)
     return mod
 

@@ -10,6 +10,7 @@ from __future__ import annotations
 import csv
 import importlib.util
 import re
+import sys
 from pathlib import Path
 from types import ModuleType
 
@@ -28,6 +29,7 @@ def _compare_runs() -> ModuleType:
     spec = importlib.util.spec_from_file_location("compare_runs", COMPARE)
     assert spec is not None and spec.loader is not None
     mod = importlib.util.module_from_spec(spec)
+    sys.modules[spec.name] = mod  # its dataclasses look their module up
     spec.loader.exec_module(mod)
     return mod
 
@@ -139,7 +141,7 @@ def test_summary_equals_the_sites_own_tables(portfolio_run: PortfolioRun) -> Non
     Source: the plain single-site run of the same site.
     """
     out, plain = portfolio_run.out, portfolio_run.plain
-    q_site = _rows(plain / "quantities.csv")
+    q_site = _rows(plain / "quantities.csv")  # level rows, then the site's ("ALL")
     q_port = [r for r in _rows(out / "portfolio_quantities.csv") if r["site_id"] == "north-deck"]
     assert len(q_port) == len(q_site) > 0
     for a, b in zip(q_site, q_port, strict=True):
@@ -161,12 +163,16 @@ def test_summary_equals_the_sites_own_tables(portfolio_run: PortfolioRun) -> Non
                     float(b[f"interval_90pct_{side}_ft2"]), abs=1e-9)
     assert with_interval > 0  # the area intervals are carried over
     lv = {r["site_id"]: r for r in _rows(out / "portfolio_levels.csv")}
-    item_total: dict[str, float] = {}
-    for r in q_site:
-        key = f"{r['item']}_{r['unit']}"
-        item_total[key] = item_total.get(key, 0.0) + float(r["quantity"])
-    for key, total in item_total.items():  # base + contingency, by bid item
-        assert float(lv["north-deck"][key]) == pytest.approx(total)
+    st = {r["site_id"]: r for r in _rows(out / "portfolio_sites.csv")}
+    for where, row in (("D1", lv["north-deck"]), ("ALL", st["north-deck"])):
+        item_total: dict[str, float] = {}
+        for r in q_site:
+            if r["level_id"] == where:
+                key = f"{r['item']}_{r['unit']}"
+                item_total[key] = item_total.get(key, 0.0) + float(r["quantity"])
+        assert item_total
+        for key, total in item_total.items():  # base + contingency, by bid item
+            assert float(row[key]) == pytest.approx(total), (where, key)
     assert lv["east-deck"]["status"] == "failed" and "line 6" in lv["east-deck"]["message"]
 
 

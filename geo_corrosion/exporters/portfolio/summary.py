@@ -11,7 +11,8 @@ Tables (the same in ``portfolio.gpkg``, the CSV files and the sheets of
 
 ``sites``
     one row per site: status (``done``/``failed``) and message, levels, deck area, repairs,
-    the estimate per currency, where the site is, its run folder and web map;
+    the bid quantities and the estimate of the whole site (the ``ALL`` rows of its
+    schedule), where the site is, its run folder and web map;
 ``levels``
     one row per site and level: deck area, repairs, the bid quantities by bid item (base
     plus contingency, column ``<item>_<unit>``) and the estimate per currency;
@@ -164,15 +165,28 @@ def _quantity_rows(site: SiteStatus, man: Manifest) -> list[dict[str, Any]]:
              "currency": r.currency} for r in man.schedule]
 
 
-def _estimates(man: Manifest, level_id: str | None = None) -> dict[str, float]:
-    """Return the estimate per currency (sum of priced amounts), of a level or the site."""
+#: ``level_id`` of the schedule's rows for the whole site (``quantities.csv``).
+SITE_ROWS = "ALL"
+
+
+def _estimates(man: Manifest, level_id: str) -> dict[str, float]:
+    """Return the estimate per currency: the priced amounts of a level (or ``ALL``), summed."""
     out: dict[str, float] = {}
     for r in man.schedule:
-        if r.amount is None or not r.currency or (level_id is not None
-                                                 and r.level_id != level_id):
+        if r.amount is None or not r.currency or r.level_id != level_id:
             continue
         key = f"estimate_{r.currency}"
         out[key] = round(out.get(key, 0.0) + float(r.amount), 2)
+    return out
+
+
+def _item_totals(man: Manifest, level_id: str) -> dict[str, float]:
+    """Return the bid quantity of each item, base plus contingency: ``<item>_<unit>``."""
+    out: dict[str, float] = {}
+    for r in man.schedule:
+        if r.level_id == level_id:
+            key = f"{r.item}_{r.unit}"
+            out[key] = round(out.get(key, 0.0) + float(r.quantity), 3)
     return out
 
 
@@ -184,10 +198,7 @@ def _level_rows(site: SiteStatus, man: Manifest) -> list[dict[str, Any]]:
                                "level_name": lv.name, "status": site.status, "message": "",
                                "deck_area_m2": m2, "deck_area_ft2": ft2,
                                "repairs_count": lv.repairs}
-        for r in man.schedule:
-            if r.level_id == lid:
-                key = f"{r.item}_{r.unit}"
-                row[key] = round(row.get(key, 0.0) + float(r.quantity), 3)
+        row.update(_item_totals(man, lid))
         row.update(_estimates(man, lid))
         rows.append(row)
     return rows
@@ -254,7 +265,7 @@ def summary_tables(out_dir: Path, sites: Sequence[SiteStatus]) -> PortfolioTable
                         "levels": ", ".join(man.levels),
                         "deck_area_m2": m2, "deck_area_ft2": ft2,
                         "repairs_count": sum(lv.repairs for lv in man.levels.values()),
-                        **_estimates(man)})
+                        **_item_totals(man, SITE_ROWS), **_estimates(man, SITE_ROWS)})
             level_rows.extend(_level_rows(s_done, man))
             class_rows.extend(_class_rows(s_done, man))
             qty_rows.extend(_quantity_rows(s_done, man))

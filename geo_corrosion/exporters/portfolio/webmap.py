@@ -101,7 +101,8 @@ _JS = r"""
     markers: () => markers.map(m => ({id: m.gcSite.id, status: m.gcSite.status,
       href: m.gcSite.href, lat: m.getLatLng().lat, lon: m.getLatLng().lng})),
     popup: (id) => { const m = markers.find(x => x.gcSite.id === id); m.openPopup();
-      return m.getPopup().getElement().innerText; }};
+      const e = m.getPopup().getElement(), a = e.querySelector('a.gc-link');
+      return {text: e.innerText, href: a ? a.getAttribute('href') : null}; }};
 })();
 """
 
@@ -121,22 +122,20 @@ def _fmt(v: float, unit: str) -> str:
 def _site_entries(t: PortfolioTables) -> list[dict[str, Any]]:
     """One JSON-able record per site for the page."""
     out = []
+    fixed = {"site_id", "site_name", "level_id", "level_name", "status", "message",
+             "deck_area_m2", "deck_area_ft2", "repairs_count"}
+    item_cols = [str(c) for c in t.levels.columns
+                 if c not in fixed and not str(c).startswith("estimate_") and c in t.sites]
     for s in t.sites.to_dict("records"):
         sid = str(s["site_id"])
         metric = s.get("report_units") == "metric"
         area = _num(s.get("deck_area_m2" if metric else "deck_area_ft2"))
-        lv = t.levels[t.levels["site_id"] == sid] if "site_id" in t.levels else None
         quantities: list[tuple[str, str]] = []
-        if lv is not None:
-            fixed = {"site_id", "site_name", "level_id", "level_name", "status", "message",
-                     "deck_area_m2", "deck_area_ft2", "repairs_count"}
-            for col in lv.columns:
-                if col in fixed or col.startswith("estimate_"):
-                    continue
-                total = _num(lv[col].sum(min_count=1))
-                if total:
-                    item, _, unit = col.rpartition("_")
-                    quantities.append((item, _fmt(total, unit)))
+        for col in item_cols:  # the whole site's bid quantities (its ``ALL`` rows)
+            total = _num(s.get(col))
+            if total:
+                item, _, unit = col.rpartition("_")
+                quantities.append((item, _fmt(total, unit)))
         estimate = [f"{_num(v):,.2f} {str(k).removeprefix('estimate_')}"
                     for k, v in s.items()
                     if str(k).startswith("estimate_") and _num(v) is not None]
