@@ -178,7 +178,7 @@ def test_summary_equals_the_sites_own_tables(portfolio_run: PortfolioRun) -> Non
 
 @pytest.mark.slow
 def test_summary_geopackage(portfolio_run: PortfolioRun) -> None:
-    """One point per site in WGS84, inside its slab outline (read with geopandas)."""
+    """One point per site in WGS84, where the site is, inside its slab outline (geopandas)."""
     import geopandas as gpd
     import pyogrio
 
@@ -188,6 +188,19 @@ def test_summary_geopackage(portfolio_run: PortfolioRun) -> None:
     pts = gpd.read_file(gpkg, layer="sites")
     assert pts.crs.to_epsg() == 4326 and len(pts) == 3
     assert len({(round(p.x, 6), round(p.y, 6)) for p in pts.geometry}) == 3  # 3 places
+    # where each site is, by pyproj from the synthetic tie (UTM 18N origin + the site's
+    # offset): a deck of 30 x 20 ft lies within 0.0005 degrees (about 50 m) of it
+    from pyproj import Transformer
+
+    from geo_corrosion.testing import SYNTHETIC_TIE
+
+    to_wgs84 = Transformer.from_crs(SYNTHETIC_TIE["crs"], "EPSG:4326", always_xy=True)
+    ox, oy = SYNTHETIC_TIE["origin"]
+    ids = {"North deck": "north-deck", "South deck": "south-deck", "East deck": "east-deck"}
+    at = pts.set_index("site_id").geometry
+    for _f, name, (dx, dy) in SITES:
+        lon, lat = to_wgs84.transform(ox + dx, oy + dy)
+        assert abs(at[ids[name]].x - lon) < 5e-4 and abs(at[ids[name]].y - lat) < 5e-4, name
     outl = gpd.read_file(gpkg, layer="site_outlines").set_index("site_id")
     for _i, p in pts[pts["status"] == "done"].iterrows():
         assert outl.loc[p["site_id"]].geometry.contains(p.geometry)
