@@ -10,8 +10,8 @@ computes nothing about a site itself: it chains and schedules.
 
 Hook for other exporters (a database, say): :attr:`PortfolioResult.run_folders` lists the
 run folders of the sites that completed, each an ordinary output folder of
-``geo-corrosion run``; :func:`geo_corrosion.exporters.portfolio.read_portfolio` reads them
-back from a portfolio folder.
+``geo-corrosion run``; :func:`geo_corrosion.exporters.portfolio.run_folders` lists them
+again from a finished portfolio folder.
 """
 
 from __future__ import annotations

@@ -118,6 +118,10 @@ def test_dask_portfolio_reports_the_broken_site(portfolio_run: PortfolioRun) -> 
     assert "on 2 local worker process(es)" in res.output
     assert res.output.strip().splitlines()[-1].startswith("Error: 1 of 3 site(s) failed")
     assert not (portfolio_run.out / "sites" / "east-deck").exists()  # nothing half-written
+    from geo_corrosion.exporters.portfolio import run_folders
+
+    assert run_folders(portfolio_run.out) == [portfolio_run.out / "sites" / s
+                                              for s in ("north-deck", "south-deck")]
 
 
 @pytest.mark.slow

@@ -18,13 +18,14 @@ from geo_corrosion.exporters.portfolio.summary import (
     SUMMARY_XLSX,
     PortfolioTables,
     SiteStatus,
+    run_folders,
     summary_tables,
     write_tables,
 )
 from geo_corrosion.exporters.portfolio.webmap import PORTFOLIO_MAP, write_portfolio_map
 
-__all__ = ["SiteStatus", "PortfolioTables", "summary_tables", "write_summary", "SUMMARY_CSV",
-           "SUMMARY_GPKG", "SUMMARY_XLSX", "PORTFOLIO_MAP"]
+__all__ = ["SiteStatus", "PortfolioTables", "summary_tables", "write_summary", "run_folders",
+           "SUMMARY_CSV", "SUMMARY_GPKG", "SUMMARY_XLSX", "PORTFOLIO_MAP"]
 
 
 def write_summary(out_dir: Path, sites: Sequence[SiteStatus]) -> list[str]:

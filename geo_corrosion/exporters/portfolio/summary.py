@@ -52,7 +52,7 @@ if TYPE_CHECKING:
 
     from geo_corrosion.model.manifest import Manifest
 
-__all__ = ["SiteStatus", "PortfolioTables", "summary_tables", "write_tables",
+__all__ = ["SiteStatus", "PortfolioTables", "summary_tables", "write_tables", "run_folders",
            "SUMMARY_GPKG", "SUMMARY_XLSX", "SUMMARY_CSV", "TABLES"]
 
 log = logging.getLogger(__name__)
@@ -352,3 +352,29 @@ def write_tables(out_dir: Path, t: PortfolioTables) -> list[str]:
     _write_gpkg(out_dir / SUMMARY_GPKG, t)
     _write_xlsx(out_dir / SUMMARY_XLSX, t)
     return [*files, SUMMARY_GPKG, SUMMARY_XLSX]
+
+
+def run_folders(out_dir: str | Path) -> list[Path]:
+    """Return the run folders of the sites that completed, from a portfolio's summary.
+
+    The hook for exporters of a whole portfolio (a database, say): each is an ordinary
+    output folder of ``geo-corrosion run``, in the order of ``portfolio_sites.csv``.
+
+    Raises
+    ------
+    ExportError
+        The folder holds no readable ``portfolio_sites.csv`` (it names the file).
+    """
+    import csv
+
+    from geo_corrosion.errors import ExportError
+
+    path = Path(out_dir) / SUMMARY_CSV["sites"]
+    try:
+        with path.open(newline="", encoding="utf-8") as f:
+            rows = list(csv.DictReader(f))
+    except (OSError, UnicodeDecodeError, csv.Error) as err:
+        raise ExportError(f"{path}: cannot be read ({err}); is {out_dir} the output folder "
+                          "of `geo-corrosion portfolio`?") from err
+    return [Path(out_dir) / r["run_folder"] for r in rows
+            if r.get("status") == "done" and r.get("run_folder")]
