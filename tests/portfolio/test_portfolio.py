@@ -208,3 +208,20 @@ def test_summary_geopackage(portfolio_run: PortfolioRun) -> None:
     outl = gpd.read_file(gpkg, layer="site_outlines").set_index("site_id")
     for _i, p in pts[pts["status"] == "done"].iterrows():
         assert outl.loc[p["site_id"]].geometry.contains(p.geometry)
+
+
+def test_an_existing_cluster_by_its_address(tmp_path: Path) -> None:
+    """`--scheduler ADDRESS` sends the tasks to that cluster (Dask's own LocalCluster here)."""
+    from distributed import LocalCluster
+
+    sites = make_sites(tmp_path)
+    out = tmp_path / "out"
+    with LocalCluster(n_workers=1, threads_per_worker=1, processes=False,
+                      dashboard_address=None) as cluster:
+        res = CliRunner().invoke(cli, ["portfolio", str(sites / "s2"), "--out", str(out),
+                                       "--scheduler", cluster.scheduler_address])
+    assert res.exit_code == 1, res.output
+    assert f"on the cluster at {cluster.scheduler_address}" in res.output
+    assert re.search(r"\[1/1\] east-deck: FAILED: readings/potential.csv line 6", res.output)
+    rows = _rows(out / "portfolio_sites.csv")
+    assert [(r["site_id"], r["status"]) for r in rows] == [("east-deck", "failed")]
