@@ -27,11 +27,13 @@ SYNTHETIC_TIE: _Tie = {"rotation_deg": 17.0, "origin": (583100.0, 4507200.0),
                        "crs": "EPSG:26918"}
 
 
-def _site_xy(x: NDArray[np.float64], y: NDArray[np.float64]
+def _site_xy(x: NDArray[np.float64], y: NDArray[np.float64],
+             offset: tuple[float, float] = (0.0, 0.0)
              ) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
     a = math.radians(SYNTHETIC_TIE["rotation_deg"])
     k = 0.3048
     ox, oy = SYNTHETIC_TIE["origin"]
+    ox, oy = ox + offset[0], oy + offset[1]
     return (ox + k * (math.cos(a) * x - math.sin(a) * y),
             oy + k * (math.sin(a) * x + math.cos(a) * y))
 
@@ -58,6 +60,8 @@ def make_synthetic_site(
     sparse_readings: int = 0,
     max_distance: str | None = "6 ft",
     levels: int = 1,
+    name: str = "Synthetic test deck",
+    offset_m: tuple[float, float] = (0.0, 0.0),
 ) -> Path:
     """Write a one-level synthetic site (GeoJSON plans, DXF sounding, CSV readings).
 
@@ -72,6 +76,8 @@ def make_synthetic_site(
 
     ``levels`` > 1 adds levels ``D2``, ``D3``, ... with the same plans and readings of their
     own (seeds ``seed + 1``, ...; files in ``D2/``, ...), so that levels differ.
+    ``name`` is the site's name; ``offset_m`` (east, north, metres) moves the site's tie
+    away from :data:`SYNTHETIC_TIE`'s origin (several sites in different places).
 
     Returns
     -------
@@ -147,12 +153,12 @@ def make_synthetic_site(
                                           enumerate(zip(sx, sy, rate, strict=True))]
         (root / "readings" / "corrosion_rate.csv").write_text("\n".join(lines) + "\n")
     cps = [(0.0, 0.0), (width_ft, 0.0), (0.0, depth_ft)]
-    cp_site = [_site_xy(np.array(a), np.array(b)) for a, b in cps]
+    cp_site = [_site_xy(np.array(a), np.array(b), offset_m) for a, b in cps]
     cp_text = ", ".join(
         f'{{ id = "CP{i + 1}", local = [{a}, {b}], site = [{float(sx):.4f}, {float(sy):.4f}] }}'
         for i, ((a, b), (sx, sy)) in enumerate(zip(cps, cp_site, strict=True)))
     text = f'''[site]
-name = "Synthetic test deck"
+name = {json.dumps(name)}
 crs = "{SYNTHETIC_TIE["crs"]}"
 units = "us"
 {extra_site}
@@ -204,7 +210,8 @@ unit = "uA/cm2"
         sub = make_synthetic_site(root / lid, width_ft=width_ft, depth_ft=depth_ft,
                                   spacing_ft=spacing_ft, seed=seed + i - 1,
                                   electrode=electrode, temperature_c=temperature_c,
-                                  sparse_readings=sparse_readings, max_distance=max_distance)
+                                  sparse_readings=sparse_readings, max_distance=max_distance,
+                                  offset_m=offset_m)
         more = sub.read_text()
         more = more[more.index("[[levels]]"):].replace('"D1', f'"{lid}').replace(
             "name = \"Test deck\"", f"name = \"Test deck {lid}\"")

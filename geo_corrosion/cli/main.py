@@ -7,6 +7,7 @@ import click
 from geo_corrosion.cli.commands.check import check
 from geo_corrosion.cli.commands.init import init
 from geo_corrosion.cli.commands.plugins import plugins
+from geo_corrosion.cli.commands.portfolio import portfolio
 from geo_corrosion.cli.commands.publish import publish
 from geo_corrosion.cli.commands.qgis_plugin import qgis_plugin
 from geo_corrosion.cli.commands.quantities import quantities
@@ -40,7 +41,7 @@ def _show_versions(ctx: click.Context) -> None:
 
 
 for _command in (init, check, run, quantities, plugins, map_cmd, report_cmd, reprice,
-                 publish, qgis_plugin):
+                 publish, qgis_plugin, portfolio):
     cli.add_command(_command)
 
 

@@ -17,7 +17,7 @@ PACKAGE = Path(__file__).resolve().parents[2] / "geo_corrosion"
 #: Top first.  A module may import its own layer or any layer below it, never above.
 LAYERS: tuple[tuple[str, ...], ...] = (
     ("geo_corrosion", "geo_corrosion.cli", "geo_corrosion.testing"),
-    ("geo_corrosion.pipeline", "geo_corrosion.registries"),
+    ("geo_corrosion.pipeline", "geo_corrosion.registries", "geo_corrosion.portfolio"),
     ("geo_corrosion.stages",),
     ("geo_corrosion.exporters",),
     ("geo_corrosion.model",),
