@@ -69,10 +69,22 @@ _SE = "http://www.opengis.net/se"
 _SLD = "http://www.opengis.net/sld"
 _OGC = "http://www.opengis.net/ogc"
 _XSI = "http://www.w3.org/2001/XMLSchema-instance"
-ET.register_namespace("se", _SE)
-ET.register_namespace("ogc", _OGC)
-ET.register_namespace("xsi", _XSI)
-ET.register_namespace("", _SLD)
+
+
+def _register_namespaces() -> None:
+    """Register the SLD prefixes with ElementTree (its registry is global to the process).
+
+    Called before each document is written, not once at import: another library registering
+    its own default namespace (``""``) drops ours, and the SLD then comes out with ``ns0:``
+    prefixes (seen in a forked exporter of a ``--jobs 2`` run).
+    """
+    ET.register_namespace("se", _SE)
+    ET.register_namespace("ogc", _OGC)
+    ET.register_namespace("xsi", _XSI)
+    ET.register_namespace("", _SLD)
+
+
+_register_namespaces()
 
 
 # ---------------------------------------------------------------- style description
@@ -458,6 +470,7 @@ def to_sld(spec: StyleSpec) -> str:
     ranges rules with ``PropertyIsBetween``; hatches are GeoServer's ``shape://`` marks,
     labels a ``TextSymbolizer`` of one attribute.
     """
+    _register_namespaces()
     root = ET.Element(f"{{{_SLD}}}StyledLayerDescriptor", {
         "version": "1.1.0",
         f"{{{_XSI}}}schemaLocation": "http://www.opengis.net/sld "
