@@ -20,6 +20,8 @@ from typing import TYPE_CHECKING, Any
 from geo_corrosion._io import atomic_write
 from geo_corrosion.cautions import CAUTIONS
 from geo_corrosion.exporters.webmap.assets import LEAFLET_VERSION, leaflet_assets
+from geo_corrosion.quantities import bid_decimals
+from geo_corrosion.vocabulary import unit_label
 
 if TYPE_CHECKING:
     from geo_corrosion.exporters.portfolio.summary import PortfolioTables
@@ -116,7 +118,8 @@ def _num(v: Any) -> float | None:
 
 
 def _fmt(v: float, unit: str) -> str:
-    return f"{v:,.0f} {unit}" if abs(v) >= 100 else f"{v:,.2f} {unit}"
+    """Return a quantity as the schedule bids it (its unit's decimals) with the owner's unit."""
+    return f"{v:,.{bid_decimals(unit)}f} {unit_label(unit)}"
 
 
 def _site_entries(t: PortfolioTables) -> list[dict[str, Any]]:
