@@ -27,6 +27,7 @@ from pathlib import Path
 import pandas as pd
 
 from geo_corrosion._io import atomic_write, output_lock, recover_output, swap_in
+from geo_corrosion._timing import Timings, timed
 from geo_corrosion.config import SiteConfig
 from geo_corrosion.errors import ExportError, GeoCorrosionWarning
 from geo_corrosion.exporters import EXPORTERS
@@ -118,24 +119,28 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
     levels: dict[str, LevelResult] = {}
     frames: dict[str, pd.DataFrame] = {}
     records: list[dict[str, object]] = []
+    clock: Timings = {}
     for lid, lv in site.levels.items():
-        mapped = map_level(lv, site.surveys_of(lid), flags, params, units=units, progress=say)
+        with timed(clock, "stages", "surfaces"):
+            mapped = map_level(lv, site.surveys_of(lid), flags, params, units=units, progress=say)
         low_cover = low_cover_mask(lv, with_role(mapped.surfaces, Role.COVER))
         condition = None
         if mapped.surfaces:
             say(f"level {lid}: condition assessment")
-            condition, life_frames = assess_condition(
-                lv, mapped, site.surveys_of(lid),
-                rules=site.config.combined_rules, bar_diameter_mm=planning.layout.bar_diameter_mm,
-                low_cover=low_cover, interval_method=params.interval_method,
-                realisations=params.realisations, n_neighbors=params.n_neighbors,
-                kinds=params.kinds)
+            with timed(clock, "stages", "condition"):
+                condition, life_frames = assess_condition(
+                    lv, mapped, site.surveys_of(lid), rules=site.config.combined_rules,
+                    bar_diameter_mm=planning.layout.bar_diameter_mm,
+                    low_cover=low_cover, interval_method=params.interval_method,
+                    realisations=params.realisations, n_neighbors=params.n_neighbors,
+                    kinds=params.kinds)
             frames.update(life_frames)
         say(f"level {lid}: laying out repairs and zones")
         editor = (repair_editor(lv, planning, edits[lid], records)
                   if edits is not None and lid in edits else None)
-        repairs, zones, notes = plan_level(lv, mapped.surfaces, planning, low_cover=low_cover,
-                                           edit=editor)
+        with timed(clock, "stages", "repairs"):
+            repairs, zones, notes = plan_level(lv, mapped.surfaces, planning,
+                                               low_cover=low_cover, edit=editor)
         stats = dict(mapped.kinds)
         if condition is not None:
             stats["condition"] = condition.stats
@@ -146,11 +151,13 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
                                   pay_areas=pay_area_frame(lv, zones, planning))
     surveys = tuple(dataclasses.replace(s, frame=frames[s.id]) if s.id in frames else s
                     for s in site.surveys)
-    schedule = schedule_quantities(levels.values(), units=units, contingency=params.contingency,
-                                   anode_spacing_mm=params.anode_spacing_mm,
-                                   prices=site.prices)
+    with timed(clock, "stages", "quantities"):
+        schedule = schedule_quantities(levels.values(), units=units,
+                                       contingency=params.contingency,
+                                       anode_spacing_mm=params.anode_spacing_mm,
+                                       prices=site.prices)
     return RunResult(dataclasses.replace(site, surveys=surveys), flags, levels, schedule,
-                     edits=list(records))
+                     edits=list(records), timings=clock)
 
 
 def write_outputs(result: RunResult, out_dir: Path, *, exporters: Sequence[str] | None = None,
@@ -162,8 +169,9 @@ def write_outputs(result: RunResult, out_dir: Path, *, exporters: Sequence[str] 
         exp = EXPORTERS.get(name)
         say(f"writing {name}")
         inst = exp() if isinstance(exp, type) else exp
-        for p in inst.export(result, out_dir):
-            result.files.append(str(Path(p).relative_to(out_dir)))
+        with timed(result.timings, "exporters", name):
+            for p in inst.export(result, out_dir):
+                result.files.append(str(Path(p).relative_to(out_dir)))
     if (out_dir / GPKG_NAME).is_file():  # what the documents were built from (#13)
         sums = repair_checksums(out_dir / GPKG_NAME)
         result.built_from = {d: dict(sums) for d in DOCUMENTS} if sums else {}
@@ -234,9 +242,12 @@ def _run_locked(site: str | Path | SiteConfig, out: Path, *, overwrite: bool,
     # collected into run.json and shown as progress, never lost and never fatal
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", GeoCorrosionWarning)
+        t_check = time.perf_counter()
         s, flags = check(cfg, progress=progress)  # the same checks as `geo-corrosion check`
         refuse_unrunnable(flags)
+        t_check = time.perf_counter() - t_check
         result = process(s, flags, progress=progress)
+        result.timings.setdefault("stages", {})["check"] = t_check
     notes = sorted({f"{w.category.__name__}: {w.message}" for w in caught
                     if issubclass(w.category, GeoCorrosionWarning)})
     for other in caught:
