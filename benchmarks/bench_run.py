@@ -58,7 +58,10 @@ def run_once(site: Path, out: Path, log: Path) -> dict[str, Any]:
     """Run ``geo-corrosion run`` in a subprocess; wall, CPU, peak RSS, timings, file sizes."""
     env = dict(os.environ)
     env["PYTHONPATH"] = os.pathsep.join(p for p in (str(ROOT), env.get("PYTHONPATH")) if p)
-    cmd = [sys.executable, "-m", "geo_corrosion.cli.main", "run", str(site), "--out", str(out),
+    # a site inside the repository by its relative path, as a run from the root names it (the
+    # outputs then compare equal with such a run's, e.g. /work/runs/base16)
+    where = str(site.relative_to(ROOT)) if site.resolve().is_relative_to(ROOT) else str(site)
+    cmd = [sys.executable, "-m", "geo_corrosion.cli.main", "run", where, "--out", str(out),
            "--overwrite"]
     with log.open("w") as fh:
         t0 = time.perf_counter()
