@@ -32,6 +32,7 @@ from typing import Any
 import pandas as pd
 
 from geo_corrosion._io import atomic_write, held_lock_fds, output_lock, recover_output, swap_in
+from geo_corrosion._timing import Timings, timed
 from geo_corrosion.config import SiteConfig
 from geo_corrosion.errors import ExportError, GeoCorrosionWarning
 from geo_corrosion.exporters import EXPORTERS
@@ -242,6 +243,7 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
     levels: dict[str, LevelResult] = {}
     frames: dict[str, pd.DataFrame] = {}
     records: list[dict[str, object]] = []
+    clock: Timings = {}  # each level's stages, added up (side by side: their sum)
     lids = list(site.levels)
     if n > 1 and len(lids) > 1:
         workers = min(n, len(lids))
@@ -258,9 +260,10 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
                         _rewarn(found)
                         if err is not None:
                             raise err
-                        levels[lid], life_frames, recs = out
+                        levels[lid], life_frames, recs, level_clock = out
                         frames.update(life_frames)
                         records.extend(recs)
+                        _add_times(clock, level_clock)
                 except BaseException:
                     for f in futs:
                         f.cancel()
@@ -272,18 +275,22 @@ def process(site: Site, flags: pd.DataFrame, *, progress: Progress | None = None
         _threads.set_threads(n)
         try:
             for lid in lids:
-                levels[lid], life_frames, recs = _process_level(say, site, flags, lid, edits)
+                levels[lid], life_frames, recs, level_clock = _process_level(
+                    say, site, flags, lid, edits)
                 frames.update(life_frames)
                 records.extend(recs)
+                _add_times(clock, level_clock)
         finally:
             _threads.set_threads(before)
     surveys = tuple(dataclasses.replace(s, frame=frames[s.id]) if s.id in frames else s
                     for s in site.surveys)
-    schedule = schedule_quantities(levels.values(), units=units, contingency=params.contingency,
-                                   anode_spacing_mm=params.anode_spacing_mm,
-                                   prices=site.prices)
+    with timed(clock, "stages", "quantities"):
+        schedule = schedule_quantities(levels.values(), units=units,
+                                       contingency=params.contingency,
+                                       anode_spacing_mm=params.anode_spacing_mm,
+                                       prices=site.prices)
     return RunResult(dataclasses.replace(site, surveys=surveys), flags, levels, schedule,
-                     edits=list(records))
+                     edits=list(records), timings=clock)
 
 
 def _level_in_worker(say: Progress, lid: str) -> tuple[Any, ...]:
@@ -294,31 +301,37 @@ def _level_in_worker(say: Progress, lid: str) -> tuple[Any, ...]:
 
 def _process_level(say: Progress, site: Site, flags: pd.DataFrame, lid: str,
                    edits: Mapping[str, LevelEdits] | None
-                   ) -> tuple[LevelResult, dict[str, pd.DataFrame], list[dict[str, object]]]:
-    """Compute one level: (its result, its surveys' life-estimate frames, edited repairs)."""
+                   ) -> tuple[LevelResult, dict[str, pd.DataFrame], list[dict[str, object]],
+                              Timings]:
+    """Compute one level: result, life-estimate frames, edited repairs, times of its stages."""
     params = site.config.run
     units = report_units(site.config.units)
     planning = planning_params(site.config)
     lv = site.levels[lid]
     records: list[dict[str, object]] = []
     frames: dict[str, pd.DataFrame] = {}
-    mapped = map_level(lv, site.surveys_of(lid), flags, params, units=units, progress=say)
+    clock: Timings = {}
+    with timed(clock, "stages", "surfaces"):
+        mapped = map_level(lv, site.surveys_of(lid), flags, params, units=units, progress=say)
     low_cover = low_cover_mask(lv, with_role(mapped.surfaces, Role.COVER))
     condition = None
     if mapped.surfaces:
         say(f"level {lid}: condition assessment")
-        condition, life_frames = assess_condition(
-            lv, mapped, site.surveys_of(lid),
-            rules=site.config.combined_rules, bar_diameter_mm=planning.layout.bar_diameter_mm,
-            low_cover=low_cover, interval_method=params.interval_method,
-            realisations=params.realisations, n_neighbors=params.n_neighbors,
-            kinds=params.kinds)
+        with timed(clock, "stages", "condition"):
+            condition, life_frames = assess_condition(
+                lv, mapped, site.surveys_of(lid),
+                rules=site.config.combined_rules,
+                bar_diameter_mm=planning.layout.bar_diameter_mm,
+                low_cover=low_cover, interval_method=params.interval_method,
+                realisations=params.realisations, n_neighbors=params.n_neighbors,
+                kinds=params.kinds)
         frames.update(life_frames)
     say(f"level {lid}: laying out repairs and zones")
     editor = (repair_editor(lv, planning, edits[lid], records)
               if edits is not None and lid in edits else None)
-    repairs, zones, notes = plan_level(lv, mapped.surfaces, planning, low_cover=low_cover,
-                                       edit=editor)
+    with timed(clock, "stages", "repairs"):
+        repairs, zones, notes = plan_level(lv, mapped.surfaces, planning, low_cover=low_cover,
+                                           edit=editor)
     stats = dict(mapped.kinds)
     if condition is not None:
         stats["condition"] = condition.stats
@@ -327,7 +340,15 @@ def _process_level(say: Progress, site: Site, flags: pd.DataFrame, lid: str,
                          stats=stats, skipped=mapped.skipped, condition=condition,
                          readings=mapped.readings, points=mapped.points,
                          pay_areas=pay_area_frame(lv, zones, planning))
-    return result, frames, records
+    return result, frames, records, clock
+
+
+def _add_times(total: Timings, part: Timings) -> None:
+    """Add the times of ``part`` to ``total`` (a stage of every level adds up)."""
+    for group, names in part.items():
+        g = total.setdefault(group, {})
+        for name, secs in names.items():
+            g[name] = g.get(name, 0.0) + secs
 
 
 def write_outputs(result: RunResult, out_dir: Path, *, exporters: Sequence[str] | None = None,
@@ -350,7 +371,9 @@ def write_outputs(result: RunResult, out_dir: Path, *, exporters: Sequence[str] 
     else:
         for name in names:
             say(f"writing {name}")
-            for p in _export_one(name, result, out_dir):
+            with timed(result.timings, "exporters", name):
+                paths = _export_one(name, result, out_dir)
+            for p in paths:
                 result.files.append(str(Path(p).relative_to(out_dir)))
     if (out_dir / GPKG_NAME).is_file():  # what the documents were built from (#13)
         sums = repair_checksums(out_dir / GPKG_NAME)
@@ -385,12 +408,14 @@ def exporter_needs(names: Sequence[str]) -> dict[str, set[str]]:
     return out
 
 
-def _exporter_in_worker(say: Progress, name: str, out_dir: Path) -> tuple[list[Path], list[str]]:
-    """Run an exporter on the result in :data:`_SHARED` (a forked worker): paths, notes."""
+def _exporter_in_worker(say: Progress, name: str, out_dir: Path
+                        ) -> tuple[list[Path], list[str], float]:
+    """Run an exporter on the result in :data:`_SHARED` (a forked worker): paths, notes, s."""
     result: RunResult = _SHARED["result"]
     before = len(result.warnings)
+    t0 = time.perf_counter()
     paths = _export_one(name, result, out_dir)
-    return paths, result.warnings[before:]
+    return paths, result.warnings[before:], time.perf_counter() - t0
 
 
 def _export_parallel(result: RunResult, out_dir: Path, names: list[str], say: Progress,
@@ -432,7 +457,8 @@ def _export_parallel(result: RunResult, out_dir: Path, names: list[str], say: Pr
         _rewarn(found)
         if err is not None:
             raise err
-        paths, notes = out
+        paths, notes, secs = out
+        _add_times(result.timings, {"exporters": {name: secs}})
         result.warnings.extend(notes)
         for p in paths:
             result.files.append(str(Path(p).relative_to(out_dir)))
@@ -504,9 +530,12 @@ def _run_locked(site: str | Path | SiteConfig, out: Path, *, overwrite: bool,
     # collected into run.json and shown as progress, never lost and never fatal
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always", GeoCorrosionWarning)
+        t_check = time.perf_counter()
         s, flags = check(cfg, progress=progress)  # the same checks as `geo-corrosion check`
         refuse_unrunnable(flags)
+        t_check = time.perf_counter() - t_check
         result = process(s, flags, progress=progress, jobs=jobs)
+        result.timings.setdefault("stages", {})["check"] = t_check
     notes = sorted({f"{w.category.__name__}: {w.message}" for w in caught
                     if issubclass(w.category, GeoCorrosionWarning)})
     for other in caught:

@@ -32,6 +32,7 @@ from typing import Any, Self
 import numpy as np
 
 from geo_corrosion import qa
+from geo_corrosion._timing import rounded
 from geo_corrosion.cautions import CAUTIONS
 from geo_corrosion.config import SiteConfig
 from geo_corrosion.errors import ExportError
@@ -1162,6 +1163,9 @@ class Manifest(_Record):
         (:mod:`geo_corrosion.exporters.built_from`).
     edits : tuple of RepairEditRecord, optional
         Repairs edited by hand and re-priced (``geo-corrosion reprice``).
+    timings : mapping of str to mapping of str to float, optional
+        Wall time of each stage (``stages``) and exporter (``exporters``) of the run, s
+        (:mod:`geo_corrosion._timing`); it varies from run to run like ``elapsed_s``.
     """
 
     geo_corrosion_run: int
@@ -1182,6 +1186,8 @@ class Manifest(_Record):
         default=None, metadata=_meta(optional=True))
     edits: tuple[RepairEditRecord, ...] | None = field(default=None,
                                                        metadata=_meta(optional=True))
+    timings: Mapping[str, Mapping[str, float]] | None = field(
+        default=None, metadata=_meta(optional=True))
 
     @classmethod
     def from_json(cls, data: Any, *, where: str | Path = MANIFEST_NAME) -> Manifest:
@@ -1276,6 +1282,7 @@ def _manifest_dict(result: RunResult, started: float) -> dict[str, Any]:
         "cautions": list(CAUTIONS),
         **({"built_from": result.built_from} if result.built_from else {}),
         **({"edits": result.edits} if result.edits else {}),
+        **({"timings": rounded(result.timings)} if result.timings else {}),
     }
 
 

@@ -70,3 +70,5 @@ class RunResult:
     built_from: dict[str, dict[str, str]] = field(default_factory=dict)
     #: repairs edited by hand and re-priced (run.json edits)
     edits: list[dict[str, Any]] = field(default_factory=list)
+    #: wall time of each stage and exporter, s (run.json timings; ``_timing.timed``)
+    timings: dict[str, dict[str, float]] = field(default_factory=dict)

@@ -59,6 +59,7 @@ from geo_corrosion.surfaces.density import (
     nearest_neighbour_spacing,
     spacing_reason,
     surface_reason,
+    uncorrelated_reason,
 )
 from geo_corrosion.units import LENGTH_TO_M, ReportUnits
 
@@ -233,6 +234,8 @@ def build_surface(
                         n_neighbors=params.n_neighbors, fixed=fixed or None, groups=groups)
     # the density rule and the kind's own neighbourhood (surfaces/density.py)
     spacing = nearest_neighbour_spacing(x, y)
+    if fit.uncorrelated:  # a pure nugget: shown as points, never refused (#16)
+        raise SparseReadingsError(uncorrelated_reason(spacing, level.unit))
     sparse = spacing_reason(spacing, float(fit.model.range), density_rule(params.kinds, kind.name),
                             level.unit)
     if sparse is not None:

@@ -52,7 +52,7 @@ __all__ = ["MIN_READINGS_FOR_SURFACE", "MAX_SPACING_TO_RANGE", "SEARCH_SPACINGS"
            "MAX_SPACINGS", "DensityRule", "Neighbourhood", "nearest_neighbour_spacing",
            "density_rule", "count_reason", "spacing_reason", "neighbourhood",
            "DENSITY_RULE_TEXT", "NEIGHBOURHOOD_RULE_TEXT", "SparseReadingsError",
-           "surface_reason", "kind_neighbourhood", "binding_radius"]
+           "surface_reason", "kind_neighbourhood", "binding_radius", "uncorrelated_reason"]
 
 
 class SparseReadingsError(KrigingError):
@@ -148,6 +148,14 @@ def spacing_reason(spacing: float, practical_range: float, rule: DensityRule,
             f"more than {rule.max_spacing_to_range:g} x the fitted practical range of "
             f"{practical_range:.3g} {unit}, so a surface between them would be little more than "
             "their mean; the readings are shown as points")
+
+
+def uncorrelated_reason(spacing: float, unit: str) -> str:
+    """Say why a kind with no spatial correlation at its reading spacing is shown as points."""
+    return (f"no spatial correlation found: readings {spacing:.3g} {unit} apart (median "
+            "nearest-neighbour spacing) vary independently of each other (a pure nugget "
+            "variogram), so a kriged surface would be their mean everywhere; the readings are "
+            "shown as points")
 
 
 def neighbourhood(spacing: float, practical_range: float, *,

@@ -99,6 +99,10 @@ class VariogramFit:
     variance_factor : float, optional
         Factor applied to nugget and partial sill by the variance calibration of the
         mapping stage (None: not calibrated).
+    uncorrelated : bool
+        True when no spatial correlation was found at the readings' spacing: the model is
+        a pure nugget (partial sill 0, nugget the variance of the readings), whose kriged
+        surface would be their mean everywhere.
     """
 
     model: VariogramModel
@@ -108,11 +112,13 @@ class VariogramFit:
     fallback: bool = False
     notes: tuple[str, ...] = field(default=())
     variance_factor: float | None = None
+    uncorrelated: bool = False
 
     def to_dict(self, *, value_unit: str = "", length_unit: str = "") -> dict[str, Any]:
         """JSON-ready description with units, for run.json."""
         return {
             "model": self.model.to_dict(value_unit=value_unit, length_unit=length_unit),
+            **({"no_spatial_correlation": True} if self.uncorrelated else {}),
             "criterion": self.criterion,
             "fallback": self.fallback,
             "variance_factor": self.variance_factor,
@@ -226,6 +232,28 @@ def _median_spacing(x: NDArray[np.float64], y: NDArray[np.float64]) -> float:
     d = d[:, 1]
     d = d[np.isfinite(d) & (d > 0)]
     return float(np.median(d)) if d.size else 0.0
+
+
+def _nugget_only(ev: ExperimentalVariogram, fx: dict[str, Any], spacing: float,
+                 notes: list[str]) -> VariogramFit:
+    """Return the pure-nugget fit of readings with no spatial correlation at their spacing.
+
+    Its sill is the pair-weighted mean semivariance of the bins, which for uncorrelated
+    readings estimates their variance (the semivariogram of white noise is flat at the
+    variance at every lag).
+    """
+    sill = float(np.average(ev.gamma, weights=ev.counts))
+    model = VariogramModel(name=str(fx.get("model", "exponential")), nugget=sill, psill=0.0,
+                           range=max(spacing, 1e-9),
+                           **{k: float(fx[k]) for k in ("anisotropy_ratio",
+                                                        "anisotropy_angle_deg") if k in fx})
+    msg = (f"no spatial correlation found: the fitted practical range is not longer than the "
+           f"median reading spacing ({spacing:.3g}), so neighbouring readings vary "
+           f"independently; a pure nugget model (sill {sill:.4g}, the readings' variance) is "
+           "used, whose kriged surface would be the mean everywhere")
+    return VariogramFit(model=model, candidates={}, experimental=ev,
+                        criterion="no spatial correlation found (pure nugget)",
+                        notes=(*notes, msg), uncorrelated=True)
 
 
 def fit_variogram(
@@ -346,11 +374,11 @@ def fit_variogram(
     )
     ml = float(ev.bin_edges[-1])
     var = float(np.var(zt))
+    spacing = _median_spacing(xa, ya) if max_lag is None else 0.0
     if max_lag is None:
         # the structure lies inside the first lag bin (its semivariance is already over half
         # the variance): no model can be fitted to the bins, so zoom in on the short lags,
         # at most three times and not below the reading spacing
-        spacing = _median_spacing(xa, ya)
         for _ in range(3):
             if not (ev.gamma[0] > 0.5 * var and ml / n_lags > 2.0 * spacing):
                 break
@@ -365,14 +393,22 @@ def fit_variogram(
     short = float(np.median([m.range for m, _ in wls.values()]))
     if max_lag is None and short < ml / 2.5:
         # the structure is short compared with the default maximum lag: re-bin the
-        # experimental variogram on twice the fitted range so the short lags are resolved
+        # experimental variogram on twice the fitted range so the short lags are resolved,
+        # never below twice the reading spacing (as the zoom above): closer than that there
+        # is no pair of readings to bin, and an uncorrelated kind's fitted range is tiny
         ev = experimental_variogram(
-            xa, ya, zt, max_lag=2.0 * short, n_lags=n_lags, max_pairs=max_pairs, seed=seed,
-        groups=groups,
+            xa, ya, zt, max_lag=max(2.0 * short, 2.0 * spacing), n_lags=n_lags,
+            max_pairs=max_pairs, seed=seed, groups=groups,
         )
         ml = float(ev.bin_edges[-1])
-        notes.append(f"experimental variogram re-binned to max_lag={ml:g} (twice the range)")
+        notes.append(f"experimental variogram re-binned to max_lag={ml:g} (twice the range)"
+                     if ml > 2.0 * spacing else
+                     f"experimental variogram re-binned to max_lag={ml:g} (twice the reading "
+                     "spacing; the fitted range was shorter)")
         wls = {name: _fit_one(name, ev, fx, var, ml) for name in cands}
+        short = float(np.median([m.range for m, _ in wls.values()]))
+        if short <= spacing and not {"nugget", "psill", "range"} & set(fx):
+            return _nugget_only(ev, fx, spacing, notes)
     if ev.subsampled:
         notes.append(
             f"experimental variogram from a random subsample of {ev.n_readings_used} of "

@@ -28,7 +28,7 @@ LAYERS: tuple[tuple[str, ...], ...] = (
     ("geo_corrosion.config", "geo_corrosion.crs", "geo_corrosion._toml"),
     ("geo_corrosion.errors", "geo_corrosion.units", "geo_corrosion.plugins",
      "geo_corrosion._io", "geo_corrosion.cautions", "geo_corrosion.bibliography",
-     "geo_corrosion.vocabulary"),
+     "geo_corrosion.vocabulary", "geo_corrosion._timing"),
 )
 
 
