@@ -705,9 +705,15 @@ def _zone_of(rep: gpd.GeoDataFrame, zones: gpd.GeoDataFrame | None) -> list[str]
     """Return the zone holding most of each repair's area ("" when there are no zones)."""
     if zones is None:
         return [""] * len(rep)
+    import shapely
+
+    # zones read back from the GeoPackage may hold a ring that touches itself (a staircase
+    # outline of a large garage): made valid once, so that the overlay cannot fail on them
+    # (GEOS "TopologyException: Ring edge missing" on a 100,000-reading garage)
+    zg = shapely.make_valid(np.asarray(zones.geometry.values))
     out = []
     for geom in rep.geometry:
-        inter = zones.geometry.intersection(geom).area
+        inter = shapely.area(shapely.intersection(zg, shapely.make_valid(geom)))
         out.append(str(zones["zone"].iloc[int(inter.argmax())]) if inter.max() > 0 else "")
     return out
 
