@@ -63,6 +63,7 @@ Intervals by conditional simulation (the default)
 
 from __future__ import annotations
 
+import math
 from contextlib import AbstractContextManager, nullcontext
 from dataclasses import dataclass
 from functools import lru_cache
@@ -128,7 +129,7 @@ def exceedance_probability(
     *,
     direction: str = "below",
     log_space: bool = False,
-    log_base: float = np.e,
+    log_base: float = math.e,
 ) -> NDArray[np.float64]:
     """Return per cell the probability that the variable is beyond ``threshold``.
 
@@ -177,7 +178,7 @@ def class_probabilities(
     class_set: ClassSet,
     *,
     log_space: bool = False,
-    log_base: float = np.e,
+    log_base: float = math.e,
 ) -> NDArray[np.float64]:
     """Return per cell the probability of each class, shape ``mean.shape + (n_classes,)``.
 
@@ -345,7 +346,7 @@ def area_interval(
     correlation_length: float,
     direction: str = "below",
     log_space: bool = False,
-    log_base: float = np.e,
+    log_base: float = math.e,
     level: float = 0.9,
     n_draws: int = 1000,
     seed: int = 0,
@@ -466,7 +467,7 @@ def simulated_area_intervals(
     for _, d in thresholds:
         if d not in ("below", "above"):
             raise ConditionError(f"direction must be 'below' or 'above', got {d!r}")
-    kt = [(_transform(t, log_space, np.e), d) for t, d in thresholds]
+    kt = [(_transform(t, log_space, math.e), d) for t, d in thresholds]
     res = simulator.excursion_areas(kt, n_realisations, seed=seed)
     cell_area = simulator.grid.cell ** 2
     total = float(simulator.mask.sum()) * cell_area
