@@ -101,7 +101,7 @@ def load_times(html: Path, repeat: int) -> dict[str, float]:
             page = ctx.new_page()
             page.route("**/*", lambda r: r.continue_() if r.request.url.startswith(
                 ("file:", "data:")) else r.abort())
-            page.goto(html.as_uri(), timeout=600_000)
+            page.goto(html.resolve().as_uri(), timeout=600_000)
             page.wait_for_function("window.__geoCorrosion && window.__geoCorrosion.ready",
                                    timeout=600_000)
             page.wait_for_function("window.__geoCorrosion.paintedAt !== undefined",
