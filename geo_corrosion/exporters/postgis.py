@@ -255,9 +255,13 @@ def read_run_folder(run_dir: str | Path, *, site_id: str | None = None,
     srid: int | None = None
     crs_text = ""
     try:
-        layers = [str(row[0]) for row in pyogrio.list_layers(gpkg)]
-        for layer in layers:
+        found = [(str(row[0]), row[1]) for row in pyogrio.list_layers(gpkg)]
+        for layer, gtype in found:
             gdf = pyogrio.read_dataframe(gpkg, layer=layer, fid_as_index=True)
+            if gtype is None:  # an attribute table (the GIS styles' layer_styles): no geometry
+                tables.append(_Table(_ident(layer, prefix="layer"), f"{GPKG_NAME} table {layer}",
+                                     gdf, comment=f"table {layer} of {GPKG_NAME}"))
+                continue
             if gdf.crs is None:
                 raise ExportError(f"{gpkg} layer {layer!r} has no CRS; run the site again")
             code = _srid(gdf.crs, f"{gpkg} layer {layer!r}")

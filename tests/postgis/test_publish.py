@@ -46,8 +46,10 @@ def _tables(dsn: str, schema: str) -> set[str]:
                                  (schema,))}
 
 
-def _layers(run_dir: Path) -> list[str]:
-    return [str(r[0]) for r in pyogrio.list_layers(run_dir / "survey.gpkg")]
+def _layers(run_dir: Path, *, spatial: bool = True) -> list[str]:
+    """Return the GeoPackage's layers with a geometry (``spatial=False``: tables too)."""
+    return [str(r[0]) for r in pyogrio.list_layers(run_dir / "survey.gpkg")
+            if r[1] is not None or not spatial]
 
 
 def _frame_equal(db: pd.DataFrame, ref: pd.DataFrame, where: str) -> None:
@@ -95,6 +97,13 @@ def test_round_trip_every_layer(run_dir: Path, database: str) -> None:
         for c in ref.columns.drop("geometry"):
             expected = kinds.get(ref[c].dtype.kind, "text")
             assert sql_types[c] == expected, f"{layer} column {c}"
+    # the attribute tables (layer_styles: a default QGIS/SLD style per layer) as tables
+    for table in set(_layers(run_dir, spatial=False)) - set(layers):
+        ref = pyogrio.read_dataframe(run_dir / "survey.gpkg", layer=table, fid_as_index=True)
+        db = pd.read_sql(f'SELECT * FROM "{SCHEMA}"."{table.lower()}" ORDER BY fid',
+                         engine).set_index("fid")
+        assert len(db) == len(ref) == pub.tables[table.lower()], table
+        assert list(db["f_table_name"]) == list(ref["f_table_name"]), table
     engine.dispose()
 
 
@@ -332,5 +341,5 @@ def test_exporter_in_a_run(run_dir: Path, database: str, tmp_path: Path,
     out = tmp_path / "out"
     run(Path(site), out, exporters=("geopackage", "quantities", "postgis"))
     tables = _tables(database, SCHEMA)
-    assert tables == {lay.lower() for lay in _layers(out)} | {
+    assert tables == {lay.lower() for lay in _layers(out, spatial=False)} | {
         "quantities", "condition_areas", "run_manifest"}

@@ -36,7 +36,7 @@ def _pyqgis_missing() -> str | None:
     if not Path(SYSTEM_PYTHON).is_file():
         return f"{SYSTEM_PYTHON} is missing"
     r = subprocess.run([SYSTEM_PYTHON, "-c", "import qgis.core"], capture_output=True,
-                       text=True, env={**os.environ, "QT_QPA_PLATFORM": "offscreen"})
+                       text=True, env={**system_env(), "QT_QPA_PLATFORM": "offscreen"})
     return None if r.returncode == 0 else f"Debian's PyQGIS is missing ({SYSTEM_PYTHON} -c " \
         "'import qgis.core' failed; apt-get install python3-qgis)"
 
@@ -55,9 +55,27 @@ def pyqgis_missing() -> str | None:
     return f"QGIS test: {why}" if why else None
 
 
+def system_env(env: dict[str, str] | None = None) -> dict[str, str]:
+    """Return an environment in which QGIS's own (Debian's) Python finds itself.
+
+    QGIS embeds Python and looks for ``python3`` on PATH to find its prefix: run from an
+    activated virtual environment (as .ci/run does), it took the venv's interpreter, read its
+    ``pyvenv.cfg`` and lost its own modules ("Couldn't load SIP module ... No module named
+    'qgis'"). So the venv leaves PATH and the PYTHON* variables are dropped; the package's
+    own Python is handed to the plugin by GEO_CORROSION_PYTHON.
+    """
+    e = {k: v for k, v in (env or os.environ).items()
+         if not k.startswith(("PYTHON", "VIRTUAL_ENV"))}
+    venv = os.environ.get("VIRTUAL_ENV")
+    parts = [p for p in e.get("PATH", "").split(os.pathsep)
+             if p and not (venv and p.startswith(venv))]
+    e["PATH"] = os.pathsep.join(["/usr/bin", *[p for p in parts if p != "/usr/bin"]])
+    return e
+
+
 def base_env(xdg: Path) -> dict[str, str]:
     """Return the environment of QGIS runs: offscreen, a throwaway profile, our Python."""
-    env = dict(os.environ)
+    env = system_env()
     env.update(QT_QPA_PLATFORM="offscreen", XDG_DATA_HOME=str(xdg),
                XDG_RUNTIME_DIR=str(xdg / "runtime"), GEO_CORROSION_PYTHON=sys.executable,
                GEO_CORROSION_PYTHONPATH=str(REPO))
@@ -149,8 +167,7 @@ def pyqgis(script: str, *args: str, env: dict[str, str] | None = None
             "QgsApplication.setPrefixPath('/usr', True)\n"
             "app = QgsApplication([], False)\napp.initQgis()\n"
             f"sys.path.insert(0, {str(PLUGIN_SRC)!r})\n")
-    e = dict(env or os.environ)
+    e = system_env(env)
     e["QT_QPA_PLATFORM"] = "offscreen"
-    e.pop("PYTHONPATH", None)
     return subprocess.run([SYSTEM_PYTHON, "-c", head + script, *args], capture_output=True,
                           text=True, env=e, timeout=600)
