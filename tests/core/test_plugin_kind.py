@@ -14,7 +14,7 @@ import json
 from collections.abc import Iterator
 from importlib.metadata import EntryPoint
 from pathlib import Path
-from typing import ClassVar
+from typing import Any, ClassVar
 
 import numpy as np
 import pyogrio
@@ -290,19 +290,14 @@ def test_two_kinds_in_one_role_are_refused(plugin_registered: None, tmp_path: Pa
 
 
 @pytest.mark.browser
-def test_webmap_layer_control_in_a_browser(chloride_run: tuple[Path, np.ndarray]) -> None:
-    from tests.webmap.conftest import CHROMIUM_ARGS, _need_browser, open_page
+def test_webmap_layer_control_in_a_browser(chloride_run: tuple[Path, np.ndarray],
+                                          browser: Any) -> None:
+    from tests.webmap.conftest import open_page
 
     out, _values = chloride_run
-    sync_playwright = _need_browser()
-    with sync_playwright() as pw:
-        browser = pw.chromium.launch(executable_path="/usr/bin/chromium", args=CHROMIUM_ARGS)
-        try:
-            page, log = open_page(browser, out / "webmap.html")
-            labels = page.eval_on_selector_all(".leaflet-control-layers label",
-                                               "els => els.map(e => e.textContent.trim())")
-        finally:
-            browser.close()
+    page, log = open_page(browser, out / "webmap.html")
+    labels = page.eval_on_selector_all(".leaflet-control-layers label",
+                                       "els => els.map(e => e.textContent.trim())")
     # the layer control lists the plugin's layers like a built-in's (Leaflet renders them)
     for want in ("Test deck", "Chloride surface", "Chloride classes", "Chloride readings"):
         assert want in labels, (want, labels)

@@ -19,8 +19,6 @@ from pathlib import Path
 import pytest
 from click.testing import CliRunner, Result
 
-from tests.webmap.conftest import browser  # noqa: F401 - the web map tests' fixture, reused
-
 #: (folder, site name, offset east/north of the synthetic tie, m): three places ~0.5 km apart.
 SITES = (("s0", "North deck", (0.0, 0.0)), ("s1", "South deck", (0.0, -400.0)),
          ("s2", "East deck", (500.0, -200.0)))

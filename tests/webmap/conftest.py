@@ -14,7 +14,6 @@ from __future__ import annotations
 import json
 import os
 import shutil
-from collections.abc import Iterator
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -108,16 +107,6 @@ def _need_browser() -> Any:
         pytest.skip("browser test: the playwright package is missing (pip install playwright; "
                     "never `playwright install`: Debian's chromium is used)")
     return sync_playwright
-
-
-@pytest.fixture(scope="session")
-def browser() -> Iterator[Any]:
-    """Debian's chromium, headless, driven by Playwright."""
-    sync_playwright = _need_browser()
-    with sync_playwright() as p:
-        b = p.chromium.launch(executable_path=str(CHROMIUM), args=CHROMIUM_ARGS)
-        yield b
-        b.close()
 
 
 def open_page(browser: Any, path: Path, *, width: int = 1400,
