@@ -39,6 +39,7 @@ from typing import TYPE_CHECKING, Any, ClassVar
 
 from geo_corrosion.errors import ExportError
 from geo_corrosion.exporters.base import Exporter
+from geo_corrosion.model.manifest import read_run_json
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -189,21 +190,6 @@ class _Run:
     tables: list[_Table]
 
 
-def _read_manifest(run_dir: Path) -> dict[str, Any]:
-    path = run_dir / "run.json"
-    if not path.is_file():
-        raise ExportError(f"{run_dir} holds no run.json; is it the output folder of "
-                          "`geo-corrosion run`?")
-    try:
-        data = json.loads(path.read_text(encoding="utf-8"))
-    except (OSError, ValueError) as err:
-        raise ExportError(f"{path}: cannot be read ({err}); re-run `geo-corrosion run`") from err
-    if not isinstance(data, dict) or "levels" not in data:
-        raise ExportError(f"{path}: not the manifest of a run (no 'levels'); re-run "
-                          "`geo-corrosion run`")
-    return data
-
-
 def _geometry_type(gdf: Any) -> str:
     import shapely
 
@@ -245,7 +231,7 @@ def read_run_folder(run_dir: str | Path, *, site_id: str | None = None,
     run_dir = Path(run_dir)
     if not run_dir.is_dir():
         raise ExportError(f"{run_dir}: no such folder; give the output folder of a run")
-    man = dict(manifest) if manifest is not None else _read_manifest(run_dir)
+    man = dict(manifest) if manifest is not None else read_run_json(run_dir)
     sid = site_id or _site_id(man, run_dir)
     gpkg = run_dir / GPKG_NAME
     if not gpkg.is_file():

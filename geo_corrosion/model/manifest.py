@@ -39,7 +39,8 @@ from geo_corrosion.errors import ExportError
 from geo_corrosion.model.results import RunResult
 from geo_corrosion.units import LENGTH_TO_M, report_units
 
-__all__ = ["MANIFEST_NAME", "FORMAT_VERSION", "manifest", "read_run", "result_manifest",
+__all__ = ["MANIFEST_NAME", "FORMAT_VERSION", "manifest", "read_run", "read_run_json",
+           "result_manifest",
            "file_sha256", "RunParameters", "input_files", "package_versions", "json_default",
            "Manifest", "SiteRecord", "InputFile", "SurveyRecord", "QaCount", "QaSummary",
            "LevelRecord", "Georeference", "ControlPointResidual", "KindRecord",
@@ -1299,14 +1300,13 @@ def manifest(result: RunResult, started: float) -> Manifest:
     return Manifest.from_json(data, where=f"{MANIFEST_NAME} of this run")
 
 
-def read_run(run_dir: str | Path) -> Manifest:
-    """Read and check ``run.json`` of an output folder.
+def read_run_json(run_dir: str | Path) -> dict[str, Any]:
+    """Read ``run.json`` of an output folder as JSON: a dict with ``levels``, not yet checked.
 
     Raises
     ------
     ExportError
-        If the folder holds no readable ``run.json``, or it is not the manifest of a run
-        of this version (the message names the file and the JSON path).
+        If the folder holds no readable ``run.json``, or it is not the manifest of a run.
     """
     man = Path(run_dir) / MANIFEST_NAME
     if not man.is_file():
@@ -1319,7 +1319,19 @@ def read_run(run_dir: str | Path) -> Manifest:
     if not isinstance(data, dict) or "levels" not in data:
         raise ExportError(f"{man}: not the manifest of a run (no 'levels'); re-run "
                           "`geo-corrosion run`")
-    return Manifest.from_json(data, where=man)
+    return data
+
+
+def read_run(run_dir: str | Path) -> Manifest:
+    """Read and check ``run.json`` of an output folder.
+
+    Raises
+    ------
+    ExportError
+        If the folder holds no readable ``run.json``, or it is not the manifest of a run
+        of this version (the message names the file and the JSON path).
+    """
+    return Manifest.from_json(read_run_json(run_dir), where=Path(run_dir) / MANIFEST_NAME)
 
 
 def result_manifest(result: RunResult) -> Manifest:

@@ -2,27 +2,14 @@
 
 from __future__ import annotations
 
-import importlib.util
 import shutil
 import sqlite3
-import sys
 from pathlib import Path
-from types import ModuleType
 
 import numpy as np
 import pytest
 
-SCRIPT = Path(__file__).resolve().parents[2] / ".ci" / "compare_runs.py"
-
-
-def _load_script() -> ModuleType:
-    spec = importlib.util.spec_from_file_location("compare_runs", SCRIPT)
-    assert spec is not None and spec.loader is not None
-    module = importlib.util.module_from_spec(spec)
-    sys.modules["compare_runs"] = module  # dataclasses look their module up there
-    spec.loader.exec_module(module)
-    return module
-
+from tests.compare_runs_script import load_compare_runs as _load_script
 
 cr = _load_script()
 

@@ -9,29 +9,16 @@ few that embed the run's time stamp (run.json ``created_utc``/``elapsed_s``, the
 
 from __future__ import annotations
 
-import importlib.util
 import os
-import sys
 from collections.abc import Iterator
 from pathlib import Path
-from types import ModuleType
 
 import pytest
 from click.testing import CliRunner
 
 from geo_corrosion import pipeline
 from geo_corrosion.errors import ExportError, QAError
-
-SCRIPT = Path(__file__).resolve().parents[2] / ".ci" / "compare_runs.py"
-
-
-def _compare_runs() -> ModuleType:
-    spec = importlib.util.spec_from_file_location("compare_runs", SCRIPT)
-    assert spec is not None and spec.loader is not None
-    module = importlib.util.module_from_spec(spec)
-    sys.modules["compare_runs"] = module  # dataclasses look their module up there
-    spec.loader.exec_module(module)
-    return module
+from tests.compare_runs_script import load_compare_runs as _compare_runs
 
 
 @pytest.fixture(scope="module")

@@ -2,26 +2,12 @@
 
 from __future__ import annotations
 
-import importlib.util
-import sys
 import time
-from pathlib import Path
-from types import ModuleType
 
 import pytest
 
 from geo_corrosion._timing import Timings, rounded, timed
-
-SCRIPT = Path(__file__).resolve().parents[2] / ".ci" / "compare_runs.py"
-
-
-def _compare_runs() -> ModuleType:
-    spec = importlib.util.spec_from_file_location("compare_runs", SCRIPT)
-    assert spec is not None and spec.loader is not None
-    module = importlib.util.module_from_spec(spec)
-    sys.modules["compare_runs"] = module  # dataclasses look their module up there
-    spec.loader.exec_module(module)
-    return module
+from tests.compare_runs_script import load_compare_runs as _compare_runs
 
 
 def test_timed_adds_up_per_name_and_records_a_failing_block() -> None:

@@ -8,11 +8,8 @@ processes and compare with a plain `geo-corrosion run` of the same site.
 from __future__ import annotations
 
 import csv
-import importlib.util
 import re
-import sys
 from pathlib import Path
-from types import ModuleType
 
 import pytest
 from click.testing import CliRunner
@@ -20,18 +17,8 @@ from click.testing import CliRunner
 from geo_corrosion.cli.main import cli
 from geo_corrosion.errors import SiteFileError
 from geo_corrosion.portfolio import find_sites, plan_sites, site_slug
+from tests.compare_runs_script import load_compare_runs as _compare_runs
 from tests.portfolio.conftest import BAD_ROW, SITES, PortfolioRun, make_sites
-
-COMPARE = Path(__file__).resolve().parents[2] / ".ci" / "compare_runs.py"
-
-
-def _compare_runs() -> ModuleType:
-    spec = importlib.util.spec_from_file_location("compare_runs", COMPARE)
-    assert spec is not None and spec.loader is not None
-    mod = importlib.util.module_from_spec(spec)
-    sys.modules[spec.name] = mod  # its dataclasses look their module up
-    spec.loader.exec_module(mod)
-    return mod
 
 
 def _rows(path: Path) -> list[dict[str, str]]:
