@@ -17,7 +17,6 @@ again from a finished portfolio folder.
 from __future__ import annotations
 
 import csv
-import inspect
 import os
 import re
 import time
@@ -278,13 +277,11 @@ def run_site_task(site_file: str, run_dir: str, overwrite: bool = False) -> dict
     from geo_corrosion import pipeline
 
     t0 = time.perf_counter()
-    kwargs: dict[str, Any] = {"overwrite": overwrite}
-    if "jobs" in inspect.signature(pipeline.run).parameters:  # one core per site
-        kwargs["jobs"] = 1
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")  # the run records its own notes in run.json
-            pipeline.run(site_file, run_dir, **kwargs)
+            # one core per site: the portfolio's parallelism is its sites
+            pipeline.run(site_file, run_dir, overwrite=overwrite, jobs=1)
     except GeoCorrosionError as err:
         return {"status": "failed", "message": str(err),
                 "elapsed_s": time.perf_counter() - t0}
