@@ -48,6 +48,7 @@ CUBIC_OVERSHOOT = 0.3
 
 if _nb is not None:
     _gamma = _kernel._gamma
+    _lu_solve = _kernel._lu_solve
 
     @_nb.njit(cache=True, nogil=True)
     def _weights(px: NDArray[np.float64], py: NDArray[np.float64], idx: NDArray[np.intp],
@@ -90,41 +91,9 @@ if _nb is not None:
             A[kv, kv] = 0.0
             b[kv] = 1.0
             b0[kv] = 1.0
-            singular = False
-            for c in range(q):
-                piv = c
-                best = abs(A[c, c])
-                for r in range(c + 1, q):
-                    v = abs(A[r, c])
-                    if v > best:
-                        best = v
-                        piv = r
-                if best == 0.0:
-                    singular = True
-                    break
-                if piv != c:
-                    for t in range(q):
-                        tmp = A[c, t]
-                        A[c, t] = A[piv, t]
-                        A[piv, t] = tmp
-                    tmp = b[c]
-                    b[c] = b[piv]
-                    b[piv] = tmp
-                inv = 1.0 / A[c, c]
-                for r in range(c + 1, q):
-                    f = A[r, c] * inv
-                    if f != 0.0:
-                        for t in range(c + 1, q):
-                            A[r, t] -= f * A[c, t]
-                        b[r] -= f * b[c]
-            if singular:
+            if _lu_solve(A, b, q):
                 bad[p] = True
                 continue
-            for r in range(q - 1, -1, -1):
-                s = b[r]
-                for t in range(r + 1, q):
-                    s -= A[r, t] * b[t]
-                b[r] = s / A[r, r]
             vv = b[kv] - nug
             ok = np.isfinite(vv)
             for i in range(kv):
