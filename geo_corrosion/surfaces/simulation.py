@@ -177,13 +177,20 @@ class CirculantEmbedding:
         out = np.empty((count, Ly * Lx))
         done = 0
         My, Mx = self.embedding_shape
+        x = np.empty((My, Mx), dtype=complex)
         while done < count:
             e = rng.standard_normal((2, My, Mx))
-            f = scipy.fft.fft2(self._sqrt_lam * (e[0] + 1j * e[1]), workers=-1)
-            out[done] = f.real[:Ly, :Lx].ravel()
+            # sqrt(lam) (e0 + i e1) written part by part (the same values, no temporaries);
+            # the 2-D FFT as its two passes, the second only over the lattice's rows: the
+            # same 1-D transforms as fft2 gives for the cells kept, to the bit
+            np.multiply(self._sqrt_lam, e[0], out=x.real)
+            np.multiply(self._sqrt_lam, e[1], out=x.imag)
+            f = scipy.fft.fft(x, axis=0)[:Ly]
+            f = scipy.fft.fft(f, axis=1, overwrite_x=True)[:, :Lx]
+            out[done] = f.real.ravel()
             done += 1
             if done < count:
-                out[done] = f.imag[:Ly, :Lx].ravel()
+                out[done] = f.imag.ravel()
                 done += 1
         return out
 
