@@ -71,6 +71,47 @@ if _nb is not None:
         return nug + psill * f
 
     @_nb.njit(cache=True, nogil=True, inline="always")
+    def _lu_solve(A: Any, b: Any, q: int) -> bool:  # pragma: no cover - compiled
+        """Solve ``A[:q, :q] x = b[:q]`` in place (``x`` in ``b``); True if singular.
+
+        LU with partial pivoting, forward elimination on ``b`` and back substitution, in
+        compiled loops with no temporaries; ``A`` is overwritten.  A pivot of exactly zero
+        stops it (True, ``b`` then partly eliminated).  Shared by the kriging kernel and the
+        simulation's weights (:mod:`geo_corrosion.surfaces._simkernel`).
+        """
+        for c in range(q):
+            piv = c
+            best = abs(A[c, c])
+            for r in range(c + 1, q):
+                v = abs(A[r, c])
+                if v > best:
+                    best = v
+                    piv = r
+            if best == 0.0:
+                return True
+            if piv != c:
+                for t in range(q):
+                    tmp = A[c, t]
+                    A[c, t] = A[piv, t]
+                    A[piv, t] = tmp
+                tmp = b[c]
+                b[c] = b[piv]
+                b[piv] = tmp
+            inv = 1.0 / A[c, c]
+            for r in range(c + 1, q):
+                f = A[r, c] * inv
+                if f != 0.0:
+                    for t in range(c + 1, q):
+                        A[r, t] -= f * A[c, t]
+                    b[r] -= f * b[c]
+        for r in range(q - 1, -1, -1):  # back substitution
+            s = b[r]
+            for t in range(r + 1, q):
+                s -= A[r, t] * b[t]
+            b[r] = s / A[r, r]
+        return False
+
+    @_nb.njit(cache=True, nogil=True, inline="always")
     def _solve_one(p: int, px: NDArray[np.float64], py: NDArray[np.float64],
                    z: NDArray[np.float64], idx: NDArray[np.intp], dist: NDArray[np.float64],
                    n: int, code: int, nug: float, psill: float, rng: float, shape: float,
@@ -105,41 +146,9 @@ if _nb is not None:
         A[kv, kv] = 0.0
         b[kv] = 1.0
         b0[kv] = 1.0
-        singular = False
-        for c in range(q):  # LU with partial pivoting, forward elimination on b
-            piv = c
-            best = abs(A[c, c])
-            for r in range(c + 1, q):
-                v = abs(A[r, c])
-                if v > best:
-                    best = v
-                    piv = r
-            if best == 0.0:
-                singular = True
-                break
-            if piv != c:
-                for t in range(q):
-                    tmp = A[c, t]
-                    A[c, t] = A[piv, t]
-                    A[piv, t] = tmp
-                tmp = b[c]
-                b[c] = b[piv]
-                b[piv] = tmp
-            inv = 1.0 / A[c, c]
-            for r in range(c + 1, q):
-                f = A[r, c] * inv
-                if f != 0.0:
-                    for t in range(c + 1, q):
-                        A[r, t] -= f * A[c, t]
-                    b[r] -= f * b[c]
-        if singular:
+        if _lu_solve(A, b, q):
             bad[p] = True
             return
-        for r in range(q - 1, -1, -1):  # back substitution
-            s = b[r]
-            for t in range(r + 1, q):
-                s -= A[r, t] * b[t]
-            b[r] = s / A[r, r]
         mu = 0.0
         vv = b[kv]
         for i in range(kv):

@@ -16,8 +16,11 @@
   4 x 4 neighbours), per realisation.  A cell whose 5 x 5 block of centres, widened by
   :data:`CUBIC_OVERSHOOT`, lies wholly on one side is counted whole without further work
   (most cells are far from the threshold); otherwise each quarter of it is either wholly on
-  one side (its 16 values, widened, are) or sampled at ``q x q`` points, the interpolant
-  evaluated separably (rows, then columns) with weights tabulated once.
+  one side (its 16 values, widened, are, or the Bernstein coefficients of its bicubic
+  patch over the samples' square are: :func:`bernstein_hull`) or sampled at ``q x q``
+  points, the interpolant evaluated separably (rows, then columns) with weights tabulated
+  once.  Each shortcut only skips samples that would all agree, so the shares are those
+  of sampling every crossed quarter.
 
 Each loop has a numpy version (used without numba, ``GEO_CORROSION_NO_JIT=1``, or for the
 Matérn model in :func:`filtered_weights`); tests compare the two.
@@ -25,6 +28,7 @@ Matérn model in :func:`filtered_weights`); tests compare the two.
 
 from __future__ import annotations
 
+import math
 from typing import Any
 
 import numpy as np
@@ -39,15 +43,45 @@ except ImportError:  # pragma: no cover - exercised only on installs without num
     _nb = None  # type: ignore[assignment]
 
 __all__ = ["filtered_weights", "condition_lattice", "excursion", "weights_numpy",
-           "CUBIC_OVERSHOOT"]
+           "bernstein_hull", "CUBIC_OVERSHOOT", "HULL_SLACK"]
 
 #: Bound on how far the cubic convolution interpolant leaves the range of its 16 values, as
 #: a share of that range (derived: the negative weights of Keys' kernel, a = -1/2, sum to at
 #: most 1/8 per axis, so at most 2 x 1/8 x 9/8 < 0.3 in two dimensions).
 CUBIC_OVERSHOOT = 0.3
+#: Widening of the Bernstein bound of a quarter cell in :func:`excursion`, as a share of the
+#: largest value of its 16 (the sums' rounding is ~1e-15 of it; this is 1e5 times that).
+HULL_SLACK = 1e-10
+
+
+def bernstein_hull(q: int) -> NDArray[np.float64]:
+    """Return ``(2, 4, 4)``: per side, the map from 4 node values to Bernstein coefficients.
+
+    The cubic convolution interpolant [Keys-1981] between nodes 1 and 2 of 4, restricted to
+    the span of the ``q`` sample positions of a half interval (side 1: ``s`` in
+    ``[1/(4q), 1/2 - 1/(4q)]``; side 0: one minus that), is a cubic in ``t`` on [0, 1]; its
+    Bernstein coefficients bound it there (the convex hull property of the Bernstein
+    form [Farin-2002 ch. 5, from memory]).  Rows: coefficients; columns: nodes.
+    """
+    u0, u1 = 0.5 / (2.0 * q), (q - 0.5) / (2.0 * q)
+    # Keys' weights as cubics in s, power coefficients (s^0, s^1, s^2, s^3) per node
+    keys = 0.5 * np.array([[0.0, -1.0, 2.0, -1.0], [2.0, 0.0, -5.0, 3.0],
+                           [0.0, 1.0, 4.0, -3.0], [0.0, 0.0, -1.0, 1.0]])
+    out = np.empty((2, 4, 4))
+    for side, (a, b) in ((1, (u0, u1)), (0, (1.0 - u1, 1.0 - u0))):
+        for node in range(4):
+            # s = a + (b - a) t: the node's weight as a cubic in t
+            c = np.polynomial.Polynomial(keys[node])(np.polynomial.Polynomial([a, b - a])).coef
+            c = np.pad(np.asarray(c, float), (0, 4 - len(c)))
+            # power to Bernstein (degree 3): b_k = sum_j C(k, j) / C(3, j) c_j
+            for k in range(4):
+                out[side, k, node] = sum(math.comb(k, j) / math.comb(3, j) * c[j]
+                                         for j in range(k + 1))
+    return out
 
 if _nb is not None:
     _gamma = _kernel._gamma
+    _lu_solve = _kernel._lu_solve
 
     @_nb.njit(cache=True, nogil=True)
     def _weights(px: NDArray[np.float64], py: NDArray[np.float64], idx: NDArray[np.intp],
@@ -90,41 +124,9 @@ if _nb is not None:
             A[kv, kv] = 0.0
             b[kv] = 1.0
             b0[kv] = 1.0
-            singular = False
-            for c in range(q):
-                piv = c
-                best = abs(A[c, c])
-                for r in range(c + 1, q):
-                    v = abs(A[r, c])
-                    if v > best:
-                        best = v
-                        piv = r
-                if best == 0.0:
-                    singular = True
-                    break
-                if piv != c:
-                    for t in range(q):
-                        tmp = A[c, t]
-                        A[c, t] = A[piv, t]
-                        A[piv, t] = tmp
-                    tmp = b[c]
-                    b[c] = b[piv]
-                    b[piv] = tmp
-                inv = 1.0 / A[c, c]
-                for r in range(c + 1, q):
-                    f = A[r, c] * inv
-                    if f != 0.0:
-                        for t in range(c + 1, q):
-                            A[r, t] -= f * A[c, t]
-                        b[r] -= f * b[c]
-            if singular:
+            if _lu_solve(A, b, q):
                 bad[p] = True
                 continue
-            for r in range(q - 1, -1, -1):
-                s = b[r]
-                for t in range(r + 1, q):
-                    s -= A[r, t] * b[t]
-                b[r] = s / A[r, r]
             vv = b[kv] - nug
             ok = np.isfinite(vv)
             for i in range(kv):
@@ -173,11 +175,13 @@ if _nb is not None:
 
     @_nb.njit(cache=True, nogil=True)
     def _excursion(zlat: NDArray[np.float64], rows: NDArray[np.intp], cols: NDArray[np.intp],
-                   t: float, below: bool, q: int, frac_sum: NDArray[np.float64],
+                   t: float, below: bool, q: int, hull: NDArray[np.float64],
+                   frac_sum: NDArray[np.float64],
                    areas: NDArray[np.float64]) -> None:  # pragma: no cover
         R, ny, nx = zlat.shape
         m = rows.size
         blk = np.empty((4, 4))
+        tb = np.empty((4, 4))
         wr = np.empty(4)
         # range of each cell's 5 x 5 block of centres (the union of its quarters' 4 x 4
         # blocks), by rows then columns; -inf/inf where a value is missing or off the lattice
@@ -284,10 +288,36 @@ if _nb is not None:
                             continue
                         if not (_side(lo, t, below) or _side(hi, t, below)):
                             continue
-                        # separable: interpolate along the row for each column sample,
-                        # then along the column (the same sums, in the same order)
                         kc = 1 if dj > 0 else 0
                         kr = 1 if di > 0 else 0
+                        if full:
+                            # the patch's Bernstein coefficients over the samples' square
+                            # bound its values there (convex hull), so every sample agrees
+                            # when they lie on one side, widened far beyond the rounding
+                            for aa in range(4):
+                                for cc in range(4):
+                                    acc = 0.0
+                                    for bb in range(4):
+                                        acc += blk[aa, bb] * hull[kc, cc, bb]
+                                    tb[aa, cc] = acc
+                            blo = np.inf
+                            bhi = -np.inf
+                            for rr in range(4):
+                                for cc in range(4):
+                                    acc = 0.0
+                                    for aa in range(4):
+                                        acc += hull[kr, rr, aa] * tb[aa, cc]
+                                    blo = min(blo, acc)
+                                    bhi = max(bhi, acc)
+                            slack = HULL_SLACK * max(abs(lo), abs(hi))
+                            if _side(blo - slack, t, below) and _side(bhi + slack, t, below):
+                                f += 0.25
+                                continue
+                            if not (_side(blo - slack, t, below)
+                                    or _side(bhi + slack, t, below)):
+                                continue
+                        # separable: interpolate along the row for each column sample,
+                        # then along the column (the same sums, in the same order)
                         for aa in range(4):
                             for sj in range(q):
                                 rowv = 0.0
@@ -420,7 +450,7 @@ def excursion(zlat: NDArray[np.float64], rows: NDArray[np.intp], cols: NDArray[n
     areas = np.zeros(zlat.shape[0])
     if _nb is not None and use_kernel:
         _excursion(zlat, rows.astype(np.intp), cols.astype(np.intp), float(threshold),
-                   bool(below), int(q), frac, areas)
+                   bool(below), int(q), bernstein_hull(int(q)), frac, areas)
         return frac, areas
     R, ny, nx = zlat.shape
     a = zlat[:, rows, cols]

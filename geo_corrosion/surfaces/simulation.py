@@ -177,13 +177,20 @@ class CirculantEmbedding:
         out = np.empty((count, Ly * Lx))
         done = 0
         My, Mx = self.embedding_shape
+        x = np.empty((My, Mx), dtype=complex)
         while done < count:
             e = rng.standard_normal((2, My, Mx))
-            f = scipy.fft.fft2(self._sqrt_lam * (e[0] + 1j * e[1]), workers=-1)
-            out[done] = f.real[:Ly, :Lx].ravel()
+            # sqrt(lam) (e0 + i e1) written part by part (the same values, no temporaries);
+            # the 2-D FFT as its two passes, the second only over the lattice's rows: the
+            # same 1-D transforms as fft2 gives for the cells kept, to the bit
+            np.multiply(self._sqrt_lam, e[0], out=x.real)
+            np.multiply(self._sqrt_lam, e[1], out=x.imag)
+            f = scipy.fft.fft(x, axis=0)[:Ly]
+            f = scipy.fft.fft(f, axis=1, overwrite_x=True)[:, :Lx]
+            out[done] = f.real.ravel()
             done += 1
             if done < count:
-                out[done] = f.imag[:Ly, :Lx].ravel()
+                out[done] = f.imag.ravel()
                 done += 1
         return out
 
@@ -248,14 +255,10 @@ class ConditionalSimulator:
             for reg in np.unique(labels):
                 sel = labels == reg
                 rx, ry, rz = merge_coincident(xa[sel], ya[sel], za[sel], what="simulation")
-                rad = radius
-                if radius is not None:  # as the kriging pass: the radius where it binds
-                    mine = (mask if cell_regions is None else mask & (cell_regions == reg))
-                    flat = mine.ravel()
-                    rad = binding_radius(rx, ry, cgx[flat], cgy[flat], n_neighbors, radius,
-                                         model.transform_coords)
+                # without the radius first: whether it binds is seen from the cells' own
+                # neighbours (below), without a search of its own
                 eng = KrigingEngine(rx, ry, rz, model, n_neighbors=n_neighbors,
-                                    radius=rad, what="simulation", merge=False)
+                                    radius=None, what="simulation", merge=False)
                 engines.append((int(reg), first, eng))
                 parts.append((rx, ry, rz))
                 first += rx.size
@@ -300,11 +303,40 @@ class ConditionalSimulator:
         # the compiled kernels (numba) load with the first simulator, not with this module
         from geo_corrosion.surfaces._simkernel import filtered_weights
 
-        for reg, start, eng in engines:
+        if radius is not None:  # the drawn cells, for where the radius binds
+            drawn = np.zeros(self.shape, dtype=bool)
+            drawn[pad_n:pad_n + grid.ny, pad_w:pad_w + grid.nx] = (
+                mask if cell_regions is None else mask & (cell_regions >= 0))
+            drawn_here = drawn[rows, cols]
+        for (reg, start, eng), (rx, ry, rz) in zip(engines, parts, strict=True):
             todo = np.flatnonzero(owner == reg)
+            found = [eng.query(qx[todo[a:a + chunk_size]], qy[todo[a:a + chunk_size]])
+                     for a in range(0, todo.size, chunk_size)]
+            if radius is not None:
+                # as the kriging pass: the radius where it leaves out one of some drawn
+                # cell's nearest readings (binding_radius); the k-th distances of the
+                # drawn cells of this region are those of the search without the radius.
+                # Near a tie (the lattice's centres are computed apart from the grid's)
+                # binding_radius itself decides
+                far = max((float(d[drawn_here[todo[a:a + chunk_size]], -1].max(initial=0.0))
+                           for a, (d, _) in zip(range(0, todo.size, chunk_size), found,
+                                                strict=True)), default=0.0)
+                if abs(far - radius) <= 1e-9 * radius:
+                    mine = (mask if cell_regions is None else mask & (cell_regions == reg))
+                    flat = mine.ravel()
+                    rad = binding_radius(rx, ry, cgx[flat], cgy[flat], n_neighbors, radius,
+                                         model.transform_coords)
+                else:
+                    rad = radius if far > radius else None
+                if rad is not None:  # the search within the radius, as the kriging pass
+                    with warnings.catch_warnings():  # reported by the kriging pass
+                        warnings.simplefilter("ignore", KrigingWarning)
+                        eng = KrigingEngine(rx, ry, rz, model, n_neighbors=n_neighbors,
+                                            radius=rad, what="simulation", merge=False)
+                    found = []
             for a in range(0, todo.size, chunk_size):
                 sl = todo[a:a + chunk_size]
-                d, i = eng.query(qx[sl], qy[sl])
+                d, i = found[a // chunk_size] if found else eng.query(qx[sl], qy[sl])
                 w, v = filtered_weights(eng.px, eng.py, i, d, n=eng.n, model=model,
                                         use_kernel=use_kernel)
                 kk = i.shape[1]

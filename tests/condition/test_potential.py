@@ -140,3 +140,42 @@ def test_gradient_bad_input() -> None:
         P.gradient_magnitude([1.0, 2.0], 1.0)
     with pytest.raises(ConditionError, match="positive"):
         P.gradient_magnitude(np.zeros((3, 3)), 0.0)
+
+
+def _em_per_reading(x: np.ndarray, mu0: tuple[float, float], var0: float, max_iter: int,
+                    tol: float) -> tuple[np.ndarray, np.ndarray, np.ndarray, float, int]:
+    """EM over every reading, written out as in the textbook (reference for the test)."""
+    w, mu, var = np.array([0.5, 0.5]), np.array(mu0), np.array([var0, var0])
+    ll_old, ll, it = -np.inf, -np.inf, 0
+    for step in range(1, max_iter + 1):
+        it = step
+        logp = (np.log(w) - 0.5 * np.log(2 * np.pi * var)
+                - 0.5 * (x[:, None] - mu) ** 2 / var)
+        lse = np.logaddexp(logp[:, 0], logp[:, 1])
+        ll = float(lse.mean())
+        resp = np.exp(logp - lse[:, None])
+        nk = resp.sum(axis=0)
+        w = nk / x.size
+        mu = (resp * x[:, None]).sum(axis=0) / nk
+        var = np.maximum((resp * (x[:, None] - mu) ** 2).sum(axis=0) / nk, 1.0)
+        if abs(ll - ll_old) < tol:
+            break
+        ll_old = ll
+    return w, mu, var, ll, it
+
+
+def test_mixture_em_on_distinct_values_matches_per_reading_em() -> None:
+    """Check the EM on distinct values with counts gives the per-reading EM's fit."""
+    # Dempster-Laird-Rubin 1977 EM written per reading (above) as the reference; readings
+    # rounded to 1 mV, as a half-cell meter gives them, so that values repeat
+    x = np.round(_two_populations(3))
+    assert np.unique(x).size < x.size / 2
+    var0 = float(np.var(x)) / 4.0
+    mu0 = (float(np.quantile(x, 0.25)), float(np.quantile(x, 0.75)))
+    w, mu, var, ll, it = P._em(x, mu0, var0, 1000, 1e-10)
+    rw, rmu, rvar, rll, rit = _em_per_reading(x, mu0, var0, 1000, 1e-10)
+    assert it == rit
+    np.testing.assert_allclose(mu, rmu, rtol=0, atol=1e-9)
+    np.testing.assert_allclose(np.sqrt(var), np.sqrt(rvar), rtol=0, atol=1e-9)
+    np.testing.assert_allclose(w, rw, rtol=0, atol=1e-12)
+    assert ll == pytest.approx(rll, abs=1e-12)

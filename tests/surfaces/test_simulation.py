@@ -207,3 +207,32 @@ def test_excursion_fast_path_matches_the_numpy_reference() -> None:
         np.testing.assert_allclose(a1, a2, atol=1e-9)
         # the fast path was taken for most cells (whole shares), the rest sampled
         assert 0.1 < np.mean((f1 == 0) | (f1 == 3)) < 1.0
+
+
+def test_bernstein_hull_bounds_the_sampled_interpolant() -> None:
+    # source: the convex hull property of the Bernstein form (a polynomial on [0, 1] lies
+    # between its least and greatest Bernstein coefficient) [Farin-2002 ch. 5, from
+    # memory]; the samples are those of excursion's crossed quarters, evaluated here
+    # directly from Keys' weights (hand-written cubic convolution kernel, a = -1/2)
+    from geo_corrosion.surfaces._simkernel import bernstein_hull
+
+    def keys(s: float) -> np.ndarray:
+        return 0.5 * np.array([-s**3 + 2 * s**2 - s, 3 * s**3 - 5 * s**2 + 2,
+                               -3 * s**3 + 4 * s**2 + s, s**3 - s**2])
+
+    rng = np.random.default_rng(5)
+    for q in (1, 3, 8):
+        hull = bernstein_hull(q)
+        u = (np.arange(q) + 0.5) / (2.0 * q)
+        for _ in range(200):
+            blk = rng.normal(0.0, 1.0, (4, 4)) * rng.choice([1.0, 50.0])
+            for kr in (0, 1):
+                for kc in (0, 1):
+                    coef = hull[kr] @ blk @ hull[kc].T
+                    sr = u if kr == 1 else 1.0 - u
+                    sc = u if kc == 1 else 1.0 - u
+                    vals = np.array([[keys(a) @ blk @ keys(b) for b in sc] for a in sr])
+                    assert vals.min() >= coef.min() - 1e-12 * np.abs(blk).max()
+                    assert vals.max() <= coef.max() + 1e-12 * np.abs(blk).max()
+        # the bound is tight enough to matter: narrower than the 16 values' range
+        assert np.ptp(hull[1] @ blk @ hull[1].T) < np.ptp(blk)
