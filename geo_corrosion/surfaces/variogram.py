@@ -93,6 +93,27 @@ def _matern_rho(s: NDArray[np.float64], nu: float) -> NDArray[np.float64]:
     return out
 
 
+def _structure(name: str, h: NDArray[np.float64], rng: float, shape: float | None
+               ) -> NDArray[np.float64]:
+    """Return the normalised structure f(h) of model ``name`` (:meth:`VariogramModel.structure`).
+
+    A function of plain numbers, so that the variogram fit evaluates it without building a
+    model at every step (the same arithmetic, so the same bits).
+    """
+    if name == "spherical":
+        u = np.minimum(h / rng, 1.0)
+        return u * (1.5 - 0.5 * u * u)
+    if name == "exponential":
+        return -np.expm1(h * (-3.0 / rng))
+    if name == "gaussian":
+        u = h / rng
+        return -np.expm1(-3.0 * u * u)
+    assert shape is not None
+    if name == "stable":
+        return -np.expm1(-3.0 * (h / rng) ** shape)
+    return 1.0 - _matern_rho(h / (rng / _matern_c(shape)), shape)
+
+
 @dataclass(frozen=True)
 class VariogramModel:
     """A nugget-plus-one-structure variogram model.
@@ -189,20 +210,7 @@ class VariogramModel:
 
     def structure(self, h: NDArray[np.float64]) -> NDArray[np.float64]:
         """Normalised structure f(h) in [0, 1] for distances ``h`` (isotropic space)."""
-        h = np.asarray(h, dtype=float)
-        if self.name == "spherical":
-            u = np.minimum(h / self.range, 1.0)
-            return u * (1.5 - 0.5 * u * u)
-        if self.name == "exponential":
-            return -np.expm1(h * (-3.0 / self.range))
-        if self.name == "gaussian":
-            u = h / self.range
-            return -np.expm1(-3.0 * u * u)
-        if self.name == "stable":
-            assert self.shape is not None
-            return -np.expm1(-3.0 * (h / self.range) ** self.shape)
-        assert self.shape is not None
-        return 1.0 - _matern_rho(h / self.scale, self.shape)
+        return _structure(self.name, np.asarray(h, dtype=float), self.range, self.shape)
 
     def gamma_positive(self, h: NDArray[np.float64]) -> NDArray[np.float64]:
         """Semivariance for distances taken as > 0 (nugget included everywhere)."""
