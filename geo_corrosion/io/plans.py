@@ -11,7 +11,10 @@ from __future__ import annotations
 
 import math
 import warnings
+from collections.abc import Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass
+from pathlib import Path
 from typing import TYPE_CHECKING, Any, TypeAlias
 
 import numpy as np
@@ -57,15 +60,50 @@ def _check_file(ref: LayerRef) -> None:
         raise IngestError(f"{ref.where}: file is empty: {ref.path}")
 
 
-def _dxf_features(ref: LayerRef) -> tuple[list[tuple[BaseGeometry, str, str]], str]:
+#: DXF documents read inside :func:`dxf_documents_kept`, by resolved path, size and
+#: modification time: a level's plan file is named by several layers (slab, exclusions,
+#: joints, grid lines and their labels), and parsing it again for each was most of reading
+#: the plans.  None outside (every read parses the file).
+_DOCS: dict[tuple[str, int, int], Any] | None = None
+
+
+@contextmanager
+def dxf_documents_kept() -> Iterator[None]:
+    """Parse each DXF file once while the block runs (opening a site), then let them go."""
+    global _DOCS
+    outer = _DOCS
+    if outer is None:
+        _DOCS = {}
+    try:
+        yield
+    finally:
+        _DOCS = outer
+
+
+def _read_dxf(path: Path) -> Any:
+    """Return the DXF document at ``path`` (recover mode), once per file in a kept block.
+
+    The documents are only read, never changed, by this module.
+    """
     from ezdxf import recover
 
+    if _DOCS is None:
+        return recover.readfile(str(path))[0]
+    st = path.stat()
+    key = (str(path.resolve()), st.st_size, st.st_mtime_ns)
+    doc = _DOCS.get(key)
+    if doc is None:
+        doc = _DOCS[key] = recover.readfile(str(path))[0]
+    return doc
+
+
+def _dxf_features(ref: LayerRef) -> tuple[list[tuple[BaseGeometry, str, str]], str]:
     # DXFStructureError from the module defining it: ezdxf's __init__ re-exports it
     # unmarked, which strict mypy does not accept
     from ezdxf.lldxf.const import DXFStructureError
 
     try:
-        doc, _auditor = recover.readfile(str(ref.path))
+        doc = _read_dxf(ref.path)
     except (OSError, DXFStructureError) as err:
         raise IngestError(f"{ref.where}: cannot read DXF {ref.path.name}: {err}") from err
     code = int(doc.header.get("$INSUNITS", 0))
@@ -340,9 +378,7 @@ def read_lines(ref: LayerRef, grid: LocalGrid, *, site_crs: object = None) -> li
 
 def _dxf_texts(ref: LayerRef, grid: LocalGrid) -> list[tuple[Point, str]]:
     """Return the TEXT and MTEXT of a DXF layer: insertion point (local grid) and text."""
-    from ezdxf import recover
-
-    doc, _auditor = recover.readfile(str(ref.path))  # read once already by read_lines
+    doc = _read_dxf(ref.path)  # read already by read_lines
     code = int(doc.header.get("$INSUNITS", 0))
     unit = DXF_UNITS.get(code) or ref.unit or grid.unit
     target = grid.unit if ref.coords == "local" else grid.crs_unit

@@ -41,7 +41,7 @@ from geo_corrosion.surfaces import (
     contour_lines,
     contours_by_region,
     cross_validate,
-    experimental_variogram,
+    experimental_variograms,
     fit_variogram,
     grid_for_polygon,
     krige_grid,
@@ -124,8 +124,11 @@ def directional_variograms(
     max_lag = float(ev0.lags.max()) if ev0 is not None and len(ev0.lags) else None
     out: dict[str, Any] = {}
     means = {}
-    for label, ang in (("along_x", 0.0), ("along_y", 90.0)):
-        ev = experimental_variogram(x, y, zz, max_lag=max_lag, direction_deg=ang, groups=groups)
+    axes = (("along_x", 0.0), ("along_y", 90.0))
+    # one set of pairs binned in both directions (the same as one call per direction)
+    evs = experimental_variograms(x, y, zz, max_lag=max_lag, directions=[a for _, a in axes],
+                                  groups=groups)
+    for (label, ang), ev in zip(axes, evs, strict=True):
         sel = (ev.lags <= 0.5 * fit.model.range) & (ev.counts > 0)
         means[label] = float(np.mean(ev.gamma[sel])) if sel.any() else float("nan")
         out[label] = {"direction_deg": ang, "lags": ev.lags.tolist(), "gamma": ev.gamma.tolist(),

@@ -16,7 +16,13 @@ from shapely.geometry import MultiPolygon, Polygon
 from geo_corrosion.config import LevelConfig, RunParams, SiteConfig, SurveyConfig
 from geo_corrosion.crs import LocalGrid
 from geo_corrosion.errors import GeometryWarning, IngestError, SiteFileError
-from geo_corrosion.io.plans import Feature, read_grid_lines, read_lines, read_polygons
+from geo_corrosion.io.plans import (
+    Feature,
+    dxf_documents_kept,
+    read_grid_lines,
+    read_lines,
+    read_polygons,
+)
 from geo_corrosion.io.readings import read_readings
 from geo_corrosion.measurements import get_kind
 from geo_corrosion.model.site import Joint, Level, Site, Survey
@@ -167,9 +173,10 @@ def open_site(path: str | Path | SiteConfig, *, progress: Progress | None = None
     cfg = path if isinstance(path, SiteConfig) else read_site(path)
     say = progress or (lambda _msg: None)
     levels = {}
-    for lv in cfg.levels:
-        say(f"level {lv.id}: reading plans")
-        levels[lv.id] = read_level(lv, cfg)
+    with dxf_documents_kept():  # a plan file named by several layers is parsed once
+        for lv in cfg.levels:
+            say(f"level {lv.id}: reading plans")
+            levels[lv.id] = read_level(lv, cfg)
     surveys = []
     for s in cfg.surveys:
         say(f"survey {s.id}: reading {s.path.name}")

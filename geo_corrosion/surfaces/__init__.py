@@ -21,6 +21,7 @@ from geo_corrosion.surfaces.variogram import (
     ExperimentalVariogram,
     VariogramModel,
     experimental_variogram,
+    experimental_variograms,
 )
 
 __all__ = [
@@ -28,6 +29,7 @@ __all__ = [
     "VariogramModel",
     "ExperimentalVariogram",
     "experimental_variogram",
+    "experimental_variograms",
     "VariogramFit",
     "CandidateFit",
     "fit_variogram",

@@ -224,5 +224,15 @@ def binding_radius(x: ArrayLike, y: ArrayLike, cx: ArrayLike, cy: ArrayLike, n_n
     if not qa.size or not xa.size:
         return None
     k = min(int(n_neighbors), xa.size)
-    d, _ = cKDTree(np.column_stack([xa, ya])).query(np.column_stack([qa, qb]), k=[k])
+    tree = cKDTree(np.column_stack([xa, ya]))
+    cells = np.column_stack([qa, qb])
+    # first a bound: a cell's k-th nearest reading is no farther than its nearest reading r
+    # plus r's own k-th nearest (r counted), so when that bound stays inside the radius for
+    # every cell the answer is None without ranking k readings for every cell (the cells
+    # outnumber the readings); a margin of 1e-9 covers the rounding of the sums
+    d1, i1 = tree.query(cells, k=1)
+    dk_r, _ = tree.query(tree.data, k=[k])
+    if float(np.max(d1 + dk_r[i1, 0])) <= radius * (1.0 - 1e-9):
+        return None
+    d, _ = tree.query(cells, k=[k])
     return radius if float(np.max(d)) > radius else None

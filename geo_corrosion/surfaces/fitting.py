@@ -40,11 +40,15 @@ from geo_corrosion.surfaces.variogram import (
     MODEL_NAMES,
     ExperimentalVariogram,
     VariogramModel,
+    _structure,
     as_xyz,
     experimental_variogram,
 )
 
 __all__ = ["VariogramFit", "CandidateFit", "fit_variogram", "FIXABLE"]
+
+#: scipy's relative step of 2-point finite differences in float64 (``approx_derivative``)
+_RSTEP = float(np.finfo(np.float64).eps ** 0.5)
 
 FIXABLE = (
     "model", "nugget", "psill", "range", "shape", "anisotropy_ratio", "anisotropy_angle_deg",
@@ -160,6 +164,8 @@ def _fit_one(
     if has_shape:
         lo["shape"], hi["shape"] = _SHAPE_BOUNDS[name]
     free = [p for p in names if p not in fx]
+    lb = np.array([lo[p] for p in free])
+    ub = np.array([hi[p] for p in free])
     aniso = {
         "anisotropy_ratio": float(fx.get("anisotropy_ratio", 1.0)),
         "anisotropy_angle_deg": float(fx.get("anisotropy_angle_deg", 0.0)),
@@ -170,13 +176,66 @@ def _fit_one(
         p.update({k: float(v) for k, v in zip(free, theta, strict=True)})
         return VariogramModel(name=name, shape=p.pop("shape", None), **p, **aniso)
 
-    def resid(theta: NDArray[np.float64]) -> NDArray[np.float64]:
+    def resid_model(theta: NDArray[np.float64]) -> NDArray[np.float64]:
         gm = build(theta).gamma_positive(h)
         return np.sqrt(w) * (g / np.maximum(gm, 1e-300) - 1.0)
 
     if not free:
         m = build(np.array([]))
-        return m, float(np.sum(resid(np.array([])) ** 2))
+        return m, float(np.sum(resid_model(np.array([])) ** 2))
+    sw = np.sqrt(w)
+    try:
+        fixed_p: dict[str, float] | None = {k: float(fx[k]) for k in names if k in fx}
+    except (TypeError, ValueError):
+        fixed_p = None  # the model's own path raises, start by start
+    s_lo, s_hi = _SHAPE_BOUNDS.get(name, (0.0, 0.0))
+    a_ok = (0 < aniso["anisotropy_ratio"] <= 1 and math.isfinite(aniso["anisotropy_ratio"])
+            and math.isfinite(aniso["anisotropy_angle_deg"]))
+    last: list[tuple[bytes, NDArray[np.float64]]] = []
+
+    def resid(theta: NDArray[np.float64]) -> NDArray[np.float64]:
+        # resid_model without building a VariogramModel at each step: the same arithmetic
+        # (VariogramModel.gamma_positive through variogram._structure), so the same bits;
+        # a parameter set the model would refuse goes through the model for its error
+        if fixed_p is None or not a_ok:
+            return resid_model(theta)
+        p = dict(fixed_p)
+        p.update({k: float(v) for k, v in zip(free, theta, strict=True)})
+        nug, ps, rg, sh = p["nugget"], p["psill"], p["range"], p.get("shape")
+        if not (nug >= 0 and ps >= 0 and nug + ps > 0 and rg > 0 and math.isfinite(nug + ps + rg)
+                and (sh is None or s_lo <= sh <= s_hi)):
+            return resid_model(theta)
+        gm = _structure(name, h, rg, sh)
+        gm *= ps
+        gm += nug
+        out = sw * (g / np.maximum(gm, 1e-300) - 1.0)
+        last[:] = [(theta.tobytes(), out)]
+        return out
+
+    def jac(x: NDArray[np.float64]) -> NDArray[np.float64]:
+        # scipy's default 2-point finite differences (approx_derivative: relative step
+        # sqrt(eps) * max(1, |x|), one-sided steps turned or shortened at the bounds),
+        # written out: the same steps and the same quotients, so the same Jacobian to the
+        # bit, without the wrappers' overhead (most of the fit's time) and reusing the
+        # residuals the solver has just computed at x
+        f0 = last[0][1] if last and last[0][0] == x.tobytes() else resid(x)
+        hs = _RSTEP * ((x >= 0).astype(float) * 2 - 1) * np.maximum(1.0, np.abs(x))
+        ha = hs.copy()
+        lower, upper = x - lb, ub - x
+        xt = x + hs
+        violated = (xt < lb) | (xt > ub)
+        fitting = np.abs(hs) <= np.maximum(lower, upper)
+        ha[violated & fitting] *= -1
+        forward = (upper >= lower) & ~fitting
+        ha[forward] = upper[forward] / 1
+        backward = (upper < lower) & ~fitting
+        ha[backward] = -lower[backward] / 1
+        jt = np.empty((x.size, f0.size))
+        for i in range(x.size):
+            x1 = x.copy()
+            x1[i] = x[i] + ha[i]
+            jt[i] = (resid(x1) - f0) / ((x[i] + ha[i]) - x[i])
+        return jt.T
     # starting points
     above = np.flatnonzero(g >= 0.95 * g.max())
     r0 = float(h[above[0]]) if above.size else max_lag
@@ -189,12 +248,11 @@ def _fit_one(
                 s["shape"] = 1.0 if name == "stable" else 0.8
             starts.append(s)
     best: tuple[float, NDArray[np.float64]] | None = None
-    lb = np.array([lo[p] for p in free])
-    ub = np.array([hi[p] for p in free])
     for s in starts:
         x0 = np.clip(np.array([s[p] for p in free]), lb + 1e-12 * (ub - lb), ub - 1e-12 * (ub - lb))
         try:
-            res = optimize.least_squares(resid, x0, bounds=(lb, ub), method="trf", max_nfev=300)
+            res = optimize.least_squares(resid, x0, jac=jac, bounds=(lb, ub), method="trf",
+                                         max_nfev=300)
         except (ValueError, KrigingError):
             continue
         cost = float(np.sum(res.fun**2))

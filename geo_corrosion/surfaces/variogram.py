@@ -38,6 +38,7 @@ from __future__ import annotations
 
 import functools
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -53,6 +54,7 @@ __all__ = [
     "VariogramModel",
     "ExperimentalVariogram",
     "experimental_variogram",
+    "experimental_variograms",
     "as_xyz",
 ]
 
@@ -71,14 +73,47 @@ def _matern_c(nu: float) -> float:
     return float(optimize.brentq(rho, 1e-6, 200.0, xtol=1e-14))
 
 
+#: Above this many distances the Matérn correlation is evaluated once per distinct distance
+#: when a sample shows that fewer than half of them are distinct.
+_DEDUP_MIN = 4096
+
+
 def _matern_rho(s: NDArray[np.float64], nu: float) -> NDArray[np.float64]:
     out = np.ones_like(s)
     pos = s > 1e-12
     sp = s[pos]
+    inv = None
+    # readings and cells on a regular grid repeat the same few distances many times, and the
+    # Bessel function K_nu (about 0.4 us a value) dominates the numpy kriging path of the
+    # Matérn model: evaluate it once per distinct distance (elementwise, so the same bits)
+    if sp.size > _DEDUP_MIN and np.unique(sp[:: sp.size // 1024]).size < 512:
+        sp, inv = np.unique(sp, return_inverse=True)
     with np.errstate(over="ignore", under="ignore", invalid="ignore"):
         val = 2.0 ** (1.0 - nu) / special.gamma(nu) * sp**nu * special.kv(nu, sp)
-    out[pos] = np.where(np.isfinite(val), val, 0.0)
+    val = np.where(np.isfinite(val), val, 0.0)
+    out[pos] = val if inv is None else val[inv]
     return out
+
+
+def _structure(name: str, h: NDArray[np.float64], rng: float, shape: float | None
+               ) -> NDArray[np.float64]:
+    """Return the normalised structure f(h) of model ``name`` (:meth:`VariogramModel.structure`).
+
+    A function of plain numbers, so that the variogram fit evaluates it without building a
+    model at every step (the same arithmetic, so the same bits).
+    """
+    if name == "spherical":
+        u = np.minimum(h / rng, 1.0)
+        return u * (1.5 - 0.5 * u * u)
+    if name == "exponential":
+        return -np.expm1(h * (-3.0 / rng))
+    if name == "gaussian":
+        u = h / rng
+        return -np.expm1(-3.0 * u * u)
+    assert shape is not None
+    if name == "stable":
+        return -np.expm1(-3.0 * (h / rng) ** shape)
+    return 1.0 - _matern_rho(h / (rng / _matern_c(shape)), shape)
 
 
 @dataclass(frozen=True)
@@ -177,20 +212,7 @@ class VariogramModel:
 
     def structure(self, h: NDArray[np.float64]) -> NDArray[np.float64]:
         """Normalised structure f(h) in [0, 1] for distances ``h`` (isotropic space)."""
-        h = np.asarray(h, dtype=float)
-        if self.name == "spherical":
-            u = np.minimum(h / self.range, 1.0)
-            return u * (1.5 - 0.5 * u * u)
-        if self.name == "exponential":
-            return -np.expm1(h * (-3.0 / self.range))
-        if self.name == "gaussian":
-            u = h / self.range
-            return -np.expm1(-3.0 * u * u)
-        if self.name == "stable":
-            assert self.shape is not None
-            return -np.expm1(-3.0 * (h / self.range) ** self.shape)
-        assert self.shape is not None
-        return 1.0 - _matern_rho(h / self.scale, self.shape)
+        return _structure(self.name, np.asarray(h, dtype=float), self.range, self.shape)
 
     def gamma_positive(self, h: NDArray[np.float64]) -> NDArray[np.float64]:
         """Semivariance for distances taken as > 0 (nugget included everywhere)."""
@@ -436,6 +458,30 @@ def experimental_variogram(
     KrigingError
         On invalid input, coincident readings only, or when no pair falls within ``max_lag``.
     """
+    return experimental_variograms(
+        x, y, z, directions=(direction_deg,), max_lag=max_lag, n_lags=n_lags,
+        tolerance_deg=tolerance_deg, max_pairs=max_pairs, seed=seed, groups=groups)[0]
+
+
+def experimental_variograms(
+    x: ArrayLike,
+    y: ArrayLike,
+    z: ArrayLike,
+    *,
+    directions: Sequence[float | None],
+    max_lag: float | None = None,
+    n_lags: int = 15,
+    tolerance_deg: float = 22.5,
+    max_pairs: int = 2_000_000,
+    seed: int = 0,
+    groups: ArrayLike | None = None,
+) -> list[ExperimentalVariogram]:
+    """Compute :func:`experimental_variogram` in several directions from one set of pairs.
+
+    The pairs within ``max_lag`` (and their subsample) do not depend on the direction: they
+    are found once and binned once per direction, each variogram the same as
+    :func:`experimental_variogram` gives for its direction alone.
+    """
     xa, ya, za = as_xyz(x, y, z, min_n=2, what="experimental variogram")
     n = xa.size
     if n_lags < 1:
@@ -479,30 +525,38 @@ def experimental_variogram(
                 "max_lag or survey each region more densely")
     dx = xa[j] - xa[i]
     dy = ya[j] - ya[i]
-    h = np.hypot(dx, dy)
-    if direction_deg is not None:
-        ang = np.degrees(np.arctan2(dy, dx))
-        diff = np.abs((ang - float(direction_deg) + 90.0) % 180.0 - 90.0)
-        keep = diff <= tolerance_deg
-        h, i, j = h[keep], i[keep], j[keep]
-    del dx, dy
-    dz2 = 0.5 * (za[i] - za[j]) ** 2
+    h_all = np.hypot(dx, dy)
+    dz2_all = 0.5 * (za[i] - za[j]) ** 2
+    ang = (np.degrees(np.arctan2(dy, dx)) if any(d is not None for d in directions)
+           else None)
+    del dx, dy, i, j
     edges = np.linspace(0.0, max_lag, n_lags + 1)
-    b = np.minimum((h * (n_lags / max_lag)).astype(np.int64), n_lags - 1)
-    counts = np.bincount(b, minlength=n_lags)
-    sum_h = np.bincount(b, weights=h, minlength=n_lags)
-    sum_g = np.bincount(b, weights=dz2, minlength=n_lags)
-    ok = counts > 0
-    if not ok.any():
-        raise KrigingError("no pair of readings in the chosen direction; widen tolerance_deg")
-    return ExperimentalVariogram(
-        lags=sum_h[ok] / counts[ok],
-        gamma=sum_g[ok] / counts[ok],
-        counts=counts[ok].astype(np.int64),
-        direction_deg=None if direction_deg is None else float(direction_deg),
-        tolerance_deg=float(tolerance_deg),
-        bin_edges=edges,
-        n_readings=n,
-        n_readings_used=int(use.size),
-        n_pairs=int(h.size),
-    )
+    out = []
+    for direction_deg in directions:
+        h, dz2 = h_all, dz2_all
+        if direction_deg is not None:
+            assert ang is not None
+            diff = np.abs((ang - float(direction_deg) + 90.0) % 180.0 - 90.0)
+            keep = diff <= tolerance_deg
+            h, dz2 = h[keep], dz2[keep]
+        b = np.minimum((h * (n_lags / max_lag)).astype(np.int64), n_lags - 1)
+        counts = np.bincount(b, minlength=n_lags)
+        sum_h = np.bincount(b, weights=h, minlength=n_lags)
+        sum_g = np.bincount(b, weights=dz2, minlength=n_lags)
+        ok = counts > 0
+        if not ok.any():
+            raise KrigingError("no pair of readings in the chosen direction; widen "
+                               "tolerance_deg")
+        out.append(ExperimentalVariogram(
+            lags=sum_h[ok] / counts[ok],
+            gamma=sum_g[ok] / counts[ok],
+            counts=counts[ok].astype(np.int64),
+            direction_deg=None if direction_deg is None else float(direction_deg),
+            tolerance_deg=float(tolerance_deg),
+            bin_edges=edges,
+            n_readings=n,
+            n_readings_used=int(use.size),
+            n_pairs=int(h.size),
+        ))
+    return out
+

@@ -112,3 +112,31 @@ def test_layer_name_with_a_quote(site_dir: Path) -> None:
 def test_reader_is_the_package_s() -> None:
     """The tests above go through the package's layer reader (not a copy of it)."""
     assert read_layer.__module__ == "geo_corrosion.io.plans"
+
+
+def test_a_drawing_named_by_several_layers_is_parsed_once_per_opening(
+        site_dir: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    """Opening a site parses each DXF file once however many layers name it; a redrawn file anew.
+
+    Source: hand count of the site file's references (the sounding drawing is named by its
+    DELAM and SPALL layers, one file), and the outlines read are those of a fresh parse.
+    """
+    from ezdxf import recover
+
+    _drawing(site_dir, lambda msp, layer: msp.add_lwpolyline(
+        [(2, 2), (6, 2), (6, 5), (2, 5)], close=True, dxfattribs={"layer": layer}))
+    parsed: list[str] = []
+    real = recover.readfile
+
+    def counting(name: str, *a: object, **kw: object):  # type: ignore[no-untyped-def]
+        parsed.append(Path(name).name)
+        return real(name, *a, **kw)
+
+    monkeypatch.setattr(recover, "readfile", counting)
+    assert _areas(site_dir) == pytest.approx([12.0])
+    assert parsed.count("sounding.dxf") == 1
+    # outside an opening every read parses the file; a redrawn file is parsed again
+    _drawing(site_dir, lambda msp, layer: msp.add_lwpolyline(
+        [(2, 2), (8, 2), (8, 5), (2, 5)], close=True, dxfattribs={"layer": layer}))
+    assert _areas(site_dir) == pytest.approx([18.0])
+    assert parsed.count("sounding.dxf") == 2

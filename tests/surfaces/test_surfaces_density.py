@@ -110,3 +110,21 @@ def test_the_search_radius_binds_only_where_it_leaves_out_a_nearest_reading() ->
 
     assert binding_radius([0.0, 0.0], [0.0, 1.0], [0.0], [0.0], 2, 5.0, stretch) == 5.0
     assert binding_radius([0.0, 0.0], [0.0, 1.0], [0.0], [0.0], 2, 5.0) is None
+
+
+def test_binding_radius_matches_the_kth_distance_by_hand():
+    """The radius binds exactly when some cell's k-th nearest reading lies beyond it.
+
+    Source: hand computation (the full cell-to-reading distance matrix, sorted), over radii
+    on both sides of the largest k-th distance, where the quick bound does and does not hold.
+    """
+    from geo_corrosion.surfaces.density import binding_radius
+
+    rng = np.random.default_rng(5)
+    x, y = rng.uniform(0, 50, 400), rng.uniform(0, 30, 400)
+    cx, cy = rng.uniform(-2, 52, 3000), rng.uniform(-2, 32, 3000)
+    kth = np.sort(np.hypot(cx[:, None] - x[None], cy[:, None] - y[None]), axis=1)[:, 15]
+    top = float(kth.max())
+    for r in (0.5 * top, 0.999 * top, 1.001 * top, 1.5 * top, 3.0 * top, 50.0 * top):
+        want = r if top > r else None
+        assert binding_radius(x, y, cx, cy, 16, r) == want, r
