@@ -14,6 +14,7 @@ mixture threshold (:mod:`geo_corrosion.condition.potential`).
 
 from __future__ import annotations
 
+import io
 import os
 from collections.abc import Sequence
 from pathlib import Path
@@ -43,6 +44,7 @@ __all__ = [
     "plot_potential_vs_resistivity",
     "JOINT_STYLES",
     "plot_class_points",
+    "figure_png",
 ]
 
 #: Footer printed on every figure (wording ours, after [ASTM-C876-22a §4.8]).
@@ -68,8 +70,31 @@ def _finish(fig: Figure, path: str | os.PathLike[str], dpi: int, bottom: float =
         raise ExportError(f"{out}: figures are written as PNG; give a path ending in .png")
     if not out.parent.is_dir():
         raise ExportError(f"{out}: folder {out.parent} does not exist; create it first")
-    atomic_write(out, lambda tmp: fig.savefig(tmp, format="png", dpi=dpi), what="figure")
+    atomic_write(out, lambda tmp: tmp.write_bytes(figure_png(fig, dpi)), what="figure")
     return out
+
+
+def figure_png(fig: Figure, dpi: float) -> bytes:
+    """Draw a figure at ``dpi`` and return it as an opaque 8-bit RGB PNG.
+
+    The same pixels as ``fig.savefig(..., format="png", dpi=dpi)`` without its alpha channel
+    (the figures are opaque: a white figure face).  Without alpha, the report's PDF takes the
+    PNG's compressed data as it is (:func:`geo_corrosion.exporters.report.build`), where
+    WeasyPrint would decode an RGBA PNG and compress its colour and alpha again.
+    """
+    import matplotlib
+    from PIL import Image, PngImagePlugin
+
+    fig.set_dpi(dpi)  # what savefig does for the time of its draw
+    fig.canvas.draw()
+    rgba = np.asarray(fig.canvas.buffer_rgba())  # type: ignore[attr-defined]
+    info = PngImagePlugin.PngInfo()
+    info.add_text("Software", f"Matplotlib version{matplotlib.__version__}, "
+                              "https://matplotlib.org/")
+    buf = io.BytesIO()
+    Image.fromarray(np.ascontiguousarray(rgba[..., :3]), "RGB").save(
+        buf, format="png", dpi=(dpi, dpi), pnginfo=info)
+    return buf.getvalue()
 
 
 def _finite(values: ArrayLike, what: str) -> np.ndarray:

@@ -15,10 +15,14 @@ reporting units and A4 for ``metric``.  Every text from input files is HTML-esca
 
 from __future__ import annotations
 
+import base64
 import dataclasses
+import hashlib
 import importlib
 import io
 import logging
+import re
+import struct
 from collections.abc import Mapping
 from pathlib import Path
 from types import ModuleType
@@ -262,7 +266,24 @@ def _repair_layout_png(gpkg: RunLayers, lid: str, info: LevelRecord) -> str | No
     buf = io.BytesIO()
     fig.savefig(buf, format="png", bbox_inches="tight")
     plt.close(fig)
-    return png_data_url(buf.getvalue())
+    # opaque RGB, as the plots (figure_png): the PDF takes it without compressing it again
+    from PIL import Image
+
+    rgb = io.BytesIO()
+    with Image.open(io.BytesIO(buf.getvalue())) as im:
+        im.convert("RGB").save(rgb, format="png", dpi=im.info.get("dpi", (150, 150)),
+                               pnginfo=_png_text(im))
+    return png_data_url(rgb.getvalue())
+
+
+def _png_text(im: Any) -> Any:
+    """Return the text chunks of a PNG (matplotlib's "Software") to write them again."""
+    from PIL import PngImagePlugin
+
+    info = PngImagePlugin.PngInfo()
+    for k, v in getattr(im, "text", {}).items():
+        info.add_text(k, v)
+    return info
 
 
 def _label_repairs(fig: Any, ax: Any, rep: gpd.GeoDataFrame, rl: gpd.GeoSeries,
@@ -595,6 +616,71 @@ def build_report_html(run_dir: str | Path, manifest: Manifest | None = None) -> 
     return "\n".join(parts)
 
 
+_DATA_PNG = re.compile(r'src="(data:image/png;base64,[A-Za-z0-9+/=]+)"')
+
+
+def _rgb_png_idat(png: bytes) -> bytes | None:
+    """Return the compressed pixel data of an opaque 8-bit RGB PNG, or None for any other PNG.
+
+    That data (the IDAT chunks, joined) is a zlib stream of PNG-filtered rows: what a PDF
+    image takes as it is with ``/FlateDecode`` and ``/Predictor 15`` [ISO 32000-1 §7.4.4.4;
+    PNG (ISO/IEC 15948) §11.2.2, §11.2.4].
+    """
+    if png[:8] != b"\x89PNG\r\n\x1a\n":
+        return None
+    pos, idat = 8, []
+    while pos + 8 <= len(png):
+        n, kind = struct.unpack(">I4s", png[pos:pos + 8])
+        data = png[pos + 8:pos + 8 + n]
+        if kind == b"IHDR":
+            # bit depth 8, colour type 2 (RGB), deflate, adaptive filtering, not interlaced
+            if data[8:13] != bytes((8, 2, 0, 0, 0)):
+                return None
+        elif kind in (b"tRNS", b"PLTE"):
+            return None
+        elif kind == b"IDAT":
+            idat.append(data)
+        pos += 12 + n
+    return b"".join(idat) or None
+
+
+def _png_cache(text: str) -> dict[str, Any]:
+    """Return WeasyPrint's image cache holding the report's RGB PNGs, to be taken as they are.
+
+    WeasyPrint decodes every PNG and compresses it again for the PDF (and for an RGBA PNG its
+    colour and alpha apart); the figures are opaque RGB PNGs already
+    (:func:`geo_corrosion.condition.plots.figure_png`), whose compressed rows a PDF image
+    takes unchanged (:func:`_rgb_png_idat`): the same pixels, not compressed twice.  An image
+    is keyed by its URL as WeasyPrint resolves it.  Should WeasyPrint's image class change,
+    the cache stays empty and WeasyPrint reads the images itself (the same PDF, slower).
+    """
+    cache: dict[str, Any] = {}
+    try:
+        from PIL import Image
+        from weasyprint import DEFAULT_OPTIONS
+        from weasyprint.images import RasterImage
+        from weasyprint.urls import iri_to_uri
+
+        class _SamePng(RasterImage):  # type: ignore[misc]
+            def _get_png_data(self, pillow_image: Any) -> bytes:  # noqa: ARG002
+                return bytes(self.gc_idat)
+
+        for url in dict.fromkeys(_DATA_PNG.findall(text)):
+            png = base64.b64decode(url.split(",", 1)[1])
+            idat = _rgb_png_idat(png)
+            if idat is None:
+                continue
+            with Image.open(io.BytesIO(png)) as im:  # the header only, nothing decoded
+                img = _SamePng(im, hashlib.md5(url.encode(), usedforsecurity=False).hexdigest(),
+                               png, None, cache, "none", DEFAULT_OPTIONS)
+            img.gc_idat = idat
+            cache[iri_to_uri(url)] = img
+    except Exception as err:  # noqa: BLE001 - WeasyPrint's internals moved: let it read them
+        log.debug("images left to WeasyPrint: %s", err)
+        return {}
+    return cache
+
+
 def _write(run_dir: Path, man: Manifest, weasyprint: ModuleType | None) -> list[Path]:
     if weasyprint is not None and man.warnings:
         # a rebuild with pango installed: the run's note about the missing PDF is outdated
@@ -609,7 +695,8 @@ def _write(run_dir: Path, man: Manifest, weasyprint: ModuleType | None) -> list[
         logging.getLogger("fontTools").setLevel(logging.ERROR)
 
         def _pdf(tmp: Path) -> None:
-            weasyprint.HTML(string=text, base_url=str(run_dir)).write_pdf(str(tmp))
+            weasyprint.HTML(string=text, base_url=str(run_dir)).write_pdf(
+                str(tmp), cache=_png_cache(text))
 
         pdf = atomic_write(run_dir / REPORT_PDF, _pdf, what="PDF report")
     out = [atomic_write(run_dir / REPORT_HTML,
