@@ -308,22 +308,41 @@ def place_labels(labels: Sequence[Label], *, h: float,
         taken.freeze()
         best: tuple[float, Polygon, LineString | None] | None = None
         near = len(_DIRECTIONS) * sum(1 for d in _DISTANCES if d <= 5.0)
-        for level, pool in ((0, cands[:near]), (1, cands[:near]), (0, cands), (1, cands),
-                            (2, cands)):
-            for bx, by in pool:
-                b = box(bx, by, bx + w, by + bh)
-                grown = b.buffer(gap, join_style="mitre")
-                if within_p is not None and not within_p.contains(b):
+        # a candidate's box, grown box, leader and tests, made once (the passes below see
+        # the nearer candidates up to five times): index -> (box, grown, leader) or None
+        # when it lies outside ``within`` or on a placed label or leader
+        seen: dict[int, tuple[Polygon, Polygon, LineString | None] | None] = {}
+        soft_hit: dict[int, bool] = {}
+        hard_hit: dict[int, bool] = {}
+
+        for level, pool in ((0, near), (1, near), (0, len(cands)), (1, len(cands)),
+                            (2, len(cands))):
+            for k in range(pool):
+                if k not in seen:
+                    bx, by = cands[k]
+                    b = box(bx, by, bx + w, by + bh)
+                    grown = b.buffer(gap, join_style="mitre")
+                    leader = None
+                    free = ((within_p is None or within_p.contains(b))
+                            and not taken.hits(grown))
+                    if free:
+                        leader = _leader(b, lab.shape, h)
+                        free = leader is None or not taken.hits(leader)
+                    seen[k] = (b, grown, leader) if free else None
+                c = seen[k]
+                if c is None:
                     continue
-                if taken.hits(grown):
-                    continue
-                leader = _leader(b, lab.shape, h)
-                if leader is not None and taken.hits(leader):
-                    continue
-                if level == 0 and soft_p.intersects(grown):
-                    continue
-                if level < 2 and hard_p.intersects(grown):
-                    continue
+                b, grown, leader = c
+                if level == 0:
+                    if k not in soft_hit:
+                        soft_hit[k] = soft_p.intersects(grown)
+                    if soft_hit[k]:
+                        continue
+                if level < 2:
+                    if k not in hard_hit:
+                        hard_hit[k] = hard_p.intersects(grown)
+                    if hard_hit[k]:
+                        continue
                 if level == 2:
                     cost = grown.intersection(hard_lines).length
                     if best is None or cost < best[0]:
