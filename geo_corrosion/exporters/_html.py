@@ -4,11 +4,15 @@ from __future__ import annotations
 
 import base64
 import html
+import re
 from typing import Any
 
 import numpy as np
 
 __all__ = ["Raw", "escape", "png_data_url"]
+
+#: The characters html.escape(quote=True) replaces.
+_SPECIAL = re.compile(r"[&<>\"']")
 
 
 class Raw(str):
@@ -27,7 +31,9 @@ def escape(value: Any, *, thousands: bool = False) -> str:
         if not np.isfinite(value):
             return ""
         return f"{float(value):,.2f}" if thousands else f"{float(value):.2f}"
-    return html.escape("" if value is None else str(value), quote=True)
+    text = "" if value is None else str(value)
+    # most texts (ids, numbers, places) hold nothing to escape: returned as they are
+    return html.escape(text, quote=True) if _SPECIAL.search(text) else text
 
 
 def png_data_url(data: bytes) -> str:

@@ -28,7 +28,6 @@ class DrawingsExporter(Exporter):
         """Write the DXF sheets and their PDF renderings."""
         from geo_corrosion.exporters.dxf import write_level_dxf
         from geo_corrosion.exporters.sheet_dxf import SheetInfo
-        from geo_corrosion.exporters.sheet_pdf import write_sheet_pdf
         from geo_corrosion.repair.tender import SOUNDING_PREFIX, sounding_labels
         from geo_corrosion.units import LENGTH_TO_M, report_units
 
@@ -80,6 +79,7 @@ class DrawingsExporter(Exporter):
                 units=report_units(cfg.units), sheet=info,
                 to_model=to_site if site else None,
                 model_unit=grid.crs_unit if site else None,
-                zone_tolerance=cfg.run.cell_size_m / LENGTH_TO_M[lv.unit])
-            paths += [dxf, write_sheet_pdf(dxf, ddir / f"{lid}_sheet.pdf")]
+                zone_tolerance=cfg.run.cell_size_m / LENGTH_TO_M[lv.unit],
+                pdf_path=ddir / f"{lid}_sheet.pdf")  # rendered from the DXF in memory
+            paths += [dxf, ddir / f"{lid}_sheet.pdf"]
         return paths

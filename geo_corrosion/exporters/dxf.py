@@ -178,7 +178,8 @@ def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
                     model_unit: str | None = None,
                     zone_tolerance: float | None = None,
                     breaking_joints: Sequence[BaseGeometry] = (),
-                    sounding_numbers: Sequence[str] = ()) -> Path:
+                    sounding_numbers: Sequence[str] = (),
+                    pdf_path: str | os.PathLike[str] | None = None) -> Path:
     """Write the DXF drawing sheet of one level.
 
     Parameters
@@ -225,6 +226,10 @@ def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
         The numbers of the sounded areas (D1, ..., then S1, ...), one per delamination then
         one per spall, in their order; placed beside each area on
         :data:`LAYER_SOUNDING_LABEL` after the repair labels (empty: none).
+    pdf_path : path-like, optional
+        Also render the sheet to this PDF
+        (:func:`~geo_corrosion.exporters.sheet_pdf.render_sheet_pdf`), from the document
+        just written rather than read back from its file.
 
     Returns
     -------
@@ -459,7 +464,12 @@ def write_level_dxf(path: str | os.PathLike[str], *, slab: Polygon,
     def save(tmp: Any) -> None:
         doc.saveas(tmp)
 
-    return atomic_write(Path(path), save)
+    out = atomic_write(Path(path), save)
+    if pdf_path is not None:
+        from geo_corrosion.exporters.sheet_pdf import render_sheet_pdf
+
+        render_sheet_pdf(doc, pdf_path)
+    return out
 
 
 def _xy(p: BaseGeometry) -> tuple[float, float]:

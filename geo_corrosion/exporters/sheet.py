@@ -15,6 +15,7 @@ import math
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 
+import numpy as np
 import shapely
 from shapely.geometry import LineString, Polygon, box
 from shapely.geometry.base import BaseGeometry
@@ -294,7 +295,7 @@ def place_labels(labels: Sequence[Label], *, h: float,
     hard_p, soft_p = prep(hard_lines), prep(lines_of(soft))
     within_p = prep(within) if within is not None else None
     gap = h / 4
-    taken: list[BaseGeometry] = []
+    taken = _Taken()
     out: list[Placed] = []
     order = sorted(range(len(labels)), key=lambda i: (-labels[i].shape.bounds[3],
                                                       labels[i].shape.bounds[0]))
@@ -304,25 +305,44 @@ def place_labels(labels: Sequence[Label], *, h: float,
         w = max(len(t) for t in lab.lines) * CHAR_WIDTH * h
         bh = ((len(lab.lines) - 1) * LINE_SPACING + 1) * h
         cands = _candidates(lab.shape, w, bh, h)
-        taken_u = prep(shapely.union_all(taken)) if taken else None
+        taken.freeze()
         best: tuple[float, Polygon, LineString | None] | None = None
         near = len(_DIRECTIONS) * sum(1 for d in _DISTANCES if d <= 5.0)
-        for level, pool in ((0, cands[:near]), (1, cands[:near]), (0, cands), (1, cands),
-                            (2, cands)):
-            for bx, by in pool:
-                b = box(bx, by, bx + w, by + bh)
-                grown = b.buffer(gap, join_style="mitre")
-                if within_p is not None and not within_p.contains(b):
+        # a candidate's box, grown box, leader and tests, made once (the passes below see
+        # the nearer candidates up to five times): index -> (box, grown, leader) or None
+        # when it lies outside ``within`` or on a placed label or leader
+        seen: dict[int, tuple[Polygon, Polygon, LineString | None] | None] = {}
+        soft_hit: dict[int, bool] = {}
+        hard_hit: dict[int, bool] = {}
+
+        for level, pool in ((0, near), (1, near), (0, len(cands)), (1, len(cands)),
+                            (2, len(cands))):
+            for k in range(pool):
+                if k not in seen:
+                    bx, by = cands[k]
+                    b = box(bx, by, bx + w, by + bh)
+                    grown = b.buffer(gap, join_style="mitre")
+                    leader = None
+                    free = ((within_p is None or within_p.contains(b))
+                            and not taken.hits(grown))
+                    if free:
+                        leader = _leader(b, lab.shape, h)
+                        free = leader is None or not taken.hits(leader)
+                    seen[k] = (b, grown, leader) if free else None
+                c = seen[k]
+                if c is None:
                     continue
-                if taken_u is not None and taken_u.intersects(grown):
-                    continue
-                leader = _leader(b, lab.shape, h)
-                if leader is not None and taken_u is not None and taken_u.intersects(leader):
-                    continue
-                if level == 0 and soft_p.intersects(grown):
-                    continue
-                if level < 2 and hard_p.intersects(grown):
-                    continue
+                b, grown, leader = c
+                if level == 0:
+                    if k not in soft_hit:
+                        soft_hit[k] = soft_p.intersects(grown)
+                    if soft_hit[k]:
+                        continue
+                if level < 2:
+                    if k not in hard_hit:
+                        hard_hit[k] = hard_p.intersects(grown)
+                    if hard_hit[k]:
+                        continue
                 if level == 2:
                     cost = grown.intersection(hard_lines).length
                     if best is None or cost < best[0]:
@@ -334,17 +354,55 @@ def place_labels(labels: Sequence[Label], *, h: float,
                 break
         if best is None:  # everything near is taken: stack beside the shape, far out
             x0, _, x1, y1 = lab.shape.bounds
-            top = max([g.bounds[3] for g in taken] + [y1]) + 2 * h
+            top = max([g.bounds[3] for g in taken.geoms] + [y1]) + 2 * h
             b = box(x0, top, x0 + w, top + bh)
             best = (math.inf, b, _leader(b, lab.shape, h))
         _, b, leader = best
-        taken.append(b.buffer(gap, join_style="mitre"))
+        taken.add(b.buffer(gap, join_style="mitre"))
         if leader is not None:
-            taken.append(leader)
+            taken.add(leader)
         bx0, _, _, by1 = b.bounds
         result[i] = Placed(lab.key, lab.lines, bx0, by1 - h, b, leader)
     out = [result[i] for i in range(len(labels))]
     return out
+
+
+class _Taken:
+    """Keep the placed labels' grown boxes and leaders, and tell what touches them.
+
+    Does a geometry touch any of them?  The same answer as asking the union of them all
+    (a geometry meets a union when it meets one of its parts), without a union per label:
+    the boxes that overlap the geometry's bounds are tested, one by one, in one call.
+    """
+
+    def __init__(self) -> None:
+        self.geoms: list[BaseGeometry] = []
+        self._bounds: list[tuple[float, float, float, float]] = []
+        self._arr = np.empty(0, dtype=object)
+        self._b = np.empty((0, 4))
+
+    def add(self, g: BaseGeometry) -> None:
+        """Take a geometry (seen by :meth:`hits` after the next :meth:`freeze`)."""
+        self.geoms.append(g)
+        self._bounds.append(g.bounds)
+
+    def freeze(self) -> None:
+        """Index what was taken so far (once per label)."""
+        if len(self._arr) != len(self.geoms):
+            self._arr = np.empty(len(self.geoms), dtype=object)
+            self._arr[:] = self.geoms
+            self._b = np.array(self._bounds, dtype=float).reshape(-1, 4)
+
+    def hits(self, g: BaseGeometry) -> bool:
+        """Return whether ``g`` intersects anything taken (as of the last freeze)."""
+        if not len(self._arr):
+            return False
+        x0, y0, x1, y1 = g.bounds
+        b = self._b
+        near = (b[:, 0] <= x1) & (b[:, 2] >= x0) & (b[:, 1] <= y1) & (b[:, 3] >= y0)
+        if not near.any():
+            return False
+        return bool(shapely.intersects(self._arr[near], g).any())
 
 
 def _leader(b: Polygon, shape: BaseGeometry, h: float) -> LineString | None:

@@ -316,6 +316,26 @@ def test_pdf_reads_back(tmp_path, sheet) -> None:
     assert re.search(r"Pages:\s+1\b", info)
 
 
+@pytest.mark.skipif(shutil.which("pdftotext") is None, reason="poppler's pdftotext needed")
+def test_pdf_from_the_sheet_in_memory_is_the_one_read_back(tmp_path, level) -> None:
+    # the drawings exporter renders the document it has just written (pdf_path) instead of
+    # reading the file back: poppler (pdftotext -bbox, the reference reader) finds the same
+    # words at the same places in both PDFs, in Helvetica, a standard PDF font, not embedded
+    dxf = _write(tmp_path / "P1_repairs.dxf", level, pdf_path=tmp_path / "mem.pdf")
+    back = write_sheet_pdf(dxf, tmp_path / "back.pdf")
+
+    def words(pdf):
+        out = subprocess.run(["pdftotext", "-bbox", str(pdf), "-"], capture_output=True,
+                             text=True, check=True).stdout
+        return [w for w in out.splitlines() if "<word " in w]  # not the dates in <head>
+
+    assert words(tmp_path / "mem.pdf") == words(back)
+    assert any(">P1-R001<" in w for w in words(back))
+    fonts = subprocess.run(["pdffonts", str(back)], capture_output=True, text=True,
+                           check=True).stdout.splitlines()[2:]
+    assert [f.split()[0] for f in fonts] == ["Helvetica"] and " no " in fonts[0]
+
+
 def test_sides_and_location_from_the_repairs_attributes(tmp_path, level) -> None:
     # the layout's own figures win where it gives them (size_x_m, size_y_m in metres; the
     # contractor's text 'dimensions'; 'location'): the sheet then agrees with the schedule

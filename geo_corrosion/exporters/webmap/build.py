@@ -711,9 +711,16 @@ def _zone_of(rep: gpd.GeoDataFrame, zones: gpd.GeoDataFrame | None) -> list[str]
     # outline of a large garage): made valid once, so that the overlay cannot fail on them
     # (GEOS "TopologyException: Ring edge missing" on a 100,000-reading garage)
     zg = shapely.make_valid(np.asarray(zones.geometry.values))
+    env = shapely.envelope(zg)
     out = []
     for geom in rep.geometry:
-        inter = shapely.area(shapely.intersection(zg, shapely.make_valid(geom)))
+        g = shapely.make_valid(geom)
+        # only the zones whose bounds meet the repair's can share area with it (the others'
+        # overlays, which cost as much as any, give 0)
+        near = np.flatnonzero(shapely.intersects(env, shapely.envelope(g)))
+        inter = np.zeros(len(zg))
+        if len(near):
+            inter[near] = shapely.area(shapely.intersection(zg[near], g))
         out.append(str(zones["zone"].iloc[int(inter.argmax())]) if inter.max() > 0 else "")
     return out
 
