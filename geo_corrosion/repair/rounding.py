@@ -222,7 +222,13 @@ def round_up_outlines(geoms: Sequence[BaseGeometry], panels: Sequence[Polygon], 
             continue
         assert first is not None
         kept = shapely.union_all([first.intersection(allowed), g])  # never less than before
-        kept = shapely.set_precision(kept, tol * 1e-3).simplify(0) if tol > 0 else kept
+        if tol > 0:
+            # snapping to the precision grid may move an edge clipped at an obstacle by up
+            # to half a grid step into it (found at a joint, over the neighbouring repair):
+            # clip the snapped outline back to what it may hold, in floating precision (a
+            # snapped geometry keeps its grid through later overlays)
+            kept = shapely.set_precision(shapely.set_precision(kept, tol * 1e-3).simplify(0), 0)
+            kept = kept.intersection(shapely.union_all([allowed, g]))
         fx0, fy0, fx1, fy1 = first.bounds
         kx0, ky0, kx1, ky1 = kept.bounds
         sides = []

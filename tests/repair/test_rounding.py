@@ -135,3 +135,21 @@ def test_format_length() -> None:
     assert format_length(0.75, "metric") == "0.75 m"
     assert format_length(1.4, "metric") == "1.40 m"
     assert format_length(2.466, "metric") == "2.466 m"
+
+
+def test_clipped_repair_stays_off_its_neighbour_across_the_joint() -> None:
+    # Found on the 300,000-reading synthetic garage (benchmarks/synthetic_garage.py): a repair
+    # clipped at a joint at x = 480 ft was snapped to a 6.72e-10 ft precision grid, which moved
+    # that edge to 480.000000000192 ft, over the repair on the other side of the joint
+    # (1.3e-9 ft2, more than check_no_overlap's tolerance). Hand geometry: both panels meet at
+    # x = 480; the left repair's width (39.187 ft) cannot round up to 39.25 ft inside its
+    # panel, which ends at both of its sides, so it is clipped.
+    tol = 6.72e-7  # the tolerance layout_repairs derives for a plan of this size
+    right = box(480.0, 410.36317161871995, 482.3111807218673, 417.2675961391813)
+    left = box(440.8132569773394, 381.5264749872105, 480.0, 433.4827348924219)
+    panels = [box(480.0, 300.0, 560.0, 500.0), box(440.8132569773394, 300.0, 480.0, 500.0)]
+    out = round_up_outlines([right, left], panels, increment=INC_FT, tol=tol)
+    assert out[1].clipped  # clipped at both panel edges
+    assert out[0].geom.intersection(out[1].geom).area <= tol * 1e-3
+    assert out[1].geom.bounds[2] <= 480.0
+    assert left.difference(out[1].geom).area == pytest.approx(0.0, abs=1e-9)
