@@ -344,6 +344,16 @@ _ALL: tuple[Source, ...] = (
            "IEEE Transactions on Acoustics, Speech, and Signal Processing 29(6) (1981) "
            "1153-1160", "Keys (1981)",
            "The cubic convolution kernel (a = -1/2) of the sub-cell areas, from memory."),
+    Source("Dempster-Laird-Rubin-1977", "A.P. Dempster, N.M. Laird, D.B. Rubin",
+           "Maximum likelihood from incomplete data via the EM algorithm", 1977,
+           "Journal of the Royal Statistical Society, Series B 39(1) (1977) 1-38",
+           "Dempster, Laird & Rubin (1977)",
+           "The EM iteration of the two-component mixture threshold, from memory."),
+    Source("Farin-2002", "G. Farin",
+           "Curves and Surfaces for CAGD: A Practical Guide", 2002,
+           "5th ed., Morgan Kaufmann, San Francisco", "Farin (2002)",
+           "Convex hull property of the Bernstein form (a polynomial patch lies between its "
+           "least and greatest Bernstein coefficient), from memory: confirm the chapter."),
     Source("Deutsch-Journel-1998", "C.V. Deutsch, A.G. Journel",
            "GSLIB: Geostatistical Software Library and User's Guide", 1998,
            "2nd ed., Oxford University Press, New York", "Deutsch & Journel (1998)",
@@ -439,6 +449,10 @@ ASSUMPTIONS_TO_CONFIRM: tuple[str, ...] = (
     "the cost of sequential Gaussian simulation, the alternative not chosen "
     "[Deutsch-Journel-1998 §V.2.3]; the cubic convolution kernel of the sub-cell areas "
     "[Keys-1981]; check.",
+    "Mixture threshold: the EM iteration (condition/potential.py) "
+    "[Dempster-Laird-Rubin-1977, from memory]; the sub-cell areas' shortcut, a quarter cell "
+    "counted whole when its bicubic patch's Bernstein coefficients lie on one side "
+    "(surfaces/_simkernel.py bernstein_hull) [Farin-2002 ch. 5, from memory]; check.",
     "Kriging: the variance scaled so that the leave-one-out MSSE is 1 "
     "(stages/map_surfaces.py), the "
     "multi-Gaussian reading of kriging output for the probability maps "
