@@ -212,8 +212,9 @@ def test_excursion_fast_path_matches_the_numpy_reference() -> None:
 def test_bernstein_hull_bounds_the_sampled_interpolant() -> None:
     # source: the convex hull property of the Bernstein form (a polynomial on [0, 1] lies
     # between its least and greatest Bernstein coefficient)
-    # [Farin-2002 ch. 5, from memory]; the samples are those of excursion's crossed quarters, evaluated here
-    # directly from Keys' weights (hand-written cubic convolution kernel, a = -1/2)
+    # [Farin-2002 ch. 5, from memory]; the samples are those of excursion's crossed
+    # quarters, evaluated here directly from Keys' weights (hand-written cubic convolution
+    # kernel, a = -1/2)
     from geo_corrosion.surfaces._simkernel import bernstein_hull
 
     def keys(s: float) -> np.ndarray:
