@@ -112,6 +112,31 @@ if _nb is not None:
         return False
 
     @_nb.njit(cache=True, nogil=True, inline="always")
+    def _ordinary_matrix(A: Any, sel: Any, kv: int, px: NDArray[np.float64],
+                         py: NDArray[np.float64], code: int, nug: float, psill: float,
+                         rng: float, shape: float) -> None:  # pragma: no cover - compiled
+        """Fill ``A[:kv+1, :kv+1]`` with the ordinary kriging matrix of readings ``sel[:kv]``.
+
+        Semivariances between the readings (0 on the diagonal), the unbiasedness row and
+        column of ones and 0 in the corner; shared by the kriging pass and the simulation's
+        weights (:mod:`geo_corrosion.surfaces._simkernel`), which differ only in the
+        right-hand side.
+        """
+        for i in range(kv):
+            ii = sel[i]
+            A[i, i] = 0.0
+            for j in range(i + 1, kv):
+                jj = sel[j]
+                dx = px[ii] - px[jj]
+                dy = py[ii] - py[jj]
+                g = _gamma(np.sqrt(dx * dx + dy * dy), code, nug, psill, rng, shape)
+                A[i, j] = g
+                A[j, i] = g
+            A[i, kv] = 1.0
+            A[kv, i] = 1.0
+        A[kv, kv] = 0.0
+
+    @_nb.njit(cache=True, nogil=True, inline="always")
     def _solve_one(p: int, px: NDArray[np.float64], py: NDArray[np.float64],
                    z: NDArray[np.float64], idx: NDArray[np.intp], dist: NDArray[np.float64],
                    n: int, code: int, nug: float, psill: float, rng: float, shape: float,
@@ -128,22 +153,11 @@ if _nb is not None:
         if kv == 0:
             return
         q = kv + 1
+        _ordinary_matrix(A, sel, kv, px, py, code, nug, psill, rng, shape)
         for i in range(kv):
-            ii = sel[i]
-            A[i, i] = 0.0
-            for j in range(i + 1, kv):
-                jj = sel[j]
-                dx = px[ii] - px[jj]
-                dy = py[ii] - py[jj]
-                g = _gamma(np.sqrt(dx * dx + dy * dy), code, nug, psill, rng, shape)
-                A[i, j] = g
-                A[j, i] = g
-            A[i, kv] = 1.0
-            A[kv, i] = 1.0
             d = dsel[i]
             b[i] = 0.0 if d <= eps else _gamma(d, code, nug, psill, rng, shape)
             b0[i] = b[i]
-        A[kv, kv] = 0.0
         b[kv] = 1.0
         b0[kv] = 1.0
         if _lu_solve(A, b, q):

@@ -82,6 +82,7 @@ def bernstein_hull(q: int) -> NDArray[np.float64]:
 if _nb is not None:
     _gamma = _kernel._gamma
     _lu_solve = _kernel._lu_solve
+    _ordinary_matrix = _kernel._ordinary_matrix
 
     @_nb.njit(cache=True, nogil=True)
     def _weights(px: NDArray[np.float64], py: NDArray[np.float64], idx: NDArray[np.intp],
@@ -107,21 +108,10 @@ if _nb is not None:
             if kv == 0:
                 continue
             q = kv + 1
+            _ordinary_matrix(A, sel, kv, px, py, code, nug, psill, rng, shape)
             for i in range(kv):
-                ii = sel[i]
-                A[i, i] = 0.0
-                for j in range(i + 1, kv):
-                    jj = sel[j]
-                    dx = px[ii] - px[jj]
-                    dy = py[ii] - py[jj]
-                    g = _gamma(np.sqrt(dx * dx + dy * dy), code, nug, psill, rng, shape)
-                    A[i, j] = g
-                    A[j, i] = g
-                A[i, kv] = 1.0
-                A[kv, i] = 1.0
                 b[i] = _gamma(dist[p, pos[i]], code, nug, psill, rng, shape)
                 b0[i] = b[i]
-            A[kv, kv] = 0.0
             b[kv] = 1.0
             b0[kv] = 1.0
             if _lu_solve(A, b, q):
