@@ -114,6 +114,11 @@ def owner_text(text: Any) -> str:
     internal names of :data:`~geo_corrosion.vocabulary.VOCABULARY` become their labels,
     formula symbols lose their underscore (``i_corr`` -> ``icorr``), "degC" becomes "°C",
     "mV CSE" becomes "mV vs CSE" and citations are written for a reader.
+
+    Examples
+    --------
+    >>> owner_text("Conditional simulation (surfaces/simulation.py): common practice.")
+    'Conditional simulation: common practice.'
     """
     t = _LOCATION.sub("", str(text))
     # a clause telling the engineer which site-file key to change is for the engineer, not
@@ -125,6 +130,8 @@ def owner_text(text: Any) -> str:
 
     def aside(m: re.Match[str]) -> str:
         inner = m.group(1)
+        if not inner.strip():  # an aside that held only a module path, dropped above
+            return ""
         unknown = [w for w in _SNAKE.findall(inner) if w not in VOCABULARY
                    and w not in _SYMBOLS]
         return "" if _CODE_ASIDE.search(inner) or unknown else m.group(0)
